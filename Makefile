@@ -1,0 +1,73 @@
+# Makefile: builds tbeta (build/tbeta, build/libtbeta.a), runs its tests, demo and benchmarks.
+# Every target first makes sure the Debian packages it needs are installed (scripts/deps.sh).
+
+CC       ?= gcc
+BUILD    ?= build
+OPT      ?= -O2 -g
+SAN      ?=
+WARN     := -std=c11 -Wall -Wextra -Werror -Wshadow -Wmissing-prototypes -Wstrict-prototypes \
+            -Wwrite-strings -Wundef -Wold-style-definition
+CPPFLAGS := -Iinclude -Isrc -I/usr/include/suitesparse -D_POSIX_C_SOURCE=200809L
+CFLAGS   := $(WARN) $(OPT) $(SAN) -fvisibility=hidden
+LDFLAGS  := $(SAN)
+LDLIBS   := -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -lm
+TESTLIBS := -lcmocka -llapack -lblas
+
+LIB_SRC  := $(filter-out src/main.c,$(wildcard src/*.c))
+LIB_OBJ  := $(LIB_SRC:src/%.c=$(BUILD)/obj/%.o)
+TEST_SRC := $(wildcard tests/test_*.c)
+TEST_BIN := $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)
+DEPS_OK  := $(BUILD)/.deps-ok
+DEMO     ?= netlists/noninverting_loaded.net
+
+.PHONY: all deps test check demo asan valgrind debug bench clean
+all: $(BUILD)/tbeta $(BUILD)/libtbeta.a
+
+$(DEPS_OK):
+	@sh scripts/deps.sh
+	@mkdir -p $(BUILD) && touch $@
+
+deps:
+	@sh scripts/deps.sh
+
+$(BUILD)/obj/%.o: src/%.c $(wildcard src/*.h) include/tbeta.h | $(DEPS_OK)
+	@mkdir -p $(dir $@)
+	$(CC) $(CPPFLAGS) $(CFLAGS) -c $< -o $@
+
+$(BUILD)/libtbeta.a: $(LIB_OBJ)
+	rm -f $@
+	ar rcs $@ $^
+
+$(BUILD)/tbeta: $(BUILD)/obj/main.o $(BUILD)/libtbeta.a
+	$(CC) $(LDFLAGS) $^ $(LDLIBS) -o $@
+
+$(BUILD)/tests/%: tests/%.c tests/testutil.h $(BUILD)/libtbeta.a | $(DEPS_OK)
+	@mkdir -p $(dir $@)
+	$(CC) $(CPPFLAGS) $(CFLAGS) -Wno-missing-prototypes $< $(BUILD)/libtbeta.a $(LDFLAGS) $(TESTLIBS) $(LDLIBS) -o $@
+
+# check: build and run every test in $(BUILD) (RUNWRAP wraps each test program).
+check: $(BUILD)/tbeta $(TEST_BIN)
+	@sh tests/run.sh $(BUILD) "$(RUNWRAP)"
+
+test: check
+
+demo: $(BUILD)/tbeta
+	./$(BUILD)/tbeta $(DEMO)
+
+asan:
+	@$(MAKE) --no-print-directory BUILD=build/asan OPT="-O1 -g -fno-omit-frame-pointer" \
+	    SAN="-fsanitize=address,undefined -fno-sanitize-recover=all" check
+
+valgrind:
+	@sh scripts/deps.sh valgrind
+	@$(MAKE) --no-print-directory BUILD=build/valgrind OPT="-O1 -g" \
+	    RUNWRAP="valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=definite,indirect" check
+
+debug:
+	@$(MAKE) --no-print-directory BUILD=build/debug OPT="-O0 -g3" all
+
+bench: $(BUILD)/tbeta $(BUILD)/libtbeta.a
+	@sh bench/run.sh $(BUILD)
+
+clean:
+	rm -rf build

@@ -1,0 +1,491 @@
+/* src/circuit.c: node table, element list, string arena, and validation after parsing */
+#include "circuit.h"
+
+#include <ctype.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "alloc.h"
+#include "diag.h"
+
+/* ---- string arena ---------------------------------------------------- */
+
+struct tb_strblock {
+    struct tb_strblock *next;
+    size_t used;
+    size_t size;
+    char data[];
+};
+
+#define STRBLOCK_SIZE ((size_t)16384)
+
+const char *tb_circuit_intern(tb_circuit *ckt, const char *s, size_t len)
+{
+    struct tb_strblock *blk = ckt->strings;
+    if (!blk || blk->size - blk->used < len + 1) {
+        size_t size = len + 1 > STRBLOCK_SIZE ? len + 1 : STRBLOCK_SIZE;
+        struct tb_strblock *fresh = tb_malloc(1, sizeof(*fresh) + size);
+        if (!fresh)
+            return NULL;
+        fresh->next = blk;
+        fresh->used = 0;
+        fresh->size = size;
+        ckt->strings = fresh;
+        blk = fresh;
+    }
+    char *copy = blk->data + blk->used;
+    memcpy(copy, s, len);
+    copy[len] = '\0';
+    blk->used += len + 1;
+    return copy;
+}
+
+/* ---- life cycle ------------------------------------------------------ */
+
+tb_status tb_circuit_create(const char *file, tb_circuit **out)
+{
+    tb_circuit *ckt = tb_calloc(1, sizeof(*ckt));
+    if (!ckt)
+        return TB_ERR_NOMEM;
+    const char *name = file ? file : "<input>";
+    ckt->file = tb_circuit_intern(ckt, name, strlen(name));
+    int ground = 0;
+    if (!ckt->file || tb_circuit_node(ckt, "0", 1, &ground) != TB_OK) {
+        tb_circuit_free(ckt);
+        return TB_ERR_NOMEM;
+    }
+    *out = ckt;
+    return TB_OK;
+}
+
+void tb_circuit_free(tb_circuit *ckt)
+{
+    if (!ckt)
+        return;
+    struct tb_strblock *blk = ckt->strings;
+    while (blk) {
+        struct tb_strblock *next = blk->next;
+        tb_free(blk);
+        blk = next;
+    }
+    tb_free(ckt->title);
+    tb_free(ckt->node_names);
+    tb_free(ckt->node_index.slots);
+    tb_free(ckt->elem_index.slots);
+    tb_free(ckt->elems);
+    tb_free(ckt->loops);
+    tb_free(ckt);
+}
+
+/* ---- names ----------------------------------------------------------- */
+
+bool tb_name_eq(const char *a, const char *b)
+{
+    while (*a && tolower((unsigned char)*a) == tolower((unsigned char)*b)) {
+        a++;
+        b++;
+    }
+    return tolower((unsigned char)*a) == tolower((unsigned char)*b);
+}
+
+static bool name_eq_n(const char *a, const char *b, size_t len)
+{
+    for (size_t i = 0; i < len; i++)
+        if (tolower((unsigned char)a[i]) != tolower((unsigned char)b[i]) || a[i] == '\0')
+            return false;
+    return a[len] == '\0';
+}
+
+static size_t hash_name(const char *s, size_t len)
+{
+    size_t h = 1469598103934665603u; /* FNV-1a */
+    for (size_t i = 0; i < len; i++) {
+        h ^= (unsigned char)tolower((unsigned char)s[i]);
+        h *= 1099511628211u;
+    }
+    return h;
+}
+
+static bool is_ground(const char *name, size_t len)
+{
+    return (len == 1 && name[0] == '0') || (len == 3 && name_eq_n("gnd", name, 3));
+}
+
+typedef const char *(*name_of_fn)(const tb_circuit *ckt, size_t i);
+
+static const char *node_name_of(const tb_circuit *ckt, size_t i)
+{
+    return ckt->node_names[i];
+}
+
+static const char *elem_name_of(const tb_circuit *ckt, size_t i)
+{
+    return ckt->elems[i].name;
+}
+
+static size_t *find_slot(const tb_circuit *ckt, const tb_name_index *idx, name_of_fn name_of,
+                         const char *name, size_t len)
+{
+    size_t mask = idx->cap - 1;
+    size_t i = hash_name(name, len) & mask;
+    while (idx->slots[i]) {
+        if (name_eq_n(name_of(ckt, idx->slots[i] - 1), name, len))
+            return &idx->slots[i];
+        i = (i + 1) & mask;
+    }
+    return &idx->slots[i];
+}
+
+static bool index_find(const tb_circuit *ckt, const tb_name_index *idx, name_of_fn name_of,
+                       const char *name, size_t len, size_t *found)
+{
+    if (!idx->cap)
+        return false;
+    size_t slot = *find_slot(ckt, idx, name_of, name, len);
+    if (!slot)
+        return false;
+    *found = slot - 1;
+    return true;
+}
+
+/* Records entry i (whose name is name_of(i)) keeping the load at most 1/2;
+ * the first of several equal names keeps the slot. */
+static tb_status index_add(const tb_circuit *ckt, tb_name_index *idx, name_of_fn name_of,
+                           size_t i)
+{
+    if ((i + 1) * 2 > idx->cap) {
+        tb_name_index bigger = {NULL, idx->cap ? idx->cap * 2 : 64};
+        while ((i + 1) * 2 > bigger.cap)
+            bigger.cap *= 2;
+        bigger.slots = tb_calloc(bigger.cap, sizeof(size_t));
+        if (!bigger.slots)
+            return TB_ERR_NOMEM;
+        for (size_t k = 0; k < idx->cap; k++) {
+            if (idx->slots[k]) {
+                const char *nm = name_of(ckt, idx->slots[k] - 1);
+                *find_slot(ckt, &bigger, name_of, nm, strlen(nm)) = idx->slots[k];
+            }
+        }
+        tb_free(idx->slots);
+        *idx = bigger;
+    }
+    const char *nm = name_of(ckt, i);
+    size_t *slot = find_slot(ckt, idx, name_of, nm, strlen(nm));
+    if (!*slot)
+        *slot = i + 1;
+    return TB_OK;
+}
+
+bool tb_circuit_find_node(const tb_circuit *ckt, const char *name, size_t len, int *index)
+{
+    if (is_ground(name, len)) {
+        *index = 0;
+        return true;
+    }
+    size_t found = 0;
+    if (!index_find(ckt, &ckt->node_index, node_name_of, name, len, &found))
+        return false;
+    *index = (int)found;
+    return true;
+}
+
+tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *index)
+{
+    if (ckt->node_count > 0 && tb_circuit_find_node(ckt, name, len, index))
+        return TB_OK;
+    if (tb_grow(&ckt->node_names, &ckt->node_cap, ckt->node_count + 1, sizeof(char *),
+                TB_MAX_NODES))
+        return TB_ERR_NOMEM;
+    const char *copy = tb_circuit_intern(ckt, name, len);
+    if (!copy)
+        return TB_ERR_NOMEM;
+    size_t n = ckt->node_count;
+    ckt->node_names[n] = copy;
+    if (n > 0 && index_add(ckt, &ckt->node_index, node_name_of, n))
+        return TB_ERR_NOMEM;
+    ckt->node_count++;
+    *index = (int)n;
+    return TB_OK;
+}
+
+bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *index)
+{
+    return index_find(ckt, &ckt->elem_index, elem_name_of, name, strlen(name), index);
+}
+
+tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem)
+{
+    if (tb_grow(&ckt->elems, &ckt->elem_cap, ckt->elem_count + 1, sizeof(tb_element),
+                TB_MAX_ELEMENTS))
+        return TB_ERR_NOMEM;
+    ckt->elems[ckt->elem_count] = *elem;
+    if (index_add(ckt, &ckt->elem_index, elem_name_of, ckt->elem_count))
+        return TB_ERR_NOMEM;
+    ckt->elem_count++;
+    return TB_OK;
+}
+
+tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop)
+{
+    if (tb_grow(&ckt->loops, &ckt->loop_cap, ckt->loop_count + 1, sizeof(tb_loop_spec),
+                TB_MAX_LOOPS))
+        return TB_ERR_NOMEM;
+    ckt->loops[ckt->loop_count++] = *loop;
+    return TB_OK;
+}
+
+const char *tb_circuit_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size_t size)
+{
+    size_t nodes = ckt->node_count - 1;
+    if (i < nodes) {
+        snprintf(buf, size, "node '%s'", ckt->node_names[i + 1]);
+        return buf;
+    }
+    for (size_t e = 0; e < ckt->elem_count; e++) {
+        if (ckt->elems[e].branch >= 0 && (size_t)ckt->elems[e].branch == i - nodes) {
+            snprintf(buf, size, "the branch current of %s", ckt->elems[e].name);
+            return buf;
+        }
+    }
+    snprintf(buf, size, "unknown %zu", i);
+    return buf;
+}
+
+/* ---- validation after parsing ------------------------------------------ */
+
+typedef struct {
+    tb_circuit *ckt;
+    const char *text;
+    size_t len;
+    tb_diag *diag;
+    tb_status status;
+} checker;
+
+/* Finds physical line `line` (1-based) of the source; CR, LF and CRLF end lines. */
+static const char *source_line(const checker *ck, int line, size_t *out_len)
+{
+    if (!ck->text || line < 1)
+        return NULL;
+    size_t pos = 0;
+    for (int l = 1; l < line && pos < ck->len; l++) {
+        while (pos < ck->len && ck->text[pos] != '\n' && ck->text[pos] != '\r')
+            pos++;
+        if (pos < ck->len && ck->text[pos] == '\r' && pos + 1 < ck->len && ck->text[pos + 1] == '\n')
+            pos++;
+        if (pos < ck->len)
+            pos++;
+    }
+    size_t end = pos;
+    while (end < ck->len && ck->text[end] != '\n' && ck->text[end] != '\r')
+        end++;
+    *out_len = end - pos;
+    return ck->text + pos;
+}
+
+static void report(checker *ck, tb_severity sev, tb_loc loc, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+static void report(checker *ck, tb_severity sev, tb_loc loc, const char *fmt, ...)
+{
+    size_t src_len = 0;
+    const char *src = source_line(ck, loc.line, &src_len);
+    va_list ap;
+    va_start(ap, fmt);
+    tb_status st = tb_diag_vadd(ck->diag, sev, loc.file ? loc.file : ck->ckt->file, loc.line,
+                                loc.col, src, src_len, fmt, ap);
+    va_end(ap);
+    if (st != TB_OK)
+        ck->status = TB_ERR_NOMEM;
+    else if (sev == TB_SEV_ERROR && ck->status == TB_OK)
+        ck->status = TB_ERR_INPUT;
+}
+
+static const char *const kind_word[TB_EL_COUNT] = {
+    "resistor", "capacitor", "inductor", "voltage source", "current source",
+    "voltage-controlled voltage source", "voltage-controlled current source",
+    "current-controlled current source", "current-controlled voltage source",
+};
+_Static_assert(sizeof(kind_word) / sizeof(kind_word[0]) == TB_EL_COUNT, "kind_word in step");
+
+const char *tb_elem_kind_word(tb_elem_kind kind)
+{
+    return (unsigned)kind < TB_EL_COUNT ? kind_word[kind] : "element";
+}
+
+static void check_duplicates(checker *ck)
+{
+    tb_circuit *ckt = ck->ckt;
+    for (size_t i = 0; i < ckt->elem_count; i++) {
+        size_t first = i;
+        if (tb_circuit_find_element(ckt, ckt->elems[i].name, &first) && first != i)
+            report(ck, TB_SEV_ERROR, ckt->elems[i].loc,
+                   "duplicate element name '%s' (first defined on line %d)", ckt->elems[i].name,
+                   ckt->elems[first].loc.line);
+    }
+}
+
+static void check_sensing(checker *ck)
+{
+    tb_circuit *ckt = ck->ckt;
+    for (size_t i = 0; i < ckt->elem_count; i++) {
+        tb_element *e = &ckt->elems[i];
+        if (e->kind != TB_EL_F && e->kind != TB_EL_H)
+            continue;
+        size_t j = 0;
+        if (!tb_circuit_find_element(ckt, e->ctrl_name, &j))
+            report(ck, TB_SEV_ERROR, e->loc, "%s senses the current of '%s', which does not exist",
+                   e->name, e->ctrl_name);
+        else if (ckt->elems[j].kind != TB_EL_V)
+            report(ck, TB_SEV_ERROR, e->loc,
+                   "%s senses the current of '%s', a %s; a voltage source is expected", e->name,
+                   e->ctrl_name, kind_word[ckt->elems[j].kind]);
+        else
+            e->ctrl = j;
+    }
+}
+
+static bool is_controlled(tb_elem_kind k)
+{
+    return k == TB_EL_E || k == TB_EL_G || k == TB_EL_F || k == TB_EL_H;
+}
+
+static void check_loops(checker *ck)
+{
+    tb_circuit *ckt = ck->ckt;
+    if (ckt->loop_count == 0) {
+        tb_loc whole = {ckt->file, 0, 0};
+        report(ck, TB_SEV_ERROR, whole,
+               "nothing to analyse: no .loop directive marks a controlled source (E, G, F or H)");
+    }
+    for (size_t l = 0; l < ckt->loop_count; l++) {
+        tb_loop_spec *lp = &ckt->loops[l];
+        size_t j = 0;
+        if (!tb_circuit_find_element(ckt, lp->source, &j)) {
+            report(ck, TB_SEV_ERROR, lp->loc, ".loop names '%s', which does not exist", lp->source);
+            continue;
+        }
+        if (!is_controlled(ckt->elems[j].kind)) {
+            report(ck, TB_SEV_ERROR, lp->loc,
+                   ".loop names '%s', a %s; a controlled source (E, G, F or H) is expected",
+                   lp->source, kind_word[ckt->elems[j].kind]);
+            continue;
+        }
+        lp->elem = j;
+        for (size_t m = 0; m < l; m++)
+            if (tb_name_eq(ckt->loops[m].source, lp->source))
+                report(ck, TB_SEV_ERROR, lp->loc, "'%s' is marked by .loop twice (first on line %d)",
+                       lp->source, ckt->loops[m].loc.line);
+    }
+}
+
+static void check_io_node(checker *ck, const char *name, int *node)
+{
+    if (name && !tb_circuit_find_node(ck->ckt, name, strlen(name), node))
+        report(ck, TB_SEV_ERROR, ck->ckt->io.out_loc, ".io output node '%s' does not exist", name);
+}
+
+static void check_io(checker *ck)
+{
+    tb_io_spec *io = &ck->ckt->io;
+    if (!io->given)
+        return;
+    size_t j = 0;
+    if (!tb_circuit_find_element(ck->ckt, io->source, &j))
+        report(ck, TB_SEV_ERROR, io->loc, ".io input '%s' does not exist", io->source);
+    else if (ck->ckt->elems[j].kind != TB_EL_V && ck->ckt->elems[j].kind != TB_EL_I)
+        report(ck, TB_SEV_ERROR, io->loc,
+               ".io input '%s' is a %s; an independent V or I source is expected", io->source,
+               kind_word[ck->ckt->elems[j].kind]);
+    else
+        io->source_elem = j;
+    if (io->out_kind == TB_OUT_V) {
+        io->out_node[0] = io->out_node[1] = 0;
+        check_io_node(ck, io->out_a, &io->out_node[0]);
+        check_io_node(ck, io->out_b, &io->out_node[1]);
+        return;
+    }
+    if (!tb_circuit_find_element(ck->ckt, io->out_a, &j))
+        report(ck, TB_SEV_ERROR, io->out_loc, ".io output i(%s): '%s' does not exist", io->out_a,
+               io->out_a);
+    else if (ck->ckt->elems[j].kind != TB_EL_V)
+        report(ck, TB_SEV_ERROR, io->out_loc,
+               ".io output i(%s): '%s' is a %s; currents are read through voltage sources",
+               io->out_a, io->out_a, kind_word[ck->ckt->elems[j].kind]);
+    else
+        io->out_elem = j;
+}
+
+static void number_branches(tb_circuit *ckt)
+{
+    ckt->branch_count = 0;
+    for (size_t i = 0; i < ckt->elem_count; i++) {
+        tb_elem_kind k = ckt->elems[i].kind;
+        bool has_branch = k == TB_EL_V || k == TB_EL_L || k == TB_EL_E || k == TB_EL_H;
+        ckt->elems[i].branch = has_branch ? (long)ckt->branch_count++ : -1;
+    }
+}
+
+tb_status tb_circuit_finish(tb_circuit *ckt, const char *text, size_t len, tb_diag *diag)
+{
+    checker ck = {ckt, text, len, diag, TB_OK};
+    check_duplicates(&ck);
+    check_sensing(&ck);
+    check_loops(&ck);
+    check_io(&ck);
+    if (ckt->node_count < 2) {
+        tb_loc whole = {ckt->file, 0, 0};
+        report(&ck, TB_SEV_ERROR, whole, "the circuit has no node other than ground");
+    }
+    if (!ckt->ac.given) {
+        tb_loc whole = {ckt->file, 0, 0};
+        ckt->ac = (tb_ac_spec){true, TB_GRID_DEC, 20, 1.0, 1e9, whole};
+        report(&ck, TB_SEV_WARNING, whole, "no .ac directive: sweeping dec 20 1 1g");
+    }
+    number_branches(ckt);
+    return ck.status;
+}
+
+/* ---- public read-only view ------------------------------------------------ */
+
+const char *tb_circuit_title(const tb_circuit *ckt)
+{
+    return ckt && ckt->title ? ckt->title : "";
+}
+
+size_t tb_circuit_loop_count(const tb_circuit *ckt)
+{
+    return ckt ? ckt->loop_count : 0;
+}
+
+const char *tb_circuit_loop_name(const tb_circuit *ckt, size_t i)
+{
+    return ckt && i < ckt->loop_count ? ckt->loops[i].source : NULL;
+}
+
+tb_status tb_circuit_find_loop(const tb_circuit *ckt, const char *name, size_t *index)
+{
+    if (!ckt || !name || !index)
+        return TB_ERR_USAGE;
+    for (size_t i = 0; i < ckt->loop_count; i++) {
+        if (tb_name_eq(ckt->loops[i].source, name)) {
+            *index = i;
+            return TB_OK;
+        }
+    }
+    return TB_ERR_USAGE;
+}
+
+bool tb_circuit_has_io(const tb_circuit *ckt)
+{
+    return ckt && ckt->io.given;
+}
+
+size_t tb_circuit_node_count(const tb_circuit *ckt)
+{
+    return ckt ? ckt->node_count : 0;
+}
+
+size_t tb_circuit_unknowns(const tb_circuit *ckt)
+{
+    return ckt ? ckt->node_count - 1 + ckt->branch_count : 0;
+}

@@ -1,0 +1,135 @@
+/* src/circuit.h: the circuit: node table, elements, directives, and their validation */
+#ifndef TB_CIRCUIT_H
+#define TB_CIRCUIT_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "tbeta.h"
+
+/* Hard limits, each reported by name when passed. */
+#define TB_MAX_NODES ((size_t)50000000)
+#define TB_MAX_ELEMENTS ((size_t)50000000)
+#define TB_MAX_LOOPS ((size_t)10000)
+
+typedef enum {
+    TB_EL_R,
+    TB_EL_C,
+    TB_EL_L,
+    TB_EL_V,
+    TB_EL_I,
+    TB_EL_E,
+    TB_EL_G,
+    TB_EL_F,
+    TB_EL_H,
+    TB_EL_COUNT
+} tb_elem_kind;
+
+/* A place in the netlist: file, 1-based line and column. */
+typedef struct {
+    const char *file; /* owned by the circuit */
+    int line;
+    int col;
+} tb_loc;
+
+/* One element card. Nodes are indices into the node table, 0 = ground:
+ * node[0] = n+, node[1] = n-, node[2] = nc+, node[3] = nc- (E, G). */
+typedef struct {
+    tb_elem_kind kind;
+    const char *name;       /* as written; owned by the circuit */
+    int node[4];
+    const char *ctrl_name;  /* F, H: the sensing V source as written */
+    size_t ctrl;            /* F, H: its element index (set by tb_circuit_finish) */
+    double value;           /* R, C, L: ohms, farads, henries; E, G, F, H: gain */
+    double dc;              /* V, I: DC value */
+    double ac_mag;          /* V, I: AC magnitude */
+    double ac_phase_deg;    /* V, I: AC phase in degrees */
+    long branch;            /* MNA branch index for V, L, E, H (set by tb_circuit_finish), else -1 */
+    tb_loc loc;             /* where the card starts */
+} tb_element;
+
+typedef enum { TB_GRID_DEC, TB_GRID_OCT, TB_GRID_LIN } tb_grid_kind;
+
+typedef struct {
+    bool given;
+    tb_grid_kind kind;
+    long points;
+    double fstart;
+    double fstop;
+    tb_loc loc;
+} tb_ac_spec;
+
+typedef struct {
+    const char *source; /* name as written */
+    size_t elem;        /* element index (set by tb_circuit_finish) */
+    tb_loc loc;
+} tb_loop_spec;
+
+typedef enum { TB_OUT_V, TB_OUT_I } tb_out_kind;
+
+typedef struct {
+    bool given;
+    const char *source;   /* the independent input source as written */
+    size_t source_elem;   /* set by tb_circuit_finish */
+    tb_out_kind out_kind; /* v(n1[,n2]) or i(Vname) */
+    const char *out_a;    /* node n1 or the V source name */
+    const char *out_b;    /* node n2 or NULL */
+    int out_node[2];      /* resolved nodes (0 = ground) */
+    size_t out_elem;      /* resolved V source for i() */
+    tb_loc loc;
+    tb_loc out_loc;
+} tb_io_spec;
+
+/* Open-addressing hash from a case-insensitive name to an index; slots hold index + 1, 0 = empty. */
+typedef struct {
+    size_t *slots;
+    size_t cap;
+} tb_name_index;
+
+struct tb_circuit {
+    char *title;
+    const char *file;       /* interned netlist name */
+    /* node table: names[0] is ground */
+    const char **node_names;
+    size_t node_count;
+    size_t node_cap;
+    tb_name_index node_index;
+    tb_element *elems;
+    size_t elem_count;
+    size_t elem_cap;
+    tb_name_index elem_index;
+    tb_ac_spec ac;
+    tb_loop_spec *loops;
+    size_t loop_count;
+    size_t loop_cap;
+    tb_io_spec io;
+    size_t branch_count;    /* set by tb_circuit_finish */
+    struct tb_strblock *strings; /* string arena */
+};
+
+tb_status tb_circuit_create(const char *file, tb_circuit **out);
+/* Copies s[0..len) into the circuit's string arena; NULL when out of memory. */
+const char *tb_circuit_intern(tb_circuit *ckt, const char *s, size_t len);
+/* Index of node name[0..len), created when new ("0" and "gnd" are ground). */
+tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *index);
+/* Index of an existing node; false when there is none (no node is created). */
+bool tb_circuit_find_node(const tb_circuit *ckt, const char *name, size_t len, int *index);
+/* Element index by name (case-insensitive); false when there is none. */
+bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *index);
+/* Appends a copy of *elem (its strings must already be interned). An element
+ * of the same name may exist already: tb_circuit_finish reports duplicates. */
+tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem);
+tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop);
+/* Resolves references and checks the whole circuit after parsing: duplicate
+ * names, .loop/.io/F/H references, a default .ac grid (with a warning),
+ * branch numbering. text[0..len) is the netlist source, used only to quote
+ * lines in diagnostics (may be NULL). Errors go to diag; TB_ERR_INPUT if any. */
+tb_status tb_circuit_finish(tb_circuit *ckt, const char *text, size_t len, tb_diag *diag);
+/* Name of MNA unknown i: a node name, or "i(NAME)" for a branch current, in buf. */
+const char *tb_circuit_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size_t size);
+/* "resistor", "voltage-controlled voltage source" and the like. */
+const char *tb_elem_kind_word(tb_elem_kind kind);
+/* Case-insensitive equality of two NUL-terminated names. */
+bool tb_name_eq(const char *a, const char *b);
+
+#endif

@@ -1,0 +1,189 @@
+/* src/loop.c: return ratio, asymptotic gain, feedthrough and closed-loop gain at one frequency */
+#include "loop.h"
+
+#include <string.h>
+
+#include "alloc.h"
+
+/* A vector being refined against M0 of one loop: x0 = M0^-1 b or w0 = M0^-1 u. */
+typedef struct {
+    size_t loop;
+    const tb_svec *rhs;
+    double complex *y;
+} refinement;
+
+struct tb_loop_work {
+    size_t n;
+    size_t loops;
+    double complex *rhs;  /* (1 + loops) columns: x, then w_l */
+    double complex *vec0; /* 2 * loops columns: x0 and w0 of each loop */
+    double complex *res;  /* 2 * loops columns: residuals, then corrections */
+    refinement *pending;  /* 2 * loops */
+};
+
+tb_status tb_loop_work_new(const tb_mna *mna, tb_loop_work **out)
+{
+    tb_loop_work *w = tb_calloc(1, sizeof(*w));
+    if (!w)
+        return TB_ERR_NOMEM;
+    w->n = mna->n;
+    w->loops = mna->loop_count;
+    w->rhs = tb_malloc((w->loops + 1) * w->n, sizeof(double complex));
+    w->vec0 = tb_malloc(2 * w->loops * w->n, sizeof(double complex));
+    w->res = tb_malloc(2 * w->loops * w->n, sizeof(double complex));
+    w->pending = tb_malloc(2 * w->loops, sizeof(refinement));
+    if (!w->rhs || !w->vec0 || !w->res || !w->pending) {
+        tb_loop_work_free(w);
+        return TB_ERR_NOMEM;
+    }
+    *out = w;
+    return TB_OK;
+}
+
+void tb_loop_work_free(tb_loop_work *work)
+{
+    if (!work)
+        return;
+    tb_free(work->rhs);
+    tb_free(work->vec0);
+    tb_free(work->res);
+    tb_free(work->pending);
+    tb_free(work);
+}
+
+static void scatter(const tb_svec *s, double complex *col, size_t n)
+{
+    memset(col, 0, n * sizeof(double complex));
+    tb_svec_axpy(s, 1.0, col);
+}
+
+/* M0^-1 r from y = M^-1 r, in place (Sherman-Morrison with M0 = M - k u v'). */
+static void sherman_morrison(const tb_loopvec *lv, const double complex *w, double complex q,
+                             double complex *y, size_t n)
+{
+    double complex alpha = lv->k * tb_svec_dot(&lv->v, y) / (1.0 - q);
+    for (size_t i = 0; i < n; i++)
+        y[i] += alpha * w[i];
+}
+
+/* T, A, A_inf and a of one loop from x and w (design.md "The algebra"). */
+static void evaluate(const tb_mna *mna, const tb_loopvec *lv, const double complex *x,
+                     const double complex *w, tb_point *pt)
+{
+    double complex vw = tb_svec_dot(&lv->v, w);
+    double complex q = lv->k * vw;
+    *pt = (tb_point){0};
+    if (cabs(1.0 - q) <= TB_LOOP_INF_TOL)
+        pt->flags |= TB_PT_T_INF | TB_PT_A0_NONE;
+    else
+        pt->T = q / (1.0 - q);
+    if (!mna->has_io) {
+        pt->flags |= TB_PT_NO_IO;
+        return;
+    }
+    pt->A = tb_svec_dot(&mna->c, x);
+    if (cabs(q) <= TB_LOOP_ZERO_TOL) {
+        pt->flags |= TB_PT_AINF_NONE;
+        return;
+    }
+    if (pt->flags & TB_PT_T_INF) { /* A = A_inf exactly when T is infinite */
+        pt->A_inf = pt->A;
+        return;
+    }
+    pt->A_inf = pt->A - tb_svec_dot(&mna->c, w) * tb_svec_dot(&lv->v, x) / vw;
+    pt->a = pt->A_inf * pt->T;
+}
+
+/* Queues the M0 vectors of loop l: x0 whenever A0 exists, w0 when T is large. */
+static size_t start_vectors(const tb_mna *mna, tb_loop_work *work, size_t l, const tb_point *pt,
+                            size_t count)
+{
+    size_t n = mna->n;
+    const tb_loopvec *lv = &mna->loops[l];
+    const double complex *w = work->rhs + (l + 1) * n;
+    double complex q = lv->k * tb_svec_dot(&lv->v, w);
+    if (pt->flags & TB_PT_T_INF)
+        return count;
+    if (mna->has_io) {
+        double complex *x0 = work->vec0 + 2 * l * n;
+        memcpy(x0, work->rhs, n * sizeof(double complex));
+        sherman_morrison(lv, w, q, x0, n);
+        work->pending[count++] = (refinement){l, &mna->b, x0};
+    }
+    if (cabs(1.0 - q) < TB_LOOP_REFINE_TOL) {
+        double complex *w0 = work->vec0 + (2 * l + 1) * n;
+        for (size_t i = 0; i < n; i++)
+            w0[i] = w[i] / (1.0 - q);
+        work->pending[count++] = (refinement){l, &lv->u, w0};
+    }
+    return count;
+}
+
+/* One step of iterative refinement of every pending vector against its loop's
+ * M0: r = rhs - M0 y (exact M0 entries), one multi-RHS solve, y += M0^-1 r. */
+static tb_status refine(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
+                        tb_loop_work *work, size_t count)
+{
+    size_t n = mna->n;
+    for (size_t r = 0; r < count; r++) {
+        const refinement *p = &work->pending[r];
+        tb_mna_residual0(mna, Mx, omega, &mna->loops[p->loop], p->rhs, p->y, work->res + r * n);
+    }
+    if (tb_solver_solve(solver, work->res, count))
+        return TB_ERR_NUMERIC;
+    for (size_t r = 0; r < count; r++) {
+        const refinement *p = &work->pending[r];
+        const tb_loopvec *lv = &mna->loops[p->loop];
+        const double complex *w = work->rhs + (p->loop + 1) * n;
+        double complex *d = work->res + r * n;
+        sherman_morrison(lv, w, lv->k * tb_svec_dot(&lv->v, w), d, n);
+        for (size_t i = 0; i < n; i++)
+            p->y[i] += d[i];
+    }
+    return TB_OK;
+}
+
+/* A0 from the refined x0, and T = k v'w0 where w0 was refined. */
+static void finish_loop(const tb_mna *mna, const tb_loop_work *work, size_t l, double complex q,
+                        tb_point *pt)
+{
+    size_t n = mna->n;
+    const tb_loopvec *lv = &mna->loops[l];
+    if (pt->flags & TB_PT_T_INF)
+        return;
+    if (mna->has_io)
+        pt->A0 = tb_svec_dot(&mna->c, work->vec0 + 2 * l * n);
+    if (cabs(1.0 - q) < TB_LOOP_REFINE_TOL) {
+        pt->T = lv->k * tb_svec_dot(&lv->v, work->vec0 + (2 * l + 1) * n);
+        if (mna->has_io && !(pt->flags & TB_PT_AINF_NONE))
+            pt->a = pt->A_inf * pt->T;
+    }
+}
+
+tb_status tb_loop_eval(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
+                       tb_loop_work *work, tb_point *out)
+{
+    size_t n = mna->n;
+    size_t first = mna->has_io ? 0 : 1; /* column 0 is x, needed only with .io */
+    double complex *x = work->rhs;
+    if (mna->has_io)
+        scatter(&mna->b, x, n);
+    for (size_t l = 0; l < mna->loop_count; l++)
+        scatter(&mna->loops[l].u, work->rhs + (l + 1) * n, n);
+    if (tb_solver_solve(solver, work->rhs + first * n, mna->loop_count + 1 - first))
+        return TB_ERR_NUMERIC;
+    size_t count = 0;
+    for (size_t l = 0; l < mna->loop_count; l++) {
+        evaluate(mna, &mna->loops[l], x, work->rhs + (l + 1) * n, &out[l]);
+        count = start_vectors(mna, work, l, &out[l], count);
+    }
+    for (int step = 0; step < TB_LOOP_REFINE_STEPS && count > 0; step++)
+        if (refine(mna, solver, Mx, omega, work, count))
+            return TB_ERR_NUMERIC;
+    for (size_t l = 0; l < mna->loop_count; l++) {
+        const tb_loopvec *lv = &mna->loops[l];
+        double complex q = lv->k * tb_svec_dot(&lv->v, work->rhs + (l + 1) * n);
+        finish_loop(mna, work, l, q, &out[l]);
+    }
+    return TB_OK;
+}

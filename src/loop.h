@@ -1,0 +1,33 @@
+/* src/loop.h: return ratio, asymptotic gain, feedthrough and closed-loop gain at one frequency */
+#ifndef TB_LOOP_H
+#define TB_LOOP_H
+
+#include "mna.h"
+#include "solve.h"
+
+/* 1 - q at or below this (q = k v'w) means det M0 = 0: T is infinite. */
+#define TB_LOOP_INF_TOL 1e-13
+/* |q| at or below this means the source does not see its own output (v'w = 0). */
+#define TB_LOOP_ZERO_TOL 1e-14
+/* |1 - q| below this (|T| above about 1000) also refines w0 = M0^-1 u, for T. */
+#define TB_LOOP_REFINE_TOL 1e-3
+/* Steps of iterative refinement of x0 (and w0) against M0's exact entries. */
+#define TB_LOOP_REFINE_STEPS 2
+
+/* Everything one frequency point needs, allocated once before a sweep. */
+typedef struct tb_loop_work tb_loop_work;
+
+tb_status tb_loop_work_new(const tb_mna *mna, tb_loop_work **out);
+void tb_loop_work_free(tb_loop_work *work);
+
+/* Evaluates every loop of mna at angular frequency omega, whose matrix values
+ * are Mx and whose factorization is held by solver: one multi-RHS solve for
+ * x = M^-1 b and w_l = M^-1 u_l, then T, A, A_inf, A0, a (docs/algebra.md).
+ * x0 = M0^-1 b (for A0), and w0 = M0^-1 u (for T) when T is large, come from
+ * Sherman-Morrison and TB_LOOP_REFINE_STEPS steps of refinement against M0's
+ * exact entries, batched in one multi-RHS solve per step. out has
+ * mna->loop_count entries. Errors: TB_ERR_NUMERIC. */
+tb_status tb_loop_eval(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
+                       tb_loop_work *work, tb_point *out);
+
+#endif

@@ -1,0 +1,185 @@
+/* src/measure.c: DC values, unity-gain crossing, phase margin, closed-loop -3 dB point */
+#include "measure.h"
+
+#include <math.h>
+#include <string.h>
+
+#include "alloc.h"
+
+static const double DEG_PER_RAD = 57.295779513082320876798154814105;
+
+double tb_db(double complex z)
+{
+    return 20.0 * log10(cabs(z));
+}
+
+/* Wraps an angle difference into (-180, 180]. */
+static double wrap180(double d)
+{
+    d = fmod(d, 360.0);
+    if (d <= -180.0)
+        d += 360.0;
+    else if (d > 180.0)
+        d -= 360.0;
+    return d;
+}
+
+/* Phase the unwrapping starts from: that of T(0), 0 or 180, when DC was solved. */
+static double start_phase(const tb_result *res, size_t l, const tb_point *pts)
+{
+    if (res->has_dc && !(res->dc[l].flags & TB_PT_T_INF) && cabs(res->dc[l].T) > 0)
+        return carg(res->dc[l].T) * DEG_PER_RAD;
+    for (size_t i = 0; i < res->npoints; i++)
+        if (!(pts[i].flags & TB_PT_T_INF))
+            return carg(pts[i].T) * DEG_PER_RAD;
+    return 0.0;
+}
+
+void tb_measure_phase(const tb_result *res, size_t l, double *deg)
+{
+    const tb_point *pts = tb_result_loop(res, l);
+    double prev = start_phase(res, l, pts);
+    for (size_t i = 0; i < res->npoints; i++) {
+        if (!(pts[i].flags & TB_PT_T_INF))
+            prev += wrap180(carg(pts[i].T) * DEG_PER_RAD - prev);
+        deg[i] = prev;
+    }
+}
+
+/* Fraction t in [0,1] where the line from (0, y0) to (1, y1) meets level. */
+static double cross_at(double y0, double y1, double level)
+{
+    return y0 == y1 ? 0.0 : (level - y0) / (y1 - y0);
+}
+
+static double interp_logf(double f0, double f1, double t)
+{
+    return exp(log(f0) + t * (log(f1) - log(f0)));
+}
+
+/* Lowest frequency where |T| falls through 1 (0 dB), interpolated in (log f, dB). */
+static bool find_unity(const tb_result *res, const tb_point *pts, size_t *seg, double *t)
+{
+    for (size_t i = 0; i + 1 < res->npoints; i++) {
+        bool inf0 = pts[i].flags & TB_PT_T_INF;
+        if (pts[i + 1].flags & TB_PT_T_INF)
+            continue;
+        double db0 = inf0 ? INFINITY : tb_db(pts[i].T);
+        double db1 = tb_db(pts[i + 1].T);
+        if (db0 >= 0.0 && db1 < 0.0) {
+            *seg = i;
+            *t = inf0 ? 1.0 : cross_at(db0, db1, 0.0);
+            return true;
+        }
+    }
+    return false;
+}
+
+/* deg: workspace of npoints doubles. */
+static void measure_unity(const tb_result *res, size_t l, tb_measures *m, double *deg)
+{
+    const tb_point *pts = tb_result_loop(res, l);
+    size_t i = 0;
+    double t = 0;
+    if (!find_unity(res, pts, &i, &t)) {
+        m->notes |= 1u << TB_NOTE_NO_UNITY;
+        return;
+    }
+    m->has_unity = true;
+    m->unity_hz = interp_logf(res->freqs[i], res->freqs[i + 1], t);
+    bool positive_dc = !(m->dc.flags & TB_PT_T_INF) && creal(m->dc.T) < 0 &&
+                       fabs(cimag(m->dc.T)) <= 1e-12 * fabs(creal(m->dc.T));
+    if (positive_dc) {
+        m->notes |= 1u << TB_NOTE_POSITIVE_FB_DC;
+        return;
+    }
+    tb_measure_phase(res, l, deg);
+    m->has_phase_margin = true;
+    m->phase_margin_deg = 180.0 + deg[i] + t * (deg[i + 1] - deg[i]);
+}
+
+static void measure_f3db(const tb_result *res, size_t l, tb_measures *m)
+{
+    const tb_point *pts = tb_result_loop(res, l);
+    double ref = cabs(m->dc.A);
+    if (!res->has_io) {
+        m->notes |= 1u << TB_NOTE_NO_IO;
+        return;
+    }
+    if (ref > 0) {
+        double level = tb_db(m->dc.A) - 10.0 * log10(2.0);
+        double prev = tb_db(m->dc.A);
+        for (size_t i = 0; i < res->npoints; i++) {
+            double db = tb_db(pts[i].A);
+            if (prev >= level && db < level) {
+                double f0 = i == 0 ? res->freqs[0] : res->freqs[i - 1];
+                m->has_f3db = true;
+                m->f3db_closed_hz = i == 0 ? res->freqs[0]
+                                           : interp_logf(f0, res->freqs[i], cross_at(prev, db, level));
+                return;
+            }
+            prev = db;
+        }
+    }
+    m->notes |= 1u << TB_NOTE_NO_F3DB;
+}
+
+static void measure_dc(const tb_result *res, size_t l, tb_measures *m)
+{
+    const tb_point *pts = tb_result_loop(res, l);
+    if (res->has_dc) {
+        m->dc = res->dc[l];
+        m->dc_hz = 0.0;
+    } else {
+        m->dc = pts[0];
+        m->dc_hz = res->freqs[0];
+        m->notes |= 1u << TB_NOTE_DC_FROM_SWEEP;
+    }
+    if (m->dc.flags & TB_PT_T_INF)
+        m->notes |= 1u << TB_NOTE_T_INF_DC;
+    if (m->dc.flags & TB_PT_AINF_NONE)
+        m->notes |= 1u << TB_NOTE_AINF_NONE_DC;
+    bool loop_seen = false;
+    for (size_t i = 0; i < res->npoints; i++)
+        loop_seen = loop_seen || !(pts[i].flags & TB_PT_AINF_NONE) || !res->has_io;
+    if (!loop_seen)
+        m->notes |= 1u << TB_NOTE_NOT_IN_LOOP;
+    if (res->has_io && !(m->dc.flags & (TB_PT_T_INF | TB_PT_A0_NONE)) &&
+        cabs(m->dc.A0 / (1.0 + m->dc.T)) > 0.01 * cabs(m->dc.A))
+        m->notes |= 1u << TB_NOTE_FEEDTHROUGH;
+}
+
+tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out)
+{
+    if (!res || !out || l >= res->nloops)
+        return TB_ERR_USAGE;
+    double *deg = tb_malloc(res->npoints, sizeof(double));
+    if (!deg)
+        return TB_ERR_NOMEM;
+    tb_measures m;
+    memset(&m, 0, sizeof m);
+    measure_dc(res, l, &m);
+    measure_unity(res, l, &m, deg);
+    measure_f3db(res, l, &m);
+    tb_free(deg);
+    *out = m;
+    return TB_OK;
+}
+
+static const char *const note_text[TB_NOTE_COUNT] = {
+    [TB_NOTE_NO_IO] = "no .io directive: A, A_inf, A0, a and the closed-loop -3 dB point are not computed",
+    [TB_NOTE_NOT_IN_LOOP] = "the source never sees its own output: it is not in a loop",
+    [TB_NOTE_DC_FROM_SWEEP] = "the circuit is singular at DC: DC values are those at the lowest sweep frequency",
+    [TB_NOTE_T_INF_DC] = "T is infinite at DC (the circuit with the source's gain at zero is singular there, e.g. an integrator)",
+    [TB_NOTE_POSITIVE_FB_DC] = "T(0) < 0: positive feedback at DC, so phase margin is not defined",
+    [TB_NOTE_NO_UNITY] = "|T| never falls through 1 in the sweep: no unity-gain frequency or phase margin",
+    [TB_NOTE_NO_F3DB] = "|A| never falls 3 dB below its DC value in the sweep",
+    [TB_NOTE_AINF_NONE_DC] = "T has a zero at DC: A_inf is undefined there",
+    [TB_NOTE_FEEDTHROUGH] = "the feedthrough A0/(1+T) is more than 1 % of A at DC: A differs from a/(1+a*beta)",
+};
+_Static_assert(sizeof(note_text) / sizeof(note_text[0]) == TB_NOTE_COUNT, "note_text in step");
+
+const char *tb_note_str(tb_note note)
+{
+    return (unsigned)note < TB_NOTE_COUNT ? note_text[note] : "unknown note";
+}

@@ -1,0 +1,78 @@
+/* src/mna.h: modified nodal analysis: G and C on one CSC pattern, and the loop vectors */
+#ifndef TB_MNA_H
+#define TB_MNA_H
+
+#include <complex.h>
+#include <stddef.h>
+
+#include "circuit.h"
+
+/* A sparse vector with at most two entries (e_p - e_n and the like). */
+typedef struct {
+    int count;
+    size_t idx[2];
+    double coef[2];
+} tb_svec;
+
+/* The gain k of one controlled source enters as M = M0 + k u v' (design.md). */
+typedef struct {
+    size_t elem; /* the controlled source */
+    double k;
+    tb_svec u;   /* where the source's output enters */
+    tb_svec v;   /* v'x is the controlling variable */
+    /* M0 = M with this source's gain at zero differs from M only at these CSC
+     * positions; g0 holds G there summed without the source's own stamp, so
+     * M0 products are exact even when k dwarfs the other entries. */
+    int own_count;
+    size_t own_pos[4];
+    double own_g0[4];
+} tb_loopvec;
+
+typedef struct {
+    size_t n;    /* unknowns: nodes other than ground, then branch currents */
+    size_t nnz;
+    int *Ap;     /* n + 1 column pointers */
+    int *Ai;     /* nnz row indices, sorted within each column */
+    double *Gx;  /* nnz conductance-like values */
+    double *Cx;  /* nnz capacitance-like values (M = G + jwC) */
+    tb_loopvec *loops; /* one per .loop, in netlist order */
+    size_t loop_count;
+    bool has_io;
+    tb_svec b;   /* unit excitation of the .io input source */
+    tb_svec c;   /* output selector: A = c'x */
+} tb_mna;
+
+/* Stamps the finished circuit. On success *out owns a new tb_mna (free with
+ * tb_mna_free). Errors: TB_ERR_NOMEM; TB_ERR_INPUT when the matrix would pass
+ * KLU's int index range (with a diagnostic). */
+tb_status tb_mna_build(const tb_circuit *ckt, tb_diag *diag, tb_mna **out);
+void tb_mna_free(tb_mna *mna);
+
+/* Writes M(jw) = G + jwC into Mx (2*nnz doubles, real/imag interleaved, KLU's layout). */
+void tb_mna_values(const tb_mna *mna, double omega, double *Mx);
+
+/* Dense column-major copy of M(jw) into M (n*n), for tests and small dense work. */
+void tb_mna_dense(const tb_mna *mna, double omega, double complex *M);
+
+/* y = r - M0 x, with M0 the matrix of loop lv's circuit at gain zero (M = G + jwC
+ * in Mx, as written by tb_mna_values). x and y are n complex values. */
+void tb_mna_residual0(const tb_mna *mna, const double *Mx, double omega, const tb_loopvec *lv,
+                      const tb_svec *r, const double complex *x, double complex *y);
+
+/* Sparse dot product s'x over a complex vector x. */
+static inline double complex tb_svec_dot(const tb_svec *s, const double complex *x)
+{
+    double complex sum = 0;
+    for (int i = 0; i < s->count; i++)
+        sum += s->coef[i] * x[s->idx[i]];
+    return sum;
+}
+
+/* x += alpha * s (scatter). */
+static inline void tb_svec_axpy(const tb_svec *s, double complex alpha, double complex *x)
+{
+    for (int i = 0; i < s->count; i++)
+        x[s->idx[i]] += alpha * s->coef[i];
+}
+
+#endif

@@ -1,0 +1,36 @@
+/* src/solve.h: sparse LU of M(jw) on KLU: analyse once, refactor per point, multi-RHS solves */
+#ifndef TB_SOLVE_H
+#define TB_SOLVE_H
+
+#include <complex.h>
+#include <stddef.h>
+
+#include "mna.h"
+
+typedef struct tb_solver tb_solver;
+
+/* Symbolic analysis of mna's pattern (once per circuit). The solver keeps a
+ * pointer to mna, which must outlive it. Errors: TB_ERR_NOMEM, TB_ERR_NUMERIC.
+ * A structurally singular pattern is reported by the first factorization. */
+tb_status tb_solver_new(const tb_mna *mna, tb_solver **out);
+void tb_solver_free(tb_solver *solver);
+
+/* Factors M = Mx (2*nnz interleaved) with pivoting. TB_ERR_SINGULAR with the
+ * unknown index of the zero pivot in *culprit when M is singular. */
+tb_status tb_solver_factor(tb_solver *solver, const double *Mx, size_t *culprit);
+
+/* Refactors with the pivot order of the last factorization; when the pivots
+ * degrade (reciprocal pivot growth below min_rgrowth times that of the last
+ * pivoted factorization) or a pivot vanishes, factors again with pivoting.
+ * Errors as tb_solver_factor. */
+tb_status tb_solver_refactor(tb_solver *solver, const double *Mx, double min_rgrowth,
+                             size_t *culprit);
+
+/* Solves M X = B in place for nrhs right-hand sides stored one after the other
+ * (each n complex values). Errors: TB_ERR_NUMERIC. */
+tb_status tb_solver_solve(tb_solver *solver, double complex *B, size_t nrhs);
+
+/* Number of pivoted factorizations so far (first one included). */
+size_t tb_solver_factor_count(const tb_solver *solver);
+
+#endif

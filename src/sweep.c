@@ -1,0 +1,222 @@
+/* src/sweep.c: frequency grids; drives factor, refactor and loop evaluation point by point */
+#include "sweep.h"
+
+#include <math.h>
+#include <string.h>
+
+#include "alloc.h"
+#include "diag.h"
+#include "loop.h"
+#include "mna.h"
+#include "solve.h"
+
+#define TB_MAX_POINTS ((size_t)10000000)
+
+static const double TWO_PI = 6.28318530717958647692528676655900577;
+
+static double grid_base(const tb_ac_spec *ac)
+{
+    return ac->kind == TB_GRID_DEC ? 10.0 : 2.0;
+}
+
+size_t tb_sweep_count(const tb_ac_spec *ac)
+{
+    if (ac->points < 1 || !(ac->fstart > 0) || !(ac->fstop >= ac->fstart))
+        return 0;
+    if (ac->kind == TB_GRID_LIN)
+        return (size_t)ac->points;
+    double steps = floor(ac->points * log(ac->fstop / ac->fstart) / log(grid_base(ac)) + 1e-9);
+    if (!(steps < (double)TB_MAX_POINTS))
+        return 0;
+    return (size_t)steps + 1;
+}
+
+void tb_sweep_grid(const tb_ac_spec *ac, double *f)
+{
+    size_t count = tb_sweep_count(ac);
+    for (size_t i = 0; i < count; i++) {
+        if (ac->kind == TB_GRID_LIN)
+            f[i] = count == 1 ? ac->fstart
+                              : ac->fstart + (ac->fstop - ac->fstart) * (double)i / (double)(count - 1);
+        else
+            f[i] = ac->fstart * pow(grid_base(ac), (double)i / (double)ac->points);
+    }
+}
+
+void tb_options_init(tb_options *opt)
+{
+    opt->dc = true;
+    opt->refactor_rgrowth = 1e-8;
+}
+
+void tb_result_free(tb_result *res)
+{
+    if (!res)
+        return;
+    tb_free(res->freqs);
+    tb_free(res->pts);
+    tb_free(res->dc);
+    tb_free(res);
+}
+
+static tb_result *result_new(size_t npoints, size_t nloops)
+{
+    tb_result *res = tb_calloc(1, sizeof(*res));
+    if (!res)
+        return NULL;
+    res->npoints = npoints;
+    res->nloops = nloops;
+    res->freqs = tb_malloc(npoints, sizeof(double));
+    res->pts = tb_calloc(npoints * nloops, sizeof(tb_point));
+    res->dc = tb_calloc(nloops, sizeof(tb_point));
+    if (!res->freqs || !res->pts || !res->dc) {
+        tb_result_free(res);
+        return NULL;
+    }
+    return res;
+}
+
+/* Everything the point loop uses, allocated before it starts. */
+typedef struct {
+    const tb_circuit *ckt;
+    tb_mna *mna;
+    tb_solver *solver;
+    tb_loop_work *work;
+    double *Mx;
+    tb_point *row; /* one point of every loop */
+    tb_diag *diag;
+} sweeper;
+
+static void sweeper_free(sweeper *s)
+{
+    tb_mna_free(s->mna);
+    tb_solver_free(s->solver);
+    tb_loop_work_free(s->work);
+    tb_free(s->Mx);
+    tb_free(s->row);
+}
+
+static tb_status sweeper_init(sweeper *s, const tb_circuit *ckt, tb_diag *diag)
+{
+    *s = (sweeper){.ckt = ckt, .diag = diag};
+    tb_status st = tb_mna_build(ckt, diag, &s->mna);
+    if (st)
+        return st;
+    if ((st = tb_solver_new(s->mna, &s->solver)) || (st = tb_loop_work_new(s->mna, &s->work)))
+        return st;
+    s->Mx = tb_malloc(2 * s->mna->nnz, sizeof(double));
+    s->row = tb_calloc(ckt->loop_count, sizeof(tb_point));
+    return s->Mx && s->row ? TB_OK : TB_ERR_NOMEM;
+}
+
+static tb_status singular_diag(const sweeper *s, tb_severity sev, double f, size_t culprit,
+                               const char *consequence)
+{
+    char name[256];
+    tb_circuit_unknown_name(s->ckt, culprit, name, sizeof name);
+    tb_status st = tb_diag_add(s->diag, sev, s->ckt->file, 0, 0, NULL, 0,
+                               "the circuit matrix is singular at %.6g Hz, at %s "
+                               "(no path to ground, or a loop of voltage sources/inductors?)%s",
+                               f, name, consequence);
+    return st ? st : TB_ERR_SINGULAR;
+}
+
+/* DC: an exact f = 0 factorization when M(0) is non-singular. */
+static tb_status sweep_dc(sweeper *s, tb_result *res)
+{
+    size_t culprit = 0;
+    tb_mna_values(s->mna, 0.0, s->Mx);
+    tb_status st = tb_solver_factor(s->solver, s->Mx, &culprit);
+    if (st == TB_ERR_SINGULAR) {
+        st = singular_diag(s, TB_SEV_WARNING, 0.0, culprit,
+                           "; DC values are those at the lowest sweep frequency");
+        return st == TB_ERR_SINGULAR ? TB_OK : st;
+    }
+    if (st)
+        return st;
+    if ((st = tb_loop_eval(s->mna, s->solver, s->Mx, 0.0, s->work, res->dc)))
+        return st;
+    res->has_dc = true;
+    return TB_OK;
+}
+
+static tb_status sweep_points(sweeper *s, const tb_options *opt, tb_result *res)
+{
+    for (size_t i = 0; i < res->npoints; i++) {
+        size_t culprit = 0;
+        double f = res->freqs[i];
+        double omega = TWO_PI * f;
+        tb_mna_values(s->mna, omega, s->Mx);
+        tb_status st = i == 0 ? tb_solver_factor(s->solver, s->Mx, &culprit)
+                              : tb_solver_refactor(s->solver, s->Mx, opt->refactor_rgrowth, &culprit);
+        if (st == TB_ERR_SINGULAR)
+            return singular_diag(s, TB_SEV_ERROR, f, culprit, "");
+        if (st || (st = tb_loop_eval(s->mna, s->solver, s->Mx, omega, s->work, s->row)))
+            return st;
+        for (size_t l = 0; l < res->nloops; l++)
+            res->pts[l * res->npoints + i] = s->row[l];
+    }
+    return TB_OK;
+}
+
+tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag, tb_result **out)
+{
+    if (!ckt || !out)
+        return TB_ERR_USAGE;
+    tb_options defaults;
+    if (!opt) {
+        tb_options_init(&defaults);
+        opt = &defaults;
+    }
+    size_t npoints = tb_sweep_count(&ckt->ac);
+    if (npoints == 0)
+        return TB_ERR_USAGE; /* the parser admits only usable grids */
+    tb_result *res = result_new(npoints, ckt->loop_count);
+    if (!res)
+        return TB_ERR_NOMEM;
+    tb_sweep_grid(&ckt->ac, res->freqs);
+    res->has_io = ckt->io.given;
+    sweeper s;
+    tb_status st = sweeper_init(&s, ckt, diag);
+    if (!st && opt->dc)
+        st = sweep_dc(&s, res);
+    if (!st)
+        st = sweep_points(&s, opt, res);
+    if (!st)
+        res->factor_count = tb_solver_factor_count(s.solver);
+    sweeper_free(&s);
+    if (st) {
+        tb_result_free(res);
+        return st;
+    }
+    *out = res;
+    return TB_OK;
+}
+
+size_t tb_result_points(const tb_result *res)
+{
+    return res ? res->npoints : 0;
+}
+
+size_t tb_result_loops(const tb_result *res)
+{
+    return res ? res->nloops : 0;
+}
+
+const double *tb_result_freqs(const tb_result *res)
+{
+    return res ? res->freqs : NULL;
+}
+
+const tb_point *tb_result_loop(const tb_result *res, size_t l)
+{
+    return res && l < res->nloops ? res->pts + l * res->npoints : NULL;
+}
+
+bool tb_result_dc(const tb_result *res, size_t l, tb_point *out)
+{
+    if (!res || !res->has_dc || l >= res->nloops)
+        return false;
+    *out = res->dc[l];
+    return true;
+}

@@ -1,0 +1,22 @@
+#!/bin/sh
+# tests/run.sh: runs every test program in BUILD/tests and the outside-reference scripts,
+# then prints one closing line "tests: N passed, M failed".
+# Usage: sh tests/run.sh BUILD [WRAPPER]
+build=$1
+wrap=${2:-}
+passed=0
+failed=0
+for t in "$build"/tests/test_*; do
+    [ -x "$t" ] || continue
+    if $wrap "$t"; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAILED: $t"; fi
+done
+for s in tests/ref/*.py; do
+    [ -f "$s" ] || continue
+    if /usr/bin/python3 "$s" "$build/tbeta" netlists/*.net tests/ref/*.net; then
+        passed=$((passed + 1))
+    else
+        failed=$((failed + 1)); echo "FAILED: $s"
+    fi
+done
+echo "tests: $passed passed, $failed failed"
+[ "$failed" -eq 0 ]

@@ -1,0 +1,433 @@
+/* tests/test_lex.c: the lexer: lines, continuation, comments, tokens, titles and engineering values */
+#include <float.h>
+#include <stdlib.h>
+
+#include "testutil.h"
+
+#include "lex.h"
+
+/* A copy of text in a buffer of exactly its length (no NUL after it), so
+ * that the address sanitizer catches any read past the end. */
+static char *exact_copy(const char *text, size_t len)
+{
+    char *buf = malloc(len ? len : 1);
+    assert_non_null(buf);
+    memcpy(buf, text, len);
+    return buf;
+}
+
+/* Renders the token stream of a netlist: "L:C:text" for a word, "L:C:[x]"
+ * for punctuation, an orphan '+' ([+]) or a bad character ([!]); "|" for the
+ * end of a card and "." for the end of the input. */
+static void render(const char *text, char *out, size_t size)
+{
+    size_t len = strlen(text);
+    char *buf = exact_copy(text, len);
+    tb_lexer lx;
+    tb_lex_init(&lx, buf, len);
+    size_t used = 0;
+    out[0] = '\0';
+    for (int guard = 0; guard < 1000; guard++) {
+        tb_token tok = tb_lex_next(&lx);
+        char one[200];
+        switch (tok.kind) {
+        case TB_TOK_WORD:
+            snprintf(one, sizeof one, "%d:%d:%.*s ", tok.line, tok.col, (int)tok.len, tok.ptr);
+            break;
+        case TB_TOK_PLUS:
+            snprintf(one, sizeof one, "%d:%d:[+] ", tok.line, tok.col);
+            break;
+        case TB_TOK_BAD:
+            snprintf(one, sizeof one, "%d:%d:[!] ", tok.line, tok.col);
+            break;
+        case TB_TOK_EOC:
+            snprintf(one, sizeof one, "| ");
+            break;
+        case TB_TOK_EOF:
+            snprintf(one, sizeof one, ".");
+            break;
+        default:
+            snprintf(one, sizeof one, "%d:%d:[%.*s] ", tok.line, tok.col, (int)tok.len, tok.ptr);
+            break;
+        }
+        used += (size_t)snprintf(out + used, size - used, "%s", one);
+        assert_true(used < size);
+        if (tok.kind == TB_TOK_EOF)
+            break;
+    }
+    /* EOF stays EOF */
+    assert_int_equal(tb_lex_next(&lx).kind, TB_TOK_EOF);
+    free(buf);
+}
+
+static void test_lex_tokens(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *text;
+        const char *tokens;
+    } cases[] = {
+        {"title\nR1 a b 1k\n", "2:1:R1 2:4:a 2:6:b 2:8:1k | ."},
+        /* no line end after the last card; the end of the buffer ends the token */
+        {"t\nR1 a b 1k", "2:1:R1 2:4:a 2:6:b 2:8:1k | ."},
+        {"", "."},
+        {"just a title", "."},
+        {"title\n", "."},
+        {"t\n\n   \n\t\n", "."},
+        /* the title is line 1 whatever it holds, even a card or a comment */
+        {"R1 a b 1k\nR2 a b 1k\n", "2:1:R2 2:4:a 2:6:b 2:8:1k | ."},
+        {"* title\n* comment\nR1\n", "3:1:R1 | ."},
+        /* continuation: one card, each token on its own physical line */
+        {"t\nR1 a\n+ b 1k\n", "2:1:R1 2:4:a 3:3:b 3:5:1k | ."},
+        {"t\nR1 a\n   + b\n", "2:1:R1 2:4:a 3:6:b | ."},
+        {"t\nR1 a\n+b\n+1k\nC1 x\n", "2:1:R1 2:4:a 3:2:b 4:2:1k | 5:1:C1 5:4:x | ."},
+        /* comment and blank lines between a card and its '+' lines do not end it */
+        {"t\nR1 a\n* note\n\n   \n+b 1k\nC1 b 0 1p\n",
+         "2:1:R1 2:4:a 6:2:b 6:4:1k | 7:1:C1 7:4:b 7:6:0 7:8:1p | ."},
+        /* '+' lines with nothing on them */
+        {"t\nR1 a\n+\n+ ; c\n+b\n", "2:1:R1 2:4:a 5:2:b | ."},
+        /* comments */
+        {"t\n  * x y\nR1 a b 1k ; trailing (comment)\n; whole line\n",
+         "3:1:R1 3:4:a 3:6:b 3:8:1k | ."},
+        {"t\nR1 a;b\n", "2:1:R1 2:4:a | ."},
+        /* '*' and '+' inside a line belong to words */
+        {"t\nR1 a*b +c 1\n", "2:1:R1 2:4:a*b 2:8:+c 2:11:1 | ."},
+        /* line ends: CRLF, CR, LF, mixed */
+        {"t\r\nR1 a\r\n+ b\r\nC1 x y 1\r\n", "2:1:R1 2:4:a 3:3:b | 4:1:C1 4:4:x 4:6:y 4:8:1 | ."},
+        {"t\rR1 a b 1\rC1 x 0 2\r", "2:1:R1 2:4:a 2:6:b 2:8:1 | 3:1:C1 3:4:x 3:6:0 3:8:2 | ."},
+        {"t\n\r\nR1\r\rC1\n", "3:1:R1 | 5:1:C1 | ."},
+        {"t\n\n\rR1", "4:1:R1 | ."},
+        /* a byte order mark before the title */
+        {"\xEF\xBB\xBFtitle\nR1 a b 1\n", "2:1:R1 2:4:a 2:6:b 2:8:1 | ."},
+        /* blanks: space, tab, form feed, vertical tab; columns count bytes */
+        {"t\n\tR1\ta\f b\vc\n", "2:2:R1 2:5:a 2:8:b 2:10:c | ."},
+        /* punctuation is always a token of its own */
+        {"t\n.io V1 v(a,b)\n.x k=v\n",
+         "2:1:.io 2:5:V1 2:8:v 2:9:[(] 2:10:a 2:11:[,] 2:12:b 2:13:[)] | "
+         "3:1:.x 3:4:k 3:5:[=] 3:6:v | ."},
+        {"t\nv ( a , b )\n", "2:1:v 2:3:[(] 2:5:a 2:7:[,] 2:9:b 2:11:[)] | ."},
+        /* a '+' with no card before it */
+        {"t\n+ R1 a\nC1\n", "2:1:[+] 2:3:R1 2:6:a | 3:1:C1 | ."},
+        {"t\n* c\n  +\n+ x\n", "3:3:[+] 4:3:x | ."},
+        /* control characters are tokens of their own, to be reported */
+        {"t\nR1 a\x01" "b\n", "2:1:R1 2:4:a 2:5:[!] 2:6:b | ."},
+        {"t\n\x7f\n", "2:1:[!] | ."},
+        {"t\nR1 a\0b\n", "2:1:R1 2:4:a 2:5:[!] 2:6:b | ."},
+        /* bytes of UTF-8 sequences are word characters */
+        {"t\nR1 n\xC5\x93ud 0 1\n", "2:1:R1 2:4:n\xC5\x93ud 2:10:0 2:12:1 | ."},
+        /* the title may hold control characters; they are not lexed */
+        {"t\x01\x02\nR1\n", "2:1:R1 | ."},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char got[2000];
+        /* the one case with an embedded NUL needs its length given */
+        if (strcmp(cases[i].tokens, "2:1:R1 2:4:a 2:5:[!] 2:6:b | .") == 0 &&
+            strlen(cases[i].text) == 7) {
+            char buf[11];
+            memcpy(buf, "t\nR1 a\0b\n", 10);
+            size_t len = 9;
+            char *copy = exact_copy(buf, len);
+            tb_lexer lx;
+            tb_lex_init(&lx, copy, len);
+            tb_token tok = tb_lex_next(&lx);
+            tok = tb_lex_next(&lx);
+            tok = tb_lex_next(&lx);
+            assert_int_equal(tok.kind, TB_TOK_BAD);
+            assert_int_equal(tok.col, 5);
+            free(copy);
+            continue;
+        }
+        render(cases[i].text, got, sizeof got);
+        if (strcmp(got, cases[i].tokens) != 0)
+            print_error("case %zu: got \"%s\", want \"%s\"\n", i, got, cases[i].tokens);
+        assert_string_equal(got, cases[i].tokens);
+    }
+}
+
+/* The end of a card sits just after its last token, on that token's line. */
+static void test_lex_end_of_card_position(void **state)
+{
+    (void)state;
+    const char *text = "t\nR1 a\n+ bcd ; note\n\nC1";
+    char *buf = exact_copy(text, strlen(text));
+    tb_lexer lx;
+    tb_lex_init(&lx, buf, strlen(text));
+    tb_token tok;
+    for (int i = 0; i < 3; i++)
+        tok = tb_lex_next(&lx);
+    assert_int_equal(tok.kind, TB_TOK_WORD);
+    tok = tb_lex_next(&lx);
+    assert_int_equal(tok.kind, TB_TOK_EOC);
+    assert_int_equal(tok.line, 3);
+    assert_int_equal(tok.col, 6);
+    assert_ptr_equal(tok.ptr, buf + 12);
+    assert_int_equal(tok.len, 0);
+    free(buf);
+}
+
+static void test_lex_title(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *text;
+        const char *title;
+    } cases[] = {
+        {"  Two-stage amplifier  \nR1 a 0 1\n", "Two-stage amplifier"},
+        {"\xEF\xBB\xBF Boot strap\r\n", "Boot strap"},
+        {"\xEF\xBB\xBF", ""},
+        {"", ""},
+        {"\n", ""},
+        {"x", "x"},
+        {"\tT\t\rR1\n", "T"},
+        {"R1 a b 1k\n", "R1 a b 1k"},
+        {"Title ; with a semicolon * and a star\n", "Title ; with a semicolon * and a star"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        size_t len = strlen(cases[i].text);
+        char *buf = exact_copy(cases[i].text, len);
+        tb_lexer lx;
+        tb_lex_init(&lx, buf, len);
+        assert_int_equal(lx.title.len, strlen(cases[i].title));
+        assert_memory_equal(lx.title.ptr, cases[i].title, lx.title.len);
+        free(buf);
+    }
+}
+
+static void test_lex_keyword_ignores_case(void **state)
+{
+    (void)state;
+    const char *text = "t\nDC dC dcx ( .AC\n";
+    tb_lexer lx;
+    tb_lex_init(&lx, text, strlen(text));
+    tb_token tok = tb_lex_next(&lx);
+    assert_true(tb_lex_is(&tok, "dc"));
+    tok = tb_lex_next(&lx);
+    assert_true(tb_lex_is(&tok, "dc"));
+    tok = tb_lex_next(&lx);
+    assert_false(tb_lex_is(&tok, "dc"));
+    tok = tb_lex_next(&lx);
+    assert_false(tb_lex_is(&tok, "("));
+    tok = tb_lex_next(&lx);
+    assert_true(tb_lex_is(&tok, ".ac"));
+    assert_false(tb_lex_is(&tok, ".a"));
+}
+
+static void test_lex_source_line(void **state)
+{
+    (void)state;
+    const char *text = "t\r\nR1 a b\r\n+ c\rlast";
+    size_t len = strlen(text);
+    char *buf = exact_copy(text, len);
+    tb_lexer lx;
+    tb_lex_init(&lx, buf, len);
+    size_t n = 0;
+    const char *line = tb_lex_line(&lx, buf + 6, &n); /* the 'a' */
+    assert_int_equal(n, 6);
+    assert_memory_equal(line, "R1 a b", 6);
+    line = tb_lex_line(&lx, buf + 9, &n); /* the CR after "R1 a b" */
+    assert_int_equal(n, 6);
+    assert_memory_equal(line, "R1 a b", 6);
+    line = tb_lex_line(&lx, buf + len, &n); /* the end of the buffer */
+    assert_int_equal(n, 4);
+    assert_memory_equal(line, "last", 4);
+    free(buf);
+}
+
+/* Value read from an exactly sized copy of text. */
+static tb_value_status value_of(const char *text, size_t len, double *out)
+{
+    char *buf = exact_copy(text, len);
+    tb_value_status st = tb_lex_value(buf, len, out);
+    free(buf);
+    return st;
+}
+
+/* These pairs define the value format (shared/design.md, "Netlist subset"):
+ * each result must be the double nearest the decimal value, so exact
+ * equality with the C literal of that decimal is required. */
+static void test_lex_values(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *text;
+        double want;
+    } cases[] = {
+        {"1", 1},
+        {"0", 0},
+        {"-0", 0},
+        {"+3", 3},
+        {"42", 42},
+        {"000123", 123},
+        {"1.0000", 1},
+        {".5", 0.5},
+        {"5.", 5},
+        {"-.25", -0.25},
+        {"0.001", 0.001},
+        {"1e-3", 1e-3},
+        {"1E3", 1e3},
+        {"1e+3", 1e3},
+        {"2.5e-07", 2.5e-7},
+        {"-4.7n", -4.7e-9},
+        {"1f", 1e-15},
+        {"1F", 1e-15}, /* femto, not farad: the suffix comes before unit letters */
+        {"100p", 100e-12},
+        {"3n", 3e-9},
+        {"2.2u", 2.2e-6},
+        {"2.2uF", 2.2e-6},
+        {"1m", 1e-3},
+        {"1M", 1e-3}, /* milli in any case */
+        {"1mil", 1e-3}, /* no "mil" suffix: milli followed by the letters "il" */
+        {"1k", 1e3},
+        {"1K", 1e3},
+        {"10kOhm", 1e4},
+        {"4.7K", 4.7e3},
+        {"1meg", 1e6},
+        {"1MEG", 1e6},
+        {"1Meg", 1e6},
+        {"2.2megohm", 2.2e6},
+        {"1g", 1e9},
+        {"1G", 1e9},
+        {"1t", 1e12},
+        {"1T", 1e12},
+        {"1.5e3k", 1.5e6},
+        {"3.3e-2m", 3.3e-5},
+        {"12.5V", 12.5},
+        {"5Ohm", 5},
+        {"1x", 1},
+        {"1a", 1},
+        {"1.", 1},
+        {"1.e3", 1e3},
+        {"0.1000000000000000055511151231257827021181583404541015625", 0.1},
+        {"1e308", 1e308},
+        {"1.7976931348623157e308", DBL_MAX},
+        {"4.9e-324", 4.9e-324},
+        {"1e-999", 0},
+        {"1e-99999999999999999999999", 0},
+        {"0e99999999999999999999", 0},
+        {"0.000e999", 0},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        double got = -12345;
+        tb_value_status st = value_of(cases[i].text, strlen(cases[i].text), &got);
+        if (st != TB_VALUE_OK || got != cases[i].want)
+            print_error("'%s': status %d, got %.17g, want %.17g\n", cases[i].text, st, got,
+                        cases[i].want);
+        assert_int_equal(st, TB_VALUE_OK);
+        assert_true(got == cases[i].want);
+    }
+}
+
+static void test_lex_value_errors(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *text;
+        tb_value_status want;
+    } cases[] = {
+        {"", TB_VALUE_NOT_NUMBER},
+        {"abc", TB_VALUE_NOT_NUMBER},
+        {".", TB_VALUE_NOT_NUMBER},
+        {"-", TB_VALUE_NOT_NUMBER},
+        {"+", TB_VALUE_NOT_NUMBER},
+        {"-.", TB_VALUE_NOT_NUMBER},
+        {"e3", TB_VALUE_NOT_NUMBER},
+        {".e3", TB_VALUE_NOT_NUMBER},
+        {"k1", TB_VALUE_NOT_NUMBER},
+        {"--1", TB_VALUE_NOT_NUMBER},
+        {"+-1", TB_VALUE_NOT_NUMBER},
+        {"inf", TB_VALUE_NOT_NUMBER},
+        {"nan", TB_VALUE_NOT_NUMBER},
+        {"1k5", TB_VALUE_MALFORMED},
+        {"1meg2", TB_VALUE_MALFORMED},
+        {"1e", TB_VALUE_MALFORMED},
+        {"1e+", TB_VALUE_MALFORMED},
+        {"1E-x", TB_VALUE_MALFORMED},
+        {"1ee3", TB_VALUE_MALFORMED},
+        {"1eV", TB_VALUE_MALFORMED},
+        {"1.2.3", TB_VALUE_MALFORMED},
+        {"1,5", TB_VALUE_MALFORMED},
+        {"1%", TB_VALUE_MALFORMED},
+        {"1k-", TB_VALUE_MALFORMED},
+        {"0x10", TB_VALUE_MALFORMED},
+        {"2.2\xC2\xB5" "F", TB_VALUE_MALFORMED}, /* micro sign: not one of the suffixes */
+        {"1e999", TB_VALUE_RANGE},
+        {"-1e999", TB_VALUE_RANGE},
+        {"2e308", TB_VALUE_RANGE},
+        {"1.8e308", TB_VALUE_RANGE},
+        {"1e306meg", TB_VALUE_RANGE},
+        {"1e99999999999999999999999", TB_VALUE_RANGE},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        double got = -12345;
+        tb_value_status st = value_of(cases[i].text, strlen(cases[i].text), &got);
+        if (st != cases[i].want)
+            print_error("'%s': status %d, want %d\n", cases[i].text, st, cases[i].want);
+        assert_int_equal(st, cases[i].want);
+        assert_true(got == -12345); /* untouched on failure */
+    }
+}
+
+/* Only len bytes are read: "1k5" cut to two bytes is 1k. */
+static void test_lex_value_reads_only_its_slice(void **state)
+{
+    (void)state;
+    double got = 0;
+    assert_int_equal(value_of("1k5", 2, &got), TB_VALUE_OK);
+    assert_true(got == 1e3);
+    assert_int_equal(value_of("1meg", 2, &got), TB_VALUE_OK); /* "1m" */
+    assert_true(got == 1e-3);
+    assert_int_equal(value_of("1e5", 2, &got), TB_VALUE_MALFORMED); /* "1e" */
+}
+
+/* Long digit strings: all significant digits count towards the rounding. */
+static void test_lex_value_long_mantissa(void **state)
+{
+    (void)state;
+    char text[2000];
+    double got = 0;
+    /* 0.(300 zeros)1 is 1e-301 */
+    size_t n = (size_t)snprintf(text, sizeof text, "0.");
+    memset(text + n, '0', 300);
+    n += 300;
+    n += (size_t)snprintf(text + n, sizeof text - n, "1");
+    assert_int_equal(value_of(text, n, &got), TB_VALUE_OK);
+    assert_true(got == 1e-301);
+    /* 1 followed by 1000 zeros, times 1e-1000, is 1 (zeros past the kept digits) */
+    text[0] = '1';
+    memset(text + 1, '0', 1000);
+    n = 1001 + (size_t)snprintf(text + 1001, sizeof text - 1001, "e-1000");
+    assert_int_equal(value_of(text, n, &got), TB_VALUE_OK);
+    assert_true(got == 1);
+    /* 2^53 + 1 = 9007199254740993 lies exactly halfway between the doubles
+     * 2^53 and 2^53 + 2; IEEE 754 round-to-nearest-even gives 2^53. */
+    assert_int_equal(value_of("9007199254740993", 16, &got), TB_VALUE_OK);
+    assert_true(got == 9007199254740992.0);
+    /* The same with a non-zero digit 850 places further: just above halfway,
+     * so it rounds up to 2^53 + 2, even though that digit lies beyond the
+     * digits kept in full. */
+    n = (size_t)snprintf(text, sizeof text, "9007199254740993");
+    memset(text + n, '0', 850);
+    n += 850;
+    n += (size_t)snprintf(text + n, sizeof text - n, "1e-851");
+    assert_int_equal(value_of(text, n, &got), TB_VALUE_OK);
+    assert_true(got == 9007199254740994.0);
+    /* 400 nines overflow */
+    memset(text, '9', 400);
+    assert_int_equal(value_of(text, 400, &got), TB_VALUE_RANGE);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_lex_tokens),
+        cmocka_unit_test(test_lex_end_of_card_position),
+        cmocka_unit_test(test_lex_title),
+        cmocka_unit_test(test_lex_keyword_ignores_case),
+        cmocka_unit_test(test_lex_source_line),
+        cmocka_unit_test(test_lex_values),
+        cmocka_unit_test(test_lex_value_errors),
+        cmocka_unit_test(test_lex_value_reads_only_its_slice),
+        cmocka_unit_test(test_lex_value_long_mantissa),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
