@@ -18,7 +18,7 @@ LIB_OBJ  := $(LIB_SRC:src/%.c=$(BUILD)/obj/%.o)
 TEST_SRC := $(wildcard tests/test_*.c)
 TEST_BIN := $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)
 DEPS_OK  := $(BUILD)/.deps-ok
-DEMO     ?= netlists/noninverting_loaded.net
+DEMO     ?= netlists/noninverting_loaded_opamp.net
 
 .PHONY: all deps test check demo asan valgrind debug bench clean
 all: $(BUILD)/tbeta $(BUILD)/libtbeta.a
@@ -43,7 +43,10 @@ $(BUILD)/tbeta: $(BUILD)/obj/main.o $(BUILD)/libtbeta.a
 
 $(BUILD)/tests/%: tests/%.c tests/testutil.h $(BUILD)/libtbeta.a | $(DEPS_OK)
 	@mkdir -p $(dir $@)
-	$(CC) $(CPPFLAGS) $(CFLAGS) -Wno-missing-prototypes $< $(BUILD)/libtbeta.a $(LDFLAGS) $(TESTLIBS) $(LDLIBS) -o $@
+	$(CC) $(CPPFLAGS) $(CFLAGS) -Wno-missing-prototypes $< $(BUILD)/libtbeta.a $(LDFLAGS) $(LDWRAP) $(TESTLIBS) $(LDLIBS) -o $@
+
+# the allocation-failure sweep sees every allocation the library makes
+$(BUILD)/tests/test_oom: LDWRAP := -Wl,--wrap=malloc,--wrap=calloc,--wrap=realloc
 
 # check: build and run every test in $(BUILD) (RUNWRAP wraps each test program).
 check: $(BUILD)/tbeta $(TEST_BIN)

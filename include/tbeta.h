@@ -166,7 +166,7 @@ typedef struct {
     unsigned notes;
 } tb_measures;
 
-/* Measures of loop l. Errors: TB_ERR_USAGE (NULL, l out of range). */
+/* Measures of loop l. Errors: TB_ERR_USAGE (NULL, l out of range), TB_ERR_NOMEM. */
 TB_API tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out);
 
 /* ---- writers -------------------------------------------------------- */

@@ -29,6 +29,13 @@ static const char *fmt_value(double complex z, char *buf, size_t size)
     return buf;
 }
 
+/* Rounding noise of a quantity that is zero in exact arithmetic (below 1e-13 of
+ * the gains it is compared with) reads as 0 for people; JSON and CSV keep it. */
+static double complex denoise(double complex z, double scale)
+{
+    return cabs(z) < 1e-13 * scale ? 0 : z;
+}
+
 static void line(FILE *out, const char *label, bool present, const char *value, const char *extra)
 {
     fprintf(out, "    %-30s %s%s\n", label, present ? value : "--", present ? extra : "");
@@ -56,7 +63,9 @@ static void dc_block(FILE *out, const tb_measures *m)
     line(out, "loaded feedback beta = 1/A_inf", beta_ok,
          fmt_value(beta_ok ? 1.0 / m->dc.A_inf : 0, v, sizeof v), "");
     line(out, "ideal gain A_inf", ainf_ok, fmt_value(m->dc.A_inf, v, sizeof v), "");
-    line(out, "feedthrough A0", io && !(fl & TB_PT_A0_NONE), fmt_value(m->dc.A0, v, sizeof v), "");
+    double scale = fmax(cabs(m->dc.A), cabs(m->dc.A_inf));
+    line(out, "feedthrough A0", io && !(fl & TB_PT_A0_NONE),
+         fmt_value(denoise(m->dc.A0, scale), v, sizeof v), "");
     line(out, "closed-loop gain A", io, fmt_value(m->dc.A, v, sizeof v), "");
     double complex err = beta_ok ? (m->dc.A - m->dc.A_inf) / m->dc.A_inf * 100.0 : 0;
     snprintf(v, sizeof v, "%+.4g %%", creal(err));

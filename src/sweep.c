@@ -121,17 +121,14 @@ static tb_status singular_diag(const sweeper *s, tb_severity sev, double f, size
     return st ? st : TB_ERR_SINGULAR;
 }
 
-/* DC: an exact f = 0 factorization when M(0) is non-singular. */
-static tb_status sweep_dc(sweeper *s, tb_result *res)
+/* DC: an exact f = 0 factorization when M(0) is non-singular; otherwise
+ * *dc_culprit names the zero pivot (reported once the sweep has succeeded). */
+static tb_status sweep_dc(sweeper *s, tb_result *res, size_t *dc_culprit)
 {
-    size_t culprit = 0;
     tb_mna_values(s->mna, 0.0, s->Mx);
-    tb_status st = tb_solver_factor(s->solver, s->Mx, &culprit);
-    if (st == TB_ERR_SINGULAR) {
-        st = singular_diag(s, TB_SEV_WARNING, 0.0, culprit,
-                           "; DC values are those at the lowest sweep frequency");
-        return st == TB_ERR_SINGULAR ? TB_OK : st;
-    }
+    tb_status st = tb_solver_factor(s->solver, s->Mx, dc_culprit);
+    if (st == TB_ERR_SINGULAR)
+        return TB_OK;
     if (st)
         return st;
     if ((st = tb_loop_eval(s->mna, s->solver, s->Mx, 0.0, s->work, res->dc)))
@@ -177,11 +174,17 @@ tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag
     tb_sweep_grid(&ckt->ac, res->freqs);
     res->has_io = ckt->io.given;
     sweeper s;
+    size_t dc_culprit = 0;
     tb_status st = sweeper_init(&s, ckt, diag);
     if (!st && opt->dc)
-        st = sweep_dc(&s, res);
+        st = sweep_dc(&s, res, &dc_culprit);
     if (!st)
         st = sweep_points(&s, opt, res);
+    if (!st && opt->dc && !res->has_dc) {
+        st = singular_diag(&s, TB_SEV_WARNING, 0.0, dc_culprit,
+                           "; DC values are those at the lowest sweep frequency");
+        st = st == TB_ERR_SINGULAR ? TB_OK : st;
+    }
     if (!st)
         res->factor_count = tb_solver_factor_count(s.solver);
     sweeper_free(&s);

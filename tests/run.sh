@@ -10,6 +10,8 @@ for t in "$build"/tests/test_*; do
     [ -x "$t" ] || continue
     if $wrap "$t"; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAILED: $t"; fi
 done
+if sh tests/cli.sh "$build" "$wrap"; then passed=$((passed + 1)); else
+    failed=$((failed + 1)); echo "FAILED: tests/cli.sh"; fi
 for s in tests/ref/*.py; do
     [ -f "$s" ] || continue
     if /usr/bin/python3 "$s" "$build/tbeta" netlists/*.net tests/ref/*.net; then

@@ -1,0 +1,105 @@
+/* tests/test_solve.c: the KLU wrapper: refactor reuses the pivot order, a degraded
+ * refactor falls back to a pivoting factorization, singular matrices name the column.
+ * Expected solutions by Cramer's rule on 2x2 systems (exact closed form). */
+#include "testutil.h"
+
+#include "mna.h"
+#include "solve.h"
+
+/* A dense 2x2 pattern in CSC: column 0 rows {0,1}, column 1 rows {0,1}. */
+static int Ap[] = {0, 2, 4};
+static int Ai[] = {0, 1, 0, 1};
+
+static tb_mna two_by_two(void)
+{
+    tb_mna m = {0};
+    m.n = 2;
+    m.nnz = 4;
+    m.Ap = Ap;
+    m.Ai = Ai;
+    return m;
+}
+
+/* Mx for [[a, b], [c, d]] (real), CSC order a, c, b, d. */
+static void values(double a, double b, double c, double d, double *Mx)
+{
+    double v[4] = {a, c, b, d};
+    for (int k = 0; k < 4; k++) {
+        Mx[2 * k] = v[k];
+        Mx[2 * k + 1] = 0;
+    }
+}
+
+static void check_solution(tb_solver *s, double a, double b, double c, double d)
+{
+    double complex x[2] = {1, 2};
+    assert_int_equal(tb_solver_solve(s, x, 1), TB_OK);
+    double det = a * d - b * c;
+    tu_close(x[0], (1 * d - b * 2) / det, 1e-12);
+    tu_close(x[1], (a * 2 - c * 1) / det, 1e-12);
+}
+
+static void test_solve_refactor_keeps_pivots(void **state)
+{
+    (void)state;
+    tb_mna m = two_by_two();
+    tb_solver *s = NULL;
+    double Mx[8];
+    size_t culprit = 0;
+    assert_int_equal(tb_solver_new(&m, &s), TB_OK);
+    values(4, 1, 1, 3, Mx);
+    assert_int_equal(tb_solver_factor(s, Mx, &culprit), TB_OK);
+    values(5, 1, 2, 3, Mx);
+    assert_int_equal(tb_solver_refactor(s, Mx, 1e-8, &culprit), TB_OK);
+    assert_int_equal(tb_solver_factor_count(s), 1);
+    check_solution(s, 5, 1, 2, 3);
+    tb_solver_free(s);
+}
+
+/* The first pivot order takes a11; at the second point a11 is 1e-15 and the
+ * reused order would divide by it: the wrapper must pivot again. */
+static void test_solve_degraded_refactor_pivots_again(void **state)
+{
+    (void)state;
+    tb_mna m = two_by_two();
+    tb_solver *s = NULL;
+    double Mx[8];
+    size_t culprit = 0;
+    assert_int_equal(tb_solver_new(&m, &s), TB_OK);
+    values(4, 1, 1, 3, Mx);
+    assert_int_equal(tb_solver_factor(s, Mx, &culprit), TB_OK);
+    values(1e-15, 1, 1, 3, Mx);
+    assert_int_equal(tb_solver_refactor(s, Mx, 1e-8, &culprit), TB_OK);
+    assert_int_equal(tb_solver_factor_count(s), 2);
+    check_solution(s, 1e-15, 1, 1, 3);
+    tb_solver_free(s);
+}
+
+static void test_solve_singular_names_column(void **state)
+{
+    (void)state;
+    tb_mna m = two_by_two();
+    tb_solver *s = NULL;
+    double Mx[8];
+    size_t culprit = 99;
+    assert_int_equal(tb_solver_new(&m, &s), TB_OK);
+    values(1, 0, 2, 0, Mx); /* column 1 is zero */
+    assert_int_equal(tb_solver_factor(s, Mx, &culprit), TB_ERR_SINGULAR);
+    assert_int_equal(culprit, 1);
+    /* a singular refactor after a good factorization is reported too */
+    values(4, 1, 1, 3, Mx);
+    assert_int_equal(tb_solver_factor(s, Mx, &culprit), TB_OK);
+    values(1, 2, 2, 4, Mx);
+    assert_int_equal(tb_solver_refactor(s, Mx, 1e-8, &culprit), TB_ERR_SINGULAR);
+    tb_solver_free(s);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_solve_refactor_keeps_pivots),
+        cmocka_unit_test(test_solve_degraded_refactor_pivots_again),
+        cmocka_unit_test(test_solve_singular_names_column),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
