@@ -287,6 +287,10 @@ static void report(checker *ck, tb_severity sev, tb_loc loc, const char *fmt, ..
     __attribute__((format(printf, 4, 5)));
 static void report(checker *ck, tb_severity sev, tb_loc loc, const char *fmt, ...)
 {
+    if (sev == TB_SEV_ERROR && tb_diag_full(ck->diag)) {
+        ck->status = ck->status ? ck->status : TB_ERR_INPUT; /* enough errors shown already */
+        return;
+    }
     size_t src_len = 0;
     const char *src = source_line(ck, loc.line, &src_len);
     va_list ap;

@@ -55,10 +55,8 @@ static void dc_block(FILE *out, const tb_measures *m)
         fprintf(out, "  at the lowest sweep point (f = %s; DC is singular)\n",
                 fmt_hz(m->dc_hz, v, sizeof v));
     snprintf(extra, sizeof extra, "   (%+.2f dB)", t_ok ? 20.0 * log10(cabs(m->dc.T)) : 0.0);
-    line(out, "loop gain T (return ratio)", t_ok, fmt_value(m->dc.T, v, sizeof v),
-         cabs(m->dc.T) > 0 ? extra : "");
-    if (!t_ok)
-        fprintf(out, "    %-30s infinite\n", "");
+    line(out, "loop gain T (return ratio)", true, t_ok ? fmt_value(m->dc.T, v, sizeof v) : "infinite",
+         t_ok && cabs(m->dc.T) > 0 ? extra : "");
     line(out, "open-loop gain a = A_inf*T", ainf_ok && t_ok, fmt_value(m->dc.a, v, sizeof v), "");
     line(out, "loaded feedback beta = 1/A_inf", beta_ok,
          fmt_value(beta_ok ? 1.0 / m->dc.A_inf : 0, v, sizeof v), "");

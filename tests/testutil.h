@@ -17,6 +17,16 @@
 
 #define TU_PI 3.14159265358979323846264338327950288
 
+/* Prints every diagnostic of diag as a test error message. */
+static inline void tu_print_diags(const tb_diag *diag)
+{
+    char buf[1024];
+    for (size_t i = 0; i < tb_diag_count(diag); i++) {
+        tb_diag_format(diag, i, buf, sizeof buf);
+        print_error("%s", buf);
+    }
+}
+
 /* Parses text as a netlist called "t.net"; fails the test (printing the
  * diagnostics) unless it parses. */
 static inline tb_circuit *tu_parse(const char *text)
@@ -24,13 +34,8 @@ static inline tb_circuit *tu_parse(const char *text)
     tb_diag *diag = tb_diag_new();
     tb_circuit *ckt = NULL;
     tb_status st = tb_circuit_parse(text, strlen(text), "t.net", diag, &ckt);
-    if (st != TB_OK) {
-        char buf[1024];
-        for (size_t i = 0; i < tb_diag_count(diag); i++) {
-            tb_diag_format(diag, i, buf, sizeof buf);
-            print_error("%s", buf);
-        }
-    }
+    if (st != TB_OK)
+        tu_print_diags(diag);
     tb_diag_free(diag);
     assert_int_equal(st, TB_OK);
     return ckt;
@@ -45,13 +50,8 @@ static inline tb_result *tu_analyse(const char *text, tb_circuit **ckt_out)
     tb_diag *diag = tb_diag_new();
     tb_result *res = NULL;
     tb_status st = tb_analyse(ckt, &opt, diag, &res);
-    if (st != TB_OK) {
-        char buf[1024];
-        for (size_t i = 0; i < tb_diag_count(diag); i++) {
-            tb_diag_format(diag, i, buf, sizeof buf);
-            print_error("%s", buf);
-        }
-    }
+    if (st != TB_OK)
+        tu_print_diags(diag);
     tb_diag_free(diag);
     assert_int_equal(st, TB_OK);
     *ckt_out = ckt;
