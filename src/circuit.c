@@ -104,6 +104,11 @@ static size_t hash_name(const char *s, size_t len)
         h ^= (unsigned char)tolower((unsigned char)s[i]);
         h *= 1099511628211u;
     }
+    /* final avalanche (from splitmix64) so that the low bits used as the slot
+     * index depend on every character: names like R1..R300000 differ late */
+    h ^= h >> 33;
+    h *= 0xff51afd7ed558ccdu;
+    h ^= h >> 33;
     return h;
 }
 

@@ -198,6 +198,13 @@ static void test_ref_dense_vcvs_gain_1e7(void **state)
     check_netlist(noninv, 1e7);
 }
 
+/* The largest amplifier gain tbeta promises A0 for (T about 5e7 at DC). */
+static void test_ref_dense_vcvs_gain_1e9(void **state)
+{
+    (void)state;
+    check_netlist(noninv, 1e9);
+}
+
 /* Transistor-like stage with feedthrough (references.md check 2c) plus capacitances. */
 static const char vccs[] = "shunt-shunt gm stage with feedthrough\n"
                            "Vs vs 0 AC 1\nRs vs g 1k\nRF g d 10k\nCF g d 0.5p\nRD d 0 10k\n"
@@ -240,6 +247,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_ref_dense_vcvs_gain_1e3),
         cmocka_unit_test(test_ref_dense_vcvs_gain_1e7),
+        cmocka_unit_test(test_ref_dense_vcvs_gain_1e9),
         cmocka_unit_test(test_ref_dense_vccs_feedthrough),
         cmocka_unit_test(test_ref_dense_cccs),
         cmocka_unit_test(test_ref_dense_ccvs),
