@@ -109,7 +109,8 @@ typedef struct {
 
 typedef struct {
     bool dc;              /* evaluate f = 0 exactly when the circuit allows (default true) */
-    double refactor_rgrowth; /* pivot growth below this re-factors with pivoting (default 1e-8) */
+    double refactor_rcond_drop; /* a refactor whose min/max |U_ii| falls below this times the
+                                 * last pivoted one's factors again with pivoting (default 1e-6) */
 } tb_options;
 
 TB_API void tb_options_init(tb_options *opt);

@@ -3,6 +3,7 @@
 
 #include <ctype.h>
 #include <stdarg.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -129,13 +130,15 @@ static const char *elem_name_of(const tb_circuit *ckt, size_t i)
     return ckt->elems[i].name;
 }
 
-static size_t *find_slot(const tb_circuit *ckt, const tb_name_index *idx, name_of_fn name_of,
-                         const char *name, size_t len)
+/* The slot holding name (hash h), or the empty slot where it would go. */
+static tb_name_slot *find_slot(const tb_circuit *ckt, const tb_name_index *idx, name_of_fn name_of,
+                               const char *name, size_t len, size_t h)
 {
     size_t mask = idx->cap - 1;
-    size_t i = hash_name(name, len) & mask;
-    while (idx->slots[i]) {
-        if (name_eq_n(name_of(ckt, idx->slots[i] - 1), name, len))
+    size_t i = h & mask;
+    while (idx->slots[i].index1) {
+        const tb_name_slot *slot = &idx->slots[i];
+        if (slot->hash == h && name_eq_n(name_of(ckt, slot->index1 - 1), name, len))
             return &idx->slots[i];
         i = (i + 1) & mask;
     }
@@ -147,38 +150,51 @@ static bool index_find(const tb_circuit *ckt, const tb_name_index *idx, name_of_
 {
     if (!idx->cap)
         return false;
-    size_t slot = *find_slot(ckt, idx, name_of, name, len);
-    if (!slot)
+    const tb_name_slot *slot = find_slot(ckt, idx, name_of, name, len, hash_name(name, len));
+    if (!slot->index1)
         return false;
-    *found = slot - 1;
+    *found = slot->index1 - 1;
     return true;
 }
 
-/* Records entry i (whose name is name_of(i)) keeping the load at most 1/2;
- * the first of several equal names keeps the slot. */
-static tb_status index_add(const tb_circuit *ckt, tb_name_index *idx, name_of_fn name_of,
-                           size_t i)
+/* Doubles the table while it would be more than half full with `entries`. */
+static tb_status index_reserve(tb_name_index *idx, size_t entries)
 {
-    if ((i + 1) * 2 > idx->cap) {
-        tb_name_index bigger = {NULL, idx->cap ? idx->cap * 2 : 64};
-        while ((i + 1) * 2 > bigger.cap)
-            bigger.cap *= 2;
-        bigger.slots = tb_calloc(bigger.cap, sizeof(size_t));
-        if (!bigger.slots)
-            return TB_ERR_NOMEM;
-        for (size_t k = 0; k < idx->cap; k++) {
-            if (idx->slots[k]) {
-                const char *nm = name_of(ckt, idx->slots[k] - 1);
-                *find_slot(ckt, &bigger, name_of, nm, strlen(nm)) = idx->slots[k];
-            }
-        }
-        tb_free(idx->slots);
-        *idx = bigger;
+    if (entries * 2 <= idx->cap)
+        return TB_OK;
+    tb_name_index bigger = {NULL, idx->cap ? idx->cap * 2 : 64};
+    while (entries * 2 > bigger.cap)
+        bigger.cap *= 2;
+    bigger.slots = tb_calloc(bigger.cap, sizeof(tb_name_slot));
+    if (!bigger.slots)
+        return TB_ERR_NOMEM;
+    for (size_t k = 0; k < idx->cap; k++) {
+        if (!idx->slots[k].index1)
+            continue;
+        size_t i = idx->slots[k].hash & (bigger.cap - 1);
+        while (bigger.slots[i].index1) /* names in the old table are distinct */
+            i = (i + 1) & (bigger.cap - 1);
+        bigger.slots[i] = idx->slots[k];
     }
+    tb_free(idx->slots);
+    *idx = bigger;
+    return TB_OK;
+}
+
+/* Records entry i (whose name is name_of(i)). When the name is there already,
+ * the first entry keeps the slot and *earlier is its index (else SIZE_MAX). */
+static tb_status index_add(const tb_circuit *ckt, tb_name_index *idx, name_of_fn name_of,
+                           size_t i, size_t *earlier)
+{
+    if (index_reserve(idx, i + 1))
+        return TB_ERR_NOMEM;
     const char *nm = name_of(ckt, i);
-    size_t *slot = find_slot(ckt, idx, name_of, nm, strlen(nm));
-    if (!*slot)
-        *slot = i + 1;
+    size_t len = strlen(nm);
+    size_t h = hash_name(nm, len);
+    tb_name_slot *slot = find_slot(ckt, idx, name_of, nm, len, h);
+    *earlier = slot->index1 ? slot->index1 - 1 : SIZE_MAX;
+    if (!slot->index1)
+        *slot = (tb_name_slot){i + 1, h};
     return TB_OK;
 }
 
@@ -207,7 +223,8 @@ tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *in
         return TB_ERR_NOMEM;
     size_t n = ckt->node_count;
     ckt->node_names[n] = copy;
-    if (n > 0 && index_add(ckt, &ckt->node_index, node_name_of, n))
+    size_t earlier = SIZE_MAX;
+    if (n > 0 && index_add(ckt, &ckt->node_index, node_name_of, n, &earlier))
         return TB_ERR_NOMEM;
     ckt->node_count++;
     *index = (int)n;
@@ -224,8 +241,9 @@ tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem)
     if (tb_grow(&ckt->elems, &ckt->elem_cap, ckt->elem_count + 1, sizeof(tb_element),
                 TB_MAX_ELEMENTS))
         return TB_ERR_NOMEM;
-    ckt->elems[ckt->elem_count] = *elem;
-    if (index_add(ckt, &ckt->elem_index, elem_name_of, ckt->elem_count))
+    tb_element *e = &ckt->elems[ckt->elem_count];
+    *e = *elem;
+    if (index_add(ckt, &ckt->elem_index, elem_name_of, ckt->elem_count, &e->first_same_name))
         return TB_ERR_NOMEM;
     ckt->elem_count++;
     return TB_OK;
@@ -325,8 +343,8 @@ static void check_duplicates(checker *ck)
 {
     tb_circuit *ckt = ck->ckt;
     for (size_t i = 0; i < ckt->elem_count; i++) {
-        size_t first = i;
-        if (tb_circuit_find_element(ckt, ckt->elems[i].name, &first) && first != i)
+        size_t first = ckt->elems[i].first_same_name;
+        if (first != SIZE_MAX)
             report(ck, TB_SEV_ERROR, ckt->elems[i].loc,
                    "duplicate element name '%s' (first defined on line %d)", ckt->elems[i].name,
                    ckt->elems[first].loc.line);

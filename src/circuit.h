@@ -45,6 +45,7 @@ typedef struct {
     double ac_mag;          /* V, I: AC magnitude */
     double ac_phase_deg;    /* V, I: AC phase in degrees */
     long branch;            /* MNA branch index for V, L, E, H (set by tb_circuit_finish), else -1 */
+    size_t first_same_name; /* index of an earlier element of the same name, or SIZE_MAX */
     tb_loc loc;             /* where the card starts */
 } tb_element;
 
@@ -80,9 +81,16 @@ typedef struct {
     tb_loc out_loc;
 } tb_io_spec;
 
-/* Open-addressing hash from a case-insensitive name to an index; slots hold index + 1, 0 = empty. */
+/* One slot of a name index: index + 1 (0 = empty) and the name's hash, so that
+ * probes compare names only when the hashes agree. */
 typedef struct {
-    size_t *slots;
+    size_t index1;
+    size_t hash;
+} tb_name_slot;
+
+/* Open-addressing hash from a case-insensitive name to an index. */
+typedef struct {
+    tb_name_slot *slots;
     size_t cap;
 } tb_name_index;
 

@@ -295,6 +295,25 @@ static size_t scan_suffix(const char *s, size_t n, size_t i, long long *exp10)
 
 /* The double nearest to d x 10^exp10, through strtod on "DIGITSeN" (no
  * decimal point, so the locale plays no part). */
+
+/* Writes "e<exp>" and a NUL (|exp| < 10^6 here); snprintf is too slow for every value. */
+static void put_exponent(char *at, long long exp)
+{
+    char digits[24];
+    int n = 0;
+    unsigned long long mag = exp < 0 ? (unsigned long long)-exp : (unsigned long long)exp;
+    do {
+        digits[n++] = (char)('0' + mag % 10);
+        mag /= 10;
+    } while (mag > 0);
+    *at++ = 'e';
+    if (exp < 0)
+        *at++ = '-';
+    while (n > 0)
+        *at++ = digits[--n];
+    *at = '\0';
+}
+
 static tb_value_status compose(const decimal *d, bool negative, long long exp10, double *out)
 {
     if (d->count == 0) {
@@ -313,7 +332,7 @@ static tb_value_status compose(const decimal *d, bool negative, long long exp10,
     memcpy(buf, d->digits, k);
     if (d->sticky)
         buf[k++] = '1';
-    snprintf(buf + k, sizeof buf - k, "e%lld", magnitude - (long long)k);
+    put_exponent(buf + k, magnitude - (long long)k);
     double v = strtod(buf, NULL);
     if (!isfinite(v))
         return TB_VALUE_RANGE;

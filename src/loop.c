@@ -9,6 +9,8 @@
 typedef struct {
     size_t loop;
     const tb_svec *rhs;
+    const tb_svec *probe; /* the functional read from y: c (for A0) or v (for T) */
+    double floor;         /* a change below this is rounding noise (A0 may be exactly 0) */
     double complex *y;
 } refinement;
 
@@ -57,15 +59,6 @@ static void scatter(const tb_svec *s, double complex *col, size_t n)
     tb_svec_axpy(s, 1.0, col);
 }
 
-/* M0^-1 r from y = M^-1 r, in place (Sherman-Morrison with M0 = M - k u v'). */
-static void sherman_morrison(const tb_loopvec *lv, const double complex *w, double complex q,
-                             double complex *y, size_t n)
-{
-    double complex alpha = lv->k * tb_svec_dot(&lv->v, y) / (1.0 - q);
-    for (size_t i = 0; i < n; i++)
-        y[i] += alpha * w[i];
-}
-
 /* T, A, A_inf and a of one loop from x and w (design.md "The algebra"). */
 static void evaluate(const tb_mna *mna, const tb_loopvec *lv, const double complex *x,
                      const double complex *w, tb_point *pt)
@@ -106,23 +99,29 @@ static size_t start_vectors(const tb_mna *mna, tb_loop_work *work, size_t l, con
         return count;
     if (mna->has_io) {
         double complex *x0 = work->vec0 + 2 * l * n;
-        memcpy(x0, work->rhs, n * sizeof(double complex));
-        sherman_morrison(lv, w, q, x0, n);
-        work->pending[count++] = (refinement){l, &mna->b, x0};
+        const double complex *x = work->rhs;
+        double complex alpha = lv->k * tb_svec_dot(&lv->v, x) / (1.0 - q);
+        for (size_t i = 0; i < n; i++)
+            x0[i] = x[i] + alpha * w[i];
+        double noise = 1e-15 * cabs(tb_svec_dot(&mna->c, x));
+        work->pending[count++] = (refinement){l, &mna->b, &mna->c, noise, x0};
     }
     if (cabs(1.0 - q) < TB_LOOP_REFINE_TOL) {
         double complex *w0 = work->vec0 + (2 * l + 1) * n;
         for (size_t i = 0; i < n; i++)
             w0[i] = w[i] / (1.0 - q);
-        work->pending[count++] = (refinement){l, &lv->u, w0};
+        work->pending[count++] = (refinement){l, &lv->u, &lv->v, 0.0, w0};
     }
     return count;
 }
 
 /* One step of iterative refinement of every pending vector against its loop's
- * M0: r = rhs - M0 y (exact M0 entries), one multi-RHS solve, y += M0^-1 r. */
+ * M0: r = rhs - M0 y (exact M0 entries), one multi-RHS solve, y += M0^-1 r.
+ * Keeps pending only the vectors whose probed value the step still moved by
+ * more than TB_LOOP_CONVERGED relative (above the noise floor); returns their
+ * count in *left. */
 static tb_status refine(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
-                        tb_loop_work *work, size_t count)
+                        tb_loop_work *work, size_t count, size_t *left)
 {
     size_t n = mna->n;
     for (size_t r = 0; r < count; r++) {
@@ -131,14 +130,20 @@ static tb_status refine(const tb_mna *mna, tb_solver *solver, const double *Mx, 
     }
     if (tb_solver_solve(solver, work->res, count))
         return TB_ERR_NUMERIC;
+    *left = 0;
     for (size_t r = 0; r < count; r++) {
-        const refinement *p = &work->pending[r];
-        const tb_loopvec *lv = &mna->loops[p->loop];
-        const double complex *w = work->rhs + (p->loop + 1) * n;
-        double complex *d = work->res + r * n;
-        sherman_morrison(lv, w, lv->k * tb_svec_dot(&lv->v, w), d, n);
+        refinement p = work->pending[r];
+        const tb_loopvec *lv = &mna->loops[p.loop];
+        const double complex *w = work->rhs + (p.loop + 1) * n;
+        const double complex *d = work->res + r * n;
+        double complex q = lv->k * tb_svec_dot(&lv->v, w);
+        double complex alpha = lv->k * tb_svec_dot(&lv->v, d) / (1.0 - q);
+        double complex before = tb_svec_dot(p.probe, p.y);
         for (size_t i = 0; i < n; i++)
-            p->y[i] += d[i];
+            p.y[i] += d[i] + alpha * w[i];
+        double complex after = tb_svec_dot(p.probe, p.y);
+        if (cabs(after - before) > TB_LOOP_CONVERGED * cabs(after) + p.floor)
+            work->pending[(*left)++] = p;
     }
     return TB_OK;
 }
@@ -178,7 +183,7 @@ tb_status tb_loop_eval(const tb_mna *mna, tb_solver *solver, const double *Mx, d
         count = start_vectors(mna, work, l, &out[l], count);
     }
     for (int step = 0; step < TB_LOOP_REFINE_STEPS && count > 0; step++)
-        if (refine(mna, solver, Mx, omega, work, count))
+        if (refine(mna, solver, Mx, omega, work, count, &count))
             return TB_ERR_NUMERIC;
     for (size_t l = 0; l < mna->loop_count; l++) {
         const tb_loopvec *lv = &mna->loops[l];

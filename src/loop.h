@@ -11,8 +11,11 @@
 #define TB_LOOP_ZERO_TOL 1e-14
 /* |1 - q| below this (|T| above about 1000) also refines w0 = M0^-1 u, for T. */
 #define TB_LOOP_REFINE_TOL 1e-3
-/* Steps of iterative refinement of x0 (and w0) against M0's exact entries. */
-#define TB_LOOP_REFINE_STEPS 2
+/* At most this many steps of iterative refinement of x0 (and w0) against M0's
+ * exact entries; a vector whose probed value (c'x0, v'w0) a step moved by no
+ * more than TB_LOOP_CONVERGED relative needs no further step. */
+#define TB_LOOP_REFINE_STEPS 3
+#define TB_LOOP_CONVERGED 1e-9
 
 /* Everything one frequency point needs, allocated once before a sweep. */
 typedef struct tb_loop_work tb_loop_work;
@@ -24,8 +27,8 @@ void tb_loop_work_free(tb_loop_work *work);
  * are Mx and whose factorization is held by solver: one multi-RHS solve for
  * x = M^-1 b and w_l = M^-1 u_l, then T, A, A_inf, A0, a (docs/algebra.md).
  * x0 = M0^-1 b (for A0), and w0 = M0^-1 u (for T) when T is large, come from
- * Sherman-Morrison and TB_LOOP_REFINE_STEPS steps of refinement against M0's
- * exact entries, batched in one multi-RHS solve per step. out has
+ * Sherman-Morrison and up to TB_LOOP_REFINE_STEPS steps of refinement against
+ * M0's exact entries (usually one), batched in one multi-RHS solve per step. out has
  * mna->loop_count entries. Errors: TB_ERR_NUMERIC. */
 tb_status tb_loop_eval(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
                        tb_loop_work *work, tb_point *out);

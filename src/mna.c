@@ -181,31 +181,45 @@ static void io_vectors(const stamper *s, const tb_circuit *ckt, tb_mna *mna)
         mna->c = unit(branch_unknown(s, &ckt->elems[io->out_elem]), 1.0);
 }
 
-/* Sorts triplets by (col, row) with two stable counting passes and sums
+/* Orders the triplets of one column by row (columns hold a handful of entries). */
+static void sort_rows(triplet *t, size_t count)
+{
+    for (size_t i = 1; i < count; i++) {
+        triplet key = t[i];
+        size_t j = i;
+        while (j > 0 && t[j - 1].row > key.row) {
+            t[j] = t[j - 1];
+            j--;
+        }
+        t[j] = key;
+    }
+}
+
+/* Sorts the triplets by (col, row) -- a counting pass by column, then rows
+ * within each column -- freeing s->t as soon as it is copied, and sums
  * duplicates into the CSC arrays of mna. On success *sorted_out owns the
  * sorted triplets (for own_entries). */
-static tb_status compress(const stamper *s, tb_mna *mna, triplet **sorted_out)
+static tb_status compress(stamper *s, tb_mna *mna, triplet **sorted_out)
 {
     size_t n = mna->n;
     size_t m = s->count;
-    size_t *count = tb_calloc(n + 1, sizeof(size_t));
-    triplet *tmp = tb_malloc(m, sizeof(triplet));
+    size_t *start = tb_calloc(n + 1, sizeof(size_t));
     triplet *sorted = tb_malloc(m, sizeof(triplet));
     tb_status st = TB_ERR_NOMEM;
-    if (!count || !tmp || !sorted)
+    if (!start || !sorted)
         goto done;
-    for (int pass = 0; pass < 2; pass++) {
-        const triplet *from = pass == 0 ? s->t : tmp;
-        triplet *to = pass == 0 ? tmp : sorted;
-        memset(count, 0, (n + 1) * sizeof(size_t));
-        for (size_t i = 0; i < m; i++)
-            count[(pass == 0 ? from[i].row : from[i].col) + 1]++;
-        for (size_t i = 0; i < n; i++)
-            count[i + 1] += count[i];
-        for (size_t i = 0; i < m; i++)
-            to[count[pass == 0 ? from[i].row : from[i].col]++] = from[i];
+    for (size_t i = 0; i < m; i++)
+        start[s->t[i].col + 1]++;
+    for (size_t j = 0; j < n; j++)
+        start[j + 1] += start[j];
+    for (size_t i = 0; i < m; i++)
+        sorted[start[s->t[i].col]++] = s->t[i]; /* start[j] ends as column j+1's start */
+    tb_free(s->t);
+    s->t = NULL;
+    for (size_t j = 0; j < n; j++) {
+        size_t first = j == 0 ? 0 : start[j - 1];
+        sort_rows(sorted + first, start[j] - first);
     }
-    /* sorted by column, rows ascending within each column: merge duplicates */
     mna->Ap = tb_calloc(n + 1, sizeof(int));
     mna->Ai = tb_malloc(m, sizeof(int));
     mna->Gx = tb_malloc(m, sizeof(double));
@@ -215,7 +229,7 @@ static tb_status compress(const stamper *s, tb_mna *mna, triplet **sorted_out)
     size_t nz = 0;
     for (size_t i = 0; i < m; i++) {
         const triplet *t = &sorted[i];
-        if (nz > 0 && i > 0 && sorted[i - 1].col == t->col && sorted[i - 1].row == t->row) {
+        if (nz > 0 && sorted[i - 1].col == t->col && sorted[i - 1].row == t->row) {
             mna->Gx[nz - 1] += t->g;
             mna->Cx[nz - 1] += t->c;
             continue;
@@ -233,8 +247,7 @@ static tb_status compress(const stamper *s, tb_mna *mna, triplet **sorted_out)
     sorted = NULL;
     st = TB_OK;
 done:
-    tb_free(count);
-    tb_free(tmp);
+    tb_free(start);
     tb_free(sorted);
     return st;
 }
@@ -304,6 +317,7 @@ tb_status tb_mna_build(const tb_circuit *ckt, tb_diag *diag, tb_mna **out)
     for (size_t i = 0; i < mna->n; i++)
         if (add(&s, i, i, 0, 0))
             goto fail;
+    size_t triplets = s.count;
     if (compress(&s, mna, &sorted))
         goto fail;
     mna->loops = tb_calloc(ckt->loop_count, sizeof(tb_loopvec));
@@ -313,7 +327,7 @@ tb_status tb_mna_build(const tb_circuit *ckt, tb_diag *diag, tb_mna **out)
     for (size_t l = 0; l < ckt->loop_count; l++) {
         mna->loops[l] = loop_vectors(&s, ckt, &ckt->elems[ckt->loops[l].elem]);
         mna->loops[l].elem = ckt->loops[l].elem;
-        own_entries(mna, sorted, s.count, &mna->loops[l]);
+        own_entries(mna, sorted, triplets, &mna->loops[l]);
     }
     io_vectors(&s, ckt, mna);
     tb_free(s.t);

@@ -44,7 +44,8 @@ static const char *quote(const tb_token *t, char buf[QUOTE_SIZE])
             n--;
         dots = "...";
     }
-    snprintf(buf, QUOTE_SIZE, "%.*s%s", (int)n, t->ptr, dots);
+    memcpy(buf, t->ptr, n); /* on every card: plain copies, no formatting */
+    strcpy(buf + n, dots);
     return buf;
 }
 
@@ -162,14 +163,16 @@ static bool expect_word(parser *p, const char *what)
 }
 
 /* Checks that the card ends here; last names what came before ("the value of R1"). */
-static bool end_of_card(parser *p, const char *last)
+/* Nothing may follow `last` (of element `of`, when not NULL) on this card. */
+static bool end_of_card(parser *p, const char *last, const char *of)
 {
     char got[QUOTE_SIZE];
     if (at_end(p))
         return true;
     if (p->tok.kind == TB_TOK_BAD)
         return bad_char(p);
-    return error(p, &p->tok, "unexpected '%s' after %s", quote(&p->tok, got), last);
+    return error(p, &p->tok, "unexpected '%s' after %s%s%s", quote(&p->tok, got), last,
+                 of ? " of " : "", of ? of : "");
 }
 
 static const char *intern(parser *p, const tb_token *t)
@@ -246,9 +249,7 @@ static bool element_start(parser *p, tb_elem_kind kind, tb_element *e)
 /* Ends element e (nothing may follow its `part`) and adds it to the circuit. */
 static bool element_end(parser *p, const tb_element *e, const char *part)
 {
-    char last[QUOTE_SIZE + 40];
-    snprintf(last, sizeof last, "%s of %s", part, p->name);
-    if (!end_of_card(p, last))
+    if (!end_of_card(p, part, p->name))
         return false;
     if (p->ckt->elem_count >= TB_MAX_ELEMENTS)
         return error(p, &p->first, "too many elements (limit is %zu)", TB_MAX_ELEMENTS);
@@ -422,7 +423,7 @@ static bool ac_card(parser *p)
         return error(p, &p->prev,
                      "stop frequency of .ac ('%s') must not be below its start frequency ('%s')",
                      quote(&p->prev, text), quote(&start, other));
-    if (!end_of_card(p, "the stop frequency of .ac"))
+    if (!end_of_card(p, "the stop frequency of .ac", NULL))
         return false;
     p->ckt->ac = ac;
     return true;
@@ -489,7 +490,7 @@ static bool io_card(parser *p)
                      p->ckt->io.loc.line);
     advance(p);
     if (!io_name(p, "an input source name", &io.source) || !io_output(p, &io) ||
-        !end_of_card(p, "the output of .io"))
+        !end_of_card(p, "the output of .io", NULL))
         return false;
     p->ckt->io = io;
     return true;
@@ -508,7 +509,7 @@ static bool directive(parser *p)
     if (tb_lex_is(&p->tok, ".end")) {
         /* endcard -> .END */
         advance(p);
-        return end_of_card(p, ".end");
+        return end_of_card(p, ".end", NULL);
     }
     warning(p, &p->tok, "unknown directive '%s' skipped", quote(&p->tok, text));
     return true;

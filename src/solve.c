@@ -12,7 +12,7 @@ struct tb_solver {
     klu_common common;
     klu_symbolic *symbolic;
     klu_numeric *numeric;
-    double rgrowth;       /* reciprocal pivot growth of the last pivoted factorization */
+    double rcond;         /* min/max |U_ii| of the last pivoted factorization */
     size_t factor_count;
 };
 
@@ -71,22 +71,22 @@ tb_status tb_solver_factor(tb_solver *s, const double *Mx, size_t *culprit)
         return singular(s, culprit);
     }
     s->factor_count++;
-    if (!klu_z_rgrowth(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, s->numeric, &s->common))
+    if (!klu_z_rcond(s->symbolic, s->numeric, &s->common))
         return TB_ERR_NUMERIC;
-    s->rgrowth = s->common.rgrowth;
+    s->rcond = s->common.rcond;
     return TB_OK;
 }
 
-tb_status tb_solver_refactor(tb_solver *s, const double *Mx, double min_rgrowth,
-                             size_t *culprit)
+tb_status tb_solver_refactor(tb_solver *s, const double *Mx, double rcond_drop, size_t *culprit)
 {
     if (!s->numeric)
         return tb_solver_factor(s, Mx, culprit);
     double *Ax = (double *)(uintptr_t)Mx;
     int ok = klu_z_refactor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, s->numeric, &s->common);
-    if (ok && s->common.status == KLU_OK &&
-        klu_z_rgrowth(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, s->numeric, &s->common) &&
-        s->common.rgrowth >= min_rgrowth * s->rgrowth)
+    /* A reused pivot that has become small shows as a collapse of min/max |U_ii|.
+     * klu_z_rcond is O(n); klu_z_rgrowth would cost about half a refactor. */
+    if (ok && s->common.status == KLU_OK && klu_z_rcond(s->symbolic, s->numeric, &s->common) &&
+        s->common.rcond >= rcond_drop * s->rcond)
         return TB_OK;
     if (s->common.status == KLU_OUT_OF_MEMORY)
         return TB_ERR_NOMEM;

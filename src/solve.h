@@ -20,10 +20,10 @@ void tb_solver_free(tb_solver *solver);
 tb_status tb_solver_factor(tb_solver *solver, const double *Mx, size_t *culprit);
 
 /* Refactors with the pivot order of the last factorization; when the pivots
- * degrade (reciprocal pivot growth below min_rgrowth times that of the last
- * pivoted factorization) or a pivot vanishes, factors again with pivoting.
- * Errors as tb_solver_factor. */
-tb_status tb_solver_refactor(tb_solver *solver, const double *Mx, double min_rgrowth,
+ * degrade (KLU's cheap min/max |U_ii| ratio falls below rcond_drop times that
+ * of the last pivoted factorization) or a pivot vanishes, factors again with
+ * pivoting. Errors as tb_solver_factor. */
+tb_status tb_solver_refactor(tb_solver *solver, const double *Mx, double rcond_drop,
                              size_t *culprit);
 
 /* Solves M X = B in place for nrhs right-hand sides stored one after the other

@@ -46,7 +46,7 @@ void tb_sweep_grid(const tb_ac_spec *ac, double *f)
 void tb_options_init(tb_options *opt)
 {
     opt->dc = true;
-    opt->refactor_rgrowth = 1e-8;
+    opt->refactor_rcond_drop = 1e-6;
 }
 
 void tb_result_free(tb_result *res)
@@ -145,7 +145,7 @@ static tb_status sweep_points(sweeper *s, const tb_options *opt, tb_result *res)
         double omega = TWO_PI * f;
         tb_mna_values(s->mna, omega, s->Mx);
         tb_status st = i == 0 ? tb_solver_factor(s->solver, s->Mx, &culprit)
-                              : tb_solver_refactor(s->solver, s->Mx, opt->refactor_rgrowth, &culprit);
+                              : tb_solver_refactor(s->solver, s->Mx, opt->refactor_rcond_drop, &culprit);
         if (st == TB_ERR_SINGULAR)
             return singular_diag(s, TB_SEV_ERROR, f, culprit, "");
         if (st || (st = tb_loop_eval(s->mna, s->solver, s->Mx, omega, s->work, s->row)))
