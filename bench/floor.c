@@ -1,15 +1,23 @@
 /* bench/floor.c: times the per-point floor (values, KLU refactor, one solve) on a netlist's own matrix */
 /*
- * Usage: floor NETLIST [REPEATS]
+ * Usage: floor NETLIST [REPEATS [LOOP]]
  * Reads NETLIST with tb_circuit_read, stamps it once, runs KLU's symbolic
  * analysis once and a pivoted factorization at the first sweep frequency,
- * then times three per-point loops over the netlist's .ac grid, each the
- * best of REPEATS (default 3) passes:
- *   floor  tb_mna_values + tb_solver_refactor + tb_solver_solve (1 RHS): the floor
- *   klu    tb_mna_values + klu_z_refactor + klu_z_solve (1 RHS): KLU alone,
- *          without tb_solver's pivot-growth check
- *   loop   tb_mna_values + tb_solver_refactor + tb_loop_eval: what tbeta's
- *          sweep does at each point, in process
+ * then times per-point loops over the netlist's .ac grid, each the best of
+ * REPEATS (default 3) passes over every frequency:
+ *   floor     tb_mna_values + tb_solver_refactor + tb_solver_solve (1 RHS): the floor
+ *   klu       tb_mna_values + klu_z_refactor + klu_z_solve (1 RHS): KLU alone,
+ *             without tb_solver's pivot check
+ *   loop      tb_mna_values + tb_solver_refactor + tb_loop_eval: tbeta's whole
+ *             per-point work, in process
+ * and, to account for the difference, its parts:
+ *   values    tb_mna_values
+ *   refactor  tb_mna_values + klu_z_refactor (KLU's row scaling included)
+ *   rcond     klu_z_rcond, the pivot check of tb_solver_refactor
+ *   solve1    klu_z_solve with 1 right-hand side
+ *   solve2    klu_z_solve with 2 right-hand sides (x and w of one loop)
+ * LOOP names one of these loops (e.g. "klu") to time only that one, for
+ * profiling under perf or callgrind.
  * Prints one "key value" line per figure (seconds, counts) on stdout.
  * The benchmark includes klu.h itself to time KLU bare; the library keeps
  * that header to src/solve.c.
@@ -30,7 +38,21 @@
 
 static const double TWO_PI = 6.28318530717958647692528676655900577;
 
-typedef enum { RUN_FLOOR, RUN_KLU, RUN_LOOP } run_kind;
+typedef enum {
+    RUN_FLOOR,
+    RUN_KLU,
+    RUN_LOOP,
+    RUN_VALUES,
+    RUN_REFACTOR,
+    RUN_RCOND,
+    RUN_SOLVE1,
+    RUN_SOLVE2,
+    RUN_COUNT
+} run_kind;
+
+static const char *const run_names[] = {"floor_s",   "klu_s",     "loop_s",   "values_s",
+                                         "refactor_s", "rcond_s", "solve1_s", "solve2_s"};
+_Static_assert(sizeof run_names / sizeof run_names[0] == RUN_COUNT, "run_names out of step");
 
 /* Everything the timed loops use, set up once. */
 typedef struct {
@@ -100,7 +122,7 @@ static int prepare(bench *b)
     b->npoints = tb_sweep_count(&b->ckt->ac);
     b->freqs = tb_malloc(b->npoints, sizeof(double));
     b->Mx = tb_malloc(2 * b->mna->nnz, sizeof(double));
-    b->rhs = tb_malloc(b->mna->n, sizeof(double complex));
+    b->rhs = tb_malloc(2 * b->mna->n, sizeof(double complex));
     b->row = tb_calloc(b->mna->loop_count, sizeof(tb_point));
     if (b->npoints == 0 || !b->freqs || !b->Mx || !b->rhs || !b->row)
         return fail("allocation");
@@ -125,38 +147,67 @@ static int prepare(bench *b)
     return 0;
 }
 
-static void put_b(const bench *b)
+/* b in the first column of rhs; with two columns, u of the first loop (or b again) in the second. */
+static void put_rhs(const bench *b, int ncols)
 {
-    memset(b->rhs, 0, b->mna->n * sizeof(double complex));
+    size_t n = b->mna->n;
+    memset(b->rhs, 0, (size_t)ncols * n * sizeof(double complex));
     tb_svec_axpy(&b->mna->b, 1.0, b->rhs);
+    if (ncols == 2)
+        tb_svec_axpy(b->mna->loop_count ? &b->mna->loops[0].u : &b->mna->b, 1.0, b->rhs + n);
+}
+
+static int bare_refactor(bench *b)
+{
+    return klu_z_refactor(b->mna->Ap, b->mna->Ai, b->Mx, b->symbolic, b->numeric, &b->common);
+}
+
+static int bare_solve(bench *b, int ncols)
+{
+    put_rhs(b, ncols);
+    return klu_z_solve(b->symbolic, b->numeric, (int)b->mna->n, ncols, (double *)b->rhs,
+                       &b->common);
+}
+
+/* The work of one point; 1 when it succeeded. */
+static int point(bench *b, run_kind kind, double omega)
+{
+    size_t culprit = 0;
+    if (kind != RUN_RCOND && kind != RUN_SOLVE1 && kind != RUN_SOLVE2)
+        tb_mna_values(b->mna, omega, b->Mx);
+    switch (kind) {
+    case RUN_FLOOR:
+        put_rhs(b, 1);
+        return !tb_solver_refactor(b->solver, b->Mx, 1e-6, &culprit) &&
+               !tb_solver_solve(b->solver, b->rhs, 1);
+    case RUN_KLU:
+        return bare_refactor(b) && bare_solve(b, 1);
+    case RUN_LOOP:
+        return !tb_solver_refactor(b->solver, b->Mx, 1e-6, &culprit) &&
+               !tb_loop_eval(b->mna, b->solver, b->Mx, omega, b->work, b->row);
+    case RUN_VALUES:
+        return 1;
+    case RUN_REFACTOR:
+        return bare_refactor(b);
+    case RUN_RCOND:
+        return klu_z_rcond(b->symbolic, b->numeric, &b->common);
+    case RUN_SOLVE1:
+        return bare_solve(b, 1);
+    case RUN_SOLVE2:
+        return bare_solve(b, 2);
+    case RUN_COUNT:
+        break;
+    }
+    return 0;
 }
 
 /* One timed pass over the grid; returns seconds per point, or -1 on failure. */
 static double pass(bench *b, run_kind kind)
 {
     double t0 = now();
-    for (size_t i = 0; i < b->npoints; i++) {
-        size_t culprit = 0;
-        int ok = 1;
-        double omega = TWO_PI * b->freqs[i];
-        tb_mna_values(b->mna, omega, b->Mx);
-        if (kind == RUN_KLU) {
-            put_b(b);
-            ok = klu_z_refactor(b->mna->Ap, b->mna->Ai, b->Mx, b->symbolic, b->numeric,
-                                &b->common) &&
-                 klu_z_solve(b->symbolic, b->numeric, (int)b->mna->n, 1, (double *)b->rhs,
-                             &b->common);
-        } else if (tb_solver_refactor(b->solver, b->Mx, 1e-8, &culprit)) {
-            ok = 0;
-        } else if (kind == RUN_FLOOR) {
-            put_b(b);
-            ok = tb_solver_solve(b->solver, b->rhs, 1) == TB_OK;
-        } else {
-            ok = tb_loop_eval(b->mna, b->solver, b->Mx, omega, b->work, b->row) == TB_OK;
-        }
-        if (!ok)
+    for (size_t i = 0; i < b->npoints; i++)
+        if (!point(b, kind, TWO_PI * b->freqs[i]))
             return -1;
-    }
     return (now() - t0) / (double)b->npoints;
 }
 
@@ -191,20 +242,23 @@ static void teardown(bench *b)
 
 int main(int argc, char **argv)
 {
-    if (argc < 2 || argc > 3) {
-        fputs("usage: floor NETLIST [REPEATS]\n", stderr);
+    if (argc < 2 || argc > 4) {
+        fputs("usage: floor NETLIST [REPEATS [LOOP]]\n", stderr);
         return 2;
     }
-    int repeats = argc == 3 ? atoi(argv[2]) : 3;
+    int repeats = argc >= 3 ? atoi(argv[2]) : 3;
+    const char *only = argc == 4 ? argv[3] : NULL;
     bench b = {0};
     int rc = setup(&b, argv[1]) || prepare(&b);
-    static const char *const names[] = {"floor_s", "klu_s", "loop_s"};
-    for (int k = RUN_FLOOR; rc == 0 && k <= RUN_LOOP; k++) {
+    for (int k = 0; rc == 0 && k < RUN_COUNT; k++) {
+        size_t len = only ? strlen(only) : 0;
+        if (only && (strncmp(run_names[k], only, len) != 0 || run_names[k][len] != '_'))
+            continue;
         double t = best_of(&b, (run_kind)k, repeats < 1 ? 1 : repeats);
         if (t < 0)
-            rc = fail(names[k]);
+            rc = fail(run_names[k]);
         else
-            printf("%s %.9f\n", names[k], t);
+            printf("%s %.9f\n", run_names[k], t);
     }
     teardown(&b);
     return rc;

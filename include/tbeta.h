@@ -48,6 +48,7 @@ typedef struct tb_diag tb_diag;
 /* A new, empty diagnostics list; NULL when out of memory. Free with tb_diag_free. */
 TB_API tb_diag *tb_diag_new(void);
 TB_API void tb_diag_free(tb_diag *diag);
+/* Number of diagnostics (errors and warnings), and of errors alone. */
 TB_API size_t tb_diag_count(const tb_diag *diag);
 TB_API size_t tb_diag_errors(const tb_diag *diag);
 /* Entry i (0 <= i < count); NULL when out of range. Valid until the list is freed. */
@@ -70,8 +71,10 @@ TB_API tb_status tb_circuit_parse(const char *text, size_t len, const char *file
 /* Reads and parses the netlist file at path; TB_ERR_IO when it cannot be read
  * (with a diagnostic), otherwise as tb_circuit_parse. */
 TB_API tb_status tb_circuit_read(const char *path, tb_diag *diag, tb_circuit **out);
+/* Frees a circuit and every name it owns (NULL is fine). */
 TB_API void tb_circuit_free(tb_circuit *ckt);
 
+/* The netlist's first line, trimmed ("" when empty); owned by the circuit. */
 TB_API const char *tb_circuit_title(const tb_circuit *ckt);
 /* Number of .loop directives, and the name of loop i's controlled source as written. */
 TB_API size_t tb_circuit_loop_count(const tb_circuit *ckt);
@@ -113,6 +116,7 @@ typedef struct {
                                  * last pivoted one's factors again with pivoting (default 1e-6) */
 } tb_options;
 
+/* Sets every field of *opt to its default. */
 TB_API void tb_options_init(tb_options *opt);
 
 typedef struct tb_result tb_result;
@@ -123,8 +127,10 @@ typedef struct tb_result tb_result;
  * node or branch and the frequency), TB_ERR_NOMEM, TB_ERR_USAGE. */
 TB_API tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag,
                             tb_result **out);
+/* Frees a result (NULL is fine). */
 TB_API void tb_result_free(tb_result *res);
 
+/* Number of sweep frequencies, and of loops (one per .loop, in netlist order). */
 TB_API size_t tb_result_points(const tb_result *res);
 TB_API size_t tb_result_loops(const tb_result *res);
 /* Frequencies in Hz, ascending, tb_result_points of them. */

@@ -138,7 +138,7 @@ static tb_name_slot *find_slot(const tb_circuit *ckt, const tb_name_index *idx, 
     size_t i = h & mask;
     while (idx->slots[i].index1) {
         const tb_name_slot *slot = &idx->slots[i];
-        if (slot->hash == h && name_eq_n(name_of(ckt, slot->index1 - 1), name, len))
+        if (slot->hash == (uint32_t)(h >> 32) && name_eq_n(name_of(ckt, slot->index1 - 1), name, len))
             return &idx->slots[i];
         i = (i + 1) & mask;
     }
@@ -158,7 +158,8 @@ static bool index_find(const tb_circuit *ckt, const tb_name_index *idx, name_of_
 }
 
 /* Doubles the table while it would be more than half full with `entries`. */
-static tb_status index_reserve(tb_name_index *idx, size_t entries)
+static tb_status index_reserve(const tb_circuit *ckt, tb_name_index *idx, name_of_fn name_of,
+                               size_t entries)
 {
     if (entries * 2 <= idx->cap)
         return TB_OK;
@@ -171,7 +172,8 @@ static tb_status index_reserve(tb_name_index *idx, size_t entries)
     for (size_t k = 0; k < idx->cap; k++) {
         if (!idx->slots[k].index1)
             continue;
-        size_t i = idx->slots[k].hash & (bigger.cap - 1);
+        const char *nm = name_of(ckt, idx->slots[k].index1 - 1);
+        size_t i = hash_name(nm, strlen(nm)) & (bigger.cap - 1);
         while (bigger.slots[i].index1) /* names in the old table are distinct */
             i = (i + 1) & (bigger.cap - 1);
         bigger.slots[i] = idx->slots[k];
@@ -186,7 +188,7 @@ static tb_status index_reserve(tb_name_index *idx, size_t entries)
 static tb_status index_add(const tb_circuit *ckt, tb_name_index *idx, name_of_fn name_of,
                            size_t i, size_t *earlier)
 {
-    if (index_reserve(idx, i + 1))
+    if (index_reserve(ckt, idx, name_of, i + 1))
         return TB_ERR_NOMEM;
     const char *nm = name_of(ckt, i);
     size_t len = strlen(nm);
@@ -194,7 +196,7 @@ static tb_status index_add(const tb_circuit *ckt, tb_name_index *idx, name_of_fn
     tb_name_slot *slot = find_slot(ckt, idx, name_of, nm, len, h);
     *earlier = slot->index1 ? slot->index1 - 1 : SIZE_MAX;
     if (!slot->index1)
-        *slot = (tb_name_slot){i + 1, h};
+        *slot = (tb_name_slot){(uint32_t)(i + 1), (uint32_t)(h >> 32)};
     return TB_OK;
 }
 

@@ -4,12 +4,14 @@
 
 #include <stdbool.h>
 #include <stddef.h>
+#include <stdint.h>
 
 #include "tbeta.h"
 
 /* Hard limits, each reported by name when passed. */
 #define TB_MAX_NODES ((size_t)50000000)
 #define TB_MAX_ELEMENTS ((size_t)50000000)
+_Static_assert(TB_MAX_NODES < UINT32_MAX && TB_MAX_ELEMENTS < UINT32_MAX, "name slots hold 32-bit indices");
 #define TB_MAX_LOOPS ((size_t)10000)
 
 typedef enum {
@@ -84,8 +86,8 @@ typedef struct {
 /* One slot of a name index: index + 1 (0 = empty) and the name's hash, so that
  * probes compare names only when the hashes agree. */
 typedef struct {
-    size_t index1;
-    size_t hash;
+    uint32_t index1; /* the node and element limits keep indices below 2^32 - 1 */
+    uint32_t hash;   /* the upper half of the 64-bit hash (the lower bits pick the slot) */
 } tb_name_slot;
 
 /* Open-addressing hash from a case-insensitive name to an index. */
