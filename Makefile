@@ -10,8 +10,8 @@ WARN     := -std=c11 -Wall -Wextra -Werror -Wshadow -Wmissing-prototypes -Wstric
 CPPFLAGS := -Iinclude -Isrc -I/usr/include/suitesparse -D_POSIX_C_SOURCE=200809L
 CFLAGS   := $(WARN) $(OPT) $(SAN) -fvisibility=hidden
 LDFLAGS  := $(SAN)
-LDLIBS   := -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -lm
-TESTLIBS := -lcmocka -llapack -lblas
+LDLIBS   := -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -llapack -lblas -lm
+TESTLIBS := -lcmocka
 
 LIB_SRC  := $(filter-out src/main.c,$(wildcard src/*.c))
 LIB_OBJ  := $(LIB_SRC:src/%.c=$(BUILD)/obj/%.o)
