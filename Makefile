@@ -20,7 +20,7 @@ TEST_BIN := $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)
 DEPS_OK  := $(BUILD)/.deps-ok
 DEMO     ?= netlists/noninverting_loaded_opamp.net
 
-.PHONY: all deps test check demo asan valgrind debug bench clean
+.PHONY: all deps test check demo asan valgrind debug bench fuzz clean
 all: $(BUILD)/tbeta $(BUILD)/libtbeta.a
 
 $(DEPS_OK):
@@ -71,6 +71,19 @@ debug:
 
 bench: $(BUILD)/tbeta $(BUILD)/libtbeta.a
 	@sh bench/run.sh $(BUILD)
+
+# fuzz: libFuzzer (clang) over read-parse-analyse-report for SECONDS seconds, corpus in
+# build/fuzz/corpus seeded from netlists/ and tests/bad/; crashes land in build/fuzz/.
+SECONDS  ?= 60
+FUZZ_CC  := clang
+FUZZ_FLAGS := -std=c11 -g -O1 -fsanitize=fuzzer,address,undefined -fno-sanitize-recover=all
+fuzz:
+	@sh scripts/deps.sh clang libclang-rt-14-dev
+	@mkdir -p build/fuzz/corpus
+	$(FUZZ_CC) $(FUZZ_FLAGS) $(CPPFLAGS) $(LIB_SRC) tests/fuzz/fuzz_netlist.c $(LDLIBS) -o build/fuzz/fuzz_netlist
+	cp netlists/*.net tests/bad/*.net tests/ref/*.net build/fuzz/corpus/ 2>/dev/null || true
+	cd build/fuzz && ./fuzz_netlist -max_total_time=$(SECONDS) -max_len=4096 -timeout=10 \
+	    -print_final_stats=1 corpus
 
 clean:
 	rm -rf build

@@ -7,6 +7,11 @@
 
 #include "circuit.h"
 
+/* C11's CMPLX, which glibc defines only for gcc; clang (the fuzz build) has the builtin. */
+#ifndef CMPLX
+#define CMPLX(re, im) __builtin_complex((double)(re), (double)(im))
+#endif
+
 /* A sparse vector with at most two entries (e_p - e_n and the like). */
 typedef struct {
     int count;
