@@ -9,6 +9,8 @@
 
 #include "alloc.h"
 #include "diag.h"
+#include "suggest.h"
+#include "topology.h"
 
 /* ---- string arena ---------------------------------------------------- */
 
@@ -76,7 +78,59 @@ void tb_circuit_free(tb_circuit *ckt)
     tb_free(ckt->elem_index.slots);
     tb_free(ckt->elems);
     tb_free(ckt->loops);
+    for (size_t i = 0; i < ckt->source_count; i++)
+        tb_free(ckt->sources[i].text);
+    tb_free(ckt->sources);
     tb_free(ckt);
+}
+
+/* ---- source texts ------------------------------------------------------ */
+
+/* Most source texts one circuit keeps (the netlist and its includes). */
+#define MAX_SOURCES ((size_t)1000000)
+
+tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, size_t len,
+                                const char **file_out)
+{
+    const char *name = tb_circuit_intern(ckt, file, strlen(file));
+    if (!name || tb_grow(&ckt->sources, &ckt->source_cap, ckt->source_count + 1,
+                         sizeof(tb_source), MAX_SOURCES)) {
+        tb_free(text);
+        return TB_ERR_NOMEM;
+    }
+    ckt->sources[ckt->source_count++] = (tb_source){name, text, len};
+    if (file_out)
+        *file_out = name;
+    return TB_OK;
+}
+
+const char *tb_circuit_source_line(const tb_circuit *ckt, const char *file, int line, size_t *len)
+{
+    if (!ckt || !file || line < 1)
+        return NULL;
+    const tb_source *src = NULL;
+    for (size_t i = ckt->source_count; i-- > 0 && !src;)
+        if (ckt->sources[i].file == file || strcmp(ckt->sources[i].file, file) == 0)
+            src = &ckt->sources[i];
+    if (!src)
+        return NULL;
+    const char *text = src->text;
+    size_t n = src->len;
+    size_t pos = 0;
+    for (int l = 1; l < line; l++) {
+        while (pos < n && text[pos] != '\n' && text[pos] != '\r')
+            pos++;
+        if (pos >= n)
+            return NULL;
+        if (text[pos] == '\r' && pos + 1 < n && text[pos + 1] == '\n')
+            pos++;
+        pos++;
+    }
+    size_t end = pos;
+    while (end < n && text[end] != '\n' && text[end] != '\r')
+        end++;
+    *len = end - pos;
+    return text + pos;
 }
 
 /* ---- names ----------------------------------------------------------- */
@@ -281,32 +335,9 @@ const char *tb_circuit_unknown_name(const tb_circuit *ckt, size_t i, char *buf, 
 
 typedef struct {
     tb_circuit *ckt;
-    const char *text;
-    size_t len;
     tb_diag *diag;
     tb_status status;
 } checker;
-
-/* Finds physical line `line` (1-based) of the source; CR, LF and CRLF end lines. */
-static const char *source_line(const checker *ck, int line, size_t *out_len)
-{
-    if (!ck->text || line < 1)
-        return NULL;
-    size_t pos = 0;
-    for (int l = 1; l < line && pos < ck->len; l++) {
-        while (pos < ck->len && ck->text[pos] != '\n' && ck->text[pos] != '\r')
-            pos++;
-        if (pos < ck->len && ck->text[pos] == '\r' && pos + 1 < ck->len && ck->text[pos + 1] == '\n')
-            pos++;
-        if (pos < ck->len)
-            pos++;
-    }
-    size_t end = pos;
-    while (end < ck->len && ck->text[end] != '\n' && ck->text[end] != '\r')
-        end++;
-    *out_len = end - pos;
-    return ck->text + pos;
-}
 
 static void report(checker *ck, tb_severity sev, tb_loc loc, const char *fmt, ...)
     __attribute__((format(printf, 4, 5)));
@@ -317,10 +348,11 @@ static void report(checker *ck, tb_severity sev, tb_loc loc, const char *fmt, ..
         return;
     }
     size_t src_len = 0;
-    const char *src = source_line(ck, loc.line, &src_len);
+    const char *file = loc.file ? loc.file : ck->ckt->file;
+    const char *src = tb_circuit_source_line(ck->ckt, file, loc.line, &src_len);
     va_list ap;
     va_start(ap, fmt);
-    tb_status st = tb_diag_vadd(ck->diag, sev, loc.file ? loc.file : ck->ckt->file, loc.line,
+    tb_status st = tb_diag_vadd(ck->diag, sev, file, loc.line,
                                 loc.col, src, src_len, fmt, ap);
     va_end(ap);
     if (st != TB_OK)
@@ -333,6 +365,7 @@ static const char *const kind_word[TB_EL_COUNT] = {
     "resistor", "capacitor", "inductor", "voltage source", "current source",
     "voltage-controlled voltage source", "voltage-controlled current source",
     "current-controlled current source", "current-controlled voltage source",
+    "mutual inductance",
 };
 _Static_assert(sizeof(kind_word) / sizeof(kind_word[0]) == TB_EL_COUNT, "kind_word in step");
 
@@ -340,6 +373,61 @@ const char *tb_elem_kind_word(tb_elem_kind kind)
 {
     return (unsigned)kind < TB_EL_COUNT ? kind_word[kind] : "element";
 }
+
+/* ---- "did you mean": the closest existing name, for messages -------------- */
+
+typedef bool (*kind_test)(tb_elem_kind k);
+
+static bool is_vsource(tb_elem_kind k)
+{
+    return k == TB_EL_V;
+}
+
+static bool is_independent(tb_elem_kind k)
+{
+    return k == TB_EL_V || k == TB_EL_I;
+}
+
+static bool is_controlled(tb_elem_kind k)
+{
+    return k == TB_EL_E || k == TB_EL_G || k == TB_EL_F || k == TB_EL_H;
+}
+
+/* " (did you mean 'NAME'?)" in buf, or "" when nothing is close enough. */
+static const char *did_you_mean(const char *best, char *buf, size_t size)
+{
+    if (!best)
+        return "";
+    snprintf(buf, size, " (did you mean '%.*s'?)", TB_SUGGEST_MAX_LEN + TB_SUGGEST_MAX_LEN / 3,
+             best);
+    return buf;
+}
+
+/* The suggestion among elements whose kind passes `accept` and that skip
+ * (per element, may be NULL) does not exclude. */
+static const char *suggest_element(const tb_circuit *ckt, const char *name, kind_test accept,
+                                   const bool *skip, char *buf, size_t size)
+{
+    tb_suggester s;
+    tb_suggest_init(&s, name);
+    for (size_t i = 0; i < ckt->elem_count; i++)
+        if (accept(ckt->elems[i].kind) && !(skip && skip[i]) &&
+            ckt->elems[i].first_same_name == SIZE_MAX)
+            tb_suggest_offer(&s, ckt->elems[i].name);
+    return did_you_mean(tb_suggest_best(&s), buf, size);
+}
+
+/* The suggestion among the nodes other than ground. */
+static const char *suggest_node(const tb_circuit *ckt, const char *name, char *buf, size_t size)
+{
+    tb_suggester s;
+    tb_suggest_init(&s, name);
+    for (size_t i = 1; i < ckt->node_count; i++)
+        tb_suggest_offer(&s, ckt->node_names[i]);
+    return did_you_mean(tb_suggest_best(&s), buf, size);
+}
+
+#define SUGGEST_SIZE (TB_SUGGEST_MAX_LEN * 2 + 32)
 
 static void check_duplicates(checker *ck)
 {
@@ -361,9 +449,11 @@ static void check_sensing(checker *ck)
         if (e->kind != TB_EL_F && e->kind != TB_EL_H)
             continue;
         size_t j = 0;
+        char hint[SUGGEST_SIZE];
         if (!tb_circuit_find_element(ckt, e->ctrl_name, &j))
-            report(ck, TB_SEV_ERROR, e->loc, "%s senses the current of '%s', which does not exist",
-                   e->name, e->ctrl_name);
+            report(ck, TB_SEV_ERROR, e->loc,
+                   "%s senses the current of '%s', which does not exist%s", e->name, e->ctrl_name,
+                   suggest_element(ckt, e->ctrl_name, is_vsource, NULL, hint, sizeof hint));
         else if (ckt->elems[j].kind != TB_EL_V)
             report(ck, TB_SEV_ERROR, e->loc,
                    "%s senses the current of '%s', a %s; a voltage source is expected", e->name,
@@ -373,9 +463,71 @@ static void check_sensing(checker *ck)
     }
 }
 
-static bool is_controlled(tb_elem_kind k)
+/* K: both names must be inductors, distinct, of one sign (M = k sqrt(L1 L2)). */
+static bool coupled_inductor(checker *ck, tb_element *e, const char *name, size_t *index)
 {
-    return k == TB_EL_E || k == TB_EL_G || k == TB_EL_F || k == TB_EL_H;
+    tb_circuit *ckt = ck->ckt;
+    if (!tb_circuit_find_element(ckt, name, index)) {
+        report(ck, TB_SEV_ERROR, e->loc, "%s couples '%s', which does not exist", e->name, name);
+        return false;
+    }
+    if (ckt->elems[*index].kind != TB_EL_L) {
+        report(ck, TB_SEV_ERROR, e->loc, "%s couples '%s', a %s; an inductor is expected",
+               e->name, name, kind_word[ckt->elems[*index].kind]);
+        return false;
+    }
+    return true;
+}
+
+static void check_coupling(checker *ck)
+{
+    tb_circuit *ckt = ck->ckt;
+    for (size_t i = 0; i < ckt->elem_count; i++) {
+        tb_element *e = &ckt->elems[i];
+        size_t a = 0;
+        size_t b = 0;
+        if (e->kind != TB_EL_K || !coupled_inductor(ck, e, e->ctrl_name, &a) ||
+            !coupled_inductor(ck, e, e->ctrl2_name, &b))
+            continue;
+        if (a == b)
+            report(ck, TB_SEV_ERROR, e->loc, "%s couples '%s' with itself", e->name,
+                   ckt->elems[a].name);
+        else if ((ckt->elems[a].value > 0) != (ckt->elems[b].value > 0))
+            report(ck, TB_SEV_ERROR, e->loc,
+                   "%s couples '%s' and '%s', whose inductances differ in sign", e->name,
+                   ckt->elems[a].name, ckt->elems[b].name);
+        e->ctrl = a;
+        e->ctrl2 = b;
+    }
+}
+
+/* Per element: named by a .loop already (not a suggestion for another one).
+ * NULL (with status TB_ERR_NOMEM) when out of memory. */
+static bool *loop_sources(checker *ck)
+{
+    tb_circuit *ckt = ck->ckt;
+    bool *named = tb_calloc(ckt->elem_count + 1, sizeof(bool));
+    if (!named) {
+        ck->status = TB_ERR_NOMEM;
+        return NULL;
+    }
+    for (size_t l = 0; l < ckt->loop_count; l++) {
+        size_t j = 0;
+        if (tb_circuit_find_element(ckt, ckt->loops[l].source, &j))
+            named[j] = true;
+    }
+    return named;
+}
+
+static void report_missing_loop(checker *ck, const tb_loop_spec *lp, bool **named)
+{
+    char hint[SUGGEST_SIZE];
+    if (!*named)
+        *named = loop_sources(ck);
+    const char *mean = *named ? suggest_element(ck->ckt, lp->source, is_controlled, *named, hint,
+                                                sizeof hint)
+                              : "";
+    report(ck, TB_SEV_ERROR, lp->loc, ".loop names '%s', which does not exist%s", lp->source, mean);
 }
 
 static void check_loops(checker *ck)
@@ -386,11 +538,12 @@ static void check_loops(checker *ck)
         report(ck, TB_SEV_ERROR, whole,
                "nothing to analyse: no .loop directive marks a controlled source (E, G, F or H)");
     }
+    bool *named = NULL; /* made when a name is missing */
     for (size_t l = 0; l < ckt->loop_count; l++) {
         tb_loop_spec *lp = &ckt->loops[l];
         size_t j = 0;
         if (!tb_circuit_find_element(ckt, lp->source, &j)) {
-            report(ck, TB_SEV_ERROR, lp->loc, ".loop names '%s', which does not exist", lp->source);
+            report_missing_loop(ck, lp, &named);
             continue;
         }
         if (!is_controlled(ckt->elems[j].kind)) {
@@ -405,12 +558,15 @@ static void check_loops(checker *ck)
                 report(ck, TB_SEV_ERROR, lp->loc, "'%s' is marked by .loop twice (first on line %d)",
                        lp->source, ckt->loops[m].loc.line);
     }
+    tb_free(named);
 }
 
 static void check_io_node(checker *ck, const char *name, int *node)
 {
+    char hint[SUGGEST_SIZE];
     if (name && !tb_circuit_find_node(ck->ckt, name, strlen(name), node))
-        report(ck, TB_SEV_ERROR, ck->ckt->io.out_loc, ".io output node '%s' does not exist", name);
+        report(ck, TB_SEV_ERROR, ck->ckt->io.out_loc, ".io output node '%s' does not exist%s", name,
+               suggest_node(ck->ckt, name, hint, sizeof hint));
 }
 
 static void check_io(checker *ck)
@@ -419,8 +575,10 @@ static void check_io(checker *ck)
     if (!io->given)
         return;
     size_t j = 0;
+    char hint[SUGGEST_SIZE];
     if (!tb_circuit_find_element(ck->ckt, io->source, &j))
-        report(ck, TB_SEV_ERROR, io->loc, ".io input '%s' does not exist", io->source);
+        report(ck, TB_SEV_ERROR, io->loc, ".io input '%s' does not exist%s", io->source,
+               suggest_element(ck->ckt, io->source, is_independent, NULL, hint, sizeof hint));
     else if (ck->ckt->elems[j].kind != TB_EL_V && ck->ckt->elems[j].kind != TB_EL_I)
         report(ck, TB_SEV_ERROR, io->loc,
                ".io input '%s' is a %s; an independent V or I source is expected", io->source,
@@ -434,8 +592,8 @@ static void check_io(checker *ck)
         return;
     }
     if (!tb_circuit_find_element(ck->ckt, io->out_a, &j))
-        report(ck, TB_SEV_ERROR, io->out_loc, ".io output i(%s): '%s' does not exist", io->out_a,
-               io->out_a);
+        report(ck, TB_SEV_ERROR, io->out_loc, ".io output i(%s): '%s' does not exist%s", io->out_a,
+               io->out_a, suggest_element(ck->ckt, io->out_a, is_vsource, NULL, hint, sizeof hint));
     else if (ck->ckt->elems[j].kind != TB_EL_V)
         report(ck, TB_SEV_ERROR, io->out_loc,
                ".io output i(%s): '%s' is a %s; currents are read through voltage sources",
@@ -454,13 +612,32 @@ static void number_branches(tb_circuit *ckt)
     }
 }
 
-tb_status tb_circuit_finish(tb_circuit *ckt, const char *text, size_t len, tb_diag *diag)
+static void topology_sink(void *ctx, tb_severity sev, tb_loc loc, const char *message)
 {
-    checker ck = {ckt, text, len, diag, TB_OK};
+    report(ctx, sev, loc, "%s", message);
+}
+
+/* Structural checks (src/topology.c), only once every reference resolved:
+ * with a name missing, the structure is not the one the netlist means. */
+static void check_topology(checker *ck)
+{
+    bool dc_singular = false;
+    if (ck->status != TB_OK || ck->ckt->node_count < 2)
+        return;
+    if (tb_topology_check(ck->ckt, topology_sink, ck, &dc_singular) != TB_OK)
+        ck->status = TB_ERR_NOMEM;
+    ck->ckt->dc_singular = dc_singular;
+}
+
+tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag)
+{
+    checker ck = {ckt, diag, TB_OK};
     check_duplicates(&ck);
     check_sensing(&ck);
+    check_coupling(&ck);
     check_loops(&ck);
     check_io(&ck);
+    check_topology(&ck);
     if (ckt->node_count < 2) {
         tb_loc whole = {ckt->file, 0, 0};
         report(&ck, TB_SEV_ERROR, whole, "the circuit has no node other than ground");

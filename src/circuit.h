@@ -24,6 +24,7 @@ typedef enum {
     TB_EL_G,
     TB_EL_F,
     TB_EL_H,
+    TB_EL_K, /* mutual inductance between two inductors */
     TB_EL_COUNT
 } tb_elem_kind;
 
@@ -40,9 +41,11 @@ typedef struct {
     tb_elem_kind kind;
     const char *name;       /* as written; owned by the circuit */
     int node[4];
-    const char *ctrl_name;  /* F, H: the sensing V source as written */
-    size_t ctrl;            /* F, H: its element index (set by tb_circuit_finish) */
-    double value;           /* R, C, L: ohms, farads, henries; E, G, F, H: gain */
+    const char *ctrl_name;  /* F, H: the sensing V source as written; K: the first inductor */
+    const char *ctrl2_name; /* K: the second inductor as written, else NULL */
+    size_t ctrl;            /* F, H, K: its element index (set by tb_circuit_finish) */
+    size_t ctrl2;           /* K: the second inductor's index (set by tb_circuit_finish) */
+    double value;           /* R, C, L: ohms, farads, henries; E, G, F, H: gain; K: coupling */
     double dc;              /* V, I: DC value */
     double ac_mag;          /* V, I: AC magnitude */
     double ac_phase_deg;    /* V, I: AC phase in degrees */
@@ -96,6 +99,14 @@ typedef struct {
     size_t cap;
 } tb_name_index;
 
+/* One source text the circuit was read from (the netlist and each included
+ * file), kept so that any later diagnostic can quote its lines. */
+typedef struct {
+    const char *file; /* interned name, as in tb_loc */
+    char *text;       /* owned by the circuit */
+    size_t len;
+} tb_source;
+
 struct tb_circuit {
     char *title;
     const char *file;       /* interned netlist name */
@@ -114,6 +125,10 @@ struct tb_circuit {
     size_t loop_cap;
     tb_io_spec io;
     size_t branch_count;    /* set by tb_circuit_finish */
+    bool dc_singular;       /* set by tb_circuit_finish: M(0) is singular by structure (warned) */
+    tb_source *sources;     /* every text read, in reading order */
+    size_t source_count;
+    size_t source_cap;
     struct tb_strblock *strings; /* string arena */
 };
 
@@ -130,11 +145,21 @@ bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *in
  * of the same name may exist already: tb_circuit_finish reports duplicates. */
 tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem);
 tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop);
+/* Hands the circuit a source text read under the name file: the circuit owns
+ * text (a tb_malloc'd buffer of len bytes, need not end in NUL) from this call
+ * on, also when it fails (TB_ERR_NOMEM, text freed). *file_out, when not
+ * NULL, receives the interned name used in tb_loc. */
+tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, size_t len,
+                                const char **file_out);
+/* Physical line `line` (1-based) of the source text read as `file` (compared
+ * by content; the latest source of that name wins), without its line end;
+ * its length goes to *len. NULL when there is no such file or line. */
+const char *tb_circuit_source_line(const tb_circuit *ckt, const char *file, int line, size_t *len);
 /* Resolves references and checks the whole circuit after parsing: duplicate
- * names, .loop/.io/F/H references, a default .ac grid (with a warning),
- * branch numbering. text[0..len) is the netlist source, used only to quote
- * lines in diagnostics (may be NULL). Errors go to diag; TB_ERR_INPUT if any. */
-tb_status tb_circuit_finish(tb_circuit *ckt, const char *text, size_t len, tb_diag *diag);
+ * names, .loop/.io/F/H/K references, a default .ac grid (with a warning),
+ * branch numbering. Source lines are quoted through tb_circuit_source_line.
+ * Errors go to diag; TB_ERR_INPUT if any. */
+tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag);
 /* Name of MNA unknown i: a node name, or "i(NAME)" for a branch current, in buf. */
 const char *tb_circuit_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size_t size);
 /* "resistor", "voltage-controlled voltage source" and the like. */

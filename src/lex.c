@@ -11,7 +11,7 @@
 
 /* Every byte not listed is a word character: printable ASCII other than
  * blanks and ( ) , = ; and every byte of a UTF-8 sequence. */
-enum { C_WORD = 0, C_BLANK, C_EOL, C_PUNCT, C_SEMI, C_BAD };
+enum { C_WORD = 0, C_BLANK, C_EOL, C_PUNCT, C_SEMI, C_BAD, C_BRACE };
 
 static const unsigned char char_class[256] = {
     [0x00] = C_BAD,   [0x01] = C_BAD,   [0x02] = C_BAD,   [0x03] = C_BAD,
@@ -23,7 +23,7 @@ static const unsigned char char_class[256] = {
     [0x18] = C_BAD,   [0x19] = C_BAD,   [0x1A] = C_BAD,   [0x1B] = C_BAD,
     [0x1C] = C_BAD,   [0x1D] = C_BAD,   [0x1E] = C_BAD,   [0x1F] = C_BAD,
     [' '] = C_BLANK,  ['('] = C_PUNCT,  [')'] = C_PUNCT,  [','] = C_PUNCT,
-    ['='] = C_PUNCT,  [';'] = C_SEMI,   [0x7F] = C_BAD,
+    ['='] = C_PUNCT,  [';'] = C_SEMI,   [0x7F] = C_BAD,   ['{'] = C_BRACE,
 };
 
 /* Class of the byte at i; the end of the input counts as a line end. */
@@ -95,6 +95,13 @@ void tb_lex_init(tb_lexer *lx, const char *text, size_t len)
     next_line(lx);
 }
 
+void tb_lex_init_at(tb_lexer *lx, const char *text, size_t len, size_t pos, int line)
+{
+    *lx = (tb_lexer){.text = text, .len = len, .pos = pos, .line_start = pos, .line = line,
+                     .at_bol = true};
+    lx->title = make(lx, TB_TOK_WORD, pos, 0);
+}
+
 /* At the start of a physical line: skips blank and comment lines, then either
  * hands out a token (EOC, EOF, an orphan '+') and returns true, or leaves pos
  * at the line's first token and returns false. */
@@ -161,6 +168,11 @@ tb_token tb_lex_next(tb_lexer *lx)
         lx->pos++;
         if (cls == C_PUNCT) {
             tok = make(lx, punct_kind(lx->text[start]), start, 1);
+        } else if (cls == C_BRACE) {
+            while (class_at(lx, lx->pos) != C_EOL && lx->text[lx->pos] != '}')
+                lx->pos++;
+            lx->pos += class_at(lx, lx->pos) != C_EOL;
+            tok = make(lx, TB_TOK_EXPR, start, lx->pos - start);
         } else if (cls == C_BAD) {
             tok = make(lx, TB_TOK_BAD, start, 1);
         } else {

@@ -11,6 +11,8 @@ typedef enum {
     TB_TOK_RPAREN, /* ) */
     TB_TOK_COMMA,  /* , */
     TB_TOK_EQUALS, /* = */
+    TB_TOK_EXPR,   /* {expression}: from '{' to the first '}' on the same physical
+                    * line, both included; without a '}' it runs to the line's end */
     TB_TOK_PLUS,   /* a '+' line with no card before it to continue */
     TB_TOK_BAD,    /* one control character, which has no place in a netlist */
     TB_TOK_EOC,    /* end of the current card (logical line) */
@@ -44,6 +46,11 @@ typedef struct {
 /* Sets up lx over text[0..len): skips a UTF-8 byte order mark, takes the
  * first physical line as the title (lx->title), and stands at line 2. */
 void tb_lex_init(tb_lexer *lx, const char *text, size_t len);
+
+/* Sets up lx over text[0..len) to read the cards that start at pos, the
+ * start of physical line `line` (no title): a subcircuit body or one card
+ * read again. */
+void tb_lex_init_at(tb_lexer *lx, const char *text, size_t len, size_t pos, int line);
 
 /* The next token of the current card; TB_TOK_EOC when the card ends (the
  * next content line does not start with '+'), then the first token of the

@@ -108,6 +108,18 @@ static tb_status stamp_element(stamper *s, const tb_circuit *ckt, const tb_eleme
             return TB_ERR_NOMEM;
         return TB_OK;
     }
+    case TB_EL_K: {
+        /* mutual inductance M = k sqrt(L1 L2): each inductor's row
+         * v_p - v_n - jw L i - jw M i_other = 0 */
+        const tb_element *l1 = &ckt->elems[e->ctrl];
+        const tb_element *l2 = &ckt->elems[e->ctrl2];
+        double M = e->value * sqrt(l1->value * l2->value);
+        size_t j1 = branch_unknown(s, l1);
+        size_t j2 = branch_unknown(s, l2);
+        if (add(s, j1, j2, 0, -M) || add(s, j2, j1, 0, -M))
+            return TB_ERR_NOMEM;
+        return TB_OK;
+    }
     case TB_EL_COUNT:
         break;
     }

@@ -1,16 +1,21 @@
-/* src/parse.c: recursive-descent parser from netlist cards to a circuit, and reading netlist files */
+/* src/parse.c: recursive-descent parser from netlist cards to a circuit: includes, parameters,
+ * subcircuits expanded into hierarchical names, and reading netlist files */
+#define _XOPEN_SOURCE 700 /* realpath */
 #include <errno.h>
 #include <limits.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdint.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "alloc.h"
 #include "circuit.h"
 #include "diag.h"
+#include "expr.h"
 #include "lex.h"
+#include "suggest.h"
 #include "tbeta.h"
 
 /* Most points per decade, per octave or in all (lin) that .ac accepts. */
@@ -18,17 +23,127 @@
 /* Longest token text quoted in a message; a longer one is cut and ends in "...". */
 #define QUOTE_MAX 40
 #define QUOTE_SIZE (QUOTE_MAX + 4)
+/* Deepest nesting of .include files, of subcircuit instances, of parameters
+ * defined through other parameters. */
+#define MAX_INCLUDE_DEPTH 64
+#define MAX_INSTANCE_DEPTH 100
+#define MAX_PARAM_CHAIN 32
+/* Most subcircuit instances, and elements made by expanding them, per circuit. */
+#define MAX_INSTANCES ((size_t)200000)
+#define MAX_EXPANDED ((size_t)5000000)
+/* Most pins of one subcircuit (and nodes of one X card). */
+#define MAX_PINS ((size_t)100000)
+/* Longest diagnostic message (with its include and instance context lines). */
+#define MESSAGE_SIZE 2048
+
+/* A parameter: a name bound to an expression, evaluated once on first use. */
+typedef enum { PARAM_UNSET, PARAM_BUSY, PARAM_DONE, PARAM_FAILED } param_state;
 
 typedef struct {
+    const char *name; /* interned */
+    tb_token expr;    /* a WORD (an expression without blanks) or an EXPR {...} */
+    size_t src;       /* the source holding expr */
+    double value;
+    param_state state;
+} param;
+
+typedef struct {
+    param *items;
+    size_t count;
+    size_t cap;
+} param_list;
+
+/* A .subckt definition; its body is re-read for every instance. */
+typedef struct {
+    const char *name;
+    tb_token at;            /* the name on the .subckt card */
+    size_t src;
+    const char **pins;      /* interned */
+    size_t pin_count;
+    size_t pin_cap;
+    param_list params;      /* defaults (the first default_count), then .param cards of the body */
+    size_t default_count;
+    size_t body_pos;        /* the body: text[body_pos..body_end) from line body_line */
+    int body_line;
+    size_t body_end;
+    bool busy;              /* being expanded (recursion check) */
+} subckt;
+
+/* One subcircuit instance being expanded. */
+typedef struct {
+    const subckt *def;
+    const char *path;  /* interned hierarchical name, "X1.X2" */
+    size_t path_len;
+    int *pins;         /* the caller's node for each pin */
+    param_list params; /* the definition's, with the instance's values */
+    tb_lexer lx;       /* over the body */
+    size_t src;        /* where the X card is */
+    tb_token at;       /* its name */
+} frame;
+
+/* A source text and where it was included from. */
+typedef struct {
+    const char *file; /* interned in the circuit */
+    const char *text; /* owned by the circuit */
+    size_t len;
+    size_t parent;    /* the including source, SIZE_MAX for the netlist itself */
+    int line;         /* the .include card's line in the parent */
+} src_text;
+
+/* A top-level card found by the first pass, parsed by the second. */
+typedef struct {
+    size_t src;
+    size_t pos; /* start of its first physical line */
+    int line;
+} card_pos;
+
+/* An open file of the first pass. */
+typedef struct {
     tb_lexer lx;
+    size_t src;
+    char *canon; /* canonical path (malloc'd by realpath), NULL when unknown */
+} open_file;
+
+/* Names already taken by instances: open addressing, name and line. */
+typedef struct {
+    const char **names;
+    int *lines;
+    size_t cap;
+    size_t count;
+} name_set;
+
+typedef struct {
+    tb_lexer *lx;   /* the lexer being read */
+    size_t src;     /* its source */
     tb_token tok;   /* the current token */
     tb_token prev;  /* the token consumed before it */
     tb_token first; /* the current card's first token */
-    char name[QUOTE_SIZE]; /* the card in messages: the element name as written, or ".ac" */
+    char name[QUOTE_SIZE]; /* the card in messages: the element name, or ".ac" */
     tb_circuit *ckt;
     tb_diag *diag;
     int errors;
     tb_status status; /* TB_OK; TB_ERR_INPUT after an error; TB_ERR_NOMEM */
+    src_text *srcs;
+    size_t src_count;
+    size_t src_cap;
+    card_pos *cards;
+    size_t card_count;
+    size_t card_cap;
+    param_list globals;
+    subckt *defs;
+    size_t def_count;
+    size_t def_cap;
+    frame *frames;    /* MAX_INSTANCE_DEPTH of them, allocated on first use */
+    size_t depth;
+    const param *chain[MAX_PARAM_CHAIN]; /* parameters being evaluated */
+    size_t chain_len;
+    name_set instances;
+    size_t expanded;  /* elements made inside instances */
+    tb_token *words;  /* scratch: the words of an X or .subckt card */
+    size_t word_count;
+    size_t word_cap;
+    char *scratch;    /* scratch: a hierarchical name */
+    size_t scratch_cap;
 } parser;
 
 /* ---- messages ----------------------------------------------------------- */
@@ -49,11 +164,39 @@ static const char *quote(const tb_token *t, char buf[QUOTE_SIZE])
     return buf;
 }
 
-static void vreport(parser *p, tb_severity sev, const tb_token *at, const char *fmt, va_list ap)
+/* The physical line of source src holding at. */
+static const char *line_at(const src_text *s, const char *at, size_t *len)
 {
+    tb_lexer lx = {.text = s->text, .len = s->len};
+    return tb_lex_line(&lx, at, len);
+}
+
+/* Appends "  included from F:L" for each file around source src, then
+ * "  in instance PATH (F:L)" for each instance being expanded. */
+static void add_context(const parser *p, size_t src, char *msg, size_t size)
+{
+    size_t n = strlen(msg);
+    for (size_t s = src; s < p->src_count && p->srcs[s].parent != SIZE_MAX; s = p->srcs[s].parent)
+        if (n < size)
+            n += (size_t)snprintf(msg + n, size - n, "\n  included from %s:%d",
+                                  p->srcs[p->srcs[s].parent].file, p->srcs[s].line);
+    for (size_t d = p->depth; d-- > 0;) {
+        const frame *f = &p->frames[d];
+        if (n < size)
+            n += (size_t)snprintf(msg + n, size - n, "\n  in instance %s (%s:%d)", f->path,
+                                  p->srcs[f->src].file, f->at.line);
+    }
+}
+
+static void vreport_in(parser *p, tb_severity sev, size_t src, const tb_token *at,
+                       const char *fmt, va_list ap)
+{
+    char msg[MESSAGE_SIZE];
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    add_context(p, src, msg, sizeof msg);
     size_t line_len = 0;
-    const char *line = tb_lex_line(&p->lx, at->ptr, &line_len);
-    if (tb_diag_vadd(p->diag, sev, p->ckt->file, at->line, at->col, line, line_len, fmt, ap)) {
+    const char *line = line_at(&p->srcs[src], at->ptr, &line_len);
+    if (tb_diag_add(p->diag, sev, p->srcs[src].file, at->line, at->col, line, line_len, "%s", msg)) {
         p->status = TB_ERR_NOMEM;
     } else if (sev == TB_SEV_ERROR) {
         p->errors++;
@@ -62,14 +205,27 @@ static void vreport(parser *p, tb_severity sev, const tb_token *at, const char *
     }
 }
 
-/* Records an error at token at; always false, so a card can `return error(...)`. */
+/* Records an error at token at of source src; always false. */
+static bool error_in(parser *p, size_t src, const tb_token *at, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+static bool error_in(parser *p, size_t src, const tb_token *at, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vreport_in(p, TB_SEV_ERROR, src, at, fmt, ap);
+    va_end(ap);
+    return false;
+}
+
+/* Records an error at token at of the current source; always false, so a
+ * card can `return error(...)`. */
 static bool error(parser *p, const tb_token *at, const char *fmt, ...)
     __attribute__((format(printf, 3, 4)));
 static bool error(parser *p, const tb_token *at, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
-    vreport(p, TB_SEV_ERROR, at, fmt, ap);
+    vreport_in(p, TB_SEV_ERROR, p->src, at, fmt, ap);
     va_end(ap);
     return false;
 }
@@ -80,7 +236,7 @@ static void warning(parser *p, const tb_token *at, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
-    vreport(p, TB_SEV_WARNING, at, fmt, ap);
+    vreport_in(p, TB_SEV_WARNING, p->src, at, fmt, ap);
     va_end(ap);
 }
 
@@ -88,6 +244,12 @@ static bool nomem(parser *p)
 {
     p->status = TB_ERR_NOMEM;
     return false;
+}
+
+/* Reading stops: out of memory or too many errors. */
+static bool stopped(const parser *p)
+{
+    return p->status == TB_ERR_NOMEM || p->errors >= TB_DIAG_MAX_ERRORS || tb_diag_full(p->diag);
 }
 
 static bool bad_char(parser *p)
@@ -127,7 +289,14 @@ static bool expected(parser *p, const char *what)
 static void advance(parser *p)
 {
     p->prev = p->tok;
-    p->tok = tb_lex_next(&p->lx);
+    p->tok = tb_lex_next(p->lx);
+}
+
+/* The token after the current one, not consumed. */
+static tb_token peek_next(const parser *p)
+{
+    tb_lexer copy = *p->lx;
+    return tb_lex_next(&copy);
 }
 
 static bool at_end(const parser *p)
@@ -162,7 +331,6 @@ static bool expect_word(parser *p, const char *what)
     return p->tok.kind == TB_TOK_WORD || expected(p, what);
 }
 
-/* Checks that the card ends here; last names what came before ("the value of R1"). */
 /* Nothing may follow `last` (of element `of`, when not NULL) on this card. */
 static bool end_of_card(parser *p, const char *last, const char *of)
 {
@@ -175,48 +343,302 @@ static bool end_of_card(parser *p, const char *last, const char *of)
                  of ? " of " : "", of ? of : "");
 }
 
-static const char *intern(parser *p, const tb_token *t)
+static void skip_card(parser *p)
 {
-    const char *s = tb_circuit_intern(p->ckt, t->ptr, t->len);
-    if (!s)
+    while (!at_end(p))
+        advance(p);
+}
+
+static const char *intern_n(parser *p, const char *s, size_t len)
+{
+    const char *copy = tb_circuit_intern(p->ckt, s, len);
+    if (!copy)
         nomem(p);
-    return s;
+    return copy;
 }
 
 static tb_loc loc_of(const parser *p, const tb_token *t)
 {
-    tb_loc loc = {p->ckt->file, t->line, t->col};
+    tb_loc loc = {p->srcs[p->src].file, t->line, t->col};
     return loc;
 }
 
-/* The current token starts like a number (it may still be malformed). */
+/* The current token starts like a number or is an expression (it may still be malformed). */
 static bool looks_numeric(const parser *p)
 {
     double ignored = 0;
-    return p->tok.kind == TB_TOK_WORD &&
-           tb_lex_value(p->tok.ptr, p->tok.len, &ignored) != TB_VALUE_NOT_NUMBER;
+    return p->tok.kind == TB_TOK_EXPR ||
+           (p->tok.kind == TB_TOK_WORD &&
+            tb_lex_value(p->tok.ptr, p->tok.len, &ignored) != TB_VALUE_NOT_NUMBER);
 }
 
-/* ---- operands ----------------------------------------------------------- */
-
-/* node -> WORD */
-static bool node(parser *p, int *index)
+/* Case-insensitive equality of a NUL-terminated name and a token. */
+static bool name_is(const char *name, const tb_token *t)
 {
-    if (!expect_word(p, "a node name"))
+    if (strlen(name) != t->len)
         return false;
-    if (p->ckt->node_count >= TB_MAX_NODES &&
-        !tb_circuit_find_node(p->ckt, p->tok.ptr, p->tok.len, index))
-        return error(p, &p->tok, "too many nodes (limit is %zu)", TB_MAX_NODES);
-    if (tb_circuit_node(p->ckt, p->tok.ptr, p->tok.len, index) != TB_OK)
+    for (size_t i = 0; i < t->len; i++)
+        if (tb_lex_lower(name[i]) != tb_lex_lower(t->ptr[i]))
+            return false;
+    return true;
+}
+
+static bool is_ground(const tb_token *t)
+{
+    return (t->len == 1 && t->ptr[0] == '0') || tb_lex_is(t, "gnd");
+}
+
+/* ---- hierarchical names ------------------------------------------------- */
+
+static const frame *top_frame(const parser *p)
+{
+    return p->depth ? &p->frames[p->depth - 1] : NULL;
+}
+
+/* The name of token t in the current instance: "PATH.t" (or t at top level),
+ * in p->scratch; NULL when out of memory. */
+static const char *scoped(parser *p, const tb_token *t, size_t *len)
+{
+    const frame *f = top_frame(p);
+    size_t prefix = f ? f->path_len + 1 : 0;
+    if (tb_grow(&p->scratch, &p->scratch_cap, prefix + t->len + 1, 1, SIZE_MAX / 2)) {
+        nomem(p);
+        return NULL;
+    }
+    if (f) {
+        memcpy(p->scratch, f->path, f->path_len);
+        p->scratch[f->path_len] = '.';
+    }
+    memcpy(p->scratch + prefix, t->ptr, t->len);
+    p->scratch[prefix + t->len] = '\0';
+    *len = prefix + t->len;
+    return p->scratch;
+}
+
+/* Interns the current instance's name for token t. */
+static const char *intern_scoped(parser *p, const tb_token *t)
+{
+    size_t len = 0;
+    const char *name = scoped(p, t, &len);
+    return name ? intern_n(p, name, len) : NULL;
+}
+
+/* ---- parameters and expressions ----------------------------------------- */
+
+/* Where an expression is being evaluated: its token, source and scope. */
+typedef struct {
+    parser *p;
+    const tb_token *tok;
+    size_t src;
+    size_t depth; /* parameters of frames below this depth and the globals are visible */
+} eval_ctx;
+
+static bool evaluate(parser *p, const tb_token *tok, size_t src, size_t depth, double *out);
+
+/* The token at byte `offset` of the expression in tok (for messages). */
+static tb_token expr_pos(const tb_token *tok, size_t offset)
+{
+    size_t skip = (tok->kind == TB_TOK_EXPR) + offset;
+    tb_token at = *tok;
+    at.ptr += skip;
+    at.len = 0;
+    at.col = skip >= (size_t)(INT_MAX - at.col) ? INT_MAX : at.col + (int)skip;
+    return at;
+}
+
+static param *find_param(param_list *list, const char *name, size_t len)
+{
+    tb_token t = {TB_TOK_WORD, name, len, 0, 0};
+    for (size_t i = 0; i < list->count; i++)
+        if (name_is(list->items[i].name, &t))
+            return &list->items[i];
+    return NULL;
+}
+
+/* "a -> b -> c": the chain from index `from`, then last. */
+static void chain_text(const parser *p, size_t from, const char *last, size_t last_len,
+                       char *buf, size_t size)
+{
+    size_t n = 0;
+    buf[0] = '\0';
+    for (size_t i = from; i < p->chain_len && n < size; i++)
+        n += (size_t)snprintf(buf + n, size - n, "%s -> ", p->chain[i]->name);
+    if (n < size)
+        snprintf(buf + n, size - n, "%.*s", (int)last_len, last);
+}
+
+/* The value of parameter prm, found at frame depth `depth` (0: a global). */
+static tb_status param_value(const eval_ctx *cx, param *prm, size_t depth, size_t offset,
+                             double *out)
+{
+    parser *p = cx->p;
+    char chain[MESSAGE_SIZE / 2];
+    if (prm->state == PARAM_DONE) {
+        *out = prm->value;
+        return TB_OK;
+    }
+    if (prm->state == PARAM_FAILED)
+        return TB_ERR_INPUT; /* reported already */
+    tb_token at = expr_pos(cx->tok, offset);
+    if (prm->state == PARAM_BUSY) {
+        size_t from = 0;
+        while (from < p->chain_len && p->chain[from] != prm)
+            from++;
+        chain_text(p, from, prm->name, strlen(prm->name), chain, sizeof chain);
+        error_in(p, cx->src, &at, "circular parameter definition %s", chain);
+        return TB_ERR_INPUT;
+    }
+    if (p->chain_len >= MAX_PARAM_CHAIN) {
+        error_in(p, cx->src, &at, "parameters defined through too many others (limit is %d)",
+                 MAX_PARAM_CHAIN);
+        return TB_ERR_INPUT;
+    }
+    prm->state = PARAM_BUSY;
+    p->chain[p->chain_len++] = prm;
+    double v = 0;
+    bool ok = evaluate(p, &prm->expr, prm->src, depth, &v);
+    p->chain_len--;
+    prm->state = ok ? PARAM_DONE : PARAM_FAILED;
+    if (!ok)
+        return p->status == TB_ERR_NOMEM ? TB_ERR_NOMEM : TB_ERR_INPUT;
+    prm->value = v;
+    *out = v;
+    return TB_OK;
+}
+
+/* tb_expr_lookup: the instance's parameters, then its parents', then the globals. */
+static tb_status lookup(void *ctx, const char *name, size_t len, size_t offset, double *out)
+{
+    const eval_ctx *cx = ctx;
+    parser *p = cx->p;
+    for (size_t d = cx->depth; d > 0; d--) {
+        param *prm = find_param(&p->frames[d - 1].params, name, len);
+        if (prm)
+            return param_value(cx, prm, d, offset, out);
+    }
+    param *prm = find_param(&p->globals, name, len);
+    if (prm)
+        return param_value(cx, prm, 0, offset, out);
+    tb_token at = expr_pos(cx->tok, offset);
+    if (p->chain_len == 0) {
+        error_in(p, cx->src, &at, "undefined parameter '%.*s'", (int)len, name);
+    } else {
+        char chain[MESSAGE_SIZE / 2];
+        chain_text(p, 0, name, len, chain, sizeof chain);
+        error_in(p, cx->src, &at, "undefined parameter '%.*s' (%s)", (int)len, name, chain);
+    }
+    return TB_ERR_INPUT;
+}
+
+/* Evaluates the expression in tok (a WORD, or an EXPR with its braces) of
+ * source src, in the scope of frame depth `depth`. */
+static bool evaluate(parser *p, const tb_token *tok, size_t src, size_t depth, double *out)
+{
+    const char *text = tok->ptr;
+    size_t len = tok->len;
+    if (tok->kind == TB_TOK_EXPR) {
+        if (len < 2 || text[len - 1] != '}')
+            return error_in(p, src, tok, "'{' without '}' on the same line");
+        text++;
+        len -= 2;
+    }
+    eval_ctx cx = {p, tok, src, depth};
+    tb_expr_error err;
+    tb_status st = tb_expr_eval(text, len, lookup, &cx, out, &err);
+    if (st == TB_ERR_NOMEM)
         return nomem(p);
+    if (st != TB_OK && err.message[0]) {
+        tb_token at = expr_pos(tok, err.offset);
+        return error_in(p, src, &at, "%s", err.message);
+    }
+    return st == TB_OK;
+}
+
+/* paramdef -> NAME = (WORD | EXPR), appended to list (not evaluated). */
+static bool param_def(parser *p, param_list *list, const char *what)
+{
+    char text[QUOTE_SIZE];
+    if (!expect_word(p, "a parameter name"))
+        return false;
+    tb_token name = p->tok;
+    bool valid = (tb_lex_lower(name.ptr[0]) >= 'a' && tb_lex_lower(name.ptr[0]) <= 'z') ||
+                 name.ptr[0] == '_';
+    for (size_t i = 1; i < name.len && valid; i++) {
+        char c = tb_lex_lower(name.ptr[i]);
+        valid = (c >= 'a' && c <= 'z') || (c >= '0' && c <= '9') || c == '_';
+    }
+    if (!valid)
+        return error(p, &name, "'%s' is not a parameter name (a letter or '_', then letters, "
+                     "digits or '_')", quote(&name, text));
+    if (tb_expr_is_builtin(name.ptr, name.len))
+        return error(p, &name, "'%s' is a built-in function or constant, not a parameter name",
+                     quote(&name, text));
+    param *earlier = find_param(list, name.ptr, name.len);
+    if (earlier)
+        return error(p, &name, "%s '%s' is defined twice (first on line %d)", what,
+                     quote(&name, text), earlier->expr.line);
+    advance(p);
+    if (!expect(p, TB_TOK_EQUALS, "'='"))
+        return false;
+    if (p->tok.kind != TB_TOK_WORD && p->tok.kind != TB_TOK_EXPR)
+        return expected(p, "a value or {expression}");
+    if (tb_grow(&list->items, &list->cap, list->count + 1, sizeof(param), TB_MAX_ELEMENTS))
+        return nomem(p);
+    param prm = {intern_n(p, name.ptr, name.len), p->tok, p->src, 0, PARAM_UNSET};
+    if (!prm.name)
+        return false;
+    list->items[list->count++] = prm;
     advance(p);
     return true;
 }
 
-/* value -> WORD read by tb_lex_value */
+/* ---- operands ----------------------------------------------------------- */
+
+/* The node called t here: in an instance a pin stands for the caller's node,
+ * ground stays ground, and any other name becomes PATH.name. */
+static bool resolve_node(parser *p, const tb_token *t, int *index)
+{
+    const frame *f = top_frame(p);
+    if (f && is_ground(t)) {
+        *index = 0;
+        return true;
+    }
+    for (size_t i = 0; f && i < f->def->pin_count; i++) {
+        if (name_is(f->def->pins[i], t)) {
+            *index = f->pins[i];
+            return true;
+        }
+    }
+    size_t len = 0;
+    const char *name = scoped(p, t, &len);
+    if (!name)
+        return false;
+    if (p->ckt->node_count >= TB_MAX_NODES && !tb_circuit_find_node(p->ckt, name, len, index))
+        return error(p, t, "too many nodes (limit is %zu)", TB_MAX_NODES);
+    if (tb_circuit_node(p->ckt, name, len, index) != TB_OK)
+        return nomem(p);
+    return true;
+}
+
+/* node -> WORD */
+static bool node(parser *p, int *index)
+{
+    if (!expect_word(p, "a node name") || !resolve_node(p, &p->tok, index))
+        return false;
+    advance(p);
+    return true;
+}
+
+/* value -> WORD read by tb_lex_value | EXPR evaluated in the current scope */
 static bool value(parser *p, const char *what, double *out)
 {
     char text[QUOTE_SIZE];
+    if (p->tok.kind == TB_TOK_EXPR) {
+        if (!evaluate(p, &p->tok, p->src, p->depth, out))
+            return false;
+        advance(p);
+        return true;
+    }
     if (!expect_word(p, what))
         return false;
     switch (tb_lex_value(p->tok.ptr, p->tok.len, out)) {
@@ -232,16 +654,19 @@ static bool value(parser *p, const char *what, double *out)
     }
     return false;
 }
-
 /* ---- element cards ------------------------------------------------------ */
 
 /* Starts element e of the given kind at the name token (the current one). */
 static bool element_start(parser *p, tb_elem_kind kind, tb_element *e)
 {
     *e = (tb_element){.kind = kind, .branch = -1, .loc = loc_of(p, &p->tok)};
-    e->name = intern(p, &p->tok);
+    e->name = intern_scoped(p, &p->tok);
     if (!e->name)
         return false;
+    if (p->depth) {
+        tb_token full = {TB_TOK_WORD, e->name, strlen(e->name), 0, 0};
+        quote(&full, p->name);
+    }
     advance(p);
     return true;
 }
@@ -253,6 +678,9 @@ static bool element_end(parser *p, const tb_element *e, const char *part)
         return false;
     if (p->ckt->elem_count >= TB_MAX_ELEMENTS)
         return error(p, &p->first, "too many elements (limit is %zu)", TB_MAX_ELEMENTS);
+    if (p->depth && ++p->expanded > MAX_EXPANDED)
+        return error(p, &p->first, "subcircuits expand to too many elements (limit is %zu)",
+                     MAX_EXPANDED);
     if (tb_circuit_add_element(p->ckt, e) != TB_OK)
         return nomem(p);
     return true;
@@ -318,13 +746,38 @@ static bool icontrolled(parser *p, tb_elem_kind kind)
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]) ||
         !expect_word(p, "a voltage source name"))
         return false;
-    e.ctrl_name = intern(p, &p->tok);
+    e.ctrl_name = intern_scoped(p, &p->tok);
     if (!e.ctrl_name)
         return false;
     advance(p);
     if (!value(p, "a gain", &e.value))
         return false;
     return element_end(p, &e, "the gain");
+}
+
+/* kcard -> KNAME LNAME LNAME value, the coupling 0 < k <= 1 */
+static bool coupling(parser *p)
+{
+    char text[QUOTE_SIZE];
+    tb_element e;
+    if (!element_start(p, TB_EL_K, &e) || !expect_word(p, "an inductor name"))
+        return false;
+    e.ctrl_name = intern_scoped(p, &p->tok);
+    if (!e.ctrl_name)
+        return false;
+    advance(p);
+    if (!expect_word(p, "an inductor name"))
+        return false;
+    e.ctrl2_name = intern_scoped(p, &p->tok);
+    if (!e.ctrl2_name)
+        return false;
+    advance(p);
+    if (!value(p, "a coupling coefficient", &e.value))
+        return false;
+    if (!(e.value > 0 && e.value <= 1))
+        return error(p, &p->prev, "coupling of %s must be in (0, 1], got '%s'", p->name,
+                     quote(&p->prev, text));
+    return element_end(p, &e, "the coupling");
 }
 
 /* Length of the UTF-8 character starting s[0..len). */
@@ -337,7 +790,9 @@ static size_t char_len(const char *s, size_t len)
     return n;
 }
 
-/* element -> rcard | vcard | ecard | fcard, chosen by the name's first letter */
+/* element -> rcard | vcard | ecard | fcard | kcard | xcard, chosen by the name's first letter */
+static bool instance(parser *p);
+
 static bool element(parser *p)
 {
     switch (tb_lex_lower(p->tok.ptr[0])) {
@@ -359,10 +814,14 @@ static bool element(parser *p)
         return icontrolled(p, TB_EL_F);
     case 'h':
         return icontrolled(p, TB_EL_H);
+    case 'k':
+        return coupling(p);
+    case 'x':
+        return instance(p);
     default:
         return error(p, &p->tok,
                      "unknown element '%s': '%.*s' is not one of the element letters "
-                     "R C L V I E G F H",
+                     "R C L V I E G F H K X",
                      p->name, (int)char_len(p->tok.ptr, p->tok.len), p->tok.ptr);
     }
 }
@@ -438,7 +897,8 @@ static bool loop_card(parser *p)
             return false;
         if (p->ckt->loop_count >= TB_MAX_LOOPS)
             return error(p, &p->tok, "too many .loop sources (limit is %zu)", TB_MAX_LOOPS);
-        tb_loop_spec loop = {.source = intern(p, &p->tok), .loc = loc_of(p, &p->tok)};
+        tb_loop_spec loop = {.source = intern_n(p, p->tok.ptr, p->tok.len),
+                             .loc = loc_of(p, &p->tok)};
         if (!loop.source)
             return false;
         if (tb_circuit_add_loop(p->ckt, &loop) != TB_OK)
@@ -453,7 +913,7 @@ static bool io_name(parser *p, const char *what, const char **name)
 {
     if (!expect_word(p, what))
         return false;
-    *name = intern(p, &p->tok);
+    *name = intern_n(p, p->tok.ptr, p->tok.len);
     if (!*name)
         return false;
     advance(p);
@@ -515,9 +975,251 @@ static bool directive(parser *p)
     return true;
 }
 
-/* ---- netlist ------------------------------------------------------------ */
 
-/* card -> element | directive */
+/* ---- subcircuit instances ------------------------------------------------ */
+
+static const subckt *find_subckt(const parser *p, const tb_token *name)
+{
+    for (size_t i = 0; i < p->def_count; i++)
+        if (name_is(p->defs[i].name, name))
+            return &p->defs[i];
+    return NULL;
+}
+
+static size_t hash_lower(const char *s)
+{
+    size_t h = 1469598103934665603u; /* FNV-1a */
+    for (; *s; s++) {
+        h ^= (unsigned char)tb_lex_lower(*s);
+        h *= 1099511628211u;
+    }
+    return h ^ (h >> 29);
+}
+
+/* Adds an instance path; false (with *line the first one's) when it is taken. */
+static tb_status claim_instance(parser *p, const char *path, int line, int *first_line)
+{
+    name_set *set = &p->instances;
+    if (2 * (set->count + 1) > set->cap) {
+        name_set bigger = {NULL, NULL, set->cap ? 2 * set->cap : 64, set->count};
+        bigger.names = tb_calloc(bigger.cap, sizeof(char *));
+        bigger.lines = tb_calloc(bigger.cap, sizeof(int));
+        if (!bigger.names || !bigger.lines) {
+            tb_free(bigger.names);
+            tb_free(bigger.lines);
+            return TB_ERR_NOMEM;
+        }
+        for (size_t i = 0; i < set->cap; i++) {
+            if (!set->names[i])
+                continue;
+            size_t k = hash_lower(set->names[i]) & (bigger.cap - 1);
+            while (bigger.names[k])
+                k = (k + 1) & (bigger.cap - 1);
+            bigger.names[k] = set->names[i];
+            bigger.lines[k] = set->lines[i];
+        }
+        tb_free(set->names);
+        tb_free(set->lines);
+        *set = bigger;
+    }
+    size_t k = hash_lower(path) & (set->cap - 1);
+    for (; set->names[k]; k = (k + 1) & (set->cap - 1)) {
+        if (tb_name_eq(set->names[k], path)) {
+            *first_line = set->lines[k];
+            return TB_ERR_INPUT;
+        }
+    }
+    set->names[k] = path;
+    set->lines[k] = line;
+    set->count++;
+    return TB_OK;
+}
+
+static void pop_frame(parser *p)
+{
+    frame *f = &p->frames[--p->depth];
+    ((subckt *)f->def)->busy = false;
+    tb_free(f->pins);
+    tb_free(f->params.items);
+}
+
+/* "a -> b -> a": the definitions being expanded from the one called def. */
+static void cycle_text(const parser *p, const subckt *def, char *buf, size_t size)
+{
+    size_t d = 0;
+    while (d < p->depth && p->frames[d].def != def)
+        d++;
+    size_t n = 0;
+    for (; d < p->depth && n < size; d++)
+        n += (size_t)snprintf(buf + n, size - n, "%s -> ", p->frames[d].def->name);
+    if (n < size)
+        snprintf(buf + n, size - n, "%s", def->name);
+}
+
+/* Checks that def may be expanded here (no recursion, depth, count, unique name). */
+static bool may_expand(parser *p, const subckt *def, const tb_token *name, const tb_token *at,
+                       const char *path)
+{
+    char cycle[MESSAGE_SIZE / 2];
+    int first_line = 0;
+    if (def->busy) {
+        cycle_text(p, def, cycle, sizeof cycle);
+        return error(p, at, "subcircuit '%s' instantiates itself: %s", def->name, cycle);
+    }
+    if (p->depth >= MAX_INSTANCE_DEPTH)
+        return error(p, name, "subcircuit instances nested too deeply (limit is %d levels)",
+                     MAX_INSTANCE_DEPTH);
+    if (p->instances.count >= MAX_INSTANCES)
+        return error(p, name, "too many subcircuit instances (limit is %zu)", MAX_INSTANCES);
+    tb_status st = claim_instance(p, path, name->line, &first_line);
+    if (st == TB_ERR_NOMEM)
+        return nomem(p);
+    if (st != TB_OK)
+        return error(p, name, "duplicate instance name '%s' (first on line %d)", path,
+                     first_line);
+    return true;
+}
+
+/* Opens a frame for instance `path` of def, connected to the words' nodes. */
+static bool push_frame(parser *p, const subckt *def, const char *path, const tb_token *name)
+{
+    if (!p->frames) {
+        p->frames = tb_calloc(MAX_INSTANCE_DEPTH, sizeof(frame));
+        if (!p->frames)
+            return nomem(p);
+    }
+    frame f = {.def = def, .path = path, .path_len = strlen(path), .src = p->src, .at = *name};
+    f.pins = tb_malloc(def->pin_count, sizeof(int));
+    f.params.items = tb_malloc(def->params.count, sizeof(param));
+    if (!f.pins || !f.params.items) {
+        tb_free(f.pins);
+        tb_free(f.params.items);
+        return nomem(p);
+    }
+    if (def->params.count)
+        memcpy(f.params.items, def->params.items, def->params.count * sizeof(param));
+    f.params.count = f.params.cap = def->params.count;
+    /* the pins are nodes of the caller: resolve them before entering */
+    for (size_t i = 0; i < def->pin_count; i++) {
+        if (!resolve_node(p, &p->words[i + 1], &f.pins[i])) {
+            tb_free(f.pins);
+            tb_free(f.params.items);
+            return false;
+        }
+    }
+    tb_lex_init_at(&f.lx, p->srcs[def->src].text, def->body_end, def->body_pos, def->body_line);
+    ((subckt *)def)->busy = true;
+    p->frames[p->depth++] = f;
+    return true;
+}
+
+/* Sets the instance's parameter values (evaluated in the caller's scope). */
+static bool instance_params(parser *p, const subckt *def, param_list *values)
+{
+    char text[QUOTE_SIZE];
+    while (!at_end(p)) {
+        if (!expect_word(p, "a parameter name"))
+            return false;
+        tb_token name = p->tok;
+        param *prm = find_param(values, name.ptr, name.len);
+        if (!prm || (size_t)(prm - values->items) >= def->default_count)
+            return error(p, &name, "subcircuit '%s' has no parameter '%s'", def->name,
+                         quote(&name, text));
+        if (prm->state == PARAM_DONE)
+            return error(p, &name, "parameter '%s' is set twice", quote(&name, text));
+        advance(p);
+        if (!expect(p, TB_TOK_EQUALS, "'='"))
+            return false;
+        if (p->tok.kind != TB_TOK_WORD && p->tok.kind != TB_TOK_EXPR)
+            return expected(p, "a value or {expression}");
+        if (!evaluate(p, &p->tok, p->src, p->depth - 1, &prm->value))
+            return false;
+        prm->state = PARAM_DONE;
+        advance(p);
+    }
+    return true;
+}
+
+/* Evaluates every parameter of the new instance, so that errors show once. */
+static bool settle_params(parser *p)
+{
+    frame *f = &p->frames[p->depth - 1];
+    for (size_t i = 0; i < f->params.count; i++) {
+        double ignored = 0;
+        tb_token whole = f->params.items[i].expr;
+        eval_ctx cx = {p, &whole, f->params.items[i].src, p->depth};
+        if (param_value(&cx, &f->params.items[i], p->depth, 0, &ignored) != TB_OK)
+            return false;
+    }
+    return true;
+}
+
+/* The words of the card from the current token up to the first NAME '='. */
+static bool card_words(parser *p)
+{
+    p->word_count = 0;
+    while (p->tok.kind == TB_TOK_WORD && peek_next(p).kind != TB_TOK_EQUALS) {
+        if (p->word_count > MAX_PINS + 1)
+            return error(p, &p->tok, "too many pins (limit is %zu)", MAX_PINS);
+        if (tb_grow(&p->words, &p->word_cap, p->word_count + 1, sizeof(tb_token), TB_MAX_NODES))
+            return nomem(p);
+        p->words[p->word_count++] = p->tok;
+        advance(p);
+    }
+    return true;
+}
+
+/* "unknown subcircuit 'amp1'", with the closest defined name when there is one. */
+static bool unknown_subckt(parser *p, const tb_token *sub)
+{
+    char text[QUOTE_SIZE];
+    quote(sub, text);
+    tb_suggester sg;
+    tb_suggest_init(&sg, text);
+    for (size_t i = 0; i < p->def_count; i++)
+        tb_suggest_offer(&sg, p->defs[i].name);
+    const char *best = tb_suggest_best(&sg);
+    if (best)
+        return error(p, sub, "unknown subcircuit '%s' (did you mean '%s'?)", text, best);
+    return error(p, sub, "unknown subcircuit '%s'", text);
+}
+
+/* xcard -> XNAME {node} SUBCKT {NAME = value}; expanded by the caller's loop */
+static bool instance(parser *p)
+{
+    tb_token name = p->tok;
+    if (!card_words(p))
+        return false;
+    if (p->word_count < 2) {
+        p->prev = name;
+        return expected(p, "a subcircuit name");
+    }
+    tb_token sub = p->words[p->word_count - 1];
+    const subckt *def = find_subckt(p, &sub);
+    if (!def)
+        return unknown_subckt(p, &sub);
+    size_t nodes = p->word_count - 2;
+    if (nodes != def->pin_count)
+        return error(p, &sub, "%s connects %zu node%s, but subcircuit '%s' has %zu pin%s",
+                     p->name, nodes, nodes == 1 ? "" : "s", def->name, def->pin_count,
+                     def->pin_count == 1 ? "" : "s");
+    const char *path = intern_scoped(p, &name);
+    if (!path || !may_expand(p, def, &name, &sub, path))
+        return false;
+    if (!push_frame(p, def, path, &name))
+        return false;
+    frame *f = &p->frames[p->depth - 1];
+    if (!instance_params(p, def, &f->params) || !settle_params(p)) {
+        pop_frame(p);
+        return false;
+    }
+    return true;
+}
+
+/* ---- the second pass: cards into the circuit ------------------------------ */
+
+/* card -> element | directive; inside a subcircuit body the directives were
+ * all dealt with by the first pass */
 static void card(parser *p)
 {
     char text[QUOTE_SIZE];
@@ -531,7 +1233,8 @@ static void card(parser *p)
         }
         for (char *c = p->name; *c; c++)
             *c = tb_lex_lower(*c);
-        directive(p);
+        if (!p->depth)
+            directive(p);
         return;
     case TB_TOK_PLUS:
         error(p, &p->tok, "'+' continues a card, but no card comes before it");
@@ -545,21 +1248,399 @@ static void card(parser *p)
     }
 }
 
-/* netlist -> TITLE {card} [endcard ...]; stops at .end, after TB_DIAG_MAX_ERRORS
- * errors, or when memory runs out. A bad card is abandoned up to its end. */
-static void netlist(parser *p)
+/* Reads the bodies of the instances opened by the last card, deepest first. */
+static void expand(parser *p)
+{
+    while (p->depth > 0 && !stopped(p)) {
+        frame *f = &p->frames[p->depth - 1];
+        p->lx = &f->lx;
+        p->src = f->def->src;
+        advance(p);
+        if (p->tok.kind == TB_TOK_EOF) {
+            pop_frame(p);
+            continue;
+        }
+        card(p);
+        skip_card(p);
+    }
+}
+
+static void second_pass(parser *p)
+{
+    tb_lexer lx;
+    for (size_t i = 0; i < p->card_count && !stopped(p); i++) {
+        const card_pos *c = &p->cards[i];
+        const src_text *s = &p->srcs[c->src];
+        tb_lex_init_at(&lx, s->text, s->len, c->pos, c->line);
+        p->lx = &lx;
+        p->src = c->src;
+        advance(p);
+        card(p);
+        skip_card(p);
+        expand(p);
+    }
+    while (p->depth > 0)
+        pop_frame(p);
+}
+
+/* ---- the first pass: files, .include, .param, .subckt --------------------- */
+
+static bool add_card(parser *p)
+{
+    const src_text *s = &p->srcs[p->src];
+    size_t pos = (size_t)(p->tok.ptr - s->text) - (size_t)(p->tok.col - 1);
+    if (tb_grow(&p->cards, &p->card_cap, p->card_count + 1, sizeof(card_pos), SIZE_MAX / 64))
+        return nomem(p);
+    p->cards[p->card_count++] = (card_pos){p->src, pos, p->tok.line};
+    return true;
+}
+
+/* paramcard -> .PARAM paramdef {paramdef} */
+static bool param_card(parser *p, param_list *list)
 {
     advance(p);
-    while (p->tok.kind != TB_TOK_EOF) {
-        bool is_end = tb_lex_is(&p->tok, ".end");
-        card(p);
-        while (!at_end(p))
-            advance(p);
-        if (is_end || p->status == TB_ERR_NOMEM || p->errors >= TB_DIAG_MAX_ERRORS ||
-            tb_diag_full(p->diag))
-            return;
+    do {
+        if (!param_def(p, list, "parameter"))
+            return false;
+    } while (!at_end(p));
+    return true;
+}
+
+/* subckthead -> .SUBCKT NAME {pin} {paramdef} */
+static bool subckt_head(parser *p, subckt *def)
+{
+    char text[QUOTE_SIZE];
+    advance(p);
+    if (!expect_word(p, "a subcircuit name"))
+        return false;
+    def->at = p->tok;
+    def->src = p->src;
+    const subckt *earlier = find_subckt(p, &p->tok);
+    if (earlier)
+        return error(p, &p->tok, "subcircuit '%s' is defined twice (first on line %d)",
+                     quote(&p->tok, text), earlier->at.line);
+    def->name = intern_n(p, p->tok.ptr, p->tok.len);
+    if (!def->name)
+        return false;
+    advance(p);
+    if (!card_words(p))
+        return false;
+    for (size_t i = 0; i < p->word_count; i++) {
+        for (size_t k = 0; k < i; k++)
+            if (name_is(def->pins[k], &p->words[i]))
+                return error(p, &p->words[i], "pin '%s' appears twice on .subckt %s",
+                             quote(&p->words[i], text), def->name);
+        if (is_ground(&p->words[i]))
+            return error(p, &p->words[i], "ground '%s' cannot be a pin of .subckt %s",
+                         quote(&p->words[i], text), def->name);
+        if (tb_grow(&def->pins, &def->pin_cap, i + 1, sizeof(char *), TB_MAX_NODES))
+            return nomem(p);
+        def->pins[i] = intern_n(p, p->words[i].ptr, p->words[i].len);
+        if (!def->pins[i])
+            return false;
+        def->pin_count = i + 1;
+    }
+    while (!at_end(p))
+        if (!param_def(p, &def->params, "parameter"))
+            return false;
+    def->default_count = def->params.count;
+    return true;
+}
+
+/* A directive inside a .subckt body (the body's cards are read per instance). */
+static bool body_directive(parser *p, subckt *def)
+{
+    char text[QUOTE_SIZE];
+    if (tb_lex_is(&p->tok, ".param"))
+        return param_card(p, &def->params);
+    if (tb_lex_is(&p->tok, ".subckt"))
+        return error(p, &p->tok, ".subckt inside .subckt %s: definitions do not nest",
+                     def->name);
+    if (tb_lex_is(&p->tok, ".ac") || tb_lex_is(&p->tok, ".loop") || tb_lex_is(&p->tok, ".io") ||
+        tb_lex_is(&p->tok, ".include") || tb_lex_is(&p->tok, ".end"))
+        return error(p, &p->tok, "'%s' is not allowed inside .subckt %s", quote(&p->tok, text),
+                     def->name);
+    warning(p, &p->tok, "unknown directive '%s' skipped", quote(&p->tok, text));
+    return true;
+}
+
+/* subckt -> subckthead {card} .ENDS [NAME]; the body is kept as a text range */
+static void subckt_card(parser *p)
+{
+    char text[QUOTE_SIZE];
+    tb_token start = p->tok;
+    if (tb_grow(&p->defs, &p->def_cap, p->def_count + 1, sizeof(subckt), TB_MAX_ELEMENTS)) {
+        nomem(p);
+        return;
+    }
+    subckt *def = &p->defs[p->def_count];
+    *def = (subckt){.name = NULL};
+    bool ok = subckt_head(p, def);
+    skip_card(p);
+    advance(p);
+    def->body_pos = (size_t)(p->tok.ptr - p->srcs[p->src].text) - (size_t)(p->tok.col - 1);
+    def->body_line = p->tok.line;
+    while (p->tok.kind != TB_TOK_EOF && !tb_lex_is(&p->tok, ".ends") && !stopped(p)) {
+        if (p->tok.kind == TB_TOK_WORD && p->tok.ptr[0] == '.' && def->name)
+            body_directive(p, def);
+        skip_card(p);
         advance(p);
     }
+    if (p->tok.kind == TB_TOK_EOF) {
+        if (ok)
+            error(p, &start, ".subckt %s has no .ends", def->name);
+    } else if (tb_lex_is(&p->tok, ".ends")) {
+        def->body_end = (size_t)(p->tok.ptr - p->srcs[p->src].text) - (size_t)(p->tok.col - 1);
+        advance(p);
+        if (p->tok.kind == TB_TOK_WORD && ok && !name_is(def->name, &p->tok))
+            error(p, &p->tok, ".ends %s closes .subckt %s", quote(&p->tok, text), def->name);
+        else if (p->tok.kind == TB_TOK_WORD)
+            advance(p);
+        if (ok)
+            end_of_card(p, ".ends", NULL);
+    }
+    if (ok && def->body_end > 0) {
+        p->def_count++;
+        return;
+    }
+    tb_free(def->pins);
+    tb_free(def->params.items);
+}
+
+static tb_status slurp(const char *path, int *err, char **text, size_t *len);
+
+/* Adds a source text (owned by the circuit from here on). */
+static bool add_source(parser *p, const char *file, char *text, size_t len, size_t parent, int line)
+{
+    const char *name = NULL;
+    if (tb_grow(&p->srcs, &p->src_cap, p->src_count + 1, sizeof(src_text), SIZE_MAX / 64)) {
+        tb_free(text);
+        return nomem(p);
+    }
+    if (tb_circuit_add_source(p->ckt, file, text, len, &name) != TB_OK)
+        return nomem(p);
+    p->srcs[p->src_count++] = (src_text){name, text, len, parent, line};
+    return true;
+}
+
+/* The path of an included file: relative to the including file's folder. */
+static char *include_path(const char *including, const tb_token *t)
+{
+    const char *name = t->ptr;
+    size_t len = t->len;
+    if (len >= 2 && (name[0] == '"' || name[0] == '\'') && name[len - 1] == name[0]) {
+        name++;
+        len -= 2;
+    }
+    const char *slash = strrchr(including, '/');
+    size_t dir = name[0] == '/' || !slash ? 0 : (size_t)(slash - including) + 1;
+    char *path = tb_malloc(dir + len + 1, 1);
+    if (!path)
+        return NULL;
+    memcpy(path, including, dir);
+    memcpy(path + dir, name, len);
+    path[dir + len] = '\0';
+    return path;
+}
+
+/* "a.net -> b.net -> a.net": the open files from the one whose canonical path is canon. */
+static void include_cycle(const parser *p, const open_file *files, size_t depth, const char *canon,
+                          const char *path, char *buf, size_t size)
+{
+    size_t d = 0;
+    while (d < depth && !(files[d].canon && strcmp(files[d].canon, canon) == 0))
+        d++;
+    size_t n = 0;
+    for (; d < depth && n < size; d++)
+        n += (size_t)snprintf(buf + n, size - n, "%s -> ", p->srcs[files[d].src].file);
+    if (n < size)
+        snprintf(buf + n, size - n, "%s", path);
+}
+
+/* includecard -> .INCLUDE FILE; opens the file as files[*depth] */
+static bool include_card(parser *p, open_file *files, size_t *depth)
+{
+    char reason[128];
+    char cycle[MESSAGE_SIZE / 2];
+    advance(p);
+    if (!expect_word(p, "a file name"))
+        return false;
+    tb_token name = p->tok;
+    advance(p);
+    if (!end_of_card(p, "the file name of .include", NULL))
+        return false;
+    if (*depth >= MAX_INCLUDE_DEPTH)
+        return error(p, &name, "includes nested too deeply (limit is %d files)", MAX_INCLUDE_DEPTH);
+    char *path = include_path(p->srcs[p->src].file, &name);
+    if (!path)
+        return nomem(p);
+    char *canon = realpath(path, NULL);
+    for (size_t d = 0; canon && d < *depth; d++) {
+        if (files[d].canon && strcmp(files[d].canon, canon) == 0) {
+            include_cycle(p, files, *depth, canon, path, cycle, sizeof cycle);
+            error(p, &name, "'%s' includes itself: %s", path, cycle);
+            free(canon);
+            tb_free(path);
+            return false;
+        }
+    }
+    char *text = NULL;
+    size_t len = 0;
+    int err = 0;
+    tb_status st = slurp(path, &err, &text, &len);
+    if (st != TB_OK) {
+        free(canon);
+        if (st == TB_ERR_NOMEM) {
+            tb_free(path);
+            return nomem(p);
+        }
+        if (strerror_r(err, reason, sizeof reason) != 0)
+            snprintf(reason, sizeof reason, "error %d", err);
+        error(p, &name, "cannot read '%s': %s", path, reason);
+        tb_free(path);
+        return false;
+    }
+    bool ok = add_source(p, path, text, len, p->src, name.line);
+    tb_free(path);
+    if (!ok) {
+        free(canon);
+        return false;
+    }
+    size_t skip = len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0 ? 3 : 0;
+    open_file *f = &files[(*depth)++];
+    f->src = p->src_count - 1;
+    f->canon = canon;
+    tb_lex_init_at(&f->lx, text, len, skip, 1);
+    return true;
+}
+
+/* One card of the first pass at the current token of files[*depth - 1]. */
+static void first_card(parser *p, open_file *files, size_t *depth)
+{
+    p->first = p->tok;
+    if (p->tok.kind == TB_TOK_WORD && p->tok.ptr[0] == '.') {
+        quote(&p->tok, p->name);
+        for (char *c = p->name; *c; c++)
+            *c = tb_lex_lower(*c);
+    }
+    if (tb_lex_is(&p->tok, ".include")) {
+        include_card(p, files, depth);
+    } else if (tb_lex_is(&p->tok, ".param")) {
+        param_card(p, &p->globals);
+    } else if (tb_lex_is(&p->tok, ".subckt")) {
+        subckt_card(p);
+    } else if (tb_lex_is(&p->tok, ".ends")) {
+        error(p, &p->tok, ".ends without .subckt");
+    } else if (tb_lex_is(&p->tok, ".end")) {
+        /* endcard -> .END: the end of this file (of everything in the netlist itself) */
+        advance(p);
+        end_of_card(p, ".end", NULL);
+        files[*depth - 1].lx.pos = files[*depth - 1].lx.len;
+    } else {
+        add_card(p);
+    }
+}
+
+/* Reads the netlist and its includes: records cards, parameters, subcircuits. */
+static void first_pass(parser *p, open_file *files, size_t *depth)
+{
+    while (*depth > 0 && !stopped(p)) {
+        open_file *f = &files[*depth - 1];
+        p->lx = &f->lx;
+        p->src = f->src;
+        advance(p);
+        if (p->tok.kind == TB_TOK_EOF) {
+            free(f->canon);
+            f->canon = NULL;
+            (*depth)--;
+            continue;
+        }
+        size_t before = *depth;
+        first_card(p, files, depth);
+        if (*depth == before)
+            skip_card(p);
+    }
+}
+
+/* Evaluates every global parameter once, so that errors show even when unused. */
+static void settle_globals(parser *p)
+{
+    for (size_t i = 0; i < p->globals.count && !stopped(p); i++) {
+        double ignored = 0;
+        param *prm = &p->globals.items[i];
+        eval_ctx cx = {p, &prm->expr, prm->src, 0};
+        p->src = prm->src;
+        param_value(&cx, prm, 0, 0, &ignored);
+    }
+}
+
+static void free_parser(parser *p)
+{
+    for (size_t i = 0; i < p->def_count; i++) {
+        tb_free(p->defs[i].pins);
+        tb_free(p->defs[i].params.items);
+    }
+    tb_free(p->defs);
+    tb_free(p->frames);
+    tb_free(p->globals.items);
+    tb_free(p->srcs);
+    tb_free(p->cards);
+    tb_free(p->instances.names);
+    tb_free(p->instances.lines);
+    tb_free(p->words);
+    tb_free(p->scratch);
+}
+
+/* netlist -> TITLE {card} [.END ...], the first pass then the second. */
+static tb_status netlist(parser *p, const char *canon)
+{
+    open_file *files = tb_calloc(MAX_INCLUDE_DEPTH + 1, sizeof(open_file));
+    if (!files) {
+        nomem(p);
+        return p->status;
+    }
+    size_t depth = 1;
+    files[0].src = 0;
+    files[0].canon = canon ? strdup(canon) : NULL;
+    tb_lex_init(&files[0].lx, p->srcs[0].text, p->srcs[0].len);
+    p->ckt->title = tb_strndup(files[0].lx.title.ptr, files[0].lx.title.len);
+    if (!p->ckt->title)
+        nomem(p);
+    else
+        first_pass(p, files, &depth);
+    for (size_t d = 0; d < depth; d++)
+        free(files[d].canon);
+    tb_free(files);
+    if (!stopped(p))
+        settle_globals(p);
+    if (!stopped(p))
+        second_pass(p);
+    return p->status;
+}
+
+/* Parses the source text (handed to the circuit) read from file. */
+static tb_status parse_owned(char *text, size_t len, const char *file, const char *canon,
+                             tb_diag *diag, tb_circuit **out)
+{
+    tb_circuit *ckt = NULL;
+    tb_status st = tb_circuit_create(file, &ckt);
+    if (st != TB_OK) {
+        tb_free(text);
+        return st;
+    }
+    parser p = {.ckt = ckt, .diag = diag, .status = TB_OK};
+    if (add_source(&p, ckt->file, text, len, SIZE_MAX, 0))
+        netlist(&p, canon);
+    free_parser(&p);
+    /* References are checked only in a netlist without syntax errors: an
+     * abandoned card would make them report names that are in fact there. */
+    st = p.status == TB_OK ? tb_circuit_finish(ckt, diag) : p.status;
+    if (st != TB_OK) {
+        tb_circuit_free(ckt);
+        return st;
+    }
+    *out = ckt;
+    return TB_OK;
 }
 
 tb_status tb_circuit_parse(const char *text, size_t len, const char *file, tb_diag *diag,
@@ -567,28 +1648,10 @@ tb_status tb_circuit_parse(const char *text, size_t len, const char *file, tb_di
 {
     if ((!text && len) || !out)
         return TB_ERR_USAGE;
-    if (!text)
-        text = "";
-    tb_circuit *ckt = NULL;
-    tb_status st = tb_circuit_create(file, &ckt);
-    if (st != TB_OK)
-        return st;
-    parser p = {.ckt = ckt, .diag = diag, .status = TB_OK};
-    tb_lex_init(&p.lx, text, len);
-    ckt->title = tb_strndup(p.lx.title.ptr, p.lx.title.len);
-    if (!ckt->title)
-        p.status = TB_ERR_NOMEM;
-    else
-        netlist(&p);
-    /* References are checked only in a netlist without syntax errors: an
-     * abandoned card would make them report names that are in fact there. */
-    st = p.status == TB_OK ? tb_circuit_finish(ckt, text, len, diag) : p.status;
-    if (st != TB_OK) {
-        tb_circuit_free(ckt);
-        return st;
-    }
-    *out = ckt;
-    return TB_OK;
+    char *copy = tb_strndup(text ? text : "", len);
+    if (!copy)
+        return TB_ERR_NOMEM;
+    return parse_owned(copy, len, file, NULL, diag, out);
 }
 
 /* ---- files -------------------------------------------------------------- */
@@ -603,12 +1666,15 @@ static tb_status cannot_read(const char *path, int err, tb_diag *diag)
     return TB_ERR_IO;
 }
 
-/* Reads the whole file at path into a new buffer *text of *len bytes. */
-static tb_status slurp(const char *path, tb_diag *diag, char **text, size_t *len)
+/* Reads the whole file at path into a new buffer *text of *len bytes;
+ * TB_ERR_IO with *err the reason, or TB_ERR_NOMEM. */
+static tb_status slurp(const char *path, int *err, char **text, size_t *len)
 {
     FILE *f = fopen(path, "rb");
-    if (!f)
-        return cannot_read(path, errno, diag);
+    if (!f) {
+        *err = errno;
+        return TB_ERR_IO;
+    }
     char *buf = NULL;
     size_t cap = 0;
     size_t n = 0;
@@ -624,8 +1690,10 @@ static tb_status slurp(const char *path, tb_diag *diag, char **text, size_t *len
         if (got < want)
             break;
     }
-    if (st == TB_OK && ferror(f))
-        st = cannot_read(path, errno ? errno : EIO, diag);
+    if (st == TB_OK && ferror(f)) {
+        *err = errno ? errno : EIO;
+        st = TB_ERR_IO;
+    }
     fclose(f);
     if (st != TB_OK) {
         tb_free(buf);
@@ -642,10 +1710,14 @@ tb_status tb_circuit_read(const char *path, tb_diag *diag, tb_circuit **out)
         return TB_ERR_USAGE;
     char *text = NULL;
     size_t len = 0;
-    tb_status st = slurp(path, diag, &text, &len);
+    int err = 0;
+    tb_status st = slurp(path, &err, &text, &len);
+    if (st == TB_ERR_IO)
+        return cannot_read(path, err, diag);
     if (st != TB_OK)
         return st;
-    st = tb_circuit_parse(text, len, path, diag, out);
-    tb_free(text);
+    char *canon = realpath(path, NULL);
+    st = parse_owned(text, len, path, canon, diag, out);
+    free(canon);
     return st;
 }

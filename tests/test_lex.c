@@ -113,6 +113,12 @@ static void test_lex_tokens(void **state)
         {"t\n\x7f\n", "2:1:[!] | ."},
         /* bytes of UTF-8 sequences are word characters */
         {"t\nR1 n\xC5\x93ud 0 1\n", "2:1:R1 2:4:n\xC5\x93ud 2:10:0 2:12:1 | ."},
+        /* {expression}: one token from '{' to the first '}' on its physical line,
+         * blanks, ';', '(' and ',' inside it included; '{' also ends a word */
+        {"t\nR1 a b {2 * (r; 1)}x\n", "2:1:R1 2:4:a 2:6:b 2:8:[{2 * (r; 1)}] 2:20:x | ."},
+        {"t\nR1 a b{min(1,2)}\n", "2:1:R1 2:4:a 2:6:b 2:7:[{min(1,2)}] | ."},
+        {"t\n.param k={1 + 2\n+ 3}\n", "2:1:.param 2:8:k 2:9:[=] 2:10:[{1 + 2] 3:3:3} | ."},
+        {"t\nR1 {a}{b}\n", "2:1:R1 2:4:[{a}] 2:7:[{b}] | ."},
         /* the title may hold control characters; they are not lexed */
         {"t\x01\x02\nR1\n", "2:1:R1 | ."},
     };

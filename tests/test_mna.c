@@ -143,6 +143,53 @@ static void test_mna_duplicates_summed(void **state)
     teardown(&f);
 }
 
+/* K: the branch rows of the two inductors read v_p - v_n - jw L i - jw M i_other = 0,
+ * so each has -jwM in the other's current column, M = k sqrt(L1 L2). */
+static void test_mna_mutual_inductance_stamp(void **state)
+{
+    (void)state;
+    double w = 3e3;
+    fixture f = setup("t\nV1 p 0 AC 1\nL1 p 0 1m\nL2 s 0 4m\nK12 L1 L2 0.8\nR1 s 0 50\n"
+                      "G1 d 0 d 0 1m\nRd d 0 1k\n.loop G1\n.io V1 i(V1)\n",
+                      w);
+    size_t j1 = branch(&f, "L1"), j2 = branch(&f, "L2");
+    double M = 0.8 * sqrt(1e-3 * 4e-3);
+    tu_close(at(&f, j1, j2), -I * w * M, 1e-15);
+    tu_close(at(&f, j2, j1), -I * w * M, 1e-15);
+    tu_close(at(&f, j1, j1), -I * w * 1e-3, 1e-15);
+    tu_close(at(&f, j2, j2), -I * w * 4e-3, 1e-15);
+    assert_int_equal(f.ckt->elems[3].branch, -1); /* K adds no unknown */
+    teardown(&f);
+}
+
+/* Two coupled inductors, the secondary loaded by R: with i1 into L1 and i2 the
+ * secondary's branch current (s through L2 to ground),
+ *   v_p = jw L1 i1 + jw M i2,   v_s = jw M i1 + jw L2 i2,   i2 = -v_s / R
+ * so v_s = jw M R i1 / (R + jw L2), i2 = -jw M i1 / (R + jw L2), and the input
+ * impedance is Z = v_p / i1 = jw L1 + w^2 M^2 / (R + jw L2) (own derivation from
+ * the coupled-inductor equations; the reflected-impedance form of circuit texts,
+ * from memory). i(V1) flows into V1's n+, so i1 = -i(V1) and Z = -1 / A. */
+static void test_mna_coupled_inductors_input_impedance(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = NULL;
+    tb_result *res = tu_analyse("coupled pair\nV1 p 0 AC 1\nL1 p 0 1m\nL2 s 0 4m\n"
+                                "K12 L2 L1 0.8\nR1 s 0 50\nG1 d 0 d 0 1m\nRd d 0 1k\n"
+                                ".loop G1\n.io V1 i(V1)\n.ac dec 4 100 100k\n",
+                                &ckt);
+    double L1 = 1e-3, L2 = 4e-3, R = 50;
+    double M = 0.8 * sqrt(L1 * L2);
+    const double *freq = tb_result_freqs(res);
+    const tb_point *pt = tb_result_loop(res, 0);
+    for (size_t i = 0; i < tb_result_points(res); i++) {
+        double w = 2 * TU_PI * freq[i];
+        double complex Z = I * w * L1 + w * w * M * M / (R + I * w * L2);
+        tu_close(-1.0 / pt[i].A, Z, 1e-12);
+    }
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -150,6 +197,8 @@ int main(void)
         cmocka_unit_test(test_mna_branch_stamps),
         cmocka_unit_test(test_mna_current_controlled_stamps),
         cmocka_unit_test(test_mna_duplicates_summed),
+        cmocka_unit_test(test_mna_mutual_inductance_stamp),
+        cmocka_unit_test(test_mna_coupled_inductors_input_impedance),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

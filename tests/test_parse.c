@@ -226,6 +226,7 @@ static void test_parse_sources(void **state)
                                "I2 d e AC 2 -90\n"
                                "V4 e f 1 AC 0.5 45\n"
                                "R1 f 0 1\n"
+                               "R2 d 0 1\n" /* else d hangs between I1 and I2 only */
                                "G1 f 0 a 0 1\n"
                                ".loop G1\n");
     const tb_element *e = elem_of(ckt, "V1");
@@ -339,13 +340,13 @@ static const struct {
     /* the start of a card */
     {"t\n(R1 a 0 1)\n", "t.net:2:1: error: expected an element or a directive, got '('"},
     {"t\n=\n", "t.net:2:1: error: expected an element or a directive, got '='"},
-    {"t\nX1 a 0 1k\n",
-     "t.net:2:1: error: unknown element 'X1': 'X' is not one of the element letters R C L V I E G F H"},
+    {"t\nU1 a 0 1k\n",
+     "t.net:2:1: error: unknown element 'U1': 'U' is not one of the element letters R C L V I E G F H K X"},
     {"t\n1R a 0 1\n",
-     "t.net:2:1: error: unknown element '1R': '1' is not one of the element letters R C L V I E G F H"},
+     "t.net:2:1: error: unknown element '1R': '1' is not one of the element letters R C L V I E G F H K X"},
     {"t\n\xCE\xA9" "1 a 0 1\n",
      "t.net:2:1: error: unknown element '\xCE\xA9" "1': '\xCE\xA9' is not one of the element "
-     "letters R C L V I E G F H"},
+     "letters R C L V I E G F H K X"},
     /* R, C, L */
     {"t\nR1\n", "t.net:2:3: error: expected a node name after 'R1'"},
     {"t\nR1 a\n", "t.net:2:5: error: expected a node name for R1 after 'a'"},
@@ -561,6 +562,47 @@ static void test_parse_loop_limit(void **state)
     free(text);
 }
 
+/* Absurdly long lines end in a clear message, in time and memory linear in their length. */
+static void test_parse_long_lines(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *head;
+        char fill;
+        const char *first;
+    } cases[] = {
+        {"t\nR1 a 0 ", '7', "t.net:2:8: error: value '7777777777777777777777777777777777777777...' is out of range"},
+        {"t\nR1 a 0 {", '(', "t.net:2:109: error: expression nested too deeply (limit is 100 levels)"},
+        {"t\nR1 a 0 {", '-', "t.net:2:109: error: expression nested too deeply (limit is 100 levels)"},
+        {"t\n.subckt s", ' ', "t.net:2:1: error: .subckt s has no .ends"},
+    };
+    size_t n = 10000000;
+    char *text = malloc(n + 64);
+    assert_non_null(text);
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        size_t head = strlen(cases[i].head);
+        memcpy(text, cases[i].head, head);
+        memset(text + head, cases[i].fill, n);
+        if (text[head - 1] == '{')
+            text[head + n - 1] = '}';
+        tb_diag *diag = tb_diag_new();
+        tb_circuit *ckt = NULL;
+        assert_int_equal(parse_exact(text, head + n, diag, &ckt), TB_ERR_INPUT);
+        assert_string_equal(first_line(diag, 0), cases[i].first);
+        tb_diag_free(diag);
+    }
+    /* an X card with a million nodes */
+    size_t len = (size_t)snprintf(text, n, "t\nX1");
+    for (int i = 0; i < 1000000; i++)
+        len += (size_t)snprintf(text + len, n + 64 - len, " n");
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    assert_int_equal(parse_exact(text, len, diag, &ckt), TB_ERR_INPUT);
+    assert_string_equal(first_line(diag, 0), "t.net:2:200006: error: too many pins (limit is 100000)");
+    tb_diag_free(diag);
+    free(text);
+}
+
 static void test_parse_usage(void **state)
 {
     (void)state;
@@ -631,6 +673,7 @@ int main(void)
         cmocka_unit_test(test_parse_stops_after_20_errors),
         cmocka_unit_test(test_parse_finish_stops_after_20_errors),
         cmocka_unit_test(test_parse_loop_limit),
+        cmocka_unit_test(test_parse_long_lines),
         cmocka_unit_test(test_parse_usage),
         cmocka_unit_test(test_parse_read_file),
         cmocka_unit_test(test_parse_read_errors),
