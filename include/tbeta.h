@@ -114,6 +114,11 @@ typedef struct {
     bool dc;              /* evaluate f = 0 exactly when the circuit allows (default true) */
     double refactor_rcond_drop; /* a refactor whose min/max |U_ii| falls below this times the
                                  * last pivoted one's factors again with pivoting (default 1e-6) */
+    bool stability;       /* exact crossings, margins, poles, Nyquist, verdict (default true) */
+    size_t pole_limit;    /* poles only up to this many unknowns (default 3000) */
+    double pm_min_deg;    /* phase-margin threshold (default 45, common practice) */
+    double gm_min_db;     /* gain-margin threshold (default 10, common practice) */
+    bool census;          /* return ratio of every controlled source (default false) */
 } tb_options;
 
 /* Sets every field of *opt to its default. */
@@ -175,6 +180,176 @@ typedef struct {
 
 /* Measures of loop l. Errors: TB_ERR_USAGE (NULL, l out of range), TB_ERR_NOMEM. */
 TB_API tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out);
+
+/* ---- stability ------------------------------------------------------ */
+
+/* Thresholds and limits of the stability analysis (part of tb_options). */
+#define TB_MAX_CROSSINGS 16  /* crossings kept per kind and loop (more: truncated, said so) */
+#define TB_MAX_POLES 16      /* closed-loop poles kept per loop, least damped first */
+
+/* One crossing found by root finding on fresh solves: |T| = 1 (unity) or the
+ * unwrapped phase of T at an odd multiple of 180 degrees (phase). */
+typedef struct {
+    double hz;
+    double T_db;          /* 20 log10 |T| there */
+    double phase_deg;     /* unwrapped phase of T there */
+    int direction;        /* +1: |T| (or the phase) rises through the level, -1: falls */
+    double margin;        /* unity: phase margin in degrees, wrapped into (-180, 180];
+                           * phase: gain margin in dB, -20 log10 |T| */
+    bool has_delay;
+    double delay_s;       /* unity with margin > 0: delay that closes it, margin/(2 pi hz) */
+} tb_crossing;
+
+typedef enum {
+    TB_VERDICT_UNKNOWN = 0,  /* neither poles nor Nyquist could decide */
+    TB_VERDICT_STABLE,
+    TB_VERDICT_MARGINAL,     /* closed-loop poles on the j-omega axis (within tolerance) */
+    TB_VERDICT_UNSTABLE,
+    TB_VERDICT_DISAGREE      /* the pole count and the Nyquist count disagree */
+} tb_verdict;
+
+/* Why the stability figures are as they are (bits 1u << tb_stab_note). */
+typedef enum {
+    TB_SNOTE_NO_PHASE_CROSSING = 0, /* the phase never reaches -180 (mod 360): no gain margin */
+    TB_SNOTE_NO_UNITY,              /* |T| never crosses 1 in the sweep: no phase or delay margin */
+    TB_SNOTE_TRUNCATED,             /* more crossings than TB_MAX_CROSSINGS: the first ones kept */
+    TB_SNOTE_POLES_TOO_BIG,         /* more unknowns than the pole limit: poles not computed */
+    TB_SNOTE_POLES_FAILED,          /* the dense eigenvalue solver did not converge */
+    TB_SNOTE_NYQUIST_ON_AXIS,       /* T(jw) passes through -1 or is infinite on the axis */
+    TB_SNOTE_NYQUIST_ASSUMES_P0,    /* poles not computed: Nyquist verdict assumes a stable open loop */
+    TB_SNOTE_DELAY_NONPOSITIVE,     /* a phase margin is <= 0: no delay margin */
+    TB_SNOTE_REFINE_BUDGET,         /* adaptive refinement stopped at its budget */
+    TB_SNOTE_PROBE_FAILED,          /* a fresh solve failed (matrix singular on the axis) */
+    TB_SNOTE_MULTIPLE_UNITY,        /* several unity crossings: margins alone do not decide, see poles */
+    TB_SNOTE_COUNT
+} tb_stab_note;
+
+/* A short English sentence for a stability note; never NULL. */
+TB_API const char *tb_stab_note_str(tb_stab_note note);
+/* "stable", "marginal", "unstable", "undecided", "poles and Nyquist disagree". */
+TB_API const char *tb_verdict_str(tb_verdict verdict);
+
+/* Margins, poles and verdict of one loop. has_* false means absent (notes say why). */
+typedef struct {
+    bool computed;            /* false when the analysis was switched off */
+    size_t unity_count;
+    tb_crossing unity[TB_MAX_CROSSINGS];
+    size_t phase_count;
+    tb_crossing phase[TB_MAX_CROSSINGS];
+    bool has_phase_margin;
+    double phase_margin_deg;  /* the unity crossings' phase margin of smallest magnitude (signed:
+                               * negative = that much phase lead puts T through -1) */
+    double phase_margin_hz;
+    bool has_gain_margin;
+    double gain_margin_db;    /* the gain margin of smallest magnitude (signed) */
+    double gain_margin_hz;
+    bool has_delay_margin;
+    double delay_margin_s;    /* smallest delay that closes a phase margin */
+    bool has_vector_margin;
+    double vector_margin;     /* min over the sweep of |1 + T(jw)|, distance of T from -1 */
+    double vector_margin_hz;
+    size_t evaluations;       /* fresh solves spent on refinement, roots and the Nyquist path */
+    /* poles: natural frequencies in rad/s, det(G + sC) = 0 (closed loop) and the
+     * same with this loop's source gain at zero (open loop) */
+    bool has_poles;
+    size_t unknowns;
+    size_t pole_limit;
+    size_t cl_finite;         /* finite closed-loop poles */
+    size_t cl_rhp;            /* of them in the right half-plane */
+    size_t cl_axis;           /* on the j-omega axis (within tolerance) */
+    size_t ol_rhp;            /* open-loop right-half-plane poles (P of Nyquist) */
+    size_t ol_axis;
+    double fastest_rad_s;     /* largest |s| of the finite closed-loop poles */
+    size_t pole_count;        /* entries of poles[] */
+    double complex poles[TB_MAX_POLES]; /* closed-loop poles, largest real part first */
+    /* Nyquist: N = clockwise encirclements of -1 by T(jw), w from -inf to inf */
+    bool has_nyquist;
+    long nyquist_n;
+    /* dominant closed-loop pair (least damped complex pair, or the slowest real pole) */
+    bool has_dominant;
+    double complex dominant;  /* upper member of the pair (Im >= 0) */
+    double zeta;
+    double q;
+    double fn_hz;
+    bool has_peaking;         /* zeta < 1/sqrt 2 */
+    double peaking_db;
+    double peaking_hz;
+    bool has_overshoot;
+    double overshoot_pct;     /* second-order estimate exp(-pi zeta/sqrt(1-zeta^2)) */
+    double settling_s;        /* 2 % settling estimate 4/(zeta wn) */
+    tb_verdict verdict;
+    double pm_min_deg;        /* thresholds applied */
+    double gm_min_db;
+    bool pm_ok;               /* |phase margin| >= pm_min_deg, and positive unless the loop is
+                               * stable (true when there is no unity crossing) */
+    bool gm_ok;               /* |gain margin| >= gm_min_db, likewise (true without phase crossing) */
+    unsigned notes;
+} tb_stability;
+
+/* Stability figures of loop l (computed by tb_analyse when opt->stability).
+ * Errors: TB_ERR_USAGE (NULL, l out of range). */
+TB_API tb_status tb_stability_loop(const tb_result *res, size_t l, tb_stability *out);
+
+/* ---- loop census ----------------------------------------------------- */
+
+#define TB_CENSUS_CROSSINGS 4 /* unity crossings kept per source */
+
+/* The return ratio of one controlled source (every other source at its gain),
+ * whether or not it is marked with .loop. */
+typedef struct {
+    const char *source;       /* element name as written; owned by the circuit */
+    bool marked;              /* the netlist marks it with .loop */
+    bool in_loop;             /* T is not identically zero over the sweep */
+    double max_T_db;          /* largest |T| over DC and the sweep, in dB (-300 when T = 0) */
+    double max_T_hz;          /* where (0 = DC) */
+    bool t_infinite;          /* T is infinite somewhere (the source's gain at zero is singular) */
+    size_t unity_count;
+    double unity_hz[TB_CENSUS_CROSSINGS];   /* |T| = 1, by Brent on fresh solves */
+    double margin_deg[TB_CENSUS_CROSSINGS]; /* phase margin there, wrapped into (-180, 180] */
+    bool has_phase_margin;
+    double phase_margin_deg;  /* worst of them */
+    const char *same_loop_as; /* a marked source with the same T (the same single loop), or NULL */
+    bool flagged;             /* an unmarked source whose |T| reaches 1 in a loop no .loop
+                               * covers: a local loop to look at */
+} tb_census_entry;
+
+/* Census of every controlled source (E, G, F, H), computed by tb_analyse when
+ * opt->census: ranked by max_T_db, largest first. *entries points into res
+ * (*count of them; 0 when not computed). Errors: TB_ERR_USAGE (NULL). */
+TB_API tb_status tb_census_get(const tb_result *res, const tb_census_entry **entries, size_t *count);
+
+/* ---- closed-loop step response -------------------------------------- */
+
+/* The response of the .io output to a unit step of the .io input, from
+ * G x + C dx/dt = b u(t), x(0) = 0, by the trapezoidal rule (one backward-Euler
+ * step first, so that the jump at t = 0 does not ring); step size and span from
+ * the closed-loop poles. Absent figures have has_* false. */
+typedef struct {
+    bool computed;
+    size_t points;          /* samples, t = 0 included */
+    double dt_s;
+    double t_end_s;
+    double final_value;     /* A(0), the DC gain the output settles to */
+    bool has_peak;
+    double peak_value;
+    double peak_s;
+    bool has_overshoot;
+    double overshoot_pct;   /* (peak - final)/final, 0 when it never passes the final value */
+    bool has_rise;
+    double rise_s;          /* 10 % to 90 % of the final value */
+    bool has_settling;
+    double settling_s;      /* last entry into the 2 % band around the final value */
+    const char *why_absent; /* when !computed: the reason, a static string */
+} tb_step_figures;
+
+/* Figures of the step response (computed by tb_analyse when opt->stability and
+ * the netlist has .io). Errors: TB_ERR_USAGE (NULL). */
+TB_API tb_status tb_step_figures_get(const tb_result *res, tb_step_figures *out);
+/* The samples: *t and *y point into res (n values each); *n = 0 when none. */
+TB_API tb_status tb_step_samples(const tb_result *res, const double **t, const double **y, size_t *n);
+/* The step response as CSV: "t_s,y" then one row per sample. TB_ERR_USAGE when
+ * it was not computed. */
+TB_API tb_status tb_report_step_csv(const tb_result *res, FILE *out);
 
 /* ---- writers -------------------------------------------------------- */
 

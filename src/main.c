@@ -1,5 +1,8 @@
 /* src/main.c: the tbeta command line: subcommands, options, diagnostics on stderr, exit codes */
+#include <errno.h>
+#include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "tbeta.h"
@@ -14,6 +17,7 @@ static const char usage_main[] =
     "       tbeta report NETLIST [--json] per-loop DC values, crossing, phase margin, -3 dB\n"
     "       tbeta sweep NETLIST [--csv] [--loop NAME]\n"
     "                                     one CSV row per sweep frequency\n"
+    "       tbeta step NETLIST [--csv]       closed-loop step response, one CSV row per sample\n"
     "       tbeta --help | --version\n"
     "\n"
     "tbeta solves a linear netlist over frequency and, at each controlled source\n"
@@ -25,11 +29,22 @@ static const char usage_main[] =
     "unreadable or malformed netlist, or a circuit that cannot be solved.\n";
 
 static const char usage_report[] =
-    "usage: tbeta report NETLIST [--json]\n"
+    "usage: tbeta report NETLIST [--json] [--pm-min DEG] [--gm-min DB] [--strict]\n"
+    "                            [--pole-limit N] [--no-stability] [--all-sources]\n"
     "  Prints, for every .loop: T, a, beta = 1/A_inf, A_inf, A0 and A at DC, the gain\n"
     "  error (A - A_inf)/A_inf, the unity-loop-gain frequency, the phase margin and\n"
-    "  the closed-loop -3 dB frequency.\n"
-    "  --json   one JSON document instead of text (full precision, null when absent)\n";
+    "  the closed-loop -3 dB frequency; then the stability figures: every crossing of\n"
+    "  |T| = 1 and of the phase through -180 deg (mod 360) found by root finding on fresh\n"
+    "  solves, phase, gain, delay and vector margins, closed-loop poles, the Nyquist\n"
+    "  count, the dominant pole pair and a verdict (stable, marginal, unstable).\n"
+    "  --json            one JSON document instead of text (full precision, null when absent)\n"
+    "  --pm-min DEG      phase-margin threshold (default 45, common practice); implies --strict\n"
+    "  --gm-min DB       gain-margin threshold (default 10, common practice); implies --strict\n"
+    "  --strict          exit 1 when a loop misses a threshold or is not stable\n"
+    "  --pole-limit N    compute poles only up to N unknowns (default 3000)\n"
+    "  --no-stability    skip the stability analysis (foundation figures only)\n"
+    "  --all-sources     loop census: the return ratio of every controlled source, ranked,\n"
+    "                    flagging unmarked local loops whose |T| reaches 1\n";
 
 static const char usage_sweep[] =
     "usage: tbeta sweep NETLIST [--csv] [--loop NAME]\n"
@@ -39,11 +54,21 @@ static const char usage_sweep[] =
     "  --csv         CSV output (the default and only format)\n"
     "  --loop NAME   the loop at controlled source NAME (default: the first .loop)\n";
 
+static const char usage_step[] =
+    "usage: tbeta step NETLIST [--csv]\n"
+    "  Prints the response of the .io output to a unit step of the .io input,\n"
+    "  computed in the time domain from G x + C dx/dt = b u(t) by the trapezoidal\n"
+    "  rule (step size and span from the closed-loop poles), as CSV: t_s,y\n"
+    "  Overshoot, rise and settling time are in 'tbeta report'.\n"
+    "  --csv   CSV output (the default and only format)\n";
+
 typedef struct {
-    const char *command; /* "report" or "sweep" */
+    const char *command; /* "report", "sweep" or "step" */
     const char *netlist;
     const char *loop;
     bool json;
+    bool strict;
+    tb_options opt;
 } args;
 
 static int usage_error(const char *msg, const char *arg, const char *usage)
@@ -52,10 +77,65 @@ static int usage_error(const char *msg, const char *arg, const char *usage)
     return EXIT_BAD_INPUT;
 }
 
+static bool is_stability_option(const char *s)
+{
+    return strcmp(s, "--pm-min") == 0 || strcmp(s, "--gm-min") == 0 || strcmp(s, "--strict") == 0 ||
+           strcmp(s, "--pole-limit") == 0 || strcmp(s, "--no-stability") == 0 ||
+           strcmp(s, "--all-sources") == 0;
+}
+
+/* A finite number (or, with whole, a non-negative integer) from text; false when malformed. */
+static bool number_arg(const char *text, bool whole, double *out)
+{
+    char *end = NULL;
+    errno = 0;
+    double x = strtod(text, &end);
+    if (errno || end == text || *end != '\0' || !isfinite(x))
+        return false;
+    if (whole && (x < 0 || x != floor(x) || x > 1e15))
+        return false;
+    *out = x;
+    return true;
+}
+
+/* One stability option at argv[*i] (and its value); -1 when accepted, or an exit code. */
+static int stability_option(int argc, char **argv, int *i, args *a, const char *usage)
+{
+    const char *s = argv[*i];
+    if (strcmp(s, "--strict") == 0) {
+        a->strict = true;
+        return -1;
+    }
+    if (strcmp(s, "--no-stability") == 0) {
+        a->opt.stability = false;
+        return -1;
+    }
+    if (strcmp(s, "--all-sources") == 0) {
+        a->opt.census = true;
+        return -1;
+    }
+    if (*i + 1 >= argc)
+        return usage_error(s, "needs a value", usage);
+    const char *text = argv[++*i];
+    double x = 0;
+    bool whole = strcmp(s, "--pole-limit") == 0;
+    if (!number_arg(text, whole, &x))
+        return usage_error(whole ? "not a non-negative whole number:" : "not a number:", text, usage);
+    if (whole) {
+        a->opt.pole_limit = (size_t)x;
+    } else {
+        *(strcmp(s, "--pm-min") == 0 ? &a->opt.pm_min_deg : &a->opt.gm_min_db) = x;
+        a->strict = true;
+    }
+    return -1;
+}
+
 /* Parses argv from index `first`; returns -1 when done, or an exit code. */
 static int parse_args(int argc, char **argv, int first, args *a)
 {
-    const char *usage = strcmp(a->command, "sweep") == 0 ? usage_sweep : usage_report;
+    const char *usage = strcmp(a->command, "sweep") == 0  ? usage_sweep
+                        : strcmp(a->command, "step") == 0 ? usage_step
+                                                          : usage_report;
     for (int i = first; i < argc; i++) {
         const char *s = argv[i];
         if (strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0) {
@@ -63,7 +143,11 @@ static int parse_args(int argc, char **argv, int first, args *a)
             return EXIT_DONE;
         } else if (strcmp(s, "--json") == 0 && strcmp(a->command, "report") == 0) {
             a->json = true;
-        } else if (strcmp(s, "--csv") == 0 && strcmp(a->command, "sweep") == 0) {
+        } else if (strcmp(a->command, "report") == 0 && is_stability_option(s)) {
+            int rc = stability_option(argc, argv, &i, a, usage);
+            if (rc >= 0)
+                return rc;
+        } else if (strcmp(s, "--csv") == 0 && strcmp(a->command, "report") != 0) {
             continue;
         } else if (strcmp(s, "--loop") == 0 && strcmp(a->command, "sweep") == 0) {
             if (i + 1 >= argc)
@@ -97,6 +181,16 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
 {
     if (strcmp(a->command, "report") == 0)
         return a->json ? tb_report_json(ckt, res, stdout) : tb_report_text(ckt, res, stdout);
+    if (strcmp(a->command, "step") == 0) {
+        tb_step_figures fig;
+        tb_step_figures_get(res, &fig);
+        if (!fig.computed) {
+            fprintf(stderr, "tbeta: %s: no step response: %s\n", a->netlist,
+                    fig.why_absent ? fig.why_absent : "not computed");
+            return TB_ERR_USAGE;
+        }
+        return tb_report_step_csv(res, stdout);
+    }
     size_t l = 0;
     if (a->loop && tb_circuit_find_loop(ckt, a->loop, &l) != TB_OK) {
         fprintf(stderr, "tbeta: no .loop at '%s' in %s; the loops are:", a->loop, a->netlist);
@@ -108,6 +202,28 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
     return tb_report_csv(ckt, res, l, stdout);
 }
 
+/* true when every loop is stable and meets the thresholds; says on stderr which does not. */
+static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const char *netlist)
+{
+    bool ok = true;
+    for (size_t l = 0; l < tb_result_loops(res); l++) {
+        tb_stability st;
+        if (tb_stability_loop(res, l, &st) != TB_OK || !st.computed)
+            continue;
+        const char *name = tb_circuit_loop_name(ckt, l);
+        if (st.verdict != TB_VERDICT_STABLE)
+            fprintf(stderr, "tbeta: %s: loop %s: verdict %s\n", netlist, name, tb_verdict_str(st.verdict));
+        if (!st.pm_ok)
+            fprintf(stderr, "tbeta: %s: loop %s: phase margin %.3f deg is below %g deg\n", netlist, name,
+                    st.phase_margin_deg, st.pm_min_deg);
+        if (!st.gm_ok)
+            fprintf(stderr, "tbeta: %s: loop %s: gain margin %+.3f dB is within %g dB of 0 dB\n", netlist,
+                    name, st.gain_margin_db, st.gm_min_db);
+        ok = ok && st.pm_ok && st.gm_ok && st.verdict == TB_VERDICT_STABLE;
+    }
+    return ok;
+}
+
 static int run(const args *a)
 {
     tb_diag *diag = tb_diag_new();
@@ -117,11 +233,9 @@ static int run(const args *a)
         fputs("tbeta: out of memory\n", stderr);
         return EXIT_BAD_INPUT;
     }
-    tb_options opt;
-    tb_options_init(&opt);
     tb_status st = tb_circuit_read(a->netlist, diag, &ckt);
     if (st == TB_OK)
-        st = tb_analyse(ckt, &opt, diag, &res);
+        st = tb_analyse(ckt, &a->opt, diag, &res);
     print_diags(diag);
     if (st == TB_OK)
         st = write_output(a, ckt, res);
@@ -131,10 +245,11 @@ static int run(const args *a)
         fprintf(stderr, "tbeta: writing the output failed\n");
         st = TB_ERR_IO;
     }
+    bool failed = st == TB_OK && a->strict && !thresholds_met(ckt, res, a->netlist);
     tb_result_free(res);
     tb_circuit_free(ckt);
     tb_diag_free(diag);
-    return st == TB_OK ? EXIT_DONE : EXIT_BAD_INPUT;
+    return st != TB_OK ? EXIT_BAD_INPUT : failed ? EXIT_FAILED_CHECK : EXIT_DONE;
 }
 
 int main(int argc, char **argv)
@@ -150,9 +265,12 @@ int main(int argc, char **argv)
         printf("tbeta %s\n", TB_VERSION);
         return EXIT_DONE;
     }
-    args a = {"report", NULL, NULL, false};
+    args a = {"report", NULL, NULL, false, false, {0}};
+    tb_options_init(&a.opt);
+    a.opt.stability = strcmp(argv[1], "sweep") != 0; /* the sweep table needs none of it */
     int first = 1;
-    if (strcmp(argv[1], "report") == 0 || strcmp(argv[1], "sweep") == 0) {
+    if (strcmp(argv[1], "report") == 0 || strcmp(argv[1], "sweep") == 0 ||
+        strcmp(argv[1], "step") == 0) {
         a.command = argv[1];
         first = 2;
     }

@@ -75,9 +75,39 @@ static bool find_unity(const tb_result *res, const tb_point *pts, size_t *seg, d
     return false;
 }
 
+static bool positive_feedback_dc(const tb_measures *m)
+{
+    return !(m->dc.flags & TB_PT_T_INF) && creal(m->dc.T) < 0 &&
+           fabs(cimag(m->dc.T)) <= 1e-12 * fabs(creal(m->dc.T));
+}
+
+/* The lowest crossing where |T| falls through 1, found by Brent on fresh solves. */
+static void exact_unity(const tb_result *res, size_t l, tb_measures *m)
+{
+    const tb_stability *st = &res->stab[l];
+    for (size_t i = 0; i < st->unity_count; i++) {
+        if (st->unity[i].direction > 0)
+            continue;
+        m->has_unity = true;
+        m->unity_hz = st->unity[i].hz;
+        if (positive_feedback_dc(m)) {
+            m->notes |= 1u << TB_NOTE_POSITIVE_FB_DC;
+            return;
+        }
+        m->has_phase_margin = true;
+        m->phase_margin_deg = 180.0 + st->unity[i].phase_deg;
+        return;
+    }
+    m->notes |= 1u << TB_NOTE_NO_UNITY;
+}
+
 /* deg: workspace of npoints doubles. */
 static void measure_unity(const tb_result *res, size_t l, tb_measures *m, double *deg)
 {
+    if (res->stab && res->stab[l].computed) {
+        exact_unity(res, l, m);
+        return;
+    }
     const tb_point *pts = tb_result_loop(res, l);
     size_t i = 0;
     double t = 0;

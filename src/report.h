@@ -12,4 +12,7 @@ const char *tb_report_grid_word(tb_grid_kind kind);
 /* The .io output as written: "v(out)", "v(a,b)" or "i(Vs)", into buf. */
 const char *tb_report_output(const tb_io_spec *io, char *buf, size_t size);
 
+/* One sentence saying why the verdict of st is what it is, into buf. */
+const char *tb_report_reason(const tb_stability *st, char *buf, size_t size);
+
 #endif

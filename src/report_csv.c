@@ -49,3 +49,18 @@ tb_status tb_report_csv(const tb_circuit *ckt, const tb_result *res, size_t l, F
     tb_free(deg);
     return ferror(out) ? TB_ERR_IO : TB_OK;
 }
+
+tb_status tb_report_step_csv(const tb_result *res, FILE *out)
+{
+    const double *t = NULL, *y = NULL;
+    size_t n = 0;
+    if (!out || tb_step_samples(res, &t, &y, &n) || n == 0)
+        return TB_ERR_USAGE;
+    fputs("t_s,y\n", out);
+    for (size_t k = 0; k < n; k++) {
+        fprintf(out, "%.17g", t[k]);
+        put_real(out, true, y[k]);
+        fputc('\n', out);
+    }
+    return ferror(out) ? TB_ERR_IO : TB_OK;
+}

@@ -68,6 +68,152 @@ static json_t *notes_array(builder *b, unsigned notes)
     return arr;
 }
 
+static json_t *obj(builder *b)
+{
+    json_t *o = json_object();
+    if (!o)
+        b->ok = false;
+    return o;
+}
+
+static json_t *crossing_object(builder *b, const tb_crossing *c, bool unity)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "hz", num(c->hz));
+    set(b, o, "T_db", num(c->T_db));
+    set(b, o, "phase_deg", num(c->phase_deg));
+    set(b, o, "direction", json_string(c->direction > 0 ? "rising" : "falling"));
+    if (unity) {
+        set(b, o, "phase_margin_deg", num(c->margin));
+        set(b, o, "delay_margin_s", c->has_delay ? num(c->delay_s) : json_null());
+    } else {
+        set(b, o, "gain_margin_db", num(c->margin));
+    }
+    return o;
+}
+
+static json_t *crossings_object(builder *b, const tb_stability *st)
+{
+    json_t *o = obj(b);
+    json_t *unity = json_array();
+    json_t *phase = json_array();
+    if (!unity || !phase)
+        b->ok = false;
+    for (size_t i = 0; unity && i < st->unity_count; i++)
+        if (json_array_append_new(unity, crossing_object(b, &st->unity[i], true)))
+            b->ok = false;
+    for (size_t i = 0; phase && i < st->phase_count; i++)
+        if (json_array_append_new(phase, crossing_object(b, &st->phase[i], false)))
+            b->ok = false;
+    if (!o) {
+        json_decref(unity);
+        json_decref(phase);
+        return NULL;
+    }
+    set(b, o, "unity", unity);
+    set(b, o, "phase", phase);
+    return o;
+}
+
+static json_t *pole_value(builder *b, double complex s)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "re", num(creal(s)));
+    set(b, o, "im", num(cimag(s)));
+    set(b, o, "hz", num(cabs(s) / (2.0 * 3.14159265358979323846)));
+    return o;
+}
+
+static json_t *poles_object(builder *b, const tb_stability *st)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "computed", json_boolean(st->has_poles));
+    set(b, o, "unknowns", json_integer((json_int_t)st->unknowns));
+    set(b, o, "limit", json_integer((json_int_t)st->pole_limit));
+    if (!st->has_poles)
+        return o;
+    set(b, o, "closed_loop_finite", json_integer((json_int_t)st->cl_finite));
+    set(b, o, "closed_loop_rhp", json_integer((json_int_t)st->cl_rhp));
+    set(b, o, "closed_loop_axis", json_integer((json_int_t)st->cl_axis));
+    set(b, o, "open_loop_rhp", json_integer((json_int_t)st->ol_rhp));
+    set(b, o, "open_loop_axis", json_integer((json_int_t)st->ol_axis));
+    json_t *list = json_array();
+    if (!list)
+        b->ok = false;
+    for (size_t i = 0; list && i < st->pole_count; i++)
+        if (json_array_append_new(list, pole_value(b, st->poles[i])))
+            b->ok = false;
+    set(b, o, "least_damped", list);
+    return o;
+}
+
+static json_t *dominant_object(builder *b, const tb_stability *st)
+{
+    if (!st->has_dominant)
+        return json_null();
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "re", num(creal(st->dominant)));
+    set(b, o, "im", num(cimag(st->dominant)));
+    set(b, o, "fn_hz", num(st->fn_hz));
+    set(b, o, "zeta", num(st->zeta));
+    set(b, o, "q", num(st->q));
+    set(b, o, "peaking_db", st->has_peaking ? num(st->peaking_db) : json_null());
+    set(b, o, "peaking_hz", st->has_peaking ? num(st->peaking_hz) : json_null());
+    set(b, o, "overshoot_pct", st->has_overshoot ? num(st->overshoot_pct) : json_null());
+    set(b, o, "settling_s", num(st->settling_s));
+    return o;
+}
+
+static json_t *thresholds_object(builder *b, const tb_stability *st)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "pm_min_deg", num(st->pm_min_deg));
+    set(b, o, "gm_min_db", num(st->gm_min_db));
+    set(b, o, "pm_ok", json_boolean(st->pm_ok));
+    set(b, o, "gm_ok", json_boolean(st->gm_ok));
+    return o;
+}
+
+/* The stability keys of one loop (margins by root finding, poles, Nyquist, verdict). */
+static void stability_keys(builder *b, json_t *lp, const tb_stability *st)
+{
+    char reason[512];
+    set(b, lp, "phase_margin_hz", st->has_phase_margin ? num(st->phase_margin_hz) : json_null());
+    set(b, lp, "gain_margin_db", st->has_gain_margin ? num(st->gain_margin_db) : json_null());
+    set(b, lp, "gain_margin_hz", st->has_gain_margin ? num(st->gain_margin_hz) : json_null());
+    set(b, lp, "delay_margin_s", st->has_delay_margin ? num(st->delay_margin_s) : json_null());
+    set(b, lp, "vector_margin", st->has_vector_margin ? num(st->vector_margin) : json_null());
+    set(b, lp, "vector_margin_hz", st->has_vector_margin ? num(st->vector_margin_hz) : json_null());
+    set(b, lp, "crossings", crossings_object(b, st));
+    set(b, lp, "poles", poles_object(b, st));
+    set(b, lp, "nyquist_encirclements", st->has_nyquist ? json_integer(st->nyquist_n) : json_null());
+    set(b, lp, "dominant_pair", dominant_object(b, st));
+    set(b, lp, "verdict", json_string(tb_verdict_str(st->verdict)));
+    set(b, lp, "verdict_reason", json_string(tb_report_reason(st, reason, sizeof reason)));
+    set(b, lp, "thresholds", thresholds_object(b, st));
+    set(b, lp, "refinement_solves", json_integer((json_int_t)st->evaluations));
+}
+
+static json_t *notes_all(builder *b, unsigned notes, const tb_stability *st)
+{
+    json_t *arr = notes_array(b, notes);
+    for (int n = 0; arr && n < TB_SNOTE_COUNT; n++)
+        if (st->notes & (1u << n))
+            if (json_array_append_new(arr, json_string(tb_stab_note_str((tb_stab_note)n))))
+                b->ok = false;
+    return arr;
+}
+
 static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *res, size_t l)
 {
     tb_measures m;
@@ -86,10 +232,17 @@ static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *r
     set(b, lp, "gain", num(e->value));
     set(b, lp, "dc_hz", num(m.dc_hz));
     set(b, lp, "dc", dc_object(b, &m));
+    tb_stability st;
+    tb_stability_loop(res, l, &st);
     set(b, lp, "unity_hz", m.has_unity ? num(m.unity_hz) : json_null());
-    set(b, lp, "phase_margin_deg", m.has_phase_margin ? num(m.phase_margin_deg) : json_null());
+    if (st.computed)
+        set(b, lp, "phase_margin_deg", st.has_phase_margin ? num(st.phase_margin_deg) : json_null());
+    else
+        set(b, lp, "phase_margin_deg", m.has_phase_margin ? num(m.phase_margin_deg) : json_null());
+    if (st.computed)
+        stability_keys(b, lp, &st);
     set(b, lp, "f3db_closed_hz", m.has_f3db ? num(m.f3db_closed_hz) : json_null());
-    set(b, lp, "notes", notes_array(b, m.notes));
+    set(b, lp, "notes", notes_all(b, m.notes, &st));
     return lp;
 }
 
@@ -107,6 +260,84 @@ static json_t *sweep_object(builder *b, const tb_circuit *ckt, const tb_result *
     set(b, sw, "points", json_integer((json_int_t)res->npoints));
     set(b, sw, "dc_solved", json_boolean(res->has_dc));
     return sw;
+}
+
+static json_t *opt_num(bool present, double x)
+{
+    return present ? num(x) : json_null();
+}
+
+/* The closed-loop step response's figures (the samples: tbeta step NETLIST). */
+static json_t *step_object(builder *b, const tb_result *res)
+{
+    tb_step_figures fig;
+    tb_step_figures_get(res, &fig);
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "computed", json_boolean(fig.computed));
+    if (!fig.computed) {
+        set(b, o, "note", json_string(fig.why_absent ? fig.why_absent : "not computed"));
+        return o;
+    }
+    set(b, o, "points", json_integer((json_int_t)fig.points));
+    set(b, o, "dt_s", num(fig.dt_s));
+    set(b, o, "t_end_s", num(fig.t_end_s));
+    set(b, o, "final_value", num(fig.final_value));
+    set(b, o, "peak_value", opt_num(fig.has_peak, fig.peak_value));
+    set(b, o, "peak_s", opt_num(fig.has_peak, fig.peak_s));
+    set(b, o, "overshoot_pct", opt_num(fig.has_overshoot, fig.overshoot_pct));
+    set(b, o, "rise_s", opt_num(fig.has_rise, fig.rise_s));
+    set(b, o, "settling_s", opt_num(fig.has_settling, fig.settling_s));
+    if (!fig.has_overshoot)
+        set(b, o, "note", json_string("figures only for a stable closed loop with a non-zero DC gain"));
+    return o;
+}
+
+static json_t *census_entry(builder *b, const tb_census_entry *e)
+{
+    json_t *o = obj(b);
+    json_t *unity = json_array();
+    if (!unity)
+        b->ok = false;
+    for (size_t i = 0; unity && i < e->unity_count; i++) {
+        json_t *c = obj(b);
+        if (c) {
+            set(b, c, "hz", num(e->unity_hz[i]));
+            set(b, c, "phase_margin_deg", num(e->margin_deg[i]));
+        }
+        if (!c || json_array_append_new(unity, c))
+            b->ok = false;
+    }
+    if (!o) {
+        json_decref(unity);
+        return NULL;
+    }
+    set(b, o, "source", json_string(e->source));
+    set(b, o, "marked", json_boolean(e->marked));
+    set(b, o, "in_loop", json_boolean(e->in_loop));
+    set(b, o, "max_T_db", e->in_loop ? num(e->max_T_db) : json_null());
+    set(b, o, "max_T_hz", e->in_loop ? num(e->max_T_hz) : json_null());
+    set(b, o, "T_infinite_somewhere", json_boolean(e->t_infinite));
+    set(b, o, "unity", unity);
+    set(b, o, "phase_margin_deg", e->has_phase_margin ? num(e->phase_margin_deg) : json_null());
+    set(b, o, "same_loop_as", e->same_loop_as ? json_string(e->same_loop_as) : json_null());
+    set(b, o, "flagged", json_boolean(e->flagged));
+    return o;
+}
+
+static json_t *census_array(builder *b, const tb_result *res)
+{
+    const tb_census_entry *entries = NULL;
+    size_t count = 0;
+    tb_census_get(res, &entries, &count);
+    json_t *arr = json_array();
+    if (!arr)
+        b->ok = false;
+    for (size_t i = 0; arr && i < count; i++)
+        if (json_array_append_new(arr, census_entry(b, &entries[i])))
+            b->ok = false;
+    return arr;
 }
 
 static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
@@ -135,6 +366,10 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
             b->ok = false;
     }
     set(b, root, "loops", loops);
+    if (res->stab)
+        set(b, root, "step_response", step_object(b, res));
+    if (res->census)
+        set(b, root, "census", census_array(b, res));
     set(b, root, "caution", json_string(tb_report_caution));
     return root;
 }

@@ -80,6 +80,82 @@ static void crossing_block(FILE *out, const tb_measures *m)
     line(out, "closed-loop -3 dB at", m->has_f3db, fmt_hz(m->f3db_closed_hz, v, sizeof v), "");
 }
 
+static void crossing_lines(FILE *out, const tb_stability *st)
+{
+    char f[64];
+    for (size_t i = 0; i < st->unity_count; i++) {
+        const tb_crossing *c = &st->unity[i];
+        fprintf(out, "      |T| = 1 (%s) at %-14s phase %9.3f deg   PM %8.3f deg", c->direction > 0 ? "rising " : "falling",
+                fmt_hz(c->hz, f, sizeof f), c->phase_deg, c->margin);
+        if (c->has_delay)
+            fprintf(out, "   delay margin %.4g s", c->delay_s);
+        fputc('\n', out);
+    }
+    for (size_t i = 0; i < st->phase_count; i++) {
+        const tb_crossing *c = &st->phase[i];
+        fprintf(out, "      phase = %.0f deg at %-14s |T| %+9.3f dB   GM %+8.3f dB\n", c->phase_deg,
+                fmt_hz(c->hz, f, sizeof f), c->T_db, c->margin);
+    }
+}
+
+static void pole_lines(FILE *out, const tb_stability *st)
+{
+    char f[64];
+    if (!st->has_poles) {
+        if (st->notes & (1u << TB_SNOTE_POLES_TOO_BIG))
+            fprintf(out, "    poles not computed (%zu unknowns > limit %zu; --pole-limit N)\n", st->unknowns,
+                    st->pole_limit);
+        return;
+    }
+    fprintf(out, "    closed-loop poles: %zu finite, %zu in the right half-plane, %zu on the axis; "
+                 "open loop: %zu in the right half-plane\n",
+            st->cl_finite, st->cl_rhp, st->cl_axis, st->ol_rhp);
+    for (size_t i = 0; i < st->pole_count && i < 6; i++) {
+        double complex s = st->poles[i];
+        if (cimag(s) < 0)
+            continue;
+        fprintf(out, "      s = %.6g %s j%.6g rad/s  (%s)\n", creal(s), cimag(s) > 0 ? "+-" : "+",
+                fabs(cimag(s)), fmt_hz(cabs(s) / (2.0 * 3.14159265358979323846), f, sizeof f));
+    }
+}
+
+static void dominant_lines(FILE *out, const tb_stability *st)
+{
+    char f[64], g[64];
+    if (!st->has_dominant)
+        return;
+    fprintf(out, "    dominant pair: fn %s, zeta %.4f, Q %.4f\n", fmt_hz(st->fn_hz, f, sizeof f), st->zeta,
+            st->q);
+    if (st->has_peaking)
+        fprintf(out, "      peaking %.3f dB at %s\n", st->peaking_db, fmt_hz(st->peaking_hz, g, sizeof g));
+    else
+        fprintf(out, "      no peaking (zeta >= 0.707)\n");
+    fprintf(out, "      step (second-order estimate): overshoot %.3g %%, 2 %% settling %.4g s\n",
+            st->overshoot_pct, st->settling_s);
+}
+
+static void stability_block(FILE *out, const tb_stability *st)
+{
+    char v[96], reason[512];
+    fprintf(out, "  stability\n");
+    snprintf(v, sizeof v, "%.3f deg at %.6g Hz (needs |PM| >= %g: %s)", st->phase_margin_deg, st->phase_margin_hz,
+             st->pm_min_deg, st->pm_ok ? "ok" : "FAILS");
+    line(out, "phase margin (smallest)", st->has_phase_margin, v, "");
+    snprintf(v, sizeof v, "%+.3f dB at %.6g Hz (needs |GM| >= %g: %s)", st->gain_margin_db, st->gain_margin_hz,
+             st->gm_min_db, st->gm_ok ? "ok" : "FAILS");
+    line(out, "gain margin", st->has_gain_margin, v, "");
+    snprintf(v, sizeof v, "%.4g s", st->delay_margin_s);
+    line(out, "delay margin", st->has_delay_margin, v, "");
+    snprintf(v, sizeof v, "%.4g at %.6g Hz", st->vector_margin, st->vector_margin_hz);
+    line(out, "vector margin min|1+T|", st->has_vector_margin, v, "");
+    crossing_lines(out, st);
+    pole_lines(out, st);
+    if (st->has_nyquist)
+        fprintf(out, "    Nyquist: %ld clockwise encirclements of -1\n", st->nyquist_n);
+    dominant_lines(out, st);
+    fprintf(out, "    verdict: %s (%s)\n", tb_verdict_str(st->verdict), tb_report_reason(st, reason, sizeof reason));
+}
+
 static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *res, size_t l)
 {
     tb_measures m;
@@ -90,13 +166,66 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
     fprintf(out, "\nloop at %s (%s, gain %.6g)\n", e->name, tb_elem_kind_word(e->kind), e->value);
     dc_block(out, &m);
     crossing_block(out, &m);
-    if (m.notes) {
+    tb_stability stab;
+    tb_stability_loop(res, l, &stab);
+    if (stab.computed)
+        stability_block(out, &stab);
+    if (m.notes || stab.notes) {
         fprintf(out, "  notes\n");
         for (int n = 0; n < TB_NOTE_COUNT; n++)
             if (m.notes & (1u << n))
                 fprintf(out, "    - %s\n", tb_note_str((tb_note)n));
+        for (int n = 0; n < TB_SNOTE_COUNT; n++)
+            if (stab.notes & (1u << n))
+                fprintf(out, "    - %s\n", tb_stab_note_str((tb_stab_note)n));
     }
     return TB_OK;
+}
+
+static void step_block(FILE *out, const tb_result *res)
+{
+    tb_step_figures fig;
+    char v[96];
+    tb_step_figures_get(res, &fig);
+    if (!fig.computed) {
+        fprintf(out, "\nclosed-loop step response: -- (%s)\n", fig.why_absent ? fig.why_absent : "not computed");
+        return;
+    }
+    fprintf(out, "\nclosed-loop step response (trapezoidal rule, %zu points to %.4g s)\n", fig.points,
+            fig.t_end_s);
+    snprintf(v, sizeof v, "%.6g", fig.final_value);
+    line(out, "final value A(0)", true, v, "");
+    snprintf(v, sizeof v, "%.4g %% (peak %.6g at %.4g s)", fig.overshoot_pct, fig.peak_value, fig.peak_s);
+    line(out, "overshoot", fig.has_overshoot, v, "");
+    snprintf(v, sizeof v, "%.4g s", fig.rise_s);
+    line(out, "rise time 10-90 %", fig.has_rise, v, "");
+    snprintf(v, sizeof v, "%.4g s", fig.settling_s);
+    line(out, "settling time (2 %)", fig.has_settling, v, "");
+}
+
+static void census_block(FILE *out, const tb_result *res)
+{
+    const tb_census_entry *e = NULL;
+    size_t count = 0;
+    char f[64], pm[32];
+    tb_census_get(res, &e, &count);
+    fprintf(out, "\nloop census: the return ratio of every controlled source, largest |T| first\n");
+    fprintf(out, "    %-12s %-7s %-22s %-9s %-12s %s\n", "source", "marked", "max |T|", "|T| = 1", "worst PM",
+            "flag");
+    for (size_t i = 0; i < count; i++) {
+        char peak[128];
+        if (e[i].in_loop)
+            snprintf(peak, sizeof peak, "%+.1f dB at %s", e[i].max_T_db,
+                     e[i].max_T_hz > 0 ? fmt_hz(e[i].max_T_hz, f, sizeof f) : "DC");
+        else
+            snprintf(peak, sizeof peak, "not in a loop");
+        snprintf(pm, sizeof pm, e[i].has_phase_margin ? "%.2f deg" : "--", e[i].phase_margin_deg);
+        char same[96];
+        snprintf(same, sizeof same, "same loop as %s", e[i].same_loop_as ? e[i].same_loop_as : "");
+        fprintf(out, "    %-12s %-7s %-22s %-9zu %-12s %s\n", e[i].source, e[i].marked ? "yes" : "no", peak,
+                e[i].unity_count, pm,
+                e[i].flagged ? "LOCAL LOOP with |T| >= 1: check it" : e[i].same_loop_as ? same : "");
+    }
 }
 
 tb_status tb_report_text(const tb_circuit *ckt, const tb_result *res, FILE *out)
@@ -118,6 +247,10 @@ tb_status tb_report_text(const tb_circuit *ckt, const tb_result *res, FILE *out)
         if (st)
             return st;
     }
+    if (res->stab && res->has_io)
+        step_block(out, res);
+    if (res->census)
+        census_block(out, res);
     fprintf(out, "\ncaution: %s\n", tb_report_caution);
     return ferror(out) ? TB_ERR_IO : TB_OK;
 }

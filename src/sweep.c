@@ -5,48 +5,25 @@
 #include <string.h>
 
 #include "alloc.h"
+#include "census.h"
 #include "diag.h"
 #include "loop.h"
 #include "mna.h"
 #include "solve.h"
-
-#define TB_MAX_POINTS ((size_t)10000000)
+#include "stability.h"
+#include "step.h"
 
 static const double TWO_PI = 6.28318530717958647692528676655900577;
-
-static double grid_base(const tb_ac_spec *ac)
-{
-    return ac->kind == TB_GRID_DEC ? 10.0 : 2.0;
-}
-
-size_t tb_sweep_count(const tb_ac_spec *ac)
-{
-    if (ac->points < 1 || !(ac->fstart > 0) || !(ac->fstop >= ac->fstart))
-        return 0;
-    if (ac->kind == TB_GRID_LIN)
-        return (size_t)ac->points;
-    double steps = floor(ac->points * log(ac->fstop / ac->fstart) / log(grid_base(ac)) + 1e-9);
-    if (!(steps < (double)TB_MAX_POINTS))
-        return 0;
-    return (size_t)steps + 1;
-}
-
-void tb_sweep_grid(const tb_ac_spec *ac, double *f)
-{
-    size_t count = tb_sweep_count(ac);
-    for (size_t i = 0; i < count; i++) {
-        if (ac->kind == TB_GRID_LIN)
-            f[i] = count == 1 ? ac->fstart
-                              : ac->fstart + (ac->fstop - ac->fstart) * (double)i / (double)(count - 1);
-        else
-            f[i] = ac->fstart * pow(grid_base(ac), (double)i / (double)ac->points);
-    }
-}
 
 void tb_options_init(tb_options *opt)
 {
     opt->dc = true;
     opt->refactor_rcond_drop = 1e-6;
+    opt->stability = true;
+    opt->pole_limit = 3000;
+    opt->pm_min_deg = 45.0; /* common practice */
+    opt->gm_min_db = 10.0;  /* common practice */
+    opt->census = false;
 }
 
 void tb_result_free(tb_result *res)
@@ -56,6 +33,10 @@ void tb_result_free(tb_result *res)
     tb_free(res->freqs);
     tb_free(res->pts);
     tb_free(res->dc);
+    tb_free(res->stab);
+    tb_free(res->step_t);
+    tb_free(res->step_y);
+    tb_free(res->census);
     tb_free(res);
 }
 
@@ -112,12 +93,33 @@ static tb_status sweeper_init(sweeper *s, const tb_circuit *ckt, tb_diag *diag)
 static tb_status singular_diag(const sweeper *s, tb_severity sev, double f, size_t culprit,
                                const char *consequence)
 {
+    /* Structural causes (floating nodes, loops of voltage sources or
+     * inductors) were reported by tb_circuit_finish; at DC it has said so
+     * already, and an error would have stopped the circuit before the sweep.
+     * What is left is numerical: values that make the equations dependent. */
+    if (sev == TB_SEV_WARNING && f == 0.0 && s->ckt->dc_singular)
+        return TB_ERR_SINGULAR;
+    static const char *const prefix[] = {"", "k", "M", "G", "T", "P"};
+    double scaled = f;
+    int p = 0;
+    while (scaled >= 1000.0 && p < 5) {
+        scaled /= 1000.0;
+        p++;
+    }
+    char at[64];
+    if (f == 0.0)
+        snprintf(at, sizeof at, "DC");
+    else if (f < 1.0)
+        snprintf(at, sizeof at, "%.6g mHz", f * 1e3);
+    else
+        snprintf(at, sizeof at, "%.6g %sHz", scaled, prefix[p]);
     char name[256];
     tb_circuit_unknown_name(s->ckt, culprit, name, sizeof name);
     tb_status st = tb_diag_add(s->diag, sev, s->ckt->file, 0, 0, NULL, 0,
-                               "the circuit matrix is singular at %.6g Hz, at %s "
-                               "(no path to ground, or a loop of voltage sources/inductors?)%s",
-                               f, name, consequence);
+                               "the circuit matrix is singular at %s (zero pivot at %s): element "
+                               "values make the equations dependent there, e.g. a loop whose "
+                               "return difference 1 + T is zero%s",
+                               at, name, consequence);
     return st ? st : TB_ERR_SINGULAR;
 }
 
@@ -125,6 +127,8 @@ static tb_status singular_diag(const sweeper *s, tb_severity sev, double f, size
  * *dc_culprit names the zero pivot (reported once the sweep has succeeded). */
 static tb_status sweep_dc(sweeper *s, tb_result *res, size_t *dc_culprit)
 {
+    if (s->ckt->dc_singular)
+        return TB_OK; /* singular by structure (warned); rounding could hide a zero pivot */
     tb_mna_values(s->mna, 0.0, s->Mx);
     tb_status st = tb_solver_factor(s->solver, s->Mx, dc_culprit);
     if (st == TB_ERR_SINGULAR)
@@ -187,6 +191,14 @@ tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag
     }
     if (!st)
         res->factor_count = tb_solver_factor_count(s.solver);
+    if (!st && opt->census)
+        st = tb_census_run(ckt, s.mna, s.solver, s.Mx, opt->refactor_rcond_drop, res);
+    if (!st && opt->stability) {
+        tb_probe probe = {s.mna, s.solver, s.work, s.Mx, s.row, opt->refactor_rcond_drop, 0};
+        st = tb_stability_run(&probe, opt, res);
+        if (!st)
+            st = tb_step_run(s.mna, res);
+    }
     sweeper_free(&s);
     if (st) {
         tb_result_free(res);

@@ -13,6 +13,12 @@ struct tb_result {
     tb_point *dc;     /* nloops, valid when has_dc */
     bool has_io;
     size_t factor_count; /* pivoted factorizations during the sweep (statistics) */
+    tb_stability *stab;  /* nloops, or NULL when the stability analysis was off */
+    tb_step_figures step; /* closed-loop step response (computed false when absent) */
+    double *step_t;       /* step.points samples each, or NULL */
+    double *step_y;
+    tb_census_entry *census; /* census_count, ranked; NULL unless opt->census */
+    size_t census_count;
 };
 
 /* Number of frequencies of the grid spec (0 when the spec is unusable). */

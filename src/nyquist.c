@@ -1,0 +1,43 @@
+/* src/nyquist.c: encirclements of -1 by T(jw) and the verdict that weighs them against the poles */
+#include "nyquist.h"
+
+#include <math.h>
+
+bool tb_nyquist_count(const tb_nyquist_path *path, long *n)
+{
+    if (!path->ok || path->near_minus1)
+        return false;
+    double turns = -(2.0 * path->turn_deg + path->arc_deg) / 360.0;
+    double nearest = round(turns);
+    if (fabs(turns - nearest) > 0.05)
+        return false;
+    *n = (long)nearest;
+    return true;
+}
+
+/* Z = N + P (H. Nyquist, "Regeneration theory", Bell Syst. Tech. J. 11, 1932; the
+ * return-difference form det M = det M0 (1 + T) of H. W. Bode, 1945). */
+void tb_nyquist_verdict(tb_stability *st, bool ol_axis_away)
+{
+    if (st->has_poles) {
+        st->verdict = st->cl_rhp > 0 ? TB_VERDICT_UNSTABLE
+                      : st->cl_axis > 0 ? TB_VERDICT_MARGINAL
+                                        : TB_VERDICT_STABLE;
+        if (st->cl_axis > 0 || ol_axis_away) {
+            if (st->has_nyquist)
+                st->notes |= 1u << TB_SNOTE_NYQUIST_ON_AXIS;
+            return; /* the plain contour runs through poles on the axis: no count to compare */
+        }
+        if (st->has_nyquist && (long)st->cl_rhp != st->nyquist_n + (long)st->ol_rhp)
+            st->verdict = TB_VERDICT_DISAGREE;
+        return;
+    }
+    if (!st->has_nyquist) {
+        st->verdict = TB_VERDICT_UNKNOWN;
+        return;
+    }
+    st->notes |= 1u << TB_SNOTE_NYQUIST_ASSUMES_P0;
+    st->verdict = st->nyquist_n > 0 ? TB_VERDICT_UNSTABLE
+                  : st->nyquist_n == 0 ? TB_VERDICT_STABLE
+                                       : TB_VERDICT_UNKNOWN;
+}

@@ -1,0 +1,289 @@
+/* tests/test_stability.c: exact crossings, margins, poles, Nyquist count and verdict against
+ * closed forms (references.md sections 4 and 8; sources named beside each check). */
+#include "testutil.h"
+
+#include "crossing.h"
+
+static tb_status cube_minus_two(void *ctx, double x, double *y)
+{
+    (void)ctx;
+    *y = x * x * x - 2.0;
+    return TB_OK;
+}
+
+static tb_status parabola(void *ctx, double x, double *y)
+{
+    (void)ctx;
+    *y = (x - 1.25) * (x - 1.25) + 3.0;
+    return TB_OK;
+}
+
+static void test_stability_brent_and_golden(void **state)
+{
+    (void)state;
+    double root = 0, xmin = 0, ymin = 0;
+    assert_int_equal(tb_brent_root(cube_minus_two, NULL, 0.0, 3.0, -2.0, 25.0, 1e-14, 100, &root), TB_OK);
+    tu_close(root, cbrt(2.0), 1e-13);
+    assert_int_equal(tb_brent_root(cube_minus_two, NULL, 2.0, 3.0, 6.0, 25.0, 1e-14, 100, &root),
+                     TB_ERR_USAGE); /* no sign change */
+    assert_int_equal(tb_golden_min(parabola, NULL, -4.0, 4.0, 1e-10, 200, &xmin, &ymin), TB_OK);
+    tu_close(xmin, 1.25, 1e-7); /* a minimum is located to about sqrt(eps) only */
+    tu_close(ymin, 3.0, 1e-14);
+}
+
+static tb_stability stability_of(const char *text, const tb_options *opt)
+{
+    tb_circuit *ckt = tu_parse(text);
+    tb_diag *diag = tb_diag_new();
+    tb_result *res = NULL;
+    tb_status st = tb_analyse(ckt, opt, diag, &res);
+    if (st != TB_OK)
+        tu_print_diags(diag);
+    assert_int_equal(st, TB_OK);
+    tb_stability out;
+    assert_int_equal(tb_stability_loop(res, 0, &out), TB_OK);
+    assert_true(out.computed);
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+    tb_diag_free(diag);
+    return out;
+}
+
+/* T(s) = wn^2 / (s (s + 2 zeta wn)) with zeta = 0.5, wn = 1e6 rad/s: an integrator
+ * G1 into C1 = 1n and G2 into R2 = 1k || C2 = 1n, gm1 = gm2 = 1 mS. */
+static const char integrator_loop[] =
+    "second-order loop with an integrator\n"
+    "VS in 0 AC 1\n"
+    "G1 0 a in out 1m\n"
+    "C1 a 0 1n\n"
+    "G2 0 b a 0 1m\n"
+    "R2 b 0 1k\n"
+    "C2 b 0 1n\n"
+    "EO out 0 b 0 1\n"
+    ".io VS v(out)\n"
+    ".loop G1\n"
+    ".ac dec 20 100 1g\n";
+
+static void test_stability_second_order_relations(void **state)
+{
+    (void)state;
+    tb_stability st = stability_of(integrator_loop, NULL);
+    double zeta = 0.5, wn = 1e6;
+    /* references.md section 4 (standard control texts: Franklin, Powell, Emami-Naeini;
+     * Ogata): wc/wn = sqrt(sqrt(1 + 4 zeta^4) - 2 zeta^2), PM = atan(2 zeta / (wc/wn)) */
+    double wc = wn * sqrt(sqrt(1 + 4 * pow(zeta, 4)) - 2 * zeta * zeta);
+    double pm = atan(2 * zeta / (wc / wn)) * 180 / TU_PI;
+    assert_int_equal(st.unity_count, 1);
+    tu_close(st.unity[0].hz, wc / (2 * TU_PI), 1e-9);
+    tu_close(st.phase_margin_deg, pm, 1e-9);
+    assert_true(fabs(st.phase_margin_deg - 51.83) < 0.005); /* the table's 51.83 deg */
+    tu_close(st.delay_margin_s, pm * TU_PI / 180 / wc, 1e-9);
+    assert_false(st.has_gain_margin); /* the phase tends to -180 but never reaches it */
+    /* closed loop wn^2/(s^2 + 2 zeta wn s + wn^2): poles -zeta wn +- j wn sqrt(1 - zeta^2) */
+    assert_true(st.has_poles);
+    assert_int_equal(st.cl_finite, 2);
+    tu_close(st.dominant, CMPLX(-zeta * wn, wn * sqrt(1 - zeta * zeta)), 1e-9);
+    tu_close(st.zeta, zeta, 1e-9);
+    tu_close(st.q, 1 / (2 * zeta), 1e-9);
+    tu_close(st.overshoot_pct, 100 * exp(-TU_PI * zeta / sqrt(1 - zeta * zeta)), 1e-9);
+    assert_true(fabs(st.overshoot_pct - 16.30) < 0.005);    /* the table's 16.30 % */
+    tu_close(st.peaking_db, -20 * log10(2 * zeta * sqrt(1 - zeta * zeta)), 1e-9);
+    assert_true(fabs(st.peaking_db - 1.249) < 0.0005);      /* the table's 1.249 dB */
+    /* open loop: the integrator's pole at s = 0 lies on the axis; the Nyquist path
+     * goes round it (T infinite at DC) and finds no encirclement */
+    assert_int_equal(st.ol_rhp, 0);
+    assert_true(st.ol_axis >= 1);
+    assert_true(st.has_nyquist);
+    assert_int_equal(st.nyquist_n, 0);
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+}
+
+/* references.md check 8a: R1 = 1k in-a, C1 = 1u a-0, R2 = 1k a-b, C2 = 1u b-0, source
+ * shorted: s = -(3 -+ sqrt 5)/(2RC). A buffer marked .loop reads b (not in a loop). */
+static void test_stability_rc_ladder_poles(void **state)
+{
+    (void)state;
+    tb_stability st = stability_of("rc ladder\nVS in 0 AC 1\nR1 in a 1k\nC1 a 0 1u\nR2 a b 1k\n"
+                                   "C2 b 0 1u\nE1 o 0 b 0 1\nRL o 0 1k\n.loop E1\n.ac dec 10 1 1meg\n",
+                                   NULL);
+    double rc = 1e-3;
+    assert_int_equal(st.cl_finite, 2);
+    tu_close(st.poles[0], -(3 - sqrt(5.0)) / (2 * rc), 1e-10);
+    tu_close(st.poles[1], -(3 + sqrt(5.0)) / (2 * rc), 1e-10);
+    assert_false(st.has_dominant); /* real poles only */
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+}
+
+/* references.md check 8b: VCVS v_x = 99 (v_in - v_out), R = 1k x-out, C = 1u out-0:
+ * open-loop pole -1/(RC) = -1000 rad/s, closed-loop pole -(1 + T0)/(RC) = -1e5 rad/s. */
+static void test_stability_feedback_moves_pole(void **state)
+{
+    (void)state;
+    tb_stability st = stability_of("pole moved by feedback\nVS in 0 AC 1\nE1 x 0 in out 99\n"
+                                   "R x out 1k\nC out 0 1u\n.io VS v(out)\n.loop E1\n.ac dec 20 1 100meg\n",
+                                   NULL);
+    assert_int_equal(st.cl_finite, 1);
+    tu_close(st.poles[0], -1e5, 1e-10);
+    assert_int_equal(st.ol_rhp, 0);
+    /* single pole: unity crossing at sqrt(T0^2 - 1)/(2 pi RC), PM = 180 - atan(sqrt(T0^2 - 1)) */
+    double x = sqrt(99.0 * 99.0 - 1);
+    assert_int_equal(st.unity_count, 1);
+    tu_close(st.unity[0].hz, x * 1000 / (2 * TU_PI), 1e-9);
+    tu_close(st.phase_margin_deg, 180 - atan(x) * 180 / TU_PI, 1e-9);
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+}
+
+/* A lossless LC tank: poles +- j/sqrt(LC) on the axis: marginal. */
+static void test_stability_lc_tank_marginal(void **state)
+{
+    (void)state;
+    tb_stability st = stability_of("lc tank\nI1 0 a AC 1\nL1 a 0 1m\nC1 a 0 1u\nE1 o 0 a 0 1\n"
+                                   "RL o 0 1k\n.loop E1\n.ac dec 7 1 1meg\n",
+                                   NULL);
+    assert_int_equal(st.cl_finite, 2);
+    assert_int_equal(st.cl_axis, 2);
+    tu_close(cabs(st.poles[0]), 1 / sqrt(1e-3 * 1e-6), 1e-10);
+    assert_int_equal(st.verdict, TB_VERDICT_MARGINAL);
+}
+
+static tb_stability stability_of_file(const char *path)
+{
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    tb_result *res = NULL;
+    assert_int_equal(tb_circuit_read(path, diag, &ckt), TB_OK);
+    assert_int_equal(tb_analyse(ckt, NULL, diag, &res), TB_OK);
+    tb_stability out;
+    assert_int_equal(tb_stability_loop(res, 0, &out), TB_OK);
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+    tb_diag_free(diag);
+    return out;
+}
+
+/* references.md section 4, check 4b: T = T0/((1 + s/p1)(1 + s/p2)), exact crossover
+ * u = fc^2 = [-(f1^2 + f2^2) + sqrt((f1^2 + f2^2)^2 + 4 f1^2 f2^2 (T0^2 - 1))]/2,
+ * PM = 180 - atan(fc/f1) - atan(fc/f2); closed loop wn = sqrt(p1 p2 (1 + T0)),
+ * zeta = (p1 + p2)/(2 wn) (standard control texts, from memory). */
+static void test_stability_two_pole_closed_form(void **state)
+{
+    (void)state;
+    tb_stability st = stability_of_file("tests/stab/stab_twopole.net");
+    double T0 = 1e4, f1 = 100, f2 = 1e6;
+    double S = f1 * f1 + f2 * f2;
+    double fc = sqrt((-S + sqrt(S * S + 4 * f1 * f1 * f2 * f2 * (T0 * T0 - 1))) / 2);
+    double pm = 180 - (atan(fc / f1) + atan(fc / f2)) * 180 / TU_PI;
+    assert_int_equal(st.unity_count, 1);
+    tu_close(st.unity[0].hz, fc, 1e-9);
+    tu_close(st.phase_margin_deg, pm, 1e-9);
+    assert_false(st.has_gain_margin);
+    double wn = 2 * TU_PI * sqrt(f1 * f2 * (1 + T0));
+    tu_close(st.fn_hz, wn / (2 * TU_PI), 1e-9);
+    tu_close(st.zeta, 2 * TU_PI * (f1 + f2) / (2 * wn), 1e-9);
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+}
+
+/* references.md section 4, check 4c: T = T0/(1 + s/p)^3: w180 = sqrt(3) p, |T(j w180)| = T0/8;
+ * |T| = 1 at wc = p sqrt(T0^(2/3) - 1), PM = 180 - 3 atan(wc/p); closed-loop poles
+ * (1 + s/p)^3 = -T0: s/p = -1 + T0^(1/3) e^(+-j pi/3) and -1 - T0^(1/3). T0 = 10 is
+ * unstable and encircles -1 twice (check 8c). */
+static void test_stability_three_pole_closed_form(void **state)
+{
+    (void)state;
+    double p = 2 * TU_PI * 1e3;
+    const char *path[2] = {"tests/stab/stab_threepole.net", "tests/stab/stab_threepole_unstable.net"};
+    double T0s[2] = {2, 10};
+    for (int i = 0; i < 2; i++) {
+        tb_stability st = stability_of_file(path[i]);
+        double T0 = T0s[i], wc = p * sqrt(pow(T0, 2.0 / 3.0) - 1), r = cbrt(T0);
+        assert_int_equal(st.phase_count, 1);
+        tu_close(st.phase[0].hz, sqrt(3.0) * p / (2 * TU_PI), 1e-9);
+        tu_close(st.gain_margin_db, -20 * log10(T0 / 8), 1e-9);
+        tu_close(st.unity[0].hz, wc / (2 * TU_PI), 1e-9);
+        tu_close(st.phase_margin_deg, 180 - 3 * atan(wc / p) * 180 / TU_PI, 1e-9);
+        assert_int_equal(st.cl_finite, 3);
+        tu_close(st.poles[0], p * CMPLX(-1 + r / 2, r * sqrt(3.0) / 2), 1e-9);
+        tu_close(st.poles[2], p * (-1 - r), 1e-9);
+        assert_int_equal(st.cl_rhp, i == 0 ? 0 : 2);
+        assert_int_equal(st.nyquist_n, i == 0 ? 0 : 2);
+        assert_int_equal(st.verdict, i == 0 ? TB_VERDICT_STABLE : TB_VERDICT_UNSTABLE);
+        assert_true(st.pm_ok == (i == 0) && st.gm_ok == (i == 0));
+    }
+}
+
+/* A narrow resonance between two grid points: gm into a parallel RLC tank (Q = 100,
+ * f0 = 2400 Hz) on a 5-point-per-decade grid whose nearest points see |T| < 0.22.
+ * T = K / (1 + jQ(x - 1/x)), x = f/f0, K = gm R = 2 (the band-pass second-order
+ * section; e.g. Franklin, Powell, Emami-Naeini, from memory): |T| = 1 where
+ * x - 1/x = +-sqrt(K^2 - 1)/Q, with phase -+60 degrees there. */
+static void test_stability_narrow_resonance_refined(void **state)
+{
+    (void)state;
+    double f0 = 2400.0, Q = 100.0, R = 1e3;
+    double C = Q / R / (2 * TU_PI * f0), L = R / Q / (2 * TU_PI * f0);
+    char text[512];
+    snprintf(text, sizeof text,
+             "band-pass loop\nVS in 0 AC 1\nG1 0 t in out 2m\nRt t 0 %.17g\nCt t 0 %.17g\n"
+             "Lt t 0 %.17g\nEO out 0 t 0 1\n.io VS v(out)\n.loop G1\n.ac dec 5 10 1meg\n",
+             R, C, L);
+    tb_stability st = stability_of(text, NULL);
+    double d = sqrt(2.0 * 2.0 - 1) / Q;
+    double x_lo = (-d + sqrt(d * d + 4)) / 2, x_hi = (d + sqrt(d * d + 4)) / 2;
+    assert_int_equal(st.unity_count, 2);
+    tu_close(st.unity[0].hz, f0 * x_lo, 1e-9);
+    tu_close(st.unity[1].hz, f0 * x_hi, 1e-9);
+    assert_int_equal(st.unity[0].direction, 1);
+    assert_int_equal(st.unity[1].direction, -1);
+    tu_close(st.unity[0].phase_deg, 60.0, 1e-9);
+    tu_close(st.unity[1].phase_deg, -60.0, 1e-9);
+    tu_close(st.unity[1].margin, 120.0, 1e-9);
+    tu_close(fabs(st.phase_margin_deg), 120.0, 1e-9);
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    assert_true(st.pm_ok);
+    /* closed loop: the tank with gm added to 1/R, poles s = -(1 + K)/(2RC) +- j... */
+    double sigma = (1 + 2.0) / (2 * R * C);
+    tu_close(creal(st.poles[0]), -sigma, 1e-9);
+}
+
+/* Thresholds are the user's; the pole limit turns the pencil off and says so. */
+static void test_stability_thresholds_and_limit(void **state)
+{
+    (void)state;
+    tb_options opt;
+    tb_options_init(&opt);
+    assert_true(opt.pm_min_deg == 45.0 && opt.gm_min_db == 10.0); /* common practice */
+    tb_stability st = stability_of(integrator_loop, &opt);
+    assert_true(st.pm_ok && st.gm_ok);
+    opt.pm_min_deg = 60.0;
+    opt.pole_limit = 3;
+    st = stability_of(integrator_loop, &opt);
+    assert_false(st.pm_ok);
+    assert_false(st.has_poles);
+    assert_true(st.notes & (1u << TB_SNOTE_POLES_TOO_BIG));
+    assert_true(st.notes & (1u << TB_SNOTE_NYQUIST_ASSUMES_P0));
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    opt.stability = false;
+    tb_circuit *ckt = tu_parse(integrator_loop);
+    tb_result *res = NULL;
+    assert_int_equal(tb_analyse(ckt, &opt, NULL, &res), TB_OK);
+    assert_int_equal(tb_stability_loop(res, 0, &st), TB_OK);
+    assert_false(st.computed);
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_stability_brent_and_golden),
+        cmocka_unit_test(test_stability_second_order_relations),
+        cmocka_unit_test(test_stability_rc_ladder_poles),
+        cmocka_unit_test(test_stability_feedback_moves_pole),
+        cmocka_unit_test(test_stability_lc_tank_marginal),
+        cmocka_unit_test(test_stability_two_pole_closed_form),
+        cmocka_unit_test(test_stability_three_pole_closed_form),
+        cmocka_unit_test(test_stability_narrow_resonance_refined),
+        cmocka_unit_test(test_stability_thresholds_and_limit),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
