@@ -81,6 +81,9 @@ TB_API size_t tb_circuit_loop_count(const tb_circuit *ckt);
 TB_API const char *tb_circuit_loop_name(const tb_circuit *ckt, size_t i);
 /* Index of the loop whose source is called name (case-insensitive); TB_ERR_USAGE if none. */
 TB_API tb_status tb_circuit_find_loop(const tb_circuit *ckt, const char *name, size_t *index);
+/* true when the netlist states its own stability thresholds (.margins): the
+ * command line then exits 1 when a loop misses them. */
+TB_API bool tb_circuit_states_margins(const tb_circuit *ckt);
 /* true when the netlist has an .io directive (A, A_inf, A0 and a exist). */
 TB_API bool tb_circuit_has_io(const tb_circuit *ckt);
 /* Node count including ground, and the number of MNA unknowns. */
@@ -116,8 +119,10 @@ typedef struct {
                                  * last pivoted one's factors again with pivoting (default 1e-6) */
     bool stability;       /* exact crossings, margins, poles, Nyquist, verdict (default true) */
     size_t pole_limit;    /* poles only up to this many unknowns (default 3000) */
-    double pm_min_deg;    /* phase-margin threshold (default 45, common practice) */
-    double gm_min_db;     /* gain-margin threshold (default 10, common practice) */
+    double pm_min_deg;    /* phase-margin threshold; negative (the default): the netlist's
+                           * .margins pm=, else 45 degrees (common practice) */
+    double gm_min_db;     /* gain-margin threshold; negative (the default): the netlist's
+                           * .margins gm=, else 10 dB (common practice) */
     bool census;          /* return ratio of every controlled source (default false) */
 } tb_options;
 

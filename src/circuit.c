@@ -681,6 +681,11 @@ tb_status tb_circuit_find_loop(const tb_circuit *ckt, const char *name, size_t *
     return TB_ERR_USAGE;
 }
 
+bool tb_circuit_states_margins(const tb_circuit *ckt)
+{
+    return ckt && ckt->margins.given;
+}
+
 bool tb_circuit_has_io(const tb_circuit *ckt)
 {
     return ckt && ckt->io.given;

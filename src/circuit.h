@@ -107,6 +107,16 @@ typedef struct {
     size_t len;
 } tb_source;
 
+/* .margins: the netlist's own stability thresholds (either may be absent). */
+typedef struct {
+    bool given;
+    bool has_pm;
+    double pm_min_deg;
+    bool has_gm;
+    double gm_min_db;
+    tb_loc loc;
+} tb_margin_spec;
+
 struct tb_circuit {
     char *title;
     const char *file;       /* interned netlist name */
@@ -124,6 +134,7 @@ struct tb_circuit {
     size_t loop_count;
     size_t loop_cap;
     tb_io_spec io;
+    tb_margin_spec margins;
     size_t branch_count;    /* set by tb_circuit_finish */
     bool dc_singular;       /* set by tb_circuit_finish: M(0) is singular by structure (warned) */
     tb_source *sources;     /* every text read, in reading order */

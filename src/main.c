@@ -38,9 +38,12 @@ static const char usage_report[] =
     "  solves, phase, gain, delay and vector margins, closed-loop poles, the Nyquist\n"
     "  count, the dominant pole pair and a verdict (stable, marginal, unstable).\n"
     "  --json            one JSON document instead of text (full precision, null when absent)\n"
-    "  --pm-min DEG      phase-margin threshold (default 45, common practice); implies --strict\n"
-    "  --gm-min DB       gain-margin threshold (default 10, common practice); implies --strict\n"
+    "  --pm-min DEG      phase-margin threshold (default: the netlist's .margins pm=,\n"
+    "                    else 45, common practice); implies --strict\n"
+    "  --gm-min DB       gain-margin threshold (default: the netlist's .margins gm=,\n"
+    "                    else 10, common practice); implies --strict\n"
     "  --strict          exit 1 when a loop misses a threshold or is not stable\n"
+    "                    (always so when the netlist has a .margins directive)\n"
     "  --pole-limit N    compute poles only up to N unknowns (default 3000)\n"
     "  --no-stability    skip the stability analysis (foundation figures only)\n"
     "  --all-sources     loop census: the return ratio of every controlled source, ranked,\n"
@@ -245,7 +248,8 @@ static int run(const args *a)
         fprintf(stderr, "tbeta: writing the output failed\n");
         st = TB_ERR_IO;
     }
-    bool failed = st == TB_OK && a->strict && !thresholds_met(ckt, res, a->netlist);
+    bool strict = a->strict || (ckt && tb_circuit_states_margins(ckt));
+    bool failed = st == TB_OK && strict && !thresholds_met(ckt, res, a->netlist);
     tb_result_free(res);
     tb_circuit_free(ckt);
     tb_diag_free(diag);

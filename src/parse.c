@@ -956,7 +956,45 @@ static bool io_card(parser *p)
     return true;
 }
 
-/* directive -> accard | loopcard | iocard | endcard; any other is skipped with a warning */
+/* margin -> (PM | GM) = value; a threshold of the stability verdict */
+static bool margin(parser *p, tb_margin_spec *m)
+{
+    char text[QUOTE_SIZE];
+    bool pm = accept_keyword(p, "pm");
+    if (!pm && !accept_keyword(p, "gm"))
+        return expected(p, "pm=DEGREES or gm=DB");
+    tb_token key = p->prev;
+    if ((pm && m->has_pm) || (!pm && m->has_gm))
+        return error(p, &key, "'%s' is given twice on .margins", quote(&key, text));
+    double x = 0;
+    if (!expect(p, TB_TOK_EQUALS, "'='") ||
+        !value(p, pm ? "a phase margin in degrees" : "a gain margin in dB", &x))
+        return false;
+    if (x < 0 || (pm && x >= 180))
+        return error(p, &p->prev, "%s threshold of .margins must be %s, got '%s'", pm ? "pm" : "gm",
+                     pm ? "from 0 to below 180 degrees" : "0 dB or more", quote(&p->prev, text));
+    *(pm ? &m->has_pm : &m->has_gm) = true;
+    *(pm ? &m->pm_min_deg : &m->gm_min_db) = x;
+    return true;
+}
+
+/* marginscard -> .MARGINS margin {margin} */
+static bool margins_card(parser *p)
+{
+    tb_margin_spec m = {.given = true, .loc = loc_of(p, &p->tok)};
+    if (p->ckt->margins.given)
+        return error(p, &p->tok, "second .margins directive (the first is on line %d)",
+                     p->ckt->margins.loc.line);
+    advance(p);
+    do {
+        if (!margin(p, &m))
+            return false;
+    } while (!at_end(p));
+    p->ckt->margins = m;
+    return true;
+}
+
+/* directive -> accard | loopcard | iocard | marginscard | endcard; any other is skipped with a warning */
 static bool directive(parser *p)
 {
     char text[QUOTE_SIZE];
@@ -966,6 +1004,8 @@ static bool directive(parser *p)
         return loop_card(p);
     if (tb_lex_is(&p->tok, ".io"))
         return io_card(p);
+    if (tb_lex_is(&p->tok, ".margins"))
+        return margins_card(p);
     if (tb_lex_is(&p->tok, ".end")) {
         /* endcard -> .END */
         advance(p);
@@ -1357,7 +1397,8 @@ static bool body_directive(parser *p, subckt *def)
         return error(p, &p->tok, ".subckt inside .subckt %s: definitions do not nest",
                      def->name);
     if (tb_lex_is(&p->tok, ".ac") || tb_lex_is(&p->tok, ".loop") || tb_lex_is(&p->tok, ".io") ||
-        tb_lex_is(&p->tok, ".include") || tb_lex_is(&p->tok, ".end"))
+        tb_lex_is(&p->tok, ".margins") || tb_lex_is(&p->tok, ".include") ||
+        tb_lex_is(&p->tok, ".end"))
         return error(p, &p->tok, "'%s' is not allowed inside .subckt %s", quote(&p->tok, text),
                      def->name);
     warning(p, &p->tok, "unknown directive '%s' skipped", quote(&p->tok, text));

@@ -21,8 +21,8 @@ void tb_options_init(tb_options *opt)
     opt->refactor_rcond_drop = 1e-6;
     opt->stability = true;
     opt->pole_limit = 3000;
-    opt->pm_min_deg = 45.0; /* common practice */
-    opt->gm_min_db = 10.0;  /* common practice */
+    opt->pm_min_deg = -1.0; /* the netlist's .margins, else 45 degrees (common practice) */
+    opt->gm_min_db = -1.0;  /* the netlist's .margins, else 10 dB (common practice) */
     opt->census = false;
 }
 
@@ -160,6 +160,16 @@ static tb_status sweep_points(sweeper *s, const tb_options *opt, tb_result *res)
     return TB_OK;
 }
 
+/* Thresholds left negative in the options come from the netlist's .margins,
+ * else from common practice: PM >= 45 degrees, GM >= 10 dB. */
+static void effective_thresholds(const tb_circuit *ckt, tb_options *opt)
+{
+    if (opt->pm_min_deg < 0)
+        opt->pm_min_deg = ckt->margins.has_pm ? ckt->margins.pm_min_deg : 45.0;
+    if (opt->gm_min_db < 0)
+        opt->gm_min_db = ckt->margins.has_gm ? ckt->margins.gm_min_db : 10.0;
+}
+
 tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag, tb_result **out)
 {
     if (!ckt || !out)
@@ -195,7 +205,9 @@ tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag
         st = tb_census_run(ckt, s.mna, s.solver, s.Mx, opt->refactor_rcond_drop, res);
     if (!st && opt->stability) {
         tb_probe probe = {s.mna, s.solver, s.work, s.Mx, s.row, opt->refactor_rcond_drop, 0};
-        st = tb_stability_run(&probe, opt, res);
+        tb_options limits = *opt;
+        effective_thresholds(ckt, &limits);
+        st = tb_stability_run(&probe, &limits, res);
         if (!st)
             st = tb_step_run(s.mna, res);
     }

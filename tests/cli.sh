@@ -56,6 +56,13 @@ has singular err "singular_vloop.net:3:1: error: loop of voltage sources: V1, V2
 expect floating 2 $tb tests/cli/floating_node.net
 has floating err "floating_node.net:6:1: error: node 'f' has no path to ground"
 
+# .margins in the netlist makes a missed threshold exit 1; the command line overrides its value
+expect margins-stated 1 $tb tests/cli/margins_stated.net
+has margins-stated err "loop E1: phase margin 5.782 deg is below 60 deg"
+has margins-stated out "needs |PM| >= 60: FAILS"
+expect margins-override 0 $tb tests/cli/margins_stated.net --pm-min 5
+has margins-override out "needs |PM| >= 5: ok"
+
 # every malformed netlist: exit 2 and the first line of stderr as stated in its .err file
 for f in tests/bad/*.net; do
     [ -f "$f" ] || continue

@@ -526,6 +526,51 @@ static void test_parse_stops_after_20_errors(void **state)
     assert_int_equal(parse_exact(text, strlen(text), NULL, &ckt), TB_ERR_INPUT);
 }
 
+/* .margins states the netlist's own stability thresholds, in any order, either optional. */
+static void test_parse_margins(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = parse_ok("margins\nV1 a 0 AC 1\nR1 a b 1k\nE1 b 0 a 0 2\nR2 b 0 1k\n"
+                               ".loop E1\n.MARGINS gm=6 PM=50\n");
+    assert_true(tb_circuit_states_margins(ckt));
+    assert_true(ckt->margins.has_pm && ckt->margins.pm_min_deg == 50);
+    assert_true(ckt->margins.has_gm && ckt->margins.gm_min_db == 6);
+    tb_circuit_free(ckt);
+    ckt = parse_ok("margins\nV1 a 0 AC 1\nR1 a b 1k\nE1 b 0 a 0 2\nR2 b 0 1k\n.loop E1\n"
+                   ".margins pm={90/2}\n");
+    assert_true(ckt->margins.has_pm && ckt->margins.pm_min_deg == 45);
+    assert_false(ckt->margins.has_gm);
+    tb_circuit_free(ckt);
+    ckt = parse_ok("no margins\nV1 a 0 AC 1\nR1 a b 1k\nE1 b 0 a 0 2\nR2 b 0 1k\n.loop E1\n");
+    assert_false(tb_circuit_states_margins(ckt));
+    tb_circuit_free(ckt);
+}
+
+static void test_parse_margins_errors(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *card;
+        const char *first;
+    } cases[] = {
+        {".margins", "t.net:7:9: error: expected pm=DEGREES or gm=DB after '.margins'"},
+        {".margins pm 45", "t.net:7:13: error: expected '=' for .margins, got '45'"},
+        {".margins pm=-1", "t.net:7:13: error: pm threshold of .margins must be from 0 to below 180 degrees, got '-1'"},
+        {".margins gm=-3", "t.net:7:13: error: gm threshold of .margins must be 0 dB or more, got '-3'"},
+        {".margins pm=45 pm=50", "t.net:7:16: error: 'pm' is given twice on .margins"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char text[512];
+        snprintf(text, sizeof text, "t\nV1 a 0 AC 1\nR1 a b 1k\nE1 b 0 a 0 2\nR2 b 0 1k\n.loop E1\n%s\n",
+                 cases[i].card);
+        tb_diag *diag = tb_diag_new();
+        tb_circuit *ckt = NULL;
+        assert_int_equal(parse_exact(text, strlen(text), diag, &ckt), TB_ERR_INPUT);
+        assert_string_equal(first_line(diag, 0), cases[i].first);
+        tb_diag_free(diag);
+    }
+}
+
 /* The checks after parsing stop at 20 errors too. */
 static void test_parse_finish_stops_after_20_errors(void **state)
 {
@@ -671,6 +716,8 @@ int main(void)
         cmocka_unit_test(test_parse_error_caret),
         cmocka_unit_test(test_parse_goes_on_after_errors),
         cmocka_unit_test(test_parse_stops_after_20_errors),
+        cmocka_unit_test(test_parse_margins),
+        cmocka_unit_test(test_parse_margins_errors),
         cmocka_unit_test(test_parse_finish_stops_after_20_errors),
         cmocka_unit_test(test_parse_loop_limit),
         cmocka_unit_test(test_parse_long_lines),
