@@ -26,7 +26,7 @@ mkdir -p "$DIR"
 for prog in floor peakrss; do
     ${CC:-cc} $WARN -O2 -D_POSIX_C_SOURCE=200809L -I"$ROOT/include" -I"$ROOT/src" -I/usr/include/suitesparse \
         "$HERE/$prog.c" "$BUILD/libtbeta.a" \
-        -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -lm -o "$DIR/$prog"
+        -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -llapack -lblas -lm -o "$DIR/$prog"
 done
 
 # value KEY FILE: the number after KEY in a "key value" file

@@ -8,9 +8,9 @@
 #include "alloc.h"
 #include "crossing.h"
 #include "loop.h"
+#include "measure.h"
 
 static const double TWO_PI = 6.28318530717958647692528676655900577;
-static const double DEG_PER_RAD = 57.295779513082320876798154814105;
 
 /* One controlled source: M = M0 + k u v' (design.md), and its running state. */
 typedef struct {
@@ -40,15 +40,6 @@ typedef struct {
     double complex *W; /* count columns of n */
 } census;
 
-static double wrap180(double d)
-{
-    d = fmod(d, 360.0);
-    if (d <= -180.0)
-        d += 360.0;
-    else if (d > 180.0)
-        d -= 360.0;
-    return d;
-}
 
 /* The unknown numbering of mna.c: node i > 0 is unknown i - 1, branches follow the nodes. */
 static void put(tb_svec *sv, size_t idx, double coef)
@@ -133,9 +124,9 @@ static void update(source *s, double f, const double complex *w)
         e->max_T_db = db;
         e->max_T_hz = f;
     }
-    double deg = inf ? s->prev_deg : carg(T) * DEG_PER_RAD;
+    double deg = inf ? s->prev_deg : carg(T) * TB_DEG_PER_RAD;
     if (s->have_prev && !inf)
-        deg = s->prev_deg + wrap180(deg - s->prev_deg);
+        deg = s->prev_deg + tb_wrap180(deg - s->prev_deg);
     bool crossed = s->have_prev && !inf && !s->prev_inf && s->prev_f > 0 &&
                    (cabs(s->prev_T) < 1.0) != (cabs(T) < 1.0);
     if (crossed && s->brackets < TB_CENSUS_CROSSINGS) {
@@ -204,8 +195,8 @@ static tb_status refine(census *cs, size_t i)
             return st;
         if (st)
             continue; /* a singular point on the axis: the crossing is left out */
-        double deg = s->deg_lo[b] + wrap180(carg(rc.T) * DEG_PER_RAD - s->deg_lo[b]);
-        double margin = wrap180(deg + 180.0);
+        double deg = s->deg_lo[b] + tb_wrap180(carg(rc.T) * TB_DEG_PER_RAD - s->deg_lo[b]);
+        double margin = tb_wrap180(deg + 180.0);
         e->unity_hz[e->unity_count] = exp(x);
         e->margin_deg[e->unity_count++] = margin;
         if (!e->has_phase_margin || margin < e->phase_margin_deg)

@@ -1,6 +1,7 @@
 /* src/diag.c: collecting located diagnostics and formatting them in one place */
 #include "diag.h"
 
+#include <math.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -164,4 +165,25 @@ const char *tb_status_str(tb_status status)
 {
     int i = -(int)status;
     return i >= 0 && i <= -TB_ERR_NUMERIC ? status_text[i] : "unknown status";
+}
+
+const char *tb_format_hz(double f, int digits, char *buf, size_t size)
+{
+    static const char *const prefix[] = {"", "k", "M", "G", "T", "P"};
+    int p = 0;
+    double v = f;
+    if (f == 0.0) {
+        snprintf(buf, size, "DC");
+        return buf;
+    }
+    if (fabs(f) < 1.0) {
+        snprintf(buf, size, "%.*g mHz", digits, f * 1e3);
+        return buf;
+    }
+    while (fabs(v) >= 1000.0 && p < 5) {
+        v /= 1000.0;
+        p++;
+    }
+    snprintf(buf, size, "%.*g %sHz", digits, v, prefix[p]);
+    return buf;
 }

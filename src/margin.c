@@ -7,7 +7,6 @@
 #include "crossing.h"
 #include "measure.h"
 
-static const double DEG_PER_RAD = 57.295779513082320876798154814105;
 static const double TWO_PI = 6.28318530717958647692528676655900577;
 
 /* One point of the path: T, its unwrapped phase, and the unwrapped phase of 1 + T. */
@@ -33,15 +32,6 @@ typedef struct {
 
 enum { ROOT_UNITY, ROOT_PHASE };
 
-static double wrap180(double d)
-{
-    d = fmod(d, 360.0);
-    if (d <= -180.0)
-        d += 360.0;
-    else if (d > 180.0)
-        d -= 360.0;
-    return d;
-}
 
 /* Continues the unwrapped phases of `from` to `to` (T known). */
 static void link_phase(const sample *from, sample *to)
@@ -51,8 +41,8 @@ static void link_phase(const sample *from, sample *to)
         to->ret = from->ret;
         return;
     }
-    to->deg = from->deg + wrap180(carg(to->T) * DEG_PER_RAD - from->deg);
-    to->ret = from->ret + wrap180(carg(1.0 + to->T) * DEG_PER_RAD - from->ret);
+    to->deg = from->deg + tb_wrap180(carg(to->T) * TB_DEG_PER_RAD - from->deg);
+    to->ret = from->ret + tb_wrap180(carg(1.0 + to->T) * TB_DEG_PER_RAD - from->ret);
 }
 
 static void note(scan *sc, tb_stab_note n)
@@ -141,9 +131,9 @@ static tb_status refine_root(scan *sc, const sample *a, const sample *b, int kin
     tb_crossing c = {.hz = s.f, .T_db = db_of(s.T), .phase_deg = s.deg};
     if (kind == ROOT_UNITY) {
         c.direction = db_of(b->T) > db_of(a->T) ? 1 : -1;
-        c.margin = wrap180(s.deg + 180.0);
+        c.margin = tb_wrap180(s.deg + 180.0);
         c.has_delay = c.margin > 0;
-        c.delay_s = c.has_delay ? c.margin / DEG_PER_RAD / (TWO_PI * s.f) : 0;
+        c.delay_s = c.has_delay ? c.margin / TB_DEG_PER_RAD / (TWO_PI * s.f) : 0;
         append(sc, sc->st->unity, &sc->st->unity_count, &c);
     } else {
         c.direction = b->deg > a->deg ? 1 : -1;
@@ -249,8 +239,8 @@ static tb_status low_leg(scan *sc, const tb_result *res, double f0, sample *cur,
         st = eval(sc, f_low, &zero, cur);
     } else if (!(res->dc[sc->l].flags & TB_PT_T_INF)) {
         sample dc = {.f = 0, .T = res->dc[sc->l].T};
-        dc.deg = carg(dc.T) * DEG_PER_RAD;
-        dc.ret = carg(1.0 + dc.T) * DEG_PER_RAD;
+        dc.deg = carg(dc.T) * TB_DEG_PER_RAD;
+        dc.ret = carg(1.0 + dc.T) * TB_DEG_PER_RAD;
         *ret0 = dc.ret;
         st = eval(sc, f_low, &dc, cur);
     } else { /* T ~ K/s^m near 0: along the arc arg(1 + T) turns by -m 180 degrees */
@@ -264,7 +254,7 @@ static tb_status low_leg(scan *sc, const tb_result *res, double f0, sample *cur,
         } else if (!st) {
             sc->path->ok = false;
         }
-        cur->ret = carg(1.0 + cur->T) * DEG_PER_RAD;
+        cur->ret = carg(1.0 + cur->T) * TB_DEG_PER_RAD;
         *ret0 = cur->ret;
     }
     if (st) {

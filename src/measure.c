@@ -6,15 +6,13 @@
 
 #include "alloc.h"
 
-static const double DEG_PER_RAD = 57.295779513082320876798154814105;
 
 double tb_db(double complex z)
 {
     return 20.0 * log10(cabs(z));
 }
 
-/* Wraps an angle difference into (-180, 180]. */
-static double wrap180(double d)
+double tb_wrap180(double d)
 {
     d = fmod(d, 360.0);
     if (d <= -180.0)
@@ -28,10 +26,10 @@ static double wrap180(double d)
 static double start_phase(const tb_result *res, size_t l, const tb_point *pts)
 {
     if (res->has_dc && !(res->dc[l].flags & TB_PT_T_INF) && cabs(res->dc[l].T) > 0)
-        return carg(res->dc[l].T) * DEG_PER_RAD;
+        return carg(res->dc[l].T) * TB_DEG_PER_RAD;
     for (size_t i = 0; i < res->npoints; i++)
         if (!(pts[i].flags & TB_PT_T_INF))
-            return carg(pts[i].T) * DEG_PER_RAD;
+            return carg(pts[i].T) * TB_DEG_PER_RAD;
     return 0.0;
 }
 
@@ -41,7 +39,7 @@ void tb_measure_phase(const tb_result *res, size_t l, double *deg)
     double prev = start_phase(res, l, pts);
     for (size_t i = 0; i < res->npoints; i++) {
         if (!(pts[i].flags & TB_PT_T_INF))
-            prev += wrap180(carg(pts[i].T) * DEG_PER_RAD - prev);
+            prev += tb_wrap180(carg(pts[i].T) * TB_DEG_PER_RAD - prev);
         deg[i] = prev;
     }
 }

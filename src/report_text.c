@@ -2,21 +2,14 @@
 #include <math.h>
 #include <string.h>
 
+#include "diag.h"
 #include "measure.h"
 #include "report.h"
 
 /* A frequency with an SI prefix: "1.2346 MHz". */
 static const char *fmt_hz(double f, char *buf, size_t size)
 {
-    static const char *const prefix[] = {"", "k", "M", "G", "T"};
-    int p = 0;
-    double v = f;
-    while (fabs(v) >= 1000.0 && p < 4) {
-        v /= 1000.0;
-        p++;
-    }
-    snprintf(buf, size, "%.5g %sHz", v, prefix[p]);
-    return buf;
+    return tb_format_hz(f, 5, buf, size);
 }
 
 /* A value that is real at DC, or re+im j when the DC point comes from the sweep. */

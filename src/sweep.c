@@ -99,20 +99,8 @@ static tb_status singular_diag(const sweeper *s, tb_severity sev, double f, size
      * What is left is numerical: values that make the equations dependent. */
     if (sev == TB_SEV_WARNING && f == 0.0 && s->ckt->dc_singular)
         return TB_ERR_SINGULAR;
-    static const char *const prefix[] = {"", "k", "M", "G", "T", "P"};
-    double scaled = f;
-    int p = 0;
-    while (scaled >= 1000.0 && p < 5) {
-        scaled /= 1000.0;
-        p++;
-    }
     char at[64];
-    if (f == 0.0)
-        snprintf(at, sizeof at, "DC");
-    else if (f < 1.0)
-        snprintf(at, sizeof at, "%.6g mHz", f * 1e3);
-    else
-        snprintf(at, sizeof at, "%.6g %sHz", scaled, prefix[p]);
+    tb_format_hz(f, 6, at, sizeof at);
     char name[256];
     tb_circuit_unknown_name(s->ckt, culprit, name, sizeof name);
     tb_status st = tb_diag_add(s->diag, sev, s->ckt->file, 0, 0, NULL, 0,
