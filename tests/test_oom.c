@@ -41,9 +41,13 @@ void *__wrap_realloc(void *ptr, size_t size)
     return fail_now() ? NULL : __real_realloc(ptr, size);
 }
 
-/* One full pass; returns the first non-OK status, or TB_OK. */
-static tb_status one_pass(const char *path, FILE *sink)
+/* One full pass (with the loop census when census is set); returns the first
+ * non-OK status, or TB_OK. */
+static tb_status one_pass(const char *path, bool census, FILE *sink)
 {
+    tb_options opt;
+    tb_options_init(&opt);
+    opt.census = census;
     tb_diag *diag = tb_diag_new();
     tb_circuit *ckt = NULL;
     tb_result *res = NULL;
@@ -51,27 +55,29 @@ static tb_status one_pass(const char *path, FILE *sink)
     if (!st)
         st = tb_circuit_read(path, diag, &ckt);
     if (!st)
-        st = tb_analyse(ckt, NULL, diag, &res);
+        st = tb_analyse(ckt, &opt, diag, &res);
     if (!st)
         st = tb_report_text(ckt, res, sink);
     if (!st)
         st = tb_report_csv(ckt, res, 0, sink);
     if (!st)
         st = tb_report_json(ckt, res, sink);
+    if (!st)
+        st = tb_report_step_csv(res, sink);
     tb_result_free(res);
     tb_circuit_free(ckt);
     tb_diag_free(diag);
     return st;
 }
 
-static void sweep(const char *path)
+static void sweep(const char *path, bool census)
 {
     FILE *sink = fopen("/dev/null", "w");
     assert_non_null(sink);
     for (long k = 0;; k++) {
         countdown = k;
         failures = 0;
-        tb_status st = one_pass(path, sink);
+        tb_status st = one_pass(path, census, sink);
         countdown = -1;
         if (failures == 0) {
             assert_int_equal(st, TB_OK); /* k is past the last allocation: done */
@@ -90,8 +96,11 @@ static void sweep(const char *path)
 static void test_oom_demo_netlists(void **state)
 {
     (void)state;
-    sweep("netlists/photodiode_tia.net");
-    sweep("tests/ref/ref_lc_twoloop.net");
+    sweep("netlists/photodiode_tia.net", false);
+    sweep("tests/ref/ref_lc_twoloop.net", true);
+    /* includes, subcircuits, parameters, K */
+    sweep("docs/examples/noninverting_from_library.net", false);
+    sweep("docs/examples/transformer_feedback.net", true);
 }
 
 static void test_oom_malformed_netlist(void **state)
@@ -105,7 +114,7 @@ static void test_oom_malformed_netlist(void **state)
         for (long k = 0; k < 200; k++) {
             countdown = k;
             failures = 0;
-            tb_status st = one_pass(paths[p], sink);
+            tb_status st = one_pass(paths[p], false, sink);
             countdown = -1;
             assert_true(st == TB_ERR_NOMEM || st == TB_ERR_INPUT);
             if (failures == 0)
