@@ -8,8 +8,8 @@ SAN      ?=
 WARN     := -std=c11 -Wall -Wextra -Werror -Wshadow -Wmissing-prototypes -Wstrict-prototypes \
             -Wwrite-strings -Wundef -Wold-style-definition
 CPPFLAGS := -Iinclude -Isrc -I/usr/include/suitesparse -D_POSIX_C_SOURCE=200809L
-CFLAGS   := $(WARN) $(OPT) $(SAN) -fvisibility=hidden
-LDFLAGS  := $(SAN)
+CFLAGS   := $(WARN) $(OPT) $(SAN) -fvisibility=hidden -pthread
+LDFLAGS  := $(SAN) -pthread
 LDLIBS   := -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -llapack -lblas -lm
 TESTLIBS := -lcmocka
 

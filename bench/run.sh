@@ -2,7 +2,8 @@
 # bench/run.sh: `make bench`: times tbeta's sweep on large generated ladders against the KLU floor, and its peak memory
 # Usage: sh bench/run.sh BUILD        (BUILD holds tbeta and libtbeta.a)
 # Environment: BENCH_SIZES (default "100000 200000"), BENCH_RUNS (best of, default 3),
-#              BENCH_REPEATS (passes of each in-process loop in floor, default 2).
+#              BENCH_REPEATS (passes of each in-process loop in floor, default 2),
+#              BENCH_LIBRARY (netlists in the library benchmark, default 1000; 0 skips it).
 #
 # Method (docs/performance.md):
 #   end to end  `tbeta sweep FILE --csv` on a 200-point grid, wall clock, parse and
@@ -12,6 +13,9 @@
 #   floor       bench/floor: per point tb_mna_values + tb_solver_refactor + one
 #               1-RHS tb_solver_solve on the same matrix and frequencies
 #   peak memory ru_maxrss of the 200-point run (bench/peakrss), in bytes per node
+#   library     `tbeta check DIR --jobs 1` and `--jobs 2 --pole-limit 0` on BENCH_LIBRARY
+#               generated netlists of 10 to 2000 nodes (bench/gen_library.sh), best of
+#               BENCH_RUNS: netlists per second and the speed-up of two threads
 set -eu
 BUILD=${1:?usage: run.sh BUILD}
 SIZES=${BENCH_SIZES:-100000 200000}
@@ -107,3 +111,36 @@ done
 awk 'NR == 1 { n1 = $1; r1 = $4 } NR > 1 { n2 = $1; r2 = $4 }
     END { if (NR > 1) printf "\nmemory growth %.0f bytes per added node (%.0f and %.0f bytes/node at the two sizes)\n",
           (r2 - r1) * 1024 / (n2 - n1), r1 * 1024 / n1, r2 * 1024 / n2 }' "$RESULTS"
+
+# ---- library benchmark: tbeta check over many netlists, one and two threads ----
+LIBN=${BENCH_LIBRARY:-1000}
+if [ "$LIBN" -gt 0 ]; then
+    LIB=$DIR/lib
+    rm -rf "$LIB"
+    sh "$HERE/gen_library.sh" "$LIB" "$LIBN"
+    # best_check JOBS: best wall time of RUNS checks with JOBS threads (every netlist must pass)
+    best_check() {
+        i=0
+        wall=""
+        while [ "$i" -lt "$RUNS" ]; do
+            "$DIR/peakrss" "$DIR/check_$1.txt" "$BUILD/tbeta" check "$LIB" --jobs "$1" --pole-limit 0 \
+                > "$DIR/peak_check.txt" || { echo "bench: tbeta check failed" >&2; return 1; }
+            w=$(value wall_s "$DIR/peak_check.txt")
+            wall=$(awk -v a="$wall" -v b="$w" 'BEGIN { print (a == "" || b + 0 < a + 0) ? b : a }')
+            i=$((i + 1))
+        done
+        echo "$wall"
+    }
+    t1=$(best_check 1)
+    t2=$(best_check 2)
+    cmp -s "$DIR/check_1.txt" "$DIR/check_2.txt" || { echo "bench: --jobs 1 and 2 differ" >&2; exit 1; }
+    grep -q "^check: $LIBN netlists: $LIBN passed" "$DIR/check_1.txt" ||
+        { echo "bench: not every library netlist passed" >&2; exit 1; }
+    nodes=$(cat "$LIB"/*/*.net | grep -c '^C[0-9]')
+    echo
+    echo "== library: $LIBN netlists, 10 to 2000 nodes ($nodes nodes in all), .ac dec 10 1 1meg, 5 expectations each"
+    awk -v n="$LIBN" -v t1="$t1" -v t2="$t2" 'BEGIN {
+        printf "  --jobs 1   %7.3f s  %7.1f netlists/s\n", t1, n / t1
+        printf "  --jobs 2   %7.3f s  %7.1f netlists/s  speed-up %.2f (target: 1000 in < 10 s)\n", t2, n / t2, t1 / t2
+    }'
+fi

@@ -365,6 +365,210 @@ TB_API tb_status tb_report_json(const tb_circuit *ckt, const tb_result *res, FIL
 /* Sweep table of loop l as CSV: header, then one row per sweep frequency. */
 TB_API tb_status tb_report_csv(const tb_circuit *ckt, const tb_result *res, size_t l, FILE *out);
 
+/* ---- hand estimate and desensitivity (docs/feedback.md) ---------------- */
+
+/* The parts of the difference between the closed-loop gain A and the hand
+ * estimate G (.ideal gain=G, or beta=1/G):
+ *   A - G = (A_inf - G) + (-A_inf/(1+T)) + A0/(1+T)
+ *           loading       finite loop gain  feedthrough */
+typedef enum {
+    TB_PART_LOADING = 0,  /* A_inf - G: the network as loaded by source, load and amplifier */
+    TB_PART_LOOP_GAIN,    /* -A_inf/(1+T): the loop gain is finite */
+    TB_PART_FEEDTHROUGH,  /* A0/(1+T): the signal that bypasses the amplifier */
+    TB_PART_COUNT
+} tb_part;
+
+/* "loading", "finite loop gain", "feedthrough". */
+TB_API const char *tb_part_str(tb_part part);
+
+/* One loop at one frequency. */
+typedef struct {
+    bool has_parts;       /* the breakdown exists here (.ideal and .io given, A_inf exists) */
+    double complex total; /* A - G (set whenever .ideal and .io are given) */
+    double complex part[TB_PART_COUNT];
+    bool has_S;
+    double complex S;     /* desensitivity 1/(1+T) (0 where T is infinite) */
+    bool has_S_A;
+    double complex S_A;   /* sensitivity of A to the amplifier's gain, (dA/A)/(dk/k)
+                           * = (1 - A0/A)/(1+T); equals S when A0 = 0 */
+} tb_breakdown_point;
+
+/* Reasons a figure of the breakdown or the desensitivity is absent or qualified
+ * (bits 1u << tb_fb_note). */
+typedef enum {
+    TB_FNOTE_NO_IO = 0,       /* no .io: neither breakdown nor desensitivity of A */
+    TB_FNOTE_NO_ESTIMATE,     /* no .ideal: no breakdown */
+    TB_FNOTE_MISSES_AT_DC,    /* the estimate misses by more than the tolerance already at DC */
+    TB_FNOTE_HOLDS_IN_SWEEP,  /* the estimate holds within the tolerance over the whole sweep */
+    TB_FNOTE_POINTS_ABSENT,   /* at some frequencies A_inf or T does not exist: no breakdown there */
+    TB_FNOTE_A_ZERO_DC,       /* A = 0 at DC: the relative sensitivity is not defined */
+    TB_FNOTE_RESOLVE_FAILED,  /* the circuit with the changed gain is singular: no re-solve */
+    TB_FNOTE_COUNT
+} tb_fb_note;
+
+/* A short English sentence for a note; never NULL. */
+TB_API const char *tb_fb_note_str(tb_fb_note note);
+
+/* The hand-estimate breakdown and desensitivity of one loop. */
+typedef struct {
+    bool computed;            /* false without .io (see notes) */
+    bool has_estimate;        /* .ideal given */
+    double estimate;          /* G: the stated gain, or 1/beta */
+    double tol_pct;           /* tolerance (default 1 %) */
+    double spread_pct;        /* amplifier-gain spread (default 5 %, common practice) */
+    double dc_hz;             /* 0, or the lowest sweep frequency when DC is singular */
+    tb_breakdown_point dc;
+    tb_part dominant_dc;      /* the largest part at DC (when dc.has_parts) */
+    double error_dc_pct;      /* |A - G|/|G| at DC, percent */
+    bool holds_at_dc;         /* error_dc_pct <= tol_pct */
+    bool has_limit;
+    double limit_hz;          /* lowest frequency where |A - G| exceeds tol |G| (root finding
+                               * on fresh solves, bracketed on the sweep grid) */
+    tb_part dominant_limit;   /* the largest part there */
+    tb_breakdown_point at_limit;
+    /* relative change of A at DC for the amplifier's gain k -> k (1 + d), d = +-spread:
+     * [0] for +spread, [1] for -spread */
+    bool has_change;
+    double complex change_first_order[2]; /* S_A d */
+    double complex change_model[2];       /* exact from T, A_inf, A0 (T is proportional to k) */
+    bool has_resolved;
+    double complex change_resolved[2];    /* by a fresh factorization with the changed gain */
+    unsigned notes;
+} tb_feedback_summary;
+
+/* Breakdown and desensitivity of loop l (computed by tb_analyse). Errors:
+ * TB_ERR_USAGE (NULL, l out of range). */
+TB_API tb_status tb_feedback_loop(const tb_result *res, size_t l, tb_feedback_summary *out);
+/* Loop l's breakdown at every sweep frequency: *pts points into res
+ * (tb_result_points of them). Errors: TB_ERR_USAGE. */
+TB_API tb_status tb_feedback_points(const tb_result *res, size_t l, const tb_breakdown_point **pts);
+
+/* ---- impedances with feedback: Blackman's formula (docs/feedback.md) ---- */
+
+/* One .zport, one loop, one frequency. Z0, T_sc and T_oc belong to the loop's
+ * controlled source: Z = Z0 (1 + T_sc)/(1 + T_oc). Independent sources are zeroed
+ * (V shorted, I open), so the port sees the whole rest of the circuit. */
+typedef struct {
+    bool has_Z;
+    double complex Z;          /* driving-point impedance of the full circuit, by a direct solve */
+    bool has_Z0;
+    double complex Z0;         /* the same with the source's gain at zero */
+    bool has_T_oc;
+    double complex T_oc;       /* return ratio with the port open (as it is): the loop's T */
+    bool has_T_sc;
+    double complex T_sc;       /* return ratio with the port shorted */
+    bool has_blackman;
+    double complex Z_blackman; /* Z0 (1 + T_sc)/(1 + T_oc) */
+} tb_zpoint;
+
+/* How the feedback meets a port, from Blackman's Z = Z0 (1 + T_sc)/(1 + T_oc). */
+typedef enum {
+    TB_SIDE_NONE = 0, /* neither return ratio is above 1e-9 (or Blackman's form does not apply:
+                       * Z0 = 0 or T infinite): no feedback seen at this port */
+    TB_SIDE_SERIES,   /* |1 + T_sc| > |1 + T_oc|: feedback raises the impedance (pure series:
+                       * T_oc = 0, opening the port kills the loop) */
+    TB_SIDE_SHUNT,    /* |1 + T_sc| < |1 + T_oc|: feedback lowers the impedance (pure shunt:
+                       * T_sc = 0, shorting the port kills the loop) */
+    TB_SIDE_MIXED     /* |1 + T_sc| = |1 + T_oc| to 1e-9: the impedance is unchanged */
+} tb_side;
+
+/* "no feedback", "series", "shunt", "mixed". */
+TB_API const char *tb_side_str(tb_side side);
+
+typedef struct {
+    const char *name;    /* the .zport label; owned by the circuit */
+    bool at_source;      /* i(V): the impedance V sees (T_sc is the loop's T: V as it is,
+                          * a short; T_oc has V open); node_a is then V's name */
+    const char *node_a;  /* as written */
+    const char *node_b;  /* NULL: ground */
+    double dc_hz;        /* 0, or the lowest sweep frequency when DC is singular */
+    tb_zpoint dc;
+    tb_side side;        /* at DC */
+    double purity;       /* min(|T_sc|, |T_oc|)/max(...) at DC: 0 for a pure series or shunt
+                          * port; up to 0.1 is reported as pure (the source or load resistance
+                          * at the port carries a little of the feedback otherwise) */
+    bool has_max_diff;
+    double max_rel_diff; /* largest |Z_blackman - Z|/|Z| over DC and the sweep */
+} tb_zport_summary;
+
+/* Number of .zport ports analysed (0 without .zport). */
+TB_API size_t tb_zport_count(const tb_result *res);
+/* Port `port` seen by loop l: its summary, and (pts not NULL) its points, one per
+ * sweep frequency, pointing into res. Errors: TB_ERR_USAGE. */
+TB_API tb_status tb_zport_loop(const tb_result *res, size_t port, size_t l, tb_zport_summary *out,
+                               const tb_zpoint **pts);
+
+/* The classic feedback amplifier types (input side - output side). */
+typedef enum {
+    TB_AMP_UNKNOWN = 0,       /* a side is mixed or without feedback, or a port is missing */
+    TB_AMP_VOLTAGE,           /* series at the input, shunt at the output */
+    TB_AMP_CURRENT,           /* shunt at the input, series at the output */
+    TB_AMP_TRANSCONDUCTANCE,  /* series - series */
+    TB_AMP_TRANSRESISTANCE    /* shunt - shunt */
+} tb_amp_type;
+
+/* "voltage amplifier (series-shunt)" and the like. */
+TB_API const char *tb_amp_type_str(tb_amp_type type);
+
+/* The feedback topology of loop l from the ports labelled "in" and "out". */
+typedef struct {
+    bool computed;       /* both ports exist */
+    tb_side input;
+    tb_side output;
+    tb_amp_type type;
+} tb_feedback_type;
+
+/* Errors: TB_ERR_USAGE (NULL, l out of range). */
+TB_API tb_status tb_feedback_type_loop(const tb_result *res, size_t l, tb_feedback_type *out);
+
+/* ---- loop gain at a wire break: double injection (docs/feedback.md) ----- */
+
+/* The loop gain at the zero-volt source marked by .break (+ node x: the side the
+ * loop signal comes from; - node y: the side that drives the loop on), from one
+ * voltage and one current injection there, solved exactly (no injection sources
+ * in the netlist). */
+typedef struct {
+    bool has_Tv;
+    double complex Tv;      /* voltage injection: -v_x/v_y */
+    bool has_Ti;
+    double complex Ti;      /* current injection: i_x/i_y (currents from the joined node) */
+    bool has_T;
+    double complex T;       /* Middlebrook: T = (Tv Ti - 1)/(Tv + Ti + 2) */
+    bool has_T_probe;
+    double complex T_probe; /* the same loop gain straight from the probe quantities of the two
+                             * runs, 1/(1 + T) = i_y/I_inj - v_y/V_inj (no Tv, Ti formed) */
+} tb_break_point;
+
+typedef struct {
+    bool computed;          /* the netlist has .break */
+    const char *source;     /* as written; owned by the circuit */
+    const char *node_x;
+    const char *node_y;
+    double dc_hz;           /* 0, or the lowest sweep frequency when DC is singular */
+    tb_break_point dc;
+    bool has_unity;
+    double unity_hz;        /* lowest frequency where |T| falls through 1 (grid, log f / dB) */
+    bool has_phase_margin;
+    double phase_margin_deg; /* 180 + unwrapped phase of T there */
+} tb_break_summary;
+
+/* The wire-break loop gain (computed by tb_analyse when the netlist has .break);
+ * *pts (when not NULL) points into res, one per sweep frequency. Errors: TB_ERR_USAGE. */
+TB_API tb_status tb_break_get(const tb_result *res, tb_break_summary *out, const tb_break_point **pts);
+
+/* ---- over frequency, as CSV ------------------------------------------- */
+
+/* One row per sweep frequency of a feedback table of loop l (full precision, an
+ * empty field where a value does not exist):
+ *   "breakdown": freq_hz,AmG_re,AmG_im,loading_re,loading_im,loopgain_re,loopgain_im,
+ *                feedthrough_re,feedthrough_im,error_pct,S_re,S_im,SA_re,SA_im
+ *   "zport:NAME": freq_hz,Z_re,Z_im,Z0_re,Z0_im,Tsc_re,Tsc_im,Toc_re,Toc_im,Zb_re,Zb_im
+ *   "break":     freq_hz,Tv_re,Tv_im,Ti_re,Ti_im,T_re,T_im,Tprobe_re,Tprobe_im
+ * Errors: TB_ERR_USAGE (no such table: no .ideal with .io, no such .zport, no
+ * .break), TB_ERR_IO. */
+TB_API tb_status tb_report_feedback_csv(const tb_circuit *ckt, const tb_result *res, size_t l, const char *table,
+                                        FILE *out);
+
 #ifdef __cplusplus
 }
 #endif

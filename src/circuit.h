@@ -117,6 +117,37 @@ typedef struct {
     tb_loc loc;
 } tb_margin_spec;
 
+/* .ideal: the designer's hand estimate of the closed-loop gain (docs/feedback.md). */
+typedef struct {
+    bool given;
+    bool as_beta;      /* stated as beta=: the estimate is 1/beta */
+    double value;      /* as stated (gain, or beta) */
+    bool has_tol;
+    double tol_pct;    /* the estimate holds while |A - estimate| <= tol_pct % of it */
+    bool has_spread;
+    double spread_pct; /* amplifier-gain spread of the desensitivity check, +- percent */
+    tb_loc loc;
+} tb_ideal_spec;
+
+/* .zport: a node pair whose impedance is reported with and without feedback (impedance.c). */
+#define TB_MAX_ZPORTS 16
+typedef struct {
+    const char *name;   /* label as written ("in" and "out" also classify the feedback) */
+    const char *node_a; /* the port's + node as written */
+    const char *node_b; /* its - node, or NULL for ground */
+    bool at_source;     /* i(V): the port is V's terminal pair as the source sees it; node_a
+                         * holds the source's name */
+    tb_loc loc;
+} tb_zport_spec;
+
+/* .break: a zero-volt V source in a loop wire, where the loop gain is found by
+ * double injection (wirebreak.c). */
+typedef struct {
+    bool given;
+    const char *source; /* as written */
+    tb_loc loc;
+} tb_break_spec;
+
 struct tb_circuit {
     char *title;
     const char *file;       /* interned netlist name */
@@ -135,6 +166,13 @@ struct tb_circuit {
     size_t loop_cap;
     tb_io_spec io;
     tb_margin_spec margins;
+    struct tb_expect *expects;     /* .expect cards in netlist order (src/expect.h), in the string arena */
+    struct tb_expect *expect_last;
+    size_t expect_count;
+    tb_ideal_spec ideal;    /* .ideal (feedback.c) */
+    tb_zport_spec zports[TB_MAX_ZPORTS]; /* .zport (impedance.c) */
+    size_t zport_count;
+    tb_break_spec brk;      /* .break (wirebreak.c) */
     size_t branch_count;    /* set by tb_circuit_finish */
     bool dc_singular;       /* set by tb_circuit_finish: M(0) is singular by structure (warned) */
     tb_source *sources;     /* every text read, in reading order */

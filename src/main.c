@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "tbeta.h"
+#include "checkrun.h" /* the regression runner (tbeta check) */
 
 /* Exit codes, one table: 0 done; 1 done but an expectation or threshold
  * failed (used by later subcommands); 2 usage error, unreadable or malformed
@@ -18,6 +19,7 @@ static const char usage_main[] =
     "       tbeta sweep NETLIST [--csv] [--loop NAME]\n"
     "                                     one CSV row per sweep frequency\n"
     "       tbeta step NETLIST [--csv]       closed-loop step response, one CSV row per sample\n"
+    "       tbeta check PATH... [options]     run every netlist's .expect cards (tbeta check --help)\n"
     "       tbeta --help | --version\n"
     "\n"
     "tbeta solves a linear netlist over frequency and, at each controlled source\n"
@@ -55,7 +57,9 @@ static const char usage_sweep[] =
     "  freq_hz,T_re,T_im,A_re,A_im,Ainf_re,Ainf_im,A0_re,A0_im,aol_re,aol_im,T_db,T_phase_deg\n"
     "  An empty field is a value that does not exist at that frequency.\n"
     "  --csv         CSV output (the default and only format)\n"
-    "  --loop NAME   the loop at controlled source NAME (default: the first .loop)\n";
+    "  --loop NAME   the loop at controlled source NAME (default: the first .loop)\n"
+    "  --table T     instead, a feedback table (docs/feedback.md): breakdown (needs .ideal),\n"
+    "                zport:NAME (a .zport) or break (needs .break)\n";
 
 static const char usage_step[] =
     "usage: tbeta step NETLIST [--csv]\n"
@@ -72,6 +76,7 @@ typedef struct {
     bool json;
     bool strict;
     tb_options opt;
+    const char *table; /* sweep --table: a feedback table instead of the loop table */
 } args;
 
 static int usage_error(const char *msg, const char *arg, const char *usage)
@@ -156,6 +161,10 @@ static int parse_args(int argc, char **argv, int first, args *a)
             if (i + 1 >= argc)
                 return usage_error("--loop needs a source name", NULL, usage);
             a->loop = argv[++i];
+        } else if (strcmp(s, "--table") == 0 && strcmp(a->command, "sweep") == 0) {
+            if (i + 1 >= argc)
+                return usage_error("--table needs breakdown, zport:NAME or break", NULL, usage);
+            a->table = argv[++i];
         } else if (s[0] == '-' && s[1] != '\0') {
             return usage_error("unknown option", s, usage);
         } else if (a->netlist) {
@@ -202,6 +211,13 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
         fputc('\n', stderr);
         return TB_ERR_USAGE;
     }
+    if (a->table && tb_report_feedback_csv(ckt, res, l, a->table, stdout) == TB_ERR_USAGE) {
+        fprintf(stderr, "tbeta: %s has no table '%s' (breakdown needs .ideal and .io, zport:NAME a .zport, "
+                        "break a .break)\n", a->netlist, a->table);
+        return TB_ERR_USAGE;
+    }
+    if (a->table)
+        return ferror(stdout) ? TB_ERR_IO : TB_OK;
     return tb_report_csv(ckt, res, l, stdout);
 }
 
@@ -256,6 +272,207 @@ static int run(const args *a)
     return st != TB_OK ? EXIT_BAD_INPUT : failed ? EXIT_FAILED_CHECK : EXIT_DONE;
 }
 
+/* ---- tbeta check ------------------------------------------------------------ */
+
+static const char usage_check[] =
+    "usage: tbeta check PATH... [--glob PATTERN] [--jobs N] [--shard I/N]\n"
+    "                   [--save FILE] [--against FILE] [--drift PCT]\n"
+    "                   [--json FILE] [--junit FILE] [--pole-limit N] [--no-stability]\n"
+    "       tbeta check --merge RESULTS.json... [--json FILE] [--junit FILE] [--save FILE]\n"
+    "  Reads every netlist (files as given, directories searched recursively for\n"
+    "  PATTERN), analyses it and evaluates its .expect cards; prints one line per\n"
+    "  netlist (the failing expectation with the value measured and the bound) and a\n"
+    "  summary. Netlists are reported in path order whatever the number of threads.\n"
+    "  --glob PATTERN  file names searched in directories (default *.net)\n"
+    "  --jobs N        threads (default: the number of cores)\n"
+    "  --shard I/N     only the files whose path hash is shard I of N (I from 1 to N):\n"
+    "                  spread a library over machines, then merge their --json files\n"
+    "  --save FILE     write every measured figure as JSON (a baseline)\n"
+    "  --against FILE  compare with a baseline (--save or --json file): a figure that\n"
+    "                  moved the worse way by more than --drift percent fails\n"
+    "  --drift PCT     drift tolerance in percent (default 1)\n"
+    "  --json FILE     write the full results as JSON\n"
+    "  --junit FILE    write JUnit XML, one testcase per expectation\n"
+    "  --merge         the PATHs are --json files of shards: merge them\n"
+    "  --pole-limit N  poles and step response only up to N unknowns (default 3000;\n"
+    "                  their cost grows as N^3: lower it for large netlists)\n"
+    "  --no-stability  foundation figures only (no margins, poles or verdict)\n"
+    "  The .expect grammar and the figures an expectation may name: docs/check.md.\n"
+    "  exit codes: 0 all pass; 1 an expectation failed or a figure drifted;\n"
+    "  2 usage error, or a netlist could not be read or analysed.\n";
+
+typedef struct {
+    const char **paths;
+    size_t count;
+    const char *save;
+    const char *against;
+    const char *json;
+    const char *junit;
+    bool merge;
+    tb_check_options opt;
+} check_args;
+
+/* "I/N" with 1 <= I <= N into a 0-based index and a count. */
+static bool shard_arg(const char *text, tb_check_options *opt)
+{
+    double i = 0;
+    double n = 0;
+    const char *slash = strchr(text, '/');
+    char head[32];
+    if (!slash || (size_t)(slash - text) >= sizeof head)
+        return false;
+    memcpy(head, text, (size_t)(slash - text));
+    head[slash - text] = '\0';
+    if (!number_arg(head, true, &i) || !number_arg(slash + 1, true, &n) || i < 1 || i > n ||
+        n > 1e6)
+        return false;
+    opt->shard_index = (unsigned)i - 1;
+    opt->shard_count = (unsigned)n;
+    return true;
+}
+
+/* One option of tbeta check taking a value; -1 when accepted, or an exit code. */
+static int check_value_option(const char *s, const char *v, check_args *a)
+{
+    double x = 0;
+    if (strcmp(s, "--glob") == 0)
+        a->opt.glob = v;
+    else if (strcmp(s, "--save") == 0)
+        a->save = v;
+    else if (strcmp(s, "--against") == 0)
+        a->against = v;
+    else if (strcmp(s, "--json") == 0)
+        a->json = v;
+    else if (strcmp(s, "--junit") == 0)
+        a->junit = v;
+    else if (strcmp(s, "--shard") == 0 && !shard_arg(v, &a->opt))
+        return usage_error("--shard needs I/N with 1 <= I <= N, got", v, usage_check);
+    else if (strcmp(s, "--jobs") == 0 && (!number_arg(v, true, &x) || x < 1 || x > 1024))
+        return usage_error("--jobs needs a whole number from 1 to 1024, got", v, usage_check);
+    else if (strcmp(s, "--jobs") == 0)
+        a->opt.jobs = (unsigned)x;
+    else if (strcmp(s, "--drift") == 0 && (!number_arg(v, false, &x) || x < 0))
+        return usage_error("--drift needs a percentage of 0 or more, got", v, usage_check);
+    else if (strcmp(s, "--drift") == 0)
+        a->opt.drift_pct = x;
+    else if (strcmp(s, "--pole-limit") == 0 && !number_arg(v, true, &x))
+        return usage_error("not a non-negative whole number:", v, usage_check);
+    else if (strcmp(s, "--pole-limit") == 0)
+        a->opt.analysis.pole_limit = (size_t)x;
+    return -1;
+}
+
+static bool check_takes_value(const char *s)
+{
+    static const char *const names[] = {"--glob", "--save", "--against", "--json", "--junit",
+                                        "--shard", "--jobs", "--drift", "--pole-limit"};
+    for (size_t i = 0; i < sizeof names / sizeof names[0]; i++)
+        if (strcmp(s, names[i]) == 0)
+            return true;
+    return false;
+}
+
+/* Parses the arguments of tbeta check (argv[2..]); -1 when done, or an exit code. */
+static int parse_check_args(int argc, char **argv, check_args *a)
+{
+    for (int i = 2; i < argc; i++) {
+        const char *s = argv[i];
+        if (strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0) {
+            fputs(usage_check, stdout);
+            return EXIT_DONE;
+        } else if (strcmp(s, "--merge") == 0) {
+            a->merge = true;
+        } else if (strcmp(s, "--no-stability") == 0) {
+            a->opt.analysis.stability = false;
+        } else if (check_takes_value(s)) {
+            if (i + 1 >= argc)
+                return usage_error(s, "needs a value", usage_check);
+            int rc = check_value_option(s, argv[++i], a);
+            if (rc >= 0)
+                return rc;
+        } else if (s[0] == '-' && s[1] != '\0') {
+            return usage_error("unknown option", s, usage_check);
+        } else {
+            a->paths[a->count++] = s;
+        }
+    }
+    if (a->count == 0)
+        return usage_error(a->merge ? "no result files to merge" : "no netlist or folder given",
+                           NULL, usage_check);
+    if (a->merge && (a->against || a->opt.shard_count > 1))
+        return usage_error("--merge takes no --against or --shard", NULL, usage_check);
+    return -1;
+}
+
+/* Writes one output file with writer; false (said on stderr) when it fails. */
+static bool write_file(const char *path, const tb_check_run *run,
+                       tb_status (*writer)(const tb_check_run *, FILE *))
+{
+    FILE *f = fopen(path, "w");
+    if (!f) {
+        fprintf(stderr, "tbeta: cannot write '%s': %s\n", path, strerror(errno));
+        return false;
+    }
+    tb_status st = writer(run, f);
+    if (fclose(f) != 0 || st != TB_OK) {
+        fprintf(stderr, "tbeta: writing '%s' failed\n", path);
+        return false;
+    }
+    return true;
+}
+
+/* Fills the run: the netlists checked here, or the shards' results merged. */
+static int check_fill(const check_args *a, tb_check_run **run)
+{
+    char why[1024];
+    tb_status st = tb_check_collect(a->merge ? NULL : a->paths, a->merge ? 0 : a->count, &a->opt, run);
+    for (size_t i = 0; st == TB_OK && a->merge && i < a->count; i++)
+        if ((st = tb_check_merge(*run, a->paths[i], why, sizeof why)) != TB_OK)
+            fprintf(stderr, "tbeta: %s\n", why);
+    if (st == TB_OK && a->merge)
+        tb_check_sort(*run);
+    if (st == TB_OK && !a->merge && tb_check_count(*run) == 0 && a->opt.shard_count == 1) {
+        fprintf(stderr, "tbeta: no netlist matches '%s' under the paths given\n", a->opt.glob);
+        return EXIT_BAD_INPUT;
+    }
+    if (st == TB_OK && !a->merge)
+        st = tb_check_execute(*run);
+    if (st == TB_OK && a->against && (st = tb_check_against(*run, a->against, why, sizeof why)) != TB_OK)
+        fprintf(stderr, "tbeta: %s\n", why);
+    if (st == TB_ERR_NOMEM)
+        fputs("tbeta: out of memory\n", stderr);
+    return st == TB_OK ? -1 : EXIT_BAD_INPUT;
+}
+
+static int check_command(int argc, char **argv)
+{
+    check_args a = {NULL, 0, NULL, NULL, NULL, NULL, false, {0}};
+    tb_check_options_init(&a.opt);
+    a.paths = calloc((size_t)argc, sizeof(char *));
+    if (!a.paths) {
+        fputs("tbeta: out of memory\n", stderr);
+        return EXIT_BAD_INPUT;
+    }
+    tb_check_run *run = NULL;
+    int rc = parse_check_args(argc, argv, &a);
+    if (rc < 0)
+        rc = check_fill(&a, &run);
+    if (rc < 0) {
+        for (size_t i = 0; i < tb_check_count(run); i++)
+            if (tb_check_get(run, i)->errors)
+                fputs(tb_check_get(run, i)->errors, stderr);
+        bool ok = tb_check_write_text(run, stdout) == TB_OK;
+        ok = (!a.save || write_file(a.save, run, tb_check_write_save)) && ok;
+        ok = (!a.json || write_file(a.json, run, tb_check_write_json)) && ok;
+        ok = (!a.junit || write_file(a.junit, run, tb_check_write_junit)) && ok;
+        ok = fflush(stdout) == 0 && ok;
+        rc = ok ? tb_check_exit_code(run) : EXIT_BAD_INPUT;
+    }
+    tb_check_free(run);
+    free(a.paths);
+    return rc;
+}
+
 int main(int argc, char **argv)
 {
     if (argc < 2)
@@ -265,11 +482,13 @@ int main(int argc, char **argv)
         fputs(usage_main, stdout);
         return EXIT_DONE;
     }
+    if (strcmp(argv[1], "check") == 0)
+        return check_command(argc, argv);
     if (strcmp(argv[1], "--version") == 0) {
         printf("tbeta %s\n", TB_VERSION);
         return EXIT_DONE;
     }
-    args a = {"report", NULL, NULL, false, false, {0}};
+    args a = {"report", NULL, NULL, false, false, {0}, NULL};
     tb_options_init(&a.opt);
     a.opt.stability = strcmp(argv[1], "sweep") != 0; /* the sweep table needs none of it */
     int first = 1;

@@ -13,6 +13,7 @@
 #include "alloc.h"
 #include "circuit.h"
 #include "diag.h"
+#include "expect.h"
 #include "expr.h"
 #include "lex.h"
 #include "suggest.h"
@@ -994,6 +995,213 @@ static bool margins_card(parser *p)
     return true;
 }
 
+/* idealcard -> .IDEAL (GAIN | BETA) = value {(TOL | SPREAD) = value}: the hand estimate
+ * (gain, or the feedback factor beta whose inverse it is), the tolerance within which it
+ * should hold and the amplifier-gain spread, both in percent (docs/feedback.md) */
+static bool ideal_card(parser *p)
+{
+    char text[QUOTE_SIZE];
+    static const char *const keys[4] = {"gain", "beta", "tol", "spread"};
+    tb_ideal_spec id = {.given = true, .loc = loc_of(p, &p->tok)};
+    bool seen[4] = {false, false, false, false};
+    if (p->ckt->ideal.given)
+        return error(p, &p->tok, "second .ideal directive (the first is on line %d)", p->ckt->ideal.loc.line);
+    tb_token card_tok = p->tok;
+    advance(p);
+    do {
+        int k = 0;
+        while (k < 4 && !tb_lex_is(&p->tok, keys[k]))
+            k++;
+        if (k == 4)
+            return expected(p, "gain=VALUE, beta=VALUE, tol=PERCENT or spread=PERCENT");
+        tb_token key = p->tok;
+        if (seen[k] || (k < 2 && (seen[0] || seen[1])))
+            return error(p, &key, seen[k] ? "'%s' is given twice on .ideal" : "'%s' on .ideal: give gain= or beta=, not both",
+                         quote(&key, text));
+        advance(p);
+        double x = 0;
+        if (!expect(p, TB_TOK_EQUALS, "'='") || !value(p, k < 2 ? "a value" : "a percentage", &x))
+            return false;
+        if ((k < 2 && x == 0) || (k == 2 && !(x > 0)) || (k == 3 && !(x > 0 && x < 100)))
+            return error(p, &p->prev, "%s of .ideal must be %s, got '%s'", keys[k],
+                         k < 2 ? "non-zero" : k == 2 ? "a positive percentage" : "a percentage above 0 and below 100",
+                         quote(&p->prev, text));
+        seen[k] = true;
+        if (k < 2) {
+            id.as_beta = k == 1;
+            id.value = x;
+        } else {
+            *(k == 2 ? &id.has_tol : &id.has_spread) = true;
+            *(k == 2 ? &id.tol_pct : &id.spread_pct) = x;
+        }
+    } while (!at_end(p));
+    if (!seen[0] && !seen[1])
+        return error(p, &card_tok, ".ideal needs the estimate: gain=VALUE or beta=VALUE");
+    p->ckt->ideal = id;
+    return true;
+}
+
+/* The bound of an .expect card after its operator: op = EQ, GE, LE or IN (docs/check.md). */
+static bool expect_bound(parser *p, tb_expect *x)
+{
+    char text[QUOTE_SIZE];
+    const tb_figure *fig = tb_figure_at((size_t)x->figure);
+    if (x->op == TB_XOP_EQ && accept_keyword(p, "none")) {
+        x->op = TB_XOP_NONE;
+        return true;
+    }
+    if (x->op == TB_XOP_EQ && fig->word) {
+        int w = p->tok.kind == TB_TOK_WORD ? tb_figure_word_find(p->tok.ptr, p->tok.len) : -1;
+        const char *best = w < 0 && p->tok.kind == TB_TOK_WORD ? tb_figure_word_suggest(quote(&p->tok, text)) : NULL;
+        if (best)
+            return error(p, &p->tok, "unknown verdict '%s' (did you mean '%s'?)", text, best);
+        if (w < 0)
+            return expected(p, "stable, marginal, unstable, undecided, disagree or none");
+        x->value = w;
+        advance(p);
+        return true;
+    }
+    if (fig->word)
+        return error(p, &p->prev, "'%s' is a word: compare it with '='", fig->name);
+    size_t at = 0;
+    size_t sign = 0;
+    tb_token tol = p->tok;
+    if (x->op == TB_XOP_EQ && p->tok.kind == TB_TOK_WORD &&
+        tb_expect_find_pm(p->tok.ptr, p->tok.len, &at, &sign) && at > 0) {
+        /* "10±1%": the value and its tolerance glued together */
+        if (tb_lex_value(p->tok.ptr, at, &x->value) != TB_VALUE_OK)
+            return error(p, &p->tok, "malformed value '%s'", quote(&p->tok, text));
+        tol.ptr += at;
+        tol.len -= at;
+        tol.col += (int)at;
+        advance(p);
+    } else if (!value(p, "a value", x->op == TB_XOP_LE ? &x->hi : &x->lo)) {
+        return false;
+    } else if (x->op == TB_XOP_IN) {
+        if (!value(p, "the upper end of the range", &x->hi))
+            return false;
+        if (x->hi < x->lo)
+            return error(p, &p->prev, "range of .expect ends below its start");
+        return true;
+    } else if (x->op != TB_XOP_EQ) {
+        return true;
+    } else {
+        x->value = x->lo;
+        tol = p->tok;
+        if (tol.kind != TB_TOK_WORD || !tb_expect_find_pm(tol.ptr, tol.len, &at, &sign) || at != 0)
+            return expected(p, "a tolerance (±TOL or ±TOL%)");
+        advance(p);
+    }
+    if (tol.len == sign) { /* "± 1%": the tolerance is the next word */
+        if (p->tok.kind != TB_TOK_WORD)
+            return expected(p, "a tolerance after '±'");
+        tol = p->tok;
+        sign = 0;
+        advance(p);
+    }
+    if (!tb_expect_tolerance(tol.ptr + sign, tol.len - sign, &x->tol, &x->tol_pct))
+        return error(p, &tol, "malformed tolerance '%s' (write ±1%% or ±0.5)", quote(&tol, text));
+    x->lo = x->value - (x->tol_pct ? x->tol / 100.0 * fabs(x->value) : x->tol);
+    x->hi = 2 * x->value - x->lo;
+    return true;
+}
+
+/* expectcard -> .EXPECT LOOP.FIGURE (= value ±tol | = WORD | = NONE | >= value | <= value
+ *               | IN value value): a bound on a figure the analysis reports (docs/check.md) */
+static bool expect_card(parser *p)
+{
+    char text[QUOTE_SIZE];
+    advance(p);
+    if (!expect_word(p, "LOOP.FIGURE"))
+        return false;
+    tb_token target = p->tok;
+    tb_expect x = {.loc = loc_of(p, &target)};
+    size_t loop_len = 0;
+    x.figure = tb_expect_split(target.ptr, target.len, &loop_len);
+    if (x.figure < 0) {
+        size_t off = 0;
+        const char *best = tb_expect_suggest(target.ptr, target.len, &off);
+        if (!best)
+            return error(p, &target, "'%s' names no figure: write LOOP.FIGURE, FIGURE from the "
+                         "table in docs/check.md (dc.A, phase_margin_deg, unity_hz, verdict, ...)",
+                         quote(&target, text));
+        tb_token part = target;
+        part.ptr += off;
+        part.len -= off;
+        part.col += (int)off;
+        return error(p, &part, "unknown figure '%s' in .expect (did you mean '%s'?)",
+                     quote(&part, text), best);
+    }
+    x.target = intern_n(p, target.ptr, target.len);
+    x.loop_name = intern_n(p, target.ptr, loop_len);
+    if (!x.target || !x.loop_name)
+        return false;
+    advance(p);
+    if (accept(p, TB_TOK_EQUALS)) {
+        x.op = TB_XOP_EQ;
+    } else if (accept_keyword(p, "in")) {
+        x.op = TB_XOP_IN;
+    } else if ((tb_lex_is(&p->tok, ">") || tb_lex_is(&p->tok, "<")) &&
+               peek_next(p).kind == TB_TOK_EQUALS) {
+        x.op = p->tok.ptr[0] == '>' ? TB_XOP_GE : TB_XOP_LE;
+        advance(p);
+        advance(p);
+    } else {
+        return expected(p, "'=', '>=', '<=' or 'in'");
+    }
+    if (!expect_bound(p, &x) || !end_of_card(p, "the bound of .expect", NULL))
+        return false;
+    return tb_expect_add(p->ckt, &x) == TB_OK || nomem(p);
+}
+
+/* zportcard -> .ZPORT NAME (V ( node [, node] ) | I ( VNAME )): a port whose impedance is
+ * reported with and without feedback (Blackman), a node pair or the terminals of a V source
+ * as that source sees them; ports called in and out also classify the feedback */
+static bool zport_card(parser *p)
+{
+    char text[QUOTE_SIZE];
+    tb_circuit *ckt = p->ckt;
+    tb_zport_spec zp = {.loc = loc_of(p, &p->tok)};
+    advance(p);
+    if (!expect_word(p, "a port name"))
+        return false;
+    for (size_t i = 0; i < ckt->zport_count; i++)
+        if (name_is(ckt->zports[i].name, &p->tok))
+            return error(p, &p->tok, "port '%s' is defined twice (first on line %d)", quote(&p->tok, text),
+                         ckt->zports[i].loc.line);
+    if (ckt->zport_count >= TB_MAX_ZPORTS)
+        return error(p, &p->tok, "too many .zport ports (limit is %d)", TB_MAX_ZPORTS);
+    if (!io_name(p, "a port name", &zp.name))
+        return false;
+    zp.at_source = accept_keyword(p, "i");
+    if (!zp.at_source && !accept_keyword(p, "v"))
+        return expected(p, "the port as v(node), v(node,node) or i(Vsource)");
+    if (!expect(p, TB_TOK_LPAREN, "'('") ||
+        !io_name(p, zp.at_source ? "a voltage source name" : "a node name", &zp.node_a))
+        return false;
+    if (!zp.at_source && accept(p, TB_TOK_COMMA) && !io_name(p, "a node name", &zp.node_b))
+        return false;
+    if (!expect(p, TB_TOK_RPAREN, zp.node_b || zp.at_source ? "')'" : "',' or ')'") ||
+        !end_of_card(p, "the port of .zport", NULL))
+        return false;
+    ckt->zports[ckt->zport_count++] = zp;
+    return true;
+}
+
+/* breakcard -> .BREAK NAME: the zero-volt V source in a loop wire where the loop gain is
+ * found by double injection; its + node on the side the loop signal comes from */
+static bool break_card(parser *p)
+{
+    tb_break_spec br = {.given = true, .loc = loc_of(p, &p->tok)};
+    if (p->ckt->brk.given)
+        return error(p, &p->tok, "second .break directive (the first is on line %d)", p->ckt->brk.loc.line);
+    advance(p);
+    if (!io_name(p, "a voltage source name", &br.source) || !end_of_card(p, "the source of .break", NULL))
+        return false;
+    p->ckt->brk = br;
+    return true;
+}
+
 /* directive -> accard | loopcard | iocard | marginscard | endcard; any other is skipped with a warning */
 static bool directive(parser *p)
 {
@@ -1006,6 +1214,14 @@ static bool directive(parser *p)
         return io_card(p);
     if (tb_lex_is(&p->tok, ".margins"))
         return margins_card(p);
+    if (tb_lex_is(&p->tok, ".expect"))
+        return expect_card(p);
+    if (tb_lex_is(&p->tok, ".ideal"))
+        return ideal_card(p);
+    if (tb_lex_is(&p->tok, ".zport"))
+        return zport_card(p);
+    if (tb_lex_is(&p->tok, ".break"))
+        return break_card(p);
     if (tb_lex_is(&p->tok, ".end")) {
         /* endcard -> .END */
         advance(p);
@@ -1398,6 +1614,8 @@ static bool body_directive(parser *p, subckt *def)
                      def->name);
     if (tb_lex_is(&p->tok, ".ac") || tb_lex_is(&p->tok, ".loop") || tb_lex_is(&p->tok, ".io") ||
         tb_lex_is(&p->tok, ".margins") || tb_lex_is(&p->tok, ".include") ||
+        tb_lex_is(&p->tok, ".expect") ||
+        tb_lex_is(&p->tok, ".ideal") || tb_lex_is(&p->tok, ".zport") || tb_lex_is(&p->tok, ".break") ||
         tb_lex_is(&p->tok, ".end"))
         return error(p, &p->tok, "'%s' is not allowed inside .subckt %s", quote(&p->tok, text),
                      def->name);

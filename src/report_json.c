@@ -214,6 +214,148 @@ static json_t *notes_all(builder *b, unsigned notes, const tb_stability *st)
     return arr;
 }
 
+/* One point of the breakdown: the parts of A - G (null without .ideal) and the sensitivities. */
+static json_t *breakdown_object(builder *b, const tb_breakdown_point *p, double G, bool has_estimate)
+{
+    static const char *const key[TB_PART_COUNT] = {"loading", "finite_loop_gain", "feedthrough"};
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "A_minus_G", cnum(has_estimate, p->total));
+    set(b, o, "error_pct", has_estimate ? num(100.0 * cabs(p->total) / fabs(G)) : json_null());
+    for (int k = 0; k < TB_PART_COUNT; k++)
+        set(b, o, key[k], cnum(p->has_parts, p->part[k]));
+    set(b, o, "S", cnum(p->has_S, p->S));
+    set(b, o, "S_A", cnum(p->has_S_A, p->S_A));
+    return o;
+}
+
+static json_t *change_object(builder *b, const tb_feedback_summary *fs, int side)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "gain_change_pct", num((side == 0 ? 1.0 : -1.0) * fs->spread_pct));
+    set(b, o, "first_order", cnum(true, fs->change_first_order[side]));
+    set(b, o, "model", cnum(true, fs->change_model[side]));
+    set(b, o, "resolved", cnum(fs->has_resolved, fs->change_resolved[side]));
+    return o;
+}
+
+static json_t *zpoint_object(builder *b, const tb_zpoint *z)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "Z", cnum(z->has_Z, z->Z));
+    set(b, o, "Z0", cnum(z->has_Z0, z->Z0));
+    set(b, o, "T_sc", cnum(z->has_T_sc, z->T_sc));
+    set(b, o, "T_oc", cnum(z->has_T_oc, z->T_oc));
+    set(b, o, "Z_blackman", cnum(z->has_blackman, z->Z_blackman));
+    return o;
+}
+
+/* Every .zport seen by loop l, and the feedback topology. */
+static json_t *ports_object(builder *b, const tb_result *res, size_t l)
+{
+    json_t *o = obj(b);
+    json_t *arr = json_array();
+    if (!o || !arr) {
+        json_decref(o);
+        json_decref(arr);
+        b->ok = false;
+        return NULL;
+    }
+    for (size_t p = 0; p < tb_zport_count(res); p++) {
+        tb_zport_summary s;
+        json_t *po = obj(b);
+        if (!po || tb_zport_loop(res, p, l, &s, NULL) != TB_OK || json_array_append_new(arr, po)) {
+            b->ok = false;
+            continue;
+        }
+        set(b, po, "name", json_string(s.name));
+        set(b, po, "seen_by_source", s.at_source ? json_string(s.node_a) : json_null());
+        set(b, po, "node_a", s.at_source ? json_null() : json_string(s.node_a));
+        set(b, po, "node_b", s.at_source ? json_null() : json_string(s.node_b ? s.node_b : "0"));
+        set(b, po, "dc_hz", num(s.dc_hz));
+        set(b, po, "dc", zpoint_object(b, &s.dc));
+        set(b, po, "side", json_string(tb_side_str(s.side)));
+        set(b, po, "purity", num(s.purity));
+        set(b, po, "max_rel_diff_blackman_vs_direct", s.has_max_diff ? num(s.max_rel_diff) : json_null());
+    }
+    set(b, o, "ports", arr);
+    tb_feedback_type ft;
+    bool typed = tb_feedback_type_loop(res, l, &ft) == TB_OK && ft.computed;
+    set(b, o, "input_side", typed ? json_string(tb_side_str(ft.input)) : json_null());
+    set(b, o, "output_side", typed ? json_string(tb_side_str(ft.output)) : json_null());
+    set(b, o, "amplifier_type", typed ? json_string(tb_amp_type_str(ft.type)) : json_null());
+    if (!typed)
+        set(b, o, "note", json_string("the topology needs ports labelled in and out (.zport in ..., .zport out ...)"));
+    return o;
+}
+
+/* The loop gain at the .break wire; null without .break. */
+static json_t *break_object(builder *b, const tb_result *res)
+{
+    tb_break_summary s;
+    if (tb_break_get(res, &s, NULL) != TB_OK || !s.computed)
+        return json_null();
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "source", json_string(s.source));
+    set(b, o, "node_x", json_string(s.node_x));
+    set(b, o, "node_y", json_string(s.node_y));
+    set(b, o, "dc_hz", num(s.dc_hz));
+    set(b, o, "Tv", cnum(s.dc.has_Tv, s.dc.Tv));
+    set(b, o, "Ti", cnum(s.dc.has_Ti, s.dc.Ti));
+    set(b, o, "T", cnum(s.dc.has_T, s.dc.T));
+    set(b, o, "T_probe", cnum(s.dc.has_T_probe, s.dc.T_probe));
+    set(b, o, "unity_hz", s.has_unity ? num(s.unity_hz) : json_null());
+    set(b, o, "phase_margin_deg", s.has_phase_margin ? num(s.phase_margin_deg) : json_null());
+    if (!s.dc.has_Tv || !s.dc.has_Ti)
+        set(b, o, "note", json_string(!s.dc.has_Tv ? "Tv is infinite (v_y = 0): T = Ti"
+                                                   : "Ti is infinite (no current returns to the y side): T = Tv"));
+    return o;
+}
+
+/* The hand estimate's breakdown and the desensitivity of loop l (docs/feedback.md). */
+static json_t *feedback_object(builder *b, const tb_circuit *ckt, const tb_result *res, size_t l)
+{
+    tb_feedback_summary fs;
+    if (tb_feedback_loop(res, l, &fs) != TB_OK)
+        return json_null();
+    json_t *o = obj(b);
+    json_t *notes = json_array();
+    if (!o || !notes) {
+        json_decref(o);
+        json_decref(notes);
+        b->ok = false;
+        return NULL;
+    }
+    bool est = fs.has_estimate;
+    set(b, o, "estimate", est ? num(fs.estimate) : json_null());
+    set(b, o, "stated_as", est ? json_string(ckt->ideal.as_beta ? "beta" : "gain") : json_null());
+    set(b, o, "tol_pct", num(fs.tol_pct));
+    set(b, o, "dc_hz", num(fs.dc_hz));
+    set(b, o, "dc", fs.computed ? breakdown_object(b, &fs.dc, fs.estimate, est) : json_null());
+    set(b, o, "dominant_dc", est && fs.dc.has_parts ? json_string(tb_part_str(fs.dominant_dc)) : json_null());
+    set(b, o, "holds_at_dc", est ? json_boolean(fs.holds_at_dc) : json_null());
+    set(b, o, "limit_hz", fs.has_limit ? num(fs.limit_hz) : json_null());
+    set(b, o, "dominant_at_limit", fs.has_limit ? json_string(tb_part_str(fs.dominant_limit)) : json_null());
+    set(b, o, "at_limit", fs.has_limit ? breakdown_object(b, &fs.at_limit, fs.estimate, est) : json_null());
+    set(b, o, "spread_pct", num(fs.spread_pct));
+    set(b, o, "gain_plus", fs.has_change ? change_object(b, &fs, 0) : json_null());
+    set(b, o, "gain_minus", fs.has_change ? change_object(b, &fs, 1) : json_null());
+    for (int n = 0; n < TB_FNOTE_COUNT; n++)
+        if ((fs.notes & (1u << n)) && json_array_append_new(notes, json_string(tb_fb_note_str((tb_fb_note)n))))
+            b->ok = false;
+    set(b, o, "notes", notes);
+    set(b, o, "impedances", ports_object(b, res, l));
+    set(b, o, "wire_break", break_object(b, res));
+    return o;
+}
+
 static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *res, size_t l)
 {
     tb_measures m;
@@ -242,6 +384,7 @@ static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *r
     if (st.computed)
         stability_keys(b, lp, &st);
     set(b, lp, "f3db_closed_hz", m.has_f3db ? num(m.f3db_closed_hz) : json_null());
+    set(b, lp, "feedback", feedback_object(b, ckt, res, l));
     set(b, lp, "notes", notes_all(b, m.notes, &st));
     return lp;
 }

@@ -149,6 +149,181 @@ static void stability_block(FILE *out, const tb_stability *st)
     fprintf(out, "    verdict: %s (%s)\n", tb_verdict_str(st->verdict), tb_report_reason(st, reason, sizeof reason));
 }
 
+/* A complex ratio as a signed percentage (real) or a magnitude with its angle. */
+static const char *fmt_pct(double complex z, char *buf, size_t size)
+{
+    if (fabs(cimag(z)) <= 1e-9 * fabs(creal(z)) || cabs(z) == 0)
+        snprintf(buf, size, "%+.4g %%", 100.0 * creal(z));
+    else
+        snprintf(buf, size, "%.4g %% at %+.1f deg", 100.0 * cabs(z), carg(z) * 57.29577951308232);
+    return buf;
+}
+
+/* What each part of the gain error means, for the sentence under the table. */
+static const char *const part_meaning[TB_PART_COUNT] = {
+    [TB_PART_LOADING] = "the feedback network is loaded by source, load and amplifier, so A_inf is not the estimate",
+    [TB_PART_LOOP_GAIN] = "the loop gain is finite, A = A_inf T/(1+T) falls short of A_inf",
+    [TB_PART_FEEDTHROUGH] = "signal reaches the output around the amplifier, A0/(1+T)",
+};
+
+static void breakdown_lines(FILE *out, const tb_circuit *ckt, const tb_feedback_summary *fs)
+{
+    char v[96], p[96], f[64];
+    static const char *const label[TB_PART_COUNT] = {"loading A_inf - G", "finite loop gain -A_inf/(1+T)",
+                                                     "feedthrough A0/(1+T)"};
+    const tb_breakdown_point *b = &fs->dc;
+    double G = fs->estimate;
+    fprintf(out, "  hand estimate (.ideal %s=%.6g)\n", ckt->ideal.as_beta ? "beta" : "gain", ckt->ideal.value);
+    line(out, "estimate G", true, fmt_value(G, v, sizeof v), "");
+    snprintf(p, sizeof p, "   (%s of G, tolerance %g %%)", fmt_pct(b->total / G, f, sizeof f), fs->tol_pct);
+    line(out, fs->dc_hz > 0 ? "A - G at the lowest point" : "A - G at DC", true, fmt_value(b->total, v, sizeof v), p);
+    for (int k = 0; k < TB_PART_COUNT && b->has_parts; k++) {
+        snprintf(p, sizeof p, "   (%s of G)", fmt_pct(b->part[k] / G, f, sizeof f));
+        line(out, label[k], true, fmt_value(b->part[k], v, sizeof v), p);
+    }
+    if (b->has_parts)
+        fprintf(out, "    the largest part is %s: %s\n", tb_part_str(fs->dominant_dc), part_meaning[fs->dominant_dc]);
+    if (!fs->holds_at_dc)
+        fprintf(out, "    the estimate misses by %.4g %% already at DC (tolerance %g %%)\n", fs->error_dc_pct, fs->tol_pct);
+    else if (fs->has_limit)
+        fprintf(out, "    the estimate holds within %g %% up to %s; there %s dominates (%s of G)\n", fs->tol_pct,
+                fmt_hz(fs->limit_hz, f, sizeof f), tb_part_str(fs->dominant_limit),
+                fmt_pct(fs->at_limit.part[fs->dominant_limit] / G, p, sizeof p));
+    else
+        fprintf(out, "    the estimate holds within %g %% over the whole sweep\n", fs->tol_pct);
+}
+
+static void desensitivity_lines(FILE *out, const tb_feedback_summary *fs)
+{
+    char v[96], a[64], b[64], c[64];
+    fprintf(out, "  desensitivity (amplifier gain spread +-%g %%)\n", fs->spread_pct);
+    snprintf(a, sizeof a, "   (%+.2f dB)", cabs(fs->dc.S) > 0 ? 20.0 * log10(cabs(fs->dc.S)) : -300.0);
+    line(out, "S = 1/(1+T)", fs->dc.has_S, fmt_value(fs->dc.S, v, sizeof v), cabs(fs->dc.S) > 0 ? a : "");
+    line(out, "dA/A per dk/k = (1-A0/A)/(1+T)", fs->dc.has_S_A, fmt_value(fs->dc.S_A, v, sizeof v), "");
+    for (int side = 0; side < 2 && fs->has_change; side++) {
+        snprintf(v, sizeof v, "gain %c%g %%: A changes by", side == 0 ? '+' : '-', fs->spread_pct);
+        fprintf(out, "    %-30s %s (first order %s", v, fmt_pct(fs->change_model[side], a, sizeof a),
+                fmt_pct(fs->change_first_order[side], b, sizeof b));
+        if (fs->has_resolved)
+            fprintf(out, ", re-solved %s", fmt_pct(fs->change_resolved[side], c, sizeof c));
+        fprintf(out, ")\n");
+    }
+}
+
+/* What the feedback does to the impedance at a port of each kind. */
+static const char *side_effect(tb_side side)
+{
+    switch (side) {
+    case TB_SIDE_SERIES:
+        return "series: feedback raises the impedance by (1 + T_sc)";
+    case TB_SIDE_SHUNT:
+        return "shunt: feedback lowers the impedance by 1/(1 + T_oc)";
+    case TB_SIDE_MIXED:
+        return "feedback leaves the impedance unchanged here (T_sc = T_oc)";
+    case TB_SIDE_NONE:
+        break;
+    }
+    return "no feedback seen at this port";
+}
+
+static void impedance_lines(FILE *out, const tb_result *res, size_t l)
+{
+    char v[96], e[160];
+    if (tb_zport_count(res) == 0)
+        return;
+    fprintf(out, "  impedances with feedback (Blackman: Z = Z0 (1 + T_sc)/(1 + T_oc))\n");
+    for (size_t p = 0; p < tb_zport_count(res); p++) {
+        tb_zport_summary s;
+        if (tb_zport_loop(res, p, l, &s, NULL) != TB_OK)
+            continue;
+        if (s.at_source)
+            fprintf(out, "    port %s = the circuit as %s sees it%s\n", s.name, s.node_a,
+                    s.dc_hz > 0 ? ", at the lowest sweep point" : ", at DC");
+        else
+            fprintf(out, "    port %s = v(%s%s%s)%s\n", s.name, s.node_a, s.node_b ? "," : "", s.node_b ? s.node_b : "",
+                    s.dc_hz > 0 ? " at the lowest sweep point" : " at DC");
+        line(out, "  Z0 (source gain at zero)", s.dc.has_Z0, fmt_value(s.dc.Z0, v, sizeof v), " ohm");
+        line(out, "  T_sc (port shorted)", s.dc.has_T_sc, fmt_value(denoise(s.dc.T_sc, cabs(s.dc.T_oc)), v, sizeof v), "");
+        line(out, "  T_oc (port open)", s.dc.has_T_oc, fmt_value(denoise(s.dc.T_oc, cabs(s.dc.T_sc)), v, sizeof v), "");
+        snprintf(e, sizeof e, " ohm   (direct solve %.10g ohm; largest difference over the sweep %.2g)", creal(s.dc.Z),
+                 s.has_max_diff ? s.max_rel_diff : 0.0);
+        line(out, "  Z with feedback", s.dc.has_blackman, fmt_value(s.dc.Z_blackman, v, sizeof v), e);
+        if (!s.dc.has_blackman)
+            line(out, "  Z (direct solve)", s.dc.has_Z, fmt_value(s.dc.Z, v, sizeof v), " ohm");
+        if (!s.dc.has_blackman)
+            fprintf(out, "      Blackman's form does not apply here (%s)\n",
+                    !s.dc.has_T_oc ? "T is infinite: the circuit with the source's gain at zero is singular"
+                    : "Z0 = 0: the port is a short with the source's gain at zero");
+        else if (s.side == TB_SIDE_SERIES || s.side == TB_SIDE_SHUNT)
+            fprintf(out, "      %s (%s)\n", side_effect(s.side),
+                    s.purity <= 0.1 ? "pure" : "not pure: the resistance at the port carries part of the feedback");
+        else
+            fprintf(out, "      %s\n", side_effect(s.side));
+    }
+    tb_feedback_type ft;
+    if (tb_feedback_type_loop(res, l, &ft) == TB_OK && ft.computed)
+        fprintf(out, "    feedback topology: %s at the input, %s at the output: %s\n", tb_side_str(ft.input),
+                tb_side_str(ft.output), tb_amp_type_str(ft.type));
+}
+
+/* The loop gain at the .break wire, next to loop l's return ratio. */
+static void break_lines(FILE *out, const tb_result *res, size_t l)
+{
+    char v[96], f[64];
+    tb_break_summary s;
+    if (tb_break_get(res, &s, NULL) != TB_OK || !s.computed)
+        return;
+    fprintf(out, "  loop gain at the wire break %s (signal from %s to %s)%s\n", s.source, s.node_x, s.node_y,
+            s.dc_hz > 0 ? " at the lowest sweep point" : " at DC");
+    line(out, "voltage injection Tv", s.dc.has_Tv, fmt_value(s.dc.Tv, v, sizeof v), "");
+    if (!s.dc.has_Tv)
+        fprintf(out, "      (Tv is infinite: v_y = 0)\n");
+    line(out, "current injection Ti", s.dc.has_Ti, fmt_value(s.dc.Ti, v, sizeof v), "");
+    if (!s.dc.has_Ti)
+        fprintf(out, "      (Ti is infinite: no current returns to the y side)\n");
+    line(out, "T = (Tv Ti - 1)/(Tv + Ti + 2)", s.dc.has_T, fmt_value(s.dc.T, v, sizeof v), "");
+    line(out, "T from the probe quantities", s.dc.has_T_probe, fmt_value(s.dc.T_probe, v, sizeof v), "");
+    line(out, "|T| = 1 at", s.has_unity, fmt_hz(s.unity_hz, f, sizeof f), "");
+    snprintf(v, sizeof v, "%.2f deg", s.phase_margin_deg);
+    line(out, "phase margin at the break", s.has_phase_margin, v, "");
+    tb_point p;
+    bool dc = s.dc_hz == 0 ? tb_result_dc(res, l, &p) : (p = tb_result_loop(res, l)[0], true);
+    if (!dc || (p.flags & TB_PT_T_INF) || !s.dc.has_T)
+        return;
+    double rel = cabs(s.dc.T) > 0 ? cabs(p.T - s.dc.T) / cabs(s.dc.T) : 0;
+    if (cabs(s.dc.T) <= 1e-12 && cabs(p.T) <= 1e-12)
+        fprintf(out, "    the return ratio at the loop's source is 0 too: no loop at this frequency\n");
+    else if (rel <= 1e-9)
+        fprintf(out, "    equals the return ratio at the loop's source (%s): the break sees a unilateral loop\n",
+                fmt_value(p.T, v, sizeof v));
+    else
+        fprintf(out, "    return ratio at the loop's source: %s (%.3g %% apart): the wire-break value includes the\n"
+                     "    reverse transmission around the loop (bilateral elements) that the return ratio excludes\n",
+                fmt_value(p.T, v, sizeof v), 100.0 * rel);
+}
+
+/* The hand estimate's breakdown and the desensitivity of loop l (docs/feedback.md). */
+static void feedback_block(FILE *out, const tb_circuit *ckt, const tb_result *res, size_t l)
+{
+    impedance_lines(out, res, l);
+    break_lines(out, res, l);
+    tb_feedback_summary fs;
+    if (tb_feedback_loop(res, l, &fs) != TB_OK)
+        return;
+    if (!fs.computed) {
+        if (ckt->ideal.given)
+            fprintf(out, "  hand estimate: -- (%s)\n", tb_fb_note_str(TB_FNOTE_NO_IO));
+        return;
+    }
+    if (fs.has_estimate)
+        breakdown_lines(out, ckt, &fs);
+    desensitivity_lines(out, &fs);
+    for (int n = 0; n < TB_FNOTE_COUNT; n++)
+        if ((fs.notes & (1u << n)) && n != TB_FNOTE_NO_ESTIMATE && n != TB_FNOTE_HOLDS_IN_SWEEP &&
+            n != TB_FNOTE_MISSES_AT_DC)
+            fprintf(out, "    - %s\n", tb_fb_note_str((tb_fb_note)n));
+}
+
 static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *res, size_t l)
 {
     tb_measures m;
@@ -159,6 +334,7 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
     fprintf(out, "\nloop at %s (%s, gain %.6g)\n", e->name, tb_elem_kind_word(e->kind), e->value);
     dc_block(out, &m);
     crossing_block(out, &m);
+    feedback_block(out, ckt, res, l);
     tb_stability stab;
     tb_stability_loop(res, l, &stab);
     if (stab.computed)

@@ -7,6 +7,9 @@
 #include "alloc.h"
 #include "census.h"
 #include "diag.h"
+#include "feedback.h"
+#include "impedance.h"
+#include "wirebreak.h"
 #include "loop.h"
 #include "mna.h"
 #include "solve.h"
@@ -37,6 +40,9 @@ void tb_result_free(tb_result *res)
     tb_free(res->step_t);
     tb_free(res->step_y);
     tb_free(res->census);
+    tb_feedback_free(res->fb);
+    tb_impedance_free(res->zp);
+    tb_wirebreak_free(res->wb);
     tb_free(res);
 }
 
@@ -199,6 +205,14 @@ tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag
         if (!st)
             st = tb_step_run(s.mna, res);
     }
+    if (!st) {
+        tb_probe probe = {s.mna, s.solver, s.work, s.Mx, s.row, opt->refactor_rcond_drop, 0};
+        st = tb_feedback_run(ckt, &probe, res);
+    }
+    if (!st)
+        st = tb_impedance_run(ckt, s.mna, s.solver, s.Mx, opt->refactor_rcond_drop, diag, res);
+    if (!st)
+        st = tb_wirebreak_run(ckt, s.mna, s.solver, s.Mx, opt->refactor_rcond_drop, diag, res);
     sweeper_free(&s);
     if (st) {
         tb_result_free(res);

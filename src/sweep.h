@@ -19,6 +19,9 @@ struct tb_result {
     double *step_y;
     tb_census_entry *census; /* census_count, ranked; NULL unless opt->census */
     size_t census_count;
+    struct tb_fb_data *fb;   /* hand estimate and desensitivity (feedback.c), or NULL */
+    struct tb_z_data *zp;    /* .zport impedances (impedance.c), or NULL */
+    struct tb_wb_data *wb;   /* .break loop gain (wirebreak.c), or NULL */
 };
 
 /* Number of frequencies of the grid spec (0 when the spec is unusable). */

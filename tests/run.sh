@@ -12,6 +12,8 @@ for t in "$build"/tests/test_*; do
 done
 if sh tests/cli.sh "$build" "$wrap"; then passed=$((passed + 1)); else
     failed=$((failed + 1)); echo "FAILED: tests/cli.sh"; fi
+if sh tests/check.sh "$build" "$wrap"; then passed=$((passed + 1)); else
+    failed=$((failed + 1)); echo "FAILED: tests/check.sh"; fi
 for s in tests/ref/*.py; do
     [ -f "$s" ] || continue
     if /usr/bin/python3 "$s" "$build/tbeta" netlists/*.net tests/ref/*.net; then

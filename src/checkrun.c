@@ -1,0 +1,464 @@
+/* src/checkrun.c: the regression runner behind 'tbeta check': files, shards, threads, baselines */
+#include "checkrun.h"
+
+#include <dirent.h>
+#include <errno.h>
+#include <fnmatch.h>
+#include <math.h>
+#include <pthread.h>
+#include <stdarg.h>
+#include <stdatomic.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <jansson.h>
+
+#include "alloc.h"
+#include "circuit.h"
+#include "expect.h"
+
+/* Deepest directory nesting searched (symbolic-link cycles stop here). */
+#define MAX_DIR_DEPTH 64
+/* Most netlists in one run. */
+#define MAX_ENTRIES ((size_t)10000000)
+/* Most threads. */
+#define MAX_JOBS 1024u
+
+struct tb_check_run {
+    tb_check_options opt;
+    tb_check_entry *entries;
+    size_t count;
+    size_t cap;
+    atomic_size_t next; /* the next entry a worker takes */
+};
+
+void tb_check_options_init(tb_check_options *opt)
+{
+    long cores = sysconf(_SC_NPROCESSORS_ONLN);
+    opt->glob = "*.net";
+    opt->jobs = cores > 0 ? (unsigned)(cores < (long)MAX_JOBS ? cores : (long)MAX_JOBS) : 1u;
+    opt->shard_index = 0;
+    opt->shard_count = 1;
+    opt->drift_pct = 1.0;
+    opt->compared = false;
+    tb_options_init(&opt->analysis);
+}
+
+uint64_t tb_check_hash(const char *s)
+{
+    uint64_t h = 14695981039346656037u; /* FNV-1a, 64 bits */
+    for (; *s; s++) {
+        h ^= (unsigned char)*s;
+        h *= 1099511628211u;
+    }
+    return h;
+}
+
+size_t tb_check_count(const tb_check_run *run)
+{
+    return run ? run->count : 0;
+}
+
+const tb_check_entry *tb_check_get(const tb_check_run *run, size_t i)
+{
+    return run && i < run->count ? &run->entries[i] : NULL;
+}
+
+/* ---- strings -------------------------------------------------------------- */
+
+char *tb_check_strdup(const char *s)
+{
+    return s ? tb_strndup(s, strlen(s)) : NULL;
+}
+
+char *tb_check_format(const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    int n = vsnprintf(NULL, 0, fmt, ap);
+    va_end(ap);
+    if (n < 0)
+        return NULL;
+    char *s = tb_malloc((size_t)n + 1, 1);
+    if (!s)
+        return NULL;
+    va_start(ap, fmt);
+    vsnprintf(s, (size_t)n + 1, fmt, ap);
+    va_end(ap);
+    return s;
+}
+
+/* ---- collecting files ------------------------------------------------------- */
+
+tb_check_entry *tb_check_append(tb_check_run *run)
+{
+    if (tb_grow(&run->entries, &run->cap, run->count + 1, sizeof(tb_check_entry), MAX_ENTRIES))
+        return NULL;
+    tb_check_entry *e = &run->entries[run->count++];
+    memset(e, 0, sizeof *e);
+    return e;
+}
+
+tb_check_entry *tb_check_at(tb_check_run *run, size_t i)
+{
+    return run && i < run->count ? &run->entries[i] : NULL;
+}
+
+const tb_check_options *tb_check_opts(const tb_check_run *run)
+{
+    return &run->opt;
+}
+
+void tb_check_set_compared(tb_check_run *run)
+{
+    run->opt.compared = true;
+}
+
+static tb_status add_entry(tb_check_run *run, const char *path, const char *rel)
+{
+    tb_check_entry *e = tb_check_append(run);
+    if (!e)
+        return TB_ERR_NOMEM;
+    e->path = tb_check_strdup(path);
+    e->rel = tb_check_strdup(rel);
+    return e->path && e->rel ? TB_OK : TB_ERR_NOMEM;
+}
+
+/* An argument that could not be searched: an ERROR entry saying why. */
+static tb_status add_unreadable(tb_check_run *run, const char *path, int err)
+{
+    tb_status st = add_entry(run, path, path);
+    if (st != TB_OK)
+        return st;
+    tb_check_entry *e = &run->entries[run->count - 1];
+    e->status = TB_CHECK_ERROR;
+    e->errors = tb_check_format("%s: error: cannot read '%s': %s\n", path, path, strerror(err));
+    return e->errors ? TB_OK : TB_ERR_NOMEM;
+}
+
+static tb_status walk(tb_check_run *run, const char *dir, size_t root_len, int depth);
+
+/* One directory entry name inside dir. */
+static tb_status visit(tb_check_run *run, const char *dir, const char *name, size_t root_len,
+                       int depth)
+{
+    if (name[0] == '.')
+        return TB_OK; /* ".", "..", hidden files and folders */
+    char *path = tb_check_format("%s/%s", dir, name);
+    if (!path)
+        return TB_ERR_NOMEM;
+    struct stat sb;
+    tb_status st = TB_OK;
+    if (stat(path, &sb) != 0)
+        st = add_unreadable(run, path, errno);
+    else if (S_ISDIR(sb.st_mode))
+        st = walk(run, path, root_len, depth + 1);
+    else if (S_ISREG(sb.st_mode) && fnmatch(run->opt.glob, name, 0) == 0)
+        st = add_entry(run, path, path + root_len);
+    tb_free(path);
+    return st;
+}
+
+/* Adds the matching files under dir; rel names start at dir[root_len]. */
+static tb_status walk(tb_check_run *run, const char *dir, size_t root_len, int depth)
+{
+    if (depth > MAX_DIR_DEPTH)
+        return add_unreadable(run, dir, ELOOP);
+    DIR *d = opendir(dir);
+    if (!d)
+        return add_unreadable(run, dir, errno);
+    tb_status st = TB_OK;
+    struct dirent *de;
+    while (st == TB_OK && (de = readdir(d)) != NULL)
+        st = visit(run, dir, de->d_name, root_len, depth);
+    closedir(d);
+    return st;
+}
+
+static int by_path(const void *a, const void *b)
+{
+    return strcmp(((const tb_check_entry *)a)->path, ((const tb_check_entry *)b)->path);
+}
+
+static void free_entry(tb_check_entry *e);
+
+/* Keeps the entries of this shard (fnv1a(rel) % count == index). */
+static void keep_shard(tb_check_run *run)
+{
+    size_t kept = 0;
+    for (size_t i = 0; i < run->count; i++) {
+        tb_check_entry *e = &run->entries[i];
+        if (tb_check_hash(e->rel) % run->opt.shard_count == run->opt.shard_index)
+            run->entries[kept++] = *e;
+        else
+            free_entry(e);
+    }
+    run->count = kept;
+}
+
+/* One argument: a file as it is, or a directory searched recursively. */
+static tb_status collect_one(tb_check_run *run, const char *arg)
+{
+    struct stat sb;
+    if (stat(arg, &sb) != 0)
+        return add_unreadable(run, arg, errno);
+    if (!S_ISDIR(sb.st_mode))
+        return add_entry(run, arg, arg);
+    size_t len = strlen(arg);
+    while (len > 1 && arg[len - 1] == '/')
+        len--;
+    char *root = tb_strndup(arg, len);
+    if (!root)
+        return TB_ERR_NOMEM;
+    tb_status st = walk(run, root, len + (root[len - 1] == '/' ? 0 : 1), 0);
+    tb_free(root);
+    return st;
+}
+
+tb_status tb_check_collect(const char *const *paths, size_t count, const tb_check_options *opt,
+                           tb_check_run **out)
+{
+    if ((!paths && count) || !opt || !out || opt->shard_count == 0 ||
+        opt->shard_index >= opt->shard_count || opt->jobs == 0)
+        return TB_ERR_USAGE;
+    tb_check_run *run = tb_calloc(1, sizeof *run);
+    if (!run)
+        return TB_ERR_NOMEM;
+    run->opt = *opt;
+    atomic_init(&run->next, 0);
+    tb_status st = TB_OK;
+    for (size_t i = 0; i < count && st == TB_OK; i++)
+        st = collect_one(run, paths[i]);
+    if (st != TB_OK) {
+        tb_check_free(run);
+        return st;
+    }
+    keep_shard(run);
+    tb_check_sort(run);
+    *out = run;
+    return TB_OK;
+}
+
+void tb_check_sort(tb_check_run *run)
+{
+    if (run && run->count > 1)
+        qsort(run->entries, run->count, sizeof(tb_check_entry), by_path);
+}
+
+/* ---- one netlist ------------------------------------------------------------ */
+
+/* Diagnostics of one severity (or all, sev 0) formatted into one string; NULL when none. */
+static char *diag_text(const tb_diag *diag, int sev)
+{
+    size_t total = 0;
+    for (size_t i = 0; i < tb_diag_count(diag); i++)
+        if (!sev || (int)tb_diag_get(diag, i)->severity == sev)
+            total += tb_diag_format(diag, i, NULL, 0);
+    if (total == 0)
+        return NULL;
+    char *s = tb_malloc(total + 1, 1);
+    if (!s)
+        return NULL;
+    size_t n = 0;
+    for (size_t i = 0; i < tb_diag_count(diag); i++)
+        if (!sev || (int)tb_diag_get(diag, i)->severity == sev)
+            n += tb_diag_format(diag, i, s + n, total + 1 - n);
+    return s;
+}
+
+/* Every figure of loop l into lp. */
+static tb_status measure(const tb_circuit *ckt, const tb_result *res, size_t l, tb_check_loop *lp)
+{
+    tb_measures m;
+    tb_stability st;
+    tb_step_figures step;
+    tb_feedback_summary fb;
+    tb_status rc = tb_measure_loop(res, l, &m);
+    if (rc == TB_OK)
+        rc = tb_stability_loop(res, l, &st);
+    if (rc == TB_OK)
+        rc = tb_step_figures_get(res, &step);
+    if (rc == TB_OK)
+        rc = tb_feedback_loop(res, l, &fb);
+    if (rc != TB_OK)
+        return rc;
+    lp->name = tb_check_strdup(tb_circuit_loop_name(ckt, l));
+    lp->figures = tb_calloc(tb_figure_count(), sizeof(tb_check_figure));
+    if (!lp->name || !lp->figures)
+        return TB_ERR_NOMEM;
+    tb_figure_src src = {&m, &st, &step, &fb};
+    for (size_t f = 0; f < tb_figure_count(); f++) {
+        tb_check_figure *fig = &lp->figures[f];
+        const char *why = "absent";
+        fig->figure = (int)f;
+        fig->present = tb_figure_at(f)->get(&src, &fig->value, &why);
+        if (fig->present && !isfinite(fig->value)) {
+            fig->present = false;
+            why = "not finite";
+        }
+        if (!fig->present) {
+            fig->value = 0;
+            fig->why = tb_check_strdup(why);
+            if (!fig->why)
+                return TB_ERR_NOMEM;
+        }
+    }
+    return TB_OK;
+}
+
+/* Evaluates every .expect of ckt against the measured loops. */
+static tb_status evaluate(const tb_circuit *ckt, tb_check_entry *e)
+{
+    char bound[160];
+    char measured[96];
+    e->expects = tb_calloc(ckt->expect_count ? ckt->expect_count : 1, sizeof(tb_check_expect));
+    if (!e->expects)
+        return TB_ERR_NOMEM;
+    for (const tb_expect *x = ckt->expects; x; x = x->next) {
+        tb_check_expect *r = &e->expects[e->expect_count++];
+        const tb_check_figure *fig = &e->loops[x->loop].figures[x->figure];
+        r->target = tb_check_strdup(x->target);
+        r->line = x->loc.line;
+        r->figure = x->figure;
+        r->present = fig->present;
+        r->value = fig->value;
+        r->pass = tb_expect_holds(x, fig->present, fig->value);
+        r->bound = tb_check_strdup(tb_expect_bound_text(x, bound, sizeof bound));
+        tb_figure_text(x->figure, fig->present, fig->value, measured, sizeof measured);
+        r->measured = fig->present ? tb_check_strdup(measured) : tb_check_format("absent (%s)", fig->why);
+        if (!r->target || !r->bound || !r->measured)
+            return TB_ERR_NOMEM;
+        if (!r->pass)
+            e->status = TB_CHECK_FAIL;
+    }
+    return TB_OK;
+}
+
+/* Reads, analyses and evaluates e->path; diagnostics go to e->errors/e->warnings. */
+static tb_status run_one(const tb_check_options *opt, tb_check_entry *e)
+{
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    tb_result *res = NULL;
+    if (!diag)
+        return TB_ERR_NOMEM;
+    tb_status st = tb_circuit_read(e->path, diag, &ckt);
+    if (st == TB_OK)
+        st = tb_expect_resolve(ckt, diag);
+    if (st == TB_OK)
+        st = tb_analyse(ckt, &opt->analysis, diag, &res);
+    if (st == TB_OK) {
+        e->loops = tb_calloc(tb_result_loops(res), sizeof(tb_check_loop));
+        st = e->loops ? TB_OK : TB_ERR_NOMEM;
+        for (size_t l = 0; st == TB_OK && l < tb_result_loops(res); l++, e->loop_count++)
+            st = measure(ckt, res, l, &e->loops[l]);
+    }
+    if (st == TB_OK)
+        st = evaluate(ckt, e);
+    if (st != TB_OK && st != TB_ERR_NOMEM) {
+        e->status = TB_CHECK_ERROR;
+        e->errors = diag_text(diag, TB_SEV_ERROR);
+        if (!e->errors)
+            e->errors = tb_check_format("%s: error: %s\n", e->path, tb_status_str(st));
+        st = TB_OK;
+    }
+    e->warnings = diag_text(diag, TB_SEV_WARNING);
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+    tb_diag_free(diag);
+    return st;
+}
+
+/* A worker: takes the next entry until none is left. */
+static void *worker(void *arg)
+{
+    tb_check_run *run = arg;
+    for (;;) {
+        size_t i = atomic_fetch_add(&run->next, 1);
+        if (i >= run->count)
+            return NULL;
+        tb_check_entry *e = &run->entries[i];
+        if (e->status == TB_CHECK_ERROR)
+            continue; /* could not be collected */
+        if (run_one(&run->opt, e) != TB_OK) {
+            e->status = TB_CHECK_ERROR;
+            tb_free(e->errors);
+            e->errors = tb_check_format("%s: error: out of memory\n", e->path);
+        }
+    }
+}
+
+tb_status tb_check_execute(tb_check_run *run)
+{
+    if (!run)
+        return TB_ERR_USAGE;
+    unsigned jobs = run->opt.jobs;
+    if (jobs > run->count)
+        jobs = run->count ? (unsigned)run->count : 1u;
+    atomic_store(&run->next, 0);
+    pthread_t *threads = tb_calloc(jobs, sizeof(pthread_t));
+    if (!threads)
+        return TB_ERR_NOMEM;
+    unsigned started = 0;
+    while (started + 1 < jobs && pthread_create(&threads[started], NULL, worker, run) == 0)
+        started++;
+    worker(run); /* the calling thread works too */
+    for (unsigned t = 0; t < started; t++)
+        pthread_join(threads[t], NULL);
+    tb_free(threads);
+    return TB_OK;
+}
+
+/* ---- freeing -------------------------------------------------------------- */
+
+static void free_entry(tb_check_entry *e)
+{
+    tb_free(e->path);
+    tb_free(e->rel);
+    tb_free(e->errors);
+    tb_free(e->warnings);
+    for (size_t l = 0; l < e->loop_count; l++) {
+        for (size_t f = 0; e->loops[l].figures && f < tb_figure_count(); f++)
+            tb_free(e->loops[l].figures[f].why);
+        tb_free(e->loops[l].figures);
+        tb_free(e->loops[l].name);
+    }
+    tb_free(e->loops);
+    for (size_t i = 0; i < e->expect_count; i++) {
+        tb_free(e->expects[i].target);
+        tb_free(e->expects[i].bound);
+        tb_free(e->expects[i].measured);
+    }
+    tb_free(e->expects);
+    for (size_t i = 0; i < e->drift_count; i++) {
+        tb_free(e->drifts[i].target);
+        tb_free(e->drifts[i].was);
+        tb_free(e->drifts[i].now);
+    }
+    tb_free(e->drifts);
+    memset(e, 0, sizeof *e);
+}
+
+void tb_check_free(tb_check_run *run)
+{
+    if (!run)
+        return;
+    for (size_t i = 0; i < run->count; i++)
+        free_entry(&run->entries[i]);
+    tb_free(run->entries);
+    tb_free(run);
+}
+
+int tb_check_exit_code(const tb_check_run *run)
+{
+    int code = 0;
+    for (size_t i = 0; run && i < run->count; i++) {
+        if (run->entries[i].status == TB_CHECK_ERROR)
+            return 2;
+        if (run->entries[i].status == TB_CHECK_FAIL)
+            code = 1;
+    }
+    return code;
+}

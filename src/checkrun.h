@@ -1,0 +1,124 @@
+/* src/checkrun.h: the regression runner behind 'tbeta check': files, shards, threads, baselines, writers */
+#ifndef TB_CHECKRUN_H
+#define TB_CHECKRUN_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <stdio.h>
+
+#include "tbeta.h"
+
+/* Options of one run; tb_check_options_init sets every field. */
+typedef struct {
+    const char *glob;      /* file-name pattern inside directories (default "*.net") */
+    unsigned jobs;         /* threads (default: the online cores, at least 1) */
+    unsigned shard_index;  /* this shard, 0 <= shard_index < shard_count */
+    unsigned shard_count;  /* 1: no sharding */
+    double drift_pct;      /* a figure that moves more than this percent the worse way drifts (default 1) */
+    tb_options analysis;   /* tb_analyse options for every netlist */
+    bool compared;         /* set by tb_check_against */
+} tb_check_options;
+
+void tb_check_options_init(tb_check_options *opt);
+
+typedef enum { TB_CHECK_PASS, TB_CHECK_FAIL, TB_CHECK_ERROR } tb_check_status;
+
+/* One figure of one loop as measured (or absent, with why). */
+typedef struct {
+    int figure;       /* index into the figure table (src/expect.h) */
+    bool present;
+    double value;
+    char *why;        /* absent: the reason */
+} tb_check_figure;
+
+typedef struct {
+    char *name;
+    tb_check_figure *figures; /* tb_figure_count() of them, in table order */
+} tb_check_loop;
+
+/* One evaluated expectation. */
+typedef struct {
+    char *target;     /* LOOP.FIGURE */
+    int line;
+    int figure;
+    bool pass;
+    bool present;
+    double value;
+    char *bound;      /* "the bound for people" */
+    char *measured;   /* the measured value for people */
+} tb_check_expect;
+
+/* A figure that moved the worse way against the baseline. */
+typedef struct {
+    char *target;     /* LOOP.FIGURE */
+    char *was;
+    char *now;
+} tb_check_drift;
+
+/* One netlist of the run. */
+typedef struct {
+    char *path;           /* as found (argument, or directory + relative path) */
+    char *rel;            /* relative to the argument it came from: the shard key */
+    tb_check_status status;
+    char *errors;         /* ERROR: the diagnostics, formatted (NULL otherwise) */
+    char *warnings;       /* formatted warnings, or NULL */
+    tb_check_loop *loops;
+    size_t loop_count;
+    tb_check_expect *expects;
+    size_t expect_count;
+    tb_check_drift *drifts;
+    size_t drift_count;
+    bool in_baseline;     /* --against: the baseline has this netlist */
+} tb_check_entry;
+
+typedef struct tb_check_run tb_check_run;
+
+/* A new run over paths[0..count): files are taken as they are, directories
+ * searched recursively for names matching opt->glob; sorted by path; only the
+ * files of shard opt->shard_index kept. Unreadable arguments become ERROR
+ * entries. Errors: TB_ERR_NOMEM, TB_ERR_USAGE. Free with tb_check_free. */
+tb_status tb_check_collect(const char *const *paths, size_t count, const tb_check_options *opt,
+                           tb_check_run **out);
+/* Reads, analyses and evaluates every netlist, opt->jobs at a time. */
+tb_status tb_check_execute(tb_check_run *run);
+/* Compares every entry with a saved run (a --save or --json file); figures that
+ * moved the worse way by more than drift_pct become drifts and fail the entry.
+ * Errors: TB_ERR_IO (unreadable, with *why), TB_ERR_INPUT (not a saved run), TB_ERR_NOMEM. */
+tb_status tb_check_against(tb_check_run *run, const char *path, char *why, size_t why_size);
+/* Adds the entries of a --json file written by another shard. */
+tb_status tb_check_merge(tb_check_run *run, const char *path, char *why, size_t why_size);
+/* Sorts entries by path (after merging). */
+void tb_check_sort(tb_check_run *run);
+void tb_check_free(tb_check_run *run);
+
+size_t tb_check_count(const tb_check_run *run);
+const tb_check_entry *tb_check_get(const tb_check_run *run, size_t i);
+
+/* Shared by checkrun.c, checkjson.c and checkreport.c: a new empty entry at
+ * the end (NULL when out of memory), an entry to fill in, the options, and
+ * strings made with tb_malloc. */
+tb_check_entry *tb_check_append(tb_check_run *run);
+tb_check_entry *tb_check_at(tb_check_run *run, size_t i);
+const tb_check_options *tb_check_opts(const tb_check_run *run);
+void tb_check_set_compared(tb_check_run *run);
+char *tb_check_strdup(const char *s);
+char *tb_check_format(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+
+/* 64-bit FNV-1a of a string: the shard of a file is fnv1a(rel) % shard_count. */
+uint64_t tb_check_hash(const char *s);
+
+/* Writers. Text: one line per netlist (more for extra failures), then a summary. */
+tb_status tb_check_write_text(const tb_check_run *run, FILE *out);
+/* The figures only (--save). */
+tb_status tb_check_write_save(const tb_check_run *run, FILE *out);
+/* Everything (--json): status, expectations, drifts, figures. */
+tb_status tb_check_write_json(const tb_check_run *run, FILE *out);
+/* JUnit XML: one testsuite per netlist, one testcase per expectation. */
+tb_status tb_check_write_junit(const tb_check_run *run, FILE *out);
+
+/* Exit status of the run: 2 when a netlist could not be read or analysed,
+ * else 1 when an expectation failed or a figure drifted, else 0. */
+int tb_check_exit_code(const tb_check_run *run);
+
+#endif

@@ -1,0 +1,25 @@
+/* src/feedback.h: the hand estimate's error breakdown and the desensitivity of every loop */
+#ifndef TB_FEEDBACK_H
+#define TB_FEEDBACK_H
+
+#include "probe.h"
+#include "sweep.h"
+
+/* What tb_feedback_run leaves on the result (res->fb). */
+typedef struct tb_fb_data {
+    tb_feedback_summary *sum; /* nloops */
+    tb_breakdown_point *pts;  /* nloops x npoints, loop-major */
+} tb_fb_data;
+
+/* Fills res->fb from the sweep table (res->pts, res->dc): the breakdown of
+ * A - G into loading, finite loop gain and feedthrough at every point, the
+ * frequency where the estimate stops holding (Brent on fresh solves through
+ * probe), and the change of A at DC for the amplifier's gain changed by
+ * +-spread, both from the model and by a fresh factorization of M with the
+ * changed gain (probe->Mx and probe->solver are reused). Errors: TB_ERR_NOMEM,
+ * TB_ERR_NUMERIC. */
+tb_status tb_feedback_run(const tb_circuit *ckt, tb_probe *probe, tb_result *res);
+
+void tb_feedback_free(tb_fb_data *fb);
+
+#endif
