@@ -173,8 +173,8 @@ def parse_directive(ckt, number, tokens):
         if len(tokens) < 3 or ckt.io is not None:
             raise NetlistError("line %d: one .io SRC OUT" % number)
         ckt.io = (tokens[1].lower(), parse_out("".join(tokens[2:])))
-    elif word in (".expect", ".margins"):
-        pass  # expectations and thresholds: nothing to solve
+    elif word in (".expect", ".margins", ".ideal", ".zport"):
+        pass  # expectations, thresholds, the hand estimate, impedance ports: nothing to solve
     else:
         raise NetlistError("line %d: directive outside the subset: %s" % (number, tokens[0]))
 
