@@ -344,9 +344,7 @@ static tb_status run_one(const tb_check_options *opt, tb_check_entry *e)
     tb_result *res = NULL;
     if (!diag)
         return TB_ERR_NOMEM;
-    tb_status st = tb_circuit_read(e->path, diag, &ckt);
-    if (st == TB_OK)
-        st = tb_expect_resolve(ckt, diag);
+    tb_status st = tb_circuit_read(e->path, diag, &ckt); /* resolves .expect loop names */
     if (st == TB_OK)
         st = tb_analyse(ckt, &opt->analysis, diag, &res);
     if (st == TB_OK) {

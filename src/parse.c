@@ -1894,6 +1894,8 @@ static tb_status parse_owned(char *text, size_t len, const char *file, const cha
     /* References are checked only in a netlist without syntax errors: an
      * abandoned card would make them report names that are in fact there. */
     st = p.status == TB_OK ? tb_circuit_finish(ckt, diag) : p.status;
+    if (st == TB_OK)
+        st = tb_expect_resolve(ckt, diag); /* .expect names a .loop: every command refuses a typo */
     if (st != TB_OK) {
         tb_circuit_free(ckt);
         return st;
