@@ -139,9 +139,10 @@ static tb_status port_m0(zpass *z, double omega)
         bool inf = cabs(1.0 - q) <= TB_LOOP_INF_TOL;
         if (c < z->P * z->L) {
             const double complex *y = z->YW + (c / z->L) * n;
-            double complex alpha = inf ? 0 : lv->k * tb_svec_dot(&lv->v, y) / (1.0 - q);
-            for (size_t i = 0; i < n; i++)
-                y0[i] = y[i] + alpha * w[i];
+            if (inf)
+                memcpy(y0, y, n * sizeof(double complex));
+            else
+                tb_loop_sherman_morrison(lv, w, q, y, NULL, y0, n);
         } else {
             for (size_t i = 0; i < n; i++)
                 y0[i] = inf ? 0 : w[i] / (1.0 - q);
@@ -159,9 +160,7 @@ static tb_status port_m0(zpass *z, double omega)
         double complex q = lv->k * tb_svec_dot(&lv->v, w);
         if (cabs(1.0 - q) <= TB_LOOP_INF_TOL)
             continue;
-        double complex alpha = lv->k * tb_svec_dot(&lv->v, d) / (1.0 - q);
-        for (size_t i = 0; i < n; i++)
-            y0[i] += d[i] + alpha * w[i];
+        tb_loop_sherman_morrison(lv, w, q, d, y0, y0, n);
     }
     return TB_OK;
 }

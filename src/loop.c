@@ -59,6 +59,15 @@ static void scatter(const tb_svec *s, double complex *col, size_t n)
     tb_svec_axpy(s, 1.0, col);
 }
 
+void tb_loop_sherman_morrison(const tb_loopvec *lv, const double complex *w, double complex q,
+                              const double complex *d, const double complex *base,
+                              double complex *out, size_t n)
+{
+    double complex alpha = lv->k * tb_svec_dot(&lv->v, d) / (1.0 - q);
+    for (size_t i = 0; i < n; i++)
+        out[i] = (base ? base[i] : 0) + (d[i] + alpha * w[i]);
+}
+
 /* T, A, A_inf and a of one loop from x and w (design.md "The algebra"). */
 static void evaluate(const tb_mna *mna, const tb_loopvec *lv, const double complex *x,
                      const double complex *w, tb_point *pt)
@@ -100,9 +109,7 @@ static size_t start_vectors(const tb_mna *mna, tb_loop_work *work, size_t l, con
     if (mna->has_io) {
         double complex *x0 = work->vec0 + 2 * l * n;
         const double complex *x = work->rhs;
-        double complex alpha = lv->k * tb_svec_dot(&lv->v, x) / (1.0 - q);
-        for (size_t i = 0; i < n; i++)
-            x0[i] = x[i] + alpha * w[i];
+        tb_loop_sherman_morrison(lv, w, q, x, NULL, x0, n);
         double noise = 1e-15 * cabs(tb_svec_dot(&mna->c, x));
         work->pending[count++] = (refinement){l, &mna->b, &mna->c, noise, x0};
     }
@@ -137,10 +144,8 @@ static tb_status refine(const tb_mna *mna, tb_solver *solver, const double *Mx, 
         const double complex *w = work->rhs + (p.loop + 1) * n;
         const double complex *d = work->res + r * n;
         double complex q = lv->k * tb_svec_dot(&lv->v, w);
-        double complex alpha = lv->k * tb_svec_dot(&lv->v, d) / (1.0 - q);
         double complex before = tb_svec_dot(p.probe, p.y);
-        for (size_t i = 0; i < n; i++)
-            p.y[i] += d[i] + alpha * w[i];
+        tb_loop_sherman_morrison(lv, w, q, d, p.y, p.y, n);
         double complex after = tb_svec_dot(p.probe, p.y);
         if (cabs(after - before) > TB_LOOP_CONVERGED * cabs(after) + p.floor)
             work->pending[(*left)++] = p;

@@ -17,6 +17,13 @@
 #define TB_LOOP_REFINE_STEPS 3
 #define TB_LOOP_CONVERGED 1e-9
 
+/* M0^-1 r from d = M^-1 r by Sherman-Morrison (M0 = M - k u v', w = M^-1 u,
+ * q = k v'w, 1 - q != 0): out[i] = base[i] + (d[i] + k (v'd)/(1 - q) w[i]),
+ * base NULL for none; out may be base. n entries each. */
+void tb_loop_sherman_morrison(const tb_loopvec *lv, const double complex *w, double complex q,
+                              const double complex *d, const double complex *base,
+                              double complex *out, size_t n);
+
 /* Everything one frequency point needs, allocated once before a sweep. */
 typedef struct tb_loop_work tb_loop_work;
 
