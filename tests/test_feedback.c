@@ -7,11 +7,6 @@
  * the element values by the closed form written beside it, never copied from tbeta. */
 #include "testutil.h"
 
-static double par(double a, double b)
-{
-    return a * b / (a + b);
-}
-
 typedef struct {
     tb_circuit *ckt;
     tb_result *res;
@@ -47,10 +42,10 @@ static void test_feedback_breakdown_inverting(void **state)
     (void)state;
     run r = analyse(inverting);
     double a = 1000, Rs = 1e3, R1 = 1e3, R2 = 10e3, Ri = 10e3, Ro = 1e3, G = -10;
-    double Rn = par(Ri, R1 + Rs);
+    double Rn = tu_par(Ri, R1 + Rs);
     double T = a * Rn / (Ro + R2 + Rn);
     double Ainf = -R2 / (Rs + R1);
-    double Rx = par(Ri, R2 + Ro);
+    double Rx = tu_par(Ri, R2 + Ro);
     double A0 = Rx / (Rs + R1 + Rx) * Ro / (R2 + Ro);
     double A = (Ainf * T + A0) / (1 + T);
     const tb_feedback_summary *fs = &r.fs;
@@ -90,11 +85,11 @@ static void test_feedback_breakdown_noninverting_beta(void **state)
                     "Ro x out 1k\nRL out 0 2k\nR2 out n 9k\nR1 n 0 1k\n.ac dec 5 1 1k\n.loop E1\n"
                     ".io Vs v(out)\n.ideal beta=0.1 tol=2\n");
     double a = 1000, Rs = 10e3, Ri = 100e3, Ro = 1e3, RL = 2e3, R2 = 9e3, R1 = 1e3;
-    double Rfb = R2 + par(R1, Ri + Rs);
-    double T = a * (par(RL, Rfb) / (Ro + par(RL, Rfb))) * (par(R1, Ri + Rs) / Rfb) * (Ri / (Ri + Rs));
+    double Rfb = R2 + tu_par(R1, Ri + Rs);
+    double T = a * (tu_par(RL, Rfb) / (Ro + tu_par(RL, Rfb))) * (tu_par(R1, Ri + Rs) / Rfb) * (Ri / (Ri + Rs));
     double Ainf = 1 + R2 / R1;
-    double Rn = par(R1, R2 + par(Ro, RL));
-    double A0 = (Rn / (Rs + Ri + Rn)) * (par(Ro, RL) / (R2 + par(Ro, RL)));
+    double Rn = tu_par(R1, R2 + tu_par(Ro, RL));
+    double A0 = (Rn / (Rs + Ri + Rn)) * (tu_par(Ro, RL) / (R2 + tu_par(Ro, RL)));
     double G = 1 / 0.1;
     const tb_feedback_summary *fs = &r.fs;
     tu_close(fs->estimate, G, 1e-15);

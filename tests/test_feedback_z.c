@@ -7,11 +7,6 @@
  * separate netlist with the port shorted by a zero-volt source. */
 #include "testutil.h"
 
-static double par(double a, double b)
-{
-    return a * b / (a + b);
-}
-
 typedef struct {
     tb_circuit *ckt;
     tb_result *res;
@@ -63,7 +58,7 @@ static void test_feedback_z_shunt_shunt_output(void **state)
     run r;
     tb_zport_summary s = port("check 3a\n" SHUNT_SHUNT "G1 d 0 g 0 10m\n.ac dec 3 1 1meg\n.loop G1\n"
                               ".zport in v(g)\n.zport out v(d)\n", 1, &r);
-    double Z0 = par(RD, RF + Rs);
+    double Z0 = tu_par(RD, RF + Rs);
     double Toc = gm * RD * Rs / (Rs + RF + RD);
     tu_close(s.dc.Z0, Z0, 1e-12);
     assert_true(cabs(s.dc.T_sc) <= 1e-12);
@@ -114,7 +109,7 @@ static void test_feedback_z_series_input(void **state)
     double rpi = 2.5e3, RE = 100, g = 40e-3;
     tu_close(s.dc.Z0, rpi + RE, 1e-12);
     assert_true(cabs(s.dc.T_oc) <= 1e-12);
-    tu_close(s.dc.T_sc, g * par(RE, rpi), 1e-12);
+    tu_close(s.dc.T_sc, g * tu_par(RE, rpi), 1e-12);
     tu_close(s.dc.Z, rpi + (1 + g * rpi) * RE, 1e-12);
     assert_int_equal(s.side, TB_SIDE_SERIES);
     tu_close(s.dc.T_sc, loop_T("3c shorted\nRpi b e 2.5k\nRE e 0 100\nG1 c e b e 40m\nRC c 0 1k\nVsh b 0 0\n"
@@ -132,10 +127,10 @@ static void test_feedback_z_series_output(void **state)
     tb_zport_summary s = port("check 3d\nRpi 0 e 2.5k\nRE e 0 100\nG1 c e 0 e 40m\nRo c e 50k\n"
                               ".ac dec 3 1 1meg\n.loop G1\n.zport out v(c)\n", 0, &r);
     double rpi = 2.5e3, RE = 100, g = 40e-3, ro = 50e3;
-    double REp = par(RE, rpi);
+    double REp = tu_par(RE, rpi);
     tu_close(s.dc.Z0, ro + REp, 1e-12);
     assert_true(cabs(s.dc.T_oc) <= 1e-12);
-    tu_close(s.dc.T_sc, g * par(REp, ro), 1e-12);
+    tu_close(s.dc.T_sc, g * tu_par(REp, ro), 1e-12);
     tu_close(s.dc.Z, ro + REp + g * ro * REp, 1e-12);
     assert_int_equal(s.side, TB_SIDE_SERIES);
     done(&r);
@@ -187,7 +182,7 @@ static void test_feedback_z_series_shunt(void **state)
     assert_true(cabs(s.dc.T_sc) <= 1e-12);
     assert_true(s.purity <= 1e-12);
     /* output: Z0 = Ro || RL || (R2 + R1 || (Ri + Rs)) with the amplifier's gain at zero */
-    tu_close(s.dc.Z0, 1 / (1 / 1e3 + 1 / 2e3 + 1 / (9e3 + par(1e3, 110e3))), 1e-12);
+    tu_close(s.dc.Z0, 1 / (1 / 1e3 + 1 / 2e3 + 1 / (9e3 + tu_par(1e3, 110e3))), 1e-12);
     tu_close(s.dc.Z_blackman, s.dc.Z, 1e-9);
     done(&r);
 }
@@ -208,9 +203,9 @@ static void test_feedback_z_source_port(void **state)
                               0, &r);
     double a = 1000, Rsrc = 1e3, R1 = 1e3, R2 = 10e3, Ri = 10e3, Ro = 1e3;
     assert_true(s.at_source);
-    tu_close(s.dc.Z0, Rsrc + R1 + par(Ri, R2 + Ro), 1e-12);
+    tu_close(s.dc.Z0, Rsrc + R1 + tu_par(Ri, R2 + Ro), 1e-12);
     tu_close(s.dc.Z, Rsrc + R1 + 1 / (1 / Ri + (1 + a) / (R2 + Ro)), 1e-12);
-    tu_close(s.dc.T_sc, a * par(Ri, R1 + Rsrc) / (Ro + R2 + par(Ri, R1 + Rsrc)), 1e-12);
+    tu_close(s.dc.T_sc, a * tu_par(Ri, R1 + Rsrc) / (Ro + R2 + tu_par(Ri, R1 + Rsrc)), 1e-12);
     tu_close(s.dc.T_oc, a * Ri / (Ro + R2 + Ri), 1e-10);
     assert_int_equal(s.side, TB_SIDE_SHUNT);
     done(&r);

@@ -19,11 +19,6 @@ static tb_point dc_of(const char *text)
     return p;
 }
 
-static double par(double a, double b)
-{
-    return a * b / (a + b);
-}
-
 /* references.md check 2a: ideal non-inverting VCVS stage, a = 1000, R2 = 9k, R1 = 1k:
  * T = a R1/(R1+R2), A_inf = 1 + R2/R1, A0 = 0. */
 static void test_ref_closed_noninverting_ideal(void **state)
@@ -50,11 +45,11 @@ static void test_ref_closed_noninverting_loaded(void **state)
                        "E1 x 0 p n 1000\nRo x out 1k\nRL out 0 2k\nR2 out n 9k\nR1 n 0 1k\n"
                        ".ac dec 1 1 10\n.loop E1\n.io Vs v(out)\n");
     double a = 1000, Rs = 10e3, Ri = 100e3, Ro = 1e3, RL = 2e3, R2 = 9e3, R1 = 1e3;
-    double Rfb = R2 + par(R1, Ri + Rs);
-    double T = a * (par(RL, Rfb) / (Ro + par(RL, Rfb))) * (par(R1, Ri + Rs) / Rfb) * (Ri / (Ri + Rs));
+    double Rfb = R2 + tu_par(R1, Ri + Rs);
+    double T = a * (tu_par(RL, Rfb) / (Ro + tu_par(RL, Rfb))) * (tu_par(R1, Ri + Rs) / Rfb) * (Ri / (Ri + Rs));
     double Ainf = 1 + R2 / R1;
-    double Rn = par(R1, R2 + par(Ro, RL));
-    double A0 = (Rn / (Rs + Ri + Rn)) * (par(Ro, RL) / (R2 + par(Ro, RL)));
+    double Rn = tu_par(R1, R2 + tu_par(Ro, RL));
+    double A0 = (Rn / (Rs + Ri + Rn)) * (tu_par(Ro, RL) / (R2 + tu_par(Ro, RL)));
     tu_close(p.T, T, 1e-12);
     tu_close(p.A_inf, Ainf, 1e-12);
     tu_close(p.A0, A0, 1e-11);
@@ -73,7 +68,7 @@ static void test_ref_closed_inverting(void **state)
                        "E1 x 0 0 n 1000\nRo x out 1k\nR2 out n 10k\n"
                        ".ac dec 1 1 10\n.loop E1\n.io Vs v(out)\n");
     double a = 1000, Rs = 1e3, R1 = 1e3, Ri = 10e3, Ro = 1e3, R2 = 10e3;
-    double Rg = par(Rs + R1, Ri);
+    double Rg = tu_par(Rs + R1, Ri);
     double T = a * ((R2 + Rg) / (Ro + R2 + Rg)) * (Rg / (R2 + Rg));
     double Ainf = -R2 / (Rs + R1);
     /* A0: E1 output at 0 V, so out sits on the divider Ro || ... driven through

@@ -17,6 +17,12 @@
 
 #define TU_PI 3.14159265358979323846264338327950288
 
+/* Two resistances in parallel. */
+static inline double tu_par(double a, double b)
+{
+    return a * b / (a + b);
+}
+
 /* Prints every diagnostic of diag as a test error message. */
 static inline void tu_print_diags(const tb_diag *diag)
 {
