@@ -602,6 +602,89 @@ static void check_io(checker *ck)
         io->out_elem = j;
 }
 
+/* One node of a .zport card resolved into *node (0 for an absent - node, which is ground). */
+static bool check_zport_node(checker *ck, const tb_zport_spec *zp, const char *name, int *node)
+{
+    char hint[SUGGEST_SIZE];
+    *node = 0;
+    if (!name || tb_circuit_find_node(ck->ckt, name, strlen(name), node))
+        return true;
+    report(ck, TB_SEV_ERROR, zp->loc, ".zport %s: node '%s' does not exist%s", zp->name, name,
+           suggest_node(ck->ckt, name, hint, sizeof hint));
+    return false;
+}
+
+/* .zport NAME i(V): V must be a voltage source; its index goes to source_elem. */
+static void check_zport_source(checker *ck, tb_zport_spec *zp)
+{
+    size_t j = 0;
+    char hint[SUGGEST_SIZE];
+    bool found = tb_circuit_find_element(ck->ckt, zp->node_a, &j);
+    if (found && ck->ckt->elems[j].kind == TB_EL_V) {
+        zp->source_elem = j;
+        return;
+    }
+    report(ck, TB_SEV_ERROR, zp->loc, ".zport %s: i(%s) needs a voltage source of that name%s",
+           zp->name, zp->node_a,
+           found ? "" : suggest_element(ck->ckt, zp->node_a, is_vsource, NULL, hint, sizeof hint));
+}
+
+/* Every .zport: existing nodes, two distinct ones (a, b), or a V source (source_elem). */
+static void check_zports(checker *ck)
+{
+    tb_circuit *ckt = ck->ckt;
+    for (size_t p = 0; p < ckt->zport_count; p++) {
+        tb_zport_spec *zp = &ckt->zports[p];
+        zp->a = 0;
+        zp->b = 0;
+        if (zp->at_source) {
+            check_zport_source(ck, zp);
+            continue;
+        }
+        int a = 0;
+        int b = 0;
+        if (!check_zport_node(ck, zp, zp->node_a, &a) || !check_zport_node(ck, zp, zp->node_b, &b))
+            continue;
+        if (a == b) {
+            report(ck, TB_SEV_ERROR, zp->loc, ".zport %s: the port's two nodes are the same node",
+                   zp->name);
+            continue;
+        }
+        zp->a = a;
+        zp->b = b;
+    }
+}
+
+/* .break: an existing V source, not shorted to ground at both ends, not the .io input
+ * (compared by name: the input resolves even when check_io reported something else). */
+static void check_break(checker *ck)
+{
+    tb_circuit *ckt = ck->ckt;
+    tb_break_spec *br = &ckt->brk;
+    if (!br->given)
+        return;
+    size_t e = 0;
+    char hint[SUGGEST_SIZE];
+    if (!tb_circuit_find_element(ckt, br->source, &e)) {
+        report(ck, TB_SEV_ERROR, br->loc, ".break names '%s', which does not exist%s", br->source,
+               suggest_element(ckt, br->source, is_vsource, NULL, hint, sizeof hint));
+        return;
+    }
+    const tb_element *el = &ckt->elems[e];
+    size_t input = 0;
+    if (el->kind != TB_EL_V)
+        report(ck, TB_SEV_ERROR, br->loc,
+               ".break names '%s', a %s; a zero-volt V source in the loop wire is expected",
+               br->source, kind_word[el->kind]);
+    else if (el->node[0] == 0 && el->node[1] == 0)
+        report(ck, TB_SEV_ERROR, br->loc, ".break: '%s' has both ends at ground", br->source);
+    else if (ckt->io.given && tb_circuit_find_element(ckt, ckt->io.source, &input) && input == e)
+        report(ck, TB_SEV_ERROR, br->loc,
+               ".break: '%s' is the .io input; mark a zero-volt source of its own", br->source);
+    else
+        br->elem = e;
+}
+
 static void number_branches(tb_circuit *ckt)
 {
     ckt->branch_count = 0;
@@ -637,6 +720,8 @@ tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag)
     check_coupling(&ck);
     check_loops(&ck);
     check_io(&ck);
+    check_zports(&ck);
+    check_break(&ck);
     check_topology(&ck);
     if (ckt->node_count < 2) {
         tb_loc whole = {ckt->file, 0, 0};

@@ -137,6 +137,9 @@ typedef struct {
     const char *node_b; /* its - node, or NULL for ground */
     bool at_source;     /* i(V): the port is V's terminal pair as the source sees it; node_a
                          * holds the source's name */
+    int a;              /* node_a's index (0 = ground; set by tb_circuit_finish; 0 for i(V)) */
+    int b;              /* node_b's index (0 = ground or absent; set likewise; 0 for i(V)) */
+    size_t source_elem; /* i(V): V's element index (set by tb_circuit_finish) */
     tb_loc loc;
 } tb_zport_spec;
 
@@ -145,6 +148,7 @@ typedef struct {
 typedef struct {
     bool given;
     const char *source; /* as written */
+    size_t elem;        /* the V source's element index (set by tb_circuit_finish) */
     tb_loc loc;
 } tb_break_spec;
 
@@ -205,8 +209,8 @@ tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, s
  * its length goes to *len. NULL when there is no such file or line. */
 const char *tb_circuit_source_line(const tb_circuit *ckt, const char *file, int line, size_t *len);
 /* Resolves references and checks the whole circuit after parsing: duplicate
- * names, .loop/.io/F/H/K references, a default .ac grid (with a warning),
- * branch numbering. Source lines are quoted through tb_circuit_source_line.
+ * names, .loop/.io/.zport/.break/F/H/K references, a default .ac grid (with a
+ * warning), branch numbering. Source lines are quoted through tb_circuit_source_line.
  * Errors go to diag; TB_ERR_INPUT if any. */
 tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag);
 /* Name of MNA unknown i: a node name, or "i(NAME)" for a branch current, in buf. */
