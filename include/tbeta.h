@@ -151,6 +151,24 @@ TB_API const tb_point *tb_result_loop(const tb_result *res, size_t l);
 /* Loop l at DC: true and *out filled when f = 0 was evaluated exactly. */
 TB_API bool tb_result_dc(const tb_result *res, size_t l, tb_point *out);
 
+/* What one tb_analyse call spent on the circuit matrix M. The point loop
+ * factors M once per grid point (and at DC), whatever analyses are on: every
+ * per-point analysis (loops, census, ports, break) solves on that one
+ * factorization. Work at new frequencies (root finding, the Nyquist path, the
+ * re-solve with a changed gain) and the step response come on top. */
+typedef struct {
+    size_t grid_points;          /* frequencies visited by the point loop (DC included when solved) */
+    size_t grid_factorizations;  /* numeric factorizations of M in the point loop (a refactor that
+                                  * falls back to pivoting counts twice) */
+    size_t grid_pivoted;         /* of them, with pivoting */
+    size_t grid_solve_columns;   /* right-hand sides solved in the point loop */
+    size_t probe_factorizations; /* numeric factorizations at new frequencies and changed gains */
+    size_t step_factorizations;  /* real factorizations of the time-step matrix */
+} tb_stats;
+
+/* The counts of res. Errors: TB_ERR_USAGE (NULL). */
+TB_API tb_status tb_result_stats(const tb_result *res, tb_stats *out);
+
 /* ---- measures ------------------------------------------------------- */
 
 /* Reasons a measure is absent or a value needs a word of caution. */
@@ -170,11 +188,28 @@ typedef enum {
 /* A short English sentence for a note; never NULL. */
 TB_API const char *tb_note_str(tb_note note);
 
+/* The figures derived from the DC point, computed once so that every writer
+ * and .expect says the same thing; has_* false: absent (the notes say why). */
+typedef struct {
+    bool has_T;             /* T finite */
+    bool has_T_db;          /* T finite and non-zero */
+    double T_db;            /* 20 log10 |T| */
+    bool has_a;             /* a = A_inf T exists (.io, T finite, A_inf defined) */
+    bool has_A_inf;         /* .io and A_inf defined (T has no zero at DC) */
+    bool has_A0;            /* .io and A0 defined (T finite) */
+    bool has_A;             /* .io */
+    bool has_beta;          /* A_inf defined and non-zero */
+    double complex beta;    /* loaded feedback factor 1/A_inf */
+    bool has_gain_error;    /* as has_beta */
+    double complex gain_error_pct; /* (A - A_inf)/A_inf in percent */
+} tb_dc_figures;
+
 /* DC values and the foundation measures of one loop. A has_* flag false means
  * the value is absent; notes (bit 1u << tb_note) say why. */
 typedef struct {
     tb_point dc;            /* values at DC (or at the lowest sweep point, see notes) */
     double dc_hz;           /* 0, or the lowest sweep frequency */
+    tb_dc_figures fig;      /* derived from dc */
     bool has_unity;
     double unity_hz;        /* lowest frequency where |T| falls through 1 */
     bool has_phase_margin;
@@ -184,7 +219,8 @@ typedef struct {
     unsigned notes;
 } tb_measures;
 
-/* Measures of loop l. Errors: TB_ERR_USAGE (NULL, l out of range), TB_ERR_NOMEM. */
+/* Measures of loop l (computed once by tb_analyse). Errors: TB_ERR_USAGE (NULL,
+ * l out of range). */
 TB_API tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out);
 
 /* ---- stability ------------------------------------------------------ */

@@ -8,9 +8,8 @@
 #include "alloc.h"
 #include "crossing.h"
 #include "loop.h"
-#include "measure.h"
+#include "units.h"
 
-static const double TWO_PI = 6.28318530717958647692528676655900577;
 
 /* One controlled source: M = M0 + k u v' (design.md), and its running state. */
 typedef struct {
@@ -30,56 +29,16 @@ typedef struct {
     tb_census_entry *entry;
 } source;
 
-typedef struct {
+struct tb_census {
     const tb_circuit *ckt;
     const tb_mna *mna;
-    tb_solver *solver;
-    double *Mx;
+    tb_census_entry *entries; /* count, handed to the result by tb_census_end */
     source *src;
     size_t count;
     double complex *W; /* count columns of n */
-} census;
+};
+typedef struct tb_census census;
 
-
-/* The unknown numbering of mna.c: node i > 0 is unknown i - 1, branches follow the nodes. */
-static void put(tb_svec *sv, size_t idx, double coef)
-{
-    if (idx == SIZE_MAX)
-        return;
-    sv->idx[sv->count] = idx;
-    sv->coef[sv->count++] = coef;
-}
-
-static size_t node_unknown(int node)
-{
-    return node == 0 ? SIZE_MAX : (size_t)node - 1;
-}
-
-static size_t branch_unknown(const tb_circuit *ckt, const tb_element *e)
-{
-    return ckt->node_count - 1 + (size_t)e->branch;
-}
-
-static bool source_vectors(const tb_circuit *ckt, size_t i, source *s)
-{
-    const tb_element *e = &ckt->elems[i];
-    if (e->kind != TB_EL_E && e->kind != TB_EL_G && e->kind != TB_EL_F && e->kind != TB_EL_H)
-        return false;
-    *s = (source){.elem = i, .k = e->value};
-    if (e->kind == TB_EL_G || e->kind == TB_EL_F) {
-        put(&s->u, node_unknown(e->node[0]), 1.0);
-        put(&s->u, node_unknown(e->node[1]), -1.0);
-    } else {
-        put(&s->u, branch_unknown(ckt, e), -1.0);
-    }
-    if (e->kind == TB_EL_E || e->kind == TB_EL_G) {
-        put(&s->v, node_unknown(e->node[2]), 1.0);
-        put(&s->v, node_unknown(e->node[3]), -1.0);
-    } else {
-        put(&s->v, branch_unknown(ckt, &ckt->elems[e->ctrl]), 1.0);
-    }
-    return true;
-}
 
 /* T of source s from w = M^-1 u; false when T is infinite (1 - q = 0). */
 static bool ratio(const source *s, const double complex *w, double complex *T)
@@ -93,23 +52,15 @@ static bool ratio(const source *s, const double complex *w, double complex *T)
     return true;
 }
 
-/* Factors M(j 2 pi f) (fresh, or reusing the pivot order) and solves for the u of
- * sources [first, first + count). */
-static tb_status solve_at(census *cs, double f, bool fresh, double rcond_drop, size_t first,
-                          size_t count)
+/* W = M^-1 u of sources [first, first + count) on the factorization solver holds. */
+static tb_status solve_sources(census *cs, tb_solver *solver, size_t first, size_t count)
 {
     size_t n = cs->mna->n;
-    size_t culprit = 0;
-    tb_mna_values(cs->mna, TWO_PI * f, cs->Mx);
-    tb_status st = fresh ? tb_solver_factor(cs->solver, cs->Mx, &culprit)
-                         : tb_solver_refactor(cs->solver, cs->Mx, rcond_drop, &culprit);
-    if (st)
-        return st;
     for (size_t i = 0; i < count; i++) {
         memset(cs->W + i * n, 0, n * sizeof(double complex));
         tb_svec_axpy(&cs->src[first + i].u, 1.0, cs->W + i * n);
     }
-    return tb_solver_solve(cs->solver, cs->W, count);
+    return tb_solver_solve(solver, cs->W, count);
 }
 
 /* Takes one sample of source s at f: the largest |T|, unity brackets, unwrapped phase. */
@@ -141,25 +92,20 @@ static void update(source *s, double f, const double complex *w)
     s->prev_deg = deg;
 }
 
-static tb_status sweep(census *cs, const tb_result *res, double rcond_drop)
+tb_status tb_census_at(void *self, const tb_sweep_point *pt)
 {
-    tb_status st = solve_at(cs, 0.0, true, rcond_drop, 0, cs->count);
-    if (st == TB_OK)
-        for (size_t i = 0; i < cs->count; i++)
-            update(&cs->src[i], 0.0, cs->W + i * cs->mna->n);
-    else if (st != TB_ERR_SINGULAR)
+    census *cs = self;
+    tb_status st = solve_sources(cs, pt->solver, 0, cs->count);
+    if (st)
         return st;
-    for (size_t p = 0; p < res->npoints; p++) {
-        if ((st = solve_at(cs, res->freqs[p], p == 0, rcond_drop, 0, cs->count)))
-            return st;
-        for (size_t i = 0; i < cs->count; i++)
-            update(&cs->src[i], res->freqs[p], cs->W + i * cs->mna->n);
-    }
+    for (size_t i = 0; i < cs->count; i++)
+        update(&cs->src[i], pt->f, cs->W + i * cs->mna->n);
     return TB_OK;
 }
 
 typedef struct {
     census *cs;
+    tb_probe *probe;
     size_t i;
     double complex T;
 } root_ctx;
@@ -167,7 +113,10 @@ typedef struct {
 static tb_status log_magnitude(void *ctx, double x, double *y)
 {
     root_ctx *rc = ctx;
-    tb_status st = solve_at(rc->cs, exp(x), true, 0, rc->i, 1);
+    size_t culprit = 0;
+    tb_status st = tb_probe_factor(rc->probe, exp(x), true, &culprit);
+    if (!st)
+        st = solve_sources(rc->cs, rc->probe->solver, rc->i, 1);
     if (st)
         return st;
     if (!ratio(&rc->cs->src[rc->i], rc->cs->W, &rc->T))
@@ -177,12 +126,12 @@ static tb_status log_magnitude(void *ctx, double x, double *y)
 }
 
 /* Brent on ln|T| inside each bracket; the phase margin at each root. */
-static tb_status refine(census *cs, size_t i)
+static tb_status refine(census *cs, tb_probe *probe, size_t i)
 {
     source *s = &cs->src[i];
     tb_census_entry *e = s->entry;
     for (size_t b = 0; b < s->brackets; b++) {
-        root_ctx rc = {cs, i, 0};
+        root_ctx rc = {cs, probe, i, 0};
         double ya = 0, yb = 0, x = 0;
         tb_status st = log_magnitude(&rc, log(s->lo[b]), &ya);
         if (!st)
@@ -238,53 +187,62 @@ static bool is_marked(const tb_circuit *ckt, size_t elem)
     return false;
 }
 
-tb_status tb_census_run(const tb_circuit *ckt, const tb_mna *mna, tb_solver *solver, double *Mx,
-                        double rcond_drop, tb_result *res)
+void tb_census_free(tb_census *cs)
 {
-    census cs = {.ckt = ckt, .mna = mna, .solver = solver, .Mx = Mx};
-    size_t total = 0;
-    for (size_t i = 0; i < ckt->elem_count; i++) {
-        tb_elem_kind kind = ckt->elems[i].kind;
-        total += kind == TB_EL_E || kind == TB_EL_G || kind == TB_EL_F || kind == TB_EL_H;
-    }
-    res->census = tb_calloc(total ? total : 1, sizeof(tb_census_entry));
-    cs.src = tb_calloc(total ? total : 1, sizeof(source));
-    cs.W = tb_malloc((total ? total : 1) * mna->n, sizeof(double complex));
-    tb_status st = TB_ERR_NOMEM;
-    if (!res->census || !cs.src || !cs.W)
-        goto done;
-    for (size_t i = 0; i < ckt->elem_count; i++) {
-        if (!source_vectors(ckt, i, &cs.src[cs.count]))
-            continue;
-        tb_census_entry *e = &res->census[cs.count];
-        *e = (tb_census_entry){.source = ckt->elems[i].name, .marked = is_marked(ckt, i), .max_T_db = -300};
-        cs.src[cs.count++].entry = e;
-    }
-    st = total ? sweep(&cs, res, rcond_drop) : TB_OK;
-    for (size_t i = 0; i < cs.count && !st; i++)
-        st = refine(&cs, i);
-    if (st)
-        goto done;
-    for (size_t i = 0; i < cs.count; i++) {
-        tb_census_entry *e = &res->census[i];
-        for (size_t j = 0; j < cs.count && !e->marked; j++)
-            if (res->census[j].marked && same_ratio(e, &res->census[j]))
-                e->same_loop_as = res->census[j].source;
-        e->flagged = !e->marked && !e->same_loop_as && e->in_loop && (e->max_T_db >= 0 || e->t_infinite);
-    }
-    qsort(res->census, cs.count, sizeof(tb_census_entry), by_max_T);
-    res->census_count = cs.count;
-done:
-    tb_free(cs.src);
-    tb_free(cs.W);
-    return st;
+    if (!cs)
+        return;
+    tb_free(cs->entries);
+    tb_free(cs->src);
+    tb_free(cs->W);
+    tb_free(cs);
 }
 
-tb_status tb_census_get(const tb_result *res, const tb_census_entry **entries, size_t *count)
+tb_status tb_census_begin(const tb_circuit *ckt, const tb_mna *mna, tb_census **out)
 {
-    if (!res || !entries || !count)
-        return TB_ERR_USAGE;
-    *entries = res->census;
-    *count = res->census ? res->census_count : 0;
+    size_t total = 0;
+    for (size_t i = 0; i < ckt->elem_count; i++)
+        total += tb_elem_is_controlled(ckt->elems[i].kind);
+    census *cs = tb_calloc(1, sizeof(*cs));
+    if (!cs)
+        return TB_ERR_NOMEM;
+    *cs = (census){.ckt = ckt, .mna = mna};
+    cs->entries = tb_calloc(total ? total : 1, sizeof(tb_census_entry));
+    cs->src = tb_calloc(total ? total : 1, sizeof(source));
+    cs->W = tb_malloc((total ? total : 1) * mna->n, sizeof(double complex));
+    if (!cs->entries || !cs->src || !cs->W) {
+        tb_census_free(cs);
+        return TB_ERR_NOMEM;
+    }
+    for (size_t i = 0; i < ckt->elem_count; i++) {
+        if (!tb_elem_is_controlled(ckt->elems[i].kind))
+            continue;
+        tb_loopvec lv = tb_mna_source_vectors(ckt, i);
+        tb_census_entry *e = &cs->entries[cs->count];
+        *e = (tb_census_entry){.source = ckt->elems[i].name, .marked = is_marked(ckt, i), .max_T_db = -300};
+        cs->src[cs->count++] = (source){.elem = i, .k = lv.k, .u = lv.u, .v = lv.v, .entry = e};
+    }
+    *out = cs;
+    return TB_OK;
+}
+
+tb_status tb_census_end(tb_census *cs, tb_probe *probe, tb_result *res)
+{
+    for (size_t i = 0; i < cs->count; i++) {
+        tb_status st = refine(cs, probe, i);
+        if (st)
+            return st;
+    }
+    tb_census_entry *entries = cs->entries;
+    for (size_t i = 0; i < cs->count; i++) {
+        tb_census_entry *e = &entries[i];
+        for (size_t j = 0; j < cs->count && !e->marked; j++)
+            if (entries[j].marked && same_ratio(e, &entries[j]))
+                e->same_loop_as = entries[j].source;
+        e->flagged = !e->marked && !e->same_loop_as && e->in_loop && (e->max_T_db >= 0 || e->t_infinite);
+    }
+    qsort(entries, cs->count, sizeof(tb_census_entry), by_max_T);
+    res->census = entries;
+    res->census_count = cs->count;
+    cs->entries = NULL;
     return TB_OK;
 }

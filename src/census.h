@@ -2,17 +2,26 @@
 #ifndef TB_CENSUS_H
 #define TB_CENSUS_H
 
-#include "mna.h"
-#include "solve.h"
+#include "result.h"
 #include "sweep.h"
 
-/* Fills res->census (ranked by largest |T|) for every E, G, F, H of ckt: at DC
- * and each sweep frequency one refactorization and one multi-RHS solve of
- * M w_s = u_s for all sources s, T_s = q/(1 - q), q = k v'w_s; unity crossings
- * bracketed on the grid and refined by Brent on fresh factorizations. solver
- * holds mna's pattern; Mx is workspace of 2*nnz doubles. Errors: TB_ERR_NOMEM,
- * TB_ERR_SINGULAR, TB_ERR_NUMERIC. */
-tb_status tb_census_run(const tb_circuit *ckt, const tb_mna *mna, tb_solver *solver, double *Mx,
-                        double rcond_drop, tb_result *res);
+/* The census of one analysis: begin -> at (every sweep point) -> end. */
+typedef struct tb_census tb_census;
+
+/* State for every E, G, F, H of ckt (their u, v, k from tb_mna_source_vectors).
+ * On success *out owns it (free with tb_census_free). Errors: TB_ERR_NOMEM. */
+tb_status tb_census_begin(const tb_circuit *ckt, const tb_mna *mna, tb_census **out);
+
+/* Per-point hook (self: a tb_census): one multi-RHS solve of M w_s = u_s for
+ * every source on the sweep's factorization, T_s = q/(1 - q), q = k v'w_s; the
+ * largest |T| and the grid brackets of every unity crossing. Errors: TB_ERR_NUMERIC. */
+tb_status tb_census_at(void *self, const tb_sweep_point *pt);
+
+/* Refines each bracketed crossing by Brent on fresh pivoted factorizations
+ * through probe, groups the sources of one loop, ranks them by largest |T| and
+ * hands the entries to res->census. Errors: TB_ERR_NOMEM. */
+tb_status tb_census_end(tb_census *cs, tb_probe *probe, tb_result *res);
+
+void tb_census_free(tb_census *cs);
 
 #endif

@@ -388,9 +388,14 @@ static bool is_independent(tb_elem_kind k)
     return k == TB_EL_V || k == TB_EL_I;
 }
 
-static bool is_controlled(tb_elem_kind k)
+bool tb_elem_is_controlled(tb_elem_kind k)
 {
     return k == TB_EL_E || k == TB_EL_G || k == TB_EL_F || k == TB_EL_H;
+}
+
+static bool is_controlled(tb_elem_kind k)
+{
+    return tb_elem_is_controlled(k);
 }
 
 /* " (did you mean 'NAME'?)" in buf, or "" when nothing is close enough. */

@@ -215,6 +215,8 @@ const char *tb_circuit_source_line(const tb_circuit *ckt, const char *file, int 
 tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag);
 /* Name of MNA unknown i: a node name, or "i(NAME)" for a branch current, in buf. */
 const char *tb_circuit_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size_t size);
+/* true for the controlled sources E, G, F, H (the ones a loop can be broken at). */
+bool tb_elem_is_controlled(tb_elem_kind kind);
 /* "resistor", "voltage-controlled voltage source" and the like. */
 const char *tb_elem_kind_word(tb_elem_kind kind);
 /* Case-insensitive equality of two NUL-terminated names. */

@@ -53,11 +53,11 @@ static bool get_dc_t_db(const tb_figure_src *s, double *x, const char **why)
 {
     if (!finite_t(s, why))
         return false;
-    if (cabs(s->m->dc.T) == 0) {
+    if (!s->m->fig.has_T_db) {
         *why = "T is zero at DC";
         return false;
     }
-    *x = 20.0 * log10(cabs(s->m->dc.T));
+    *x = s->m->fig.T_db;
     return true;
 }
 
@@ -71,11 +71,11 @@ static bool get_dc_beta(const tb_figure_src *s, double *x, const char **why)
 {
     if (!has_ainf(s, why))
         return false;
-    if (cabs(s->m->dc.A_inf) == 0) {
+    if (!s->m->fig.has_beta) {
         *why = "A_inf is zero at DC";
         return false;
     }
-    *x = creal(1.0 / s->m->dc.A_inf);
+    *x = creal(s->m->fig.beta);
     return true;
 }
 
@@ -108,7 +108,7 @@ static bool get_gain_error(const tb_figure_src *s, double *x, const char **why)
     double beta = 0;
     if (!get_dc_beta(s, &beta, why))
         return false;
-    *x = creal((s->m->dc.A - s->m->dc.A_inf) / s->m->dc.A_inf) * 100.0;
+    *x = creal(s->m->fig.gain_error_pct);
     return true;
 }
 

@@ -7,49 +7,13 @@
 #include "alloc.h"
 #include "crossing.h"
 
-static const double TWO_PI = 6.28318530717958647692528676655900577;
 
 /* Default tolerance of the estimate and spread of the amplifier's gain, percent
  * (common practice: 1 % gain accuracy; +-5 % gain over process, supply, temperature). */
 #define DEFAULT_TOL_PCT 1.0
 #define DEFAULT_SPREAD_PCT 5.0
 
-static const char *const part_text[TB_PART_COUNT] = {
-    [TB_PART_LOADING] = "loading",
-    [TB_PART_LOOP_GAIN] = "finite loop gain",
-    [TB_PART_FEEDTHROUGH] = "feedthrough",
-};
-_Static_assert(sizeof(part_text) / sizeof(part_text[0]) == TB_PART_COUNT, "part_text in step");
 
-const char *tb_part_str(tb_part part)
-{
-    return (unsigned)part < TB_PART_COUNT ? part_text[part] : "unknown part";
-}
-
-static const char *const note_text[TB_FNOTE_COUNT] = {
-    [TB_FNOTE_NO_IO] = "no .io directive: no breakdown of A and no desensitivity check",
-    [TB_FNOTE_NO_ESTIMATE] = "no .ideal directive: no hand estimate to break the gain error down against",
-    [TB_FNOTE_MISSES_AT_DC] = "the hand estimate misses A by more than the tolerance already at DC",
-    [TB_FNOTE_HOLDS_IN_SWEEP] = "the hand estimate holds within the tolerance over the whole sweep",
-    [TB_FNOTE_POINTS_ABSENT] = "at some frequencies A_inf or T does not exist: no breakdown there",
-    [TB_FNOTE_A_ZERO_DC] = "A = 0 at DC: the relative change of A is not defined",
-    [TB_FNOTE_RESOLVE_FAILED] = "the circuit with the changed amplifier gain is singular at DC: no re-solve",
-};
-_Static_assert(sizeof(note_text) / sizeof(note_text[0]) == TB_FNOTE_COUNT, "note_text in step");
-
-const char *tb_fb_note_str(tb_fb_note note)
-{
-    return (unsigned)note < TB_FNOTE_COUNT ? note_text[note] : "unknown note";
-}
-
-void tb_feedback_free(tb_fb_data *fb)
-{
-    if (!fb)
-        return;
-    tb_free(fb->sum);
-    tb_free(fb->pts);
-    tb_free(fb);
-}
 
 /* The breakdown of one point (design.md: A = A_inf T/(1+T) + A0/(1+T)). */
 static tb_breakdown_point breakdown(const tb_point *pt, bool has_estimate, double G)
@@ -145,15 +109,8 @@ static tb_status find_limit(tb_probe *probe, const tb_result *res, size_t l, tb_
 static tb_status resolve(tb_probe *probe, size_t l, double f, double d, double complex *x, double complex *A)
 {
     const tb_mna *mna = probe->mna;
-    const tb_loopvec *lv = &mna->loops[l];
-    double dk = lv->k * d;
-    tb_mna_values(mna, TWO_PI * f, probe->Mx);
-    int o = 0;
-    for (int i = 0; i < lv->u.count; i++)
-        for (int j = 0; j < lv->v.count; j++)
-            probe->Mx[2 * lv->own_pos[o++]] += dk * lv->u.coef[i] * lv->v.coef[j];
     size_t culprit = 0;
-    tb_status st = tb_solver_factor(probe->solver, probe->Mx, &culprit);
+    tb_status st = tb_probe_factor_gain(probe, f, l, d, &culprit);
     if (st)
         return st;
     memset(x, 0, mna->n * sizeof(double complex));
@@ -223,8 +180,7 @@ static tb_status run_loop(const tb_circuit *ckt, tb_probe *probe, tb_result *res
         if (s->has_estimate && !out[i].has_parts)
             s->notes |= 1u << TB_FNOTE_POINTS_ABSENT;
     }
-    tb_point dc = res->has_dc ? res->dc[l] : pts[0];
-    s->dc_hz = res->has_dc ? 0.0 : res->freqs[0];
+    tb_point dc = tb_result_dc_or_first(res, l, &s->dc_hz);
     s->dc = breakdown(&dc, s->has_estimate, s->estimate);
     if (s->has_estimate && !s->dc.has_parts)
         s->notes |= 1u << TB_FNOTE_POINTS_ABSENT;
@@ -259,20 +215,4 @@ tb_status tb_feedback_run(const tb_circuit *ckt, tb_probe *probe, tb_result *res
     }
     tb_free(x);
     return st;
-}
-
-tb_status tb_feedback_loop(const tb_result *res, size_t l, tb_feedback_summary *out)
-{
-    if (!res || !out || l >= res->nloops || !res->fb)
-        return TB_ERR_USAGE;
-    *out = res->fb->sum[l];
-    return TB_OK;
-}
-
-tb_status tb_feedback_points(const tb_result *res, size_t l, const tb_breakdown_point **pts)
-{
-    if (!res || !pts || l >= res->nloops || !res->fb)
-        return TB_ERR_USAGE;
-    *pts = res->fb->pts + l * res->npoints;
-    return TB_OK;
 }

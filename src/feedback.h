@@ -3,13 +3,7 @@
 #define TB_FEEDBACK_H
 
 #include "probe.h"
-#include "sweep.h"
-
-/* What tb_feedback_run leaves on the result (res->fb). */
-typedef struct tb_fb_data {
-    tb_feedback_summary *sum; /* nloops */
-    tb_breakdown_point *pts;  /* nloops x npoints, loop-major */
-} tb_fb_data;
+#include "result.h"
 
 /* Fills res->fb from the sweep table (res->pts, res->dc): the breakdown of
  * A - G into loading, finite loop gain and feedthrough at every point, the
@@ -19,7 +13,5 @@ typedef struct tb_fb_data {
  * changed gain (probe->Mx and probe->solver are reused). Errors: TB_ERR_NOMEM,
  * TB_ERR_NUMERIC. */
 tb_status tb_feedback_run(const tb_circuit *ckt, tb_probe *probe, tb_result *res);
-
-void tb_feedback_free(tb_fb_data *fb);
 
 #endif

@@ -1,21 +1,10 @@
 /* src/feedback_type.c: the feedback topology (series or shunt at input and output) from Blackman's return ratios */
 #include <strings.h>
 
-#include "impedance.h"
+#include "feedback_type.h"
 
-static const char *const type_text[] = {
-    [TB_AMP_UNKNOWN] = "not one of the four classic types",
-    [TB_AMP_VOLTAGE] = "voltage amplifier (series-shunt feedback)",
-    [TB_AMP_CURRENT] = "current amplifier (shunt-series feedback)",
-    [TB_AMP_TRANSCONDUCTANCE] = "transconductance amplifier (series-series feedback)",
-    [TB_AMP_TRANSRESISTANCE] = "transresistance amplifier (shunt-shunt feedback)",
-};
-_Static_assert(sizeof(type_text) / sizeof(type_text[0]) == TB_AMP_TRANSRESISTANCE + 1, "type_text in step");
+#include "alloc.h"
 
-const char *tb_amp_type_str(tb_amp_type type)
-{
-    return (unsigned)type <= TB_AMP_TRANSRESISTANCE ? type_text[type] : "unknown";
-}
 
 /* The port labelled name (case-insensitive); false when there is none. */
 static bool find_port(const tb_result *res, size_t l, const char *name, tb_side *side)
@@ -32,10 +21,8 @@ static bool find_port(const tb_result *res, size_t l, const char *name, tb_side 
 
 /* Input mixing and output sampling name the type (common practice, e.g. the
  * series-shunt voltage amplifier of textbook feedback-amplifier chapters). */
-tb_status tb_feedback_type_loop(const tb_result *res, size_t l, tb_feedback_type *out)
+static tb_feedback_type classify(const tb_result *res, size_t l)
 {
-    if (!res || !out || l >= tb_result_loops(res))
-        return TB_ERR_USAGE;
     tb_feedback_type ft = {0};
     ft.computed = find_port(res, l, "in", &ft.input) && find_port(res, l, "out", &ft.output);
     if (ft.computed) {
@@ -47,6 +34,15 @@ tb_status tb_feedback_type_loop(const tb_result *res, size_t l, tb_feedback_type
                   : in_shunt && out_shunt   ? TB_AMP_TRANSRESISTANCE
                                             : TB_AMP_UNKNOWN;
     }
-    *out = ft;
+    return ft;
+}
+
+tb_status tb_feedback_type_run(tb_result *res)
+{
+    res->ftype = tb_calloc(res->nloops ? res->nloops : 1, sizeof(tb_feedback_type));
+    if (!res->ftype)
+        return TB_ERR_NOMEM;
+    for (size_t l = 0; l < res->nloops; l++)
+        res->ftype[l] = classify(res, l);
     return TB_OK;
 }

@@ -1,7 +1,7 @@
 /* src/grid.c: frequency grids of the .ac directive (dec, oct, lin) */
 #include <math.h>
 
-#include "sweep.h"
+#include "grid.h"
 
 #define TB_MAX_POINTS ((size_t)10000000)
 
@@ -10,7 +10,7 @@ static double grid_base(const tb_ac_spec *ac)
     return ac->kind == TB_GRID_DEC ? 10.0 : 2.0;
 }
 
-size_t tb_sweep_count(const tb_ac_spec *ac)
+size_t tb_grid_count(const tb_ac_spec *ac)
 {
     if (ac->points < 1 || !(ac->fstart > 0) || !(ac->fstop >= ac->fstart))
         return 0;
@@ -22,9 +22,9 @@ size_t tb_sweep_count(const tb_ac_spec *ac)
     return (size_t)steps + 1;
 }
 
-void tb_sweep_grid(const tb_ac_spec *ac, double *f)
+void tb_grid_fill(const tb_ac_spec *ac, double *f)
 {
-    size_t count = tb_sweep_count(ac);
+    size_t count = tb_grid_count(ac);
     for (size_t i = 0; i < count; i++) {
         if (ac->kind == TB_GRID_LIN)
             f[i] = count == 1 ? ac->fstart

@@ -53,6 +53,16 @@ void tb_loop_work_free(tb_loop_work *work)
     tb_free(work);
 }
 
+const double complex *tb_loop_work_x(const tb_loop_work *work)
+{
+    return work->rhs;
+}
+
+const double complex *tb_loop_work_w(const tb_loop_work *work, size_t l)
+{
+    return work->rhs + (l + 1) * work->n;
+}
+
 static void scatter(const tb_svec *s, double complex *col, size_t n)
 {
     memset(col, 0, n * sizeof(double complex));

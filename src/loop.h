@@ -30,6 +30,11 @@ typedef struct tb_loop_work tb_loop_work;
 tb_status tb_loop_work_new(const tb_mna *mna, tb_loop_work **out);
 void tb_loop_work_free(tb_loop_work *work);
 
+/* After tb_loop_eval: x = M^-1 b (n values; meaningful only with .io) and
+ * w_l = M^-1 u_l of loop l (n values), on the factorization it used. */
+const double complex *tb_loop_work_x(const tb_loop_work *work);
+const double complex *tb_loop_work_w(const tb_loop_work *work, size_t l);
+
 /* Evaluates every loop of mna at angular frequency omega, whose matrix values
  * are Mx and whose factorization is held by solver: one multi-RHS solve for
  * x = M^-1 b and w_l = M^-1 u_l, then T, A, A_inf, A0, a (docs/algebra.md).

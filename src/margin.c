@@ -1,13 +1,13 @@
 /* src/margin.c: exact crossings of T by adaptive refinement and Brent on fresh solves; margins */
 #include "margin.h"
+#include "units.h"
 
 #include <math.h>
 
 #include "alloc.h"
 #include "crossing.h"
-#include "measure.h"
 
-static const double TWO_PI = 6.28318530717958647692528676655900577;
+
 
 /* One point of the path: T, its unwrapped phase, and the unwrapped phase of 1 + T. */
 typedef struct {
@@ -133,7 +133,7 @@ static tb_status refine_root(scan *sc, const sample *a, const sample *b, int kin
         c.direction = db_of(b->T) > db_of(a->T) ? 1 : -1;
         c.margin = tb_wrap180(s.deg + 180.0);
         c.has_delay = c.margin > 0;
-        c.delay_s = c.has_delay ? c.margin / TB_DEG_PER_RAD / (TWO_PI * s.f) : 0;
+        c.delay_s = c.has_delay ? c.margin / TB_DEG_PER_RAD / (TB_TWO_PI * s.f) : 0;
         append(sc, sc->st->unity, &sc->st->unity_count, &c);
     } else {
         c.direction = b->deg > a->deg ? 1 : -1;
@@ -355,10 +355,7 @@ static void summarize(tb_stability *st)
 tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, tb_stability *st,
                          tb_nyquist_path *path)
 {
-    double *deg = tb_malloc(res->npoints, sizeof(double));
-    if (!deg)
-        return TB_ERR_NOMEM;
-    tb_measure_phase(res, l, deg);
+    const double *deg = tb_result_phase(res, l);
     size_t before = probe->evaluations;
     *path = (tb_nyquist_path){.ok = true};
     scan sc = {.probe = probe, .l = l, .st = st, .path = path, .budget = TB_MARGIN_BUDGET};
@@ -373,7 +370,6 @@ tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, tb_sta
     path->turn_deg = cur.ret - ret0;
     if (!s)
         s = refine_vector(&sc);
-    tb_free(deg);
     if (s)
         return s;
     summarize(st);

@@ -3,7 +3,7 @@
 #define TB_MARGIN_H
 
 #include "probe.h"
-#include "sweep.h"
+#include "result.h"
 
 /* Bisections of one sweep interval at most this deep, and at most this many
  * refinement solves per loop (the roots come on top). */

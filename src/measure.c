@@ -1,26 +1,10 @@
-/* src/measure.c: DC values, unity-gain crossing, phase margin, closed-loop -3 dB point */
+/* src/measure.c: DC values and the figures derived from them, unity-gain crossing, phase margin, -3 dB point */
 #include "measure.h"
 
 #include <math.h>
 #include <string.h>
 
 #include "alloc.h"
-
-
-double tb_db(double complex z)
-{
-    return 20.0 * log10(cabs(z));
-}
-
-double tb_wrap180(double d)
-{
-    d = fmod(d, 360.0);
-    if (d <= -180.0)
-        d += 360.0;
-    else if (d > 180.0)
-        d -= 360.0;
-    return d;
-}
 
 /* Phase the unwrapping starts from: that of T(0), 0 or 180, when DC was solved. */
 static double start_phase(const tb_result *res, size_t l, const tb_point *pts)
@@ -33,7 +17,7 @@ static double start_phase(const tb_result *res, size_t l, const tb_point *pts)
     return 0.0;
 }
 
-void tb_measure_phase(const tb_result *res, size_t l, double *deg)
+static void unwrap_phase(const tb_result *res, size_t l, double *deg)
 {
     const tb_point *pts = tb_result_loop(res, l);
     double prev = start_phase(res, l, pts);
@@ -99,8 +83,7 @@ static void exact_unity(const tb_result *res, size_t l, tb_measures *m)
     m->notes |= 1u << TB_NOTE_NO_UNITY;
 }
 
-/* deg: workspace of npoints doubles. */
-static void measure_unity(const tb_result *res, size_t l, tb_measures *m, double *deg)
+static void measure_unity(const tb_result *res, size_t l, tb_measures *m)
 {
     if (res->stab && res->stab[l].computed) {
         exact_unity(res, l, m);
@@ -115,13 +98,11 @@ static void measure_unity(const tb_result *res, size_t l, tb_measures *m, double
     }
     m->has_unity = true;
     m->unity_hz = interp_logf(res->freqs[i], res->freqs[i + 1], t);
-    bool positive_dc = !(m->dc.flags & TB_PT_T_INF) && creal(m->dc.T) < 0 &&
-                       fabs(cimag(m->dc.T)) <= 1e-12 * fabs(creal(m->dc.T));
-    if (positive_dc) {
+    if (positive_feedback_dc(m)) {
         m->notes |= 1u << TB_NOTE_POSITIVE_FB_DC;
         return;
     }
-    tb_measure_phase(res, l, deg);
+    const double *deg = tb_result_phase(res, l);
     m->has_phase_margin = true;
     m->phase_margin_deg = 180.0 + deg[i] + t * (deg[i + 1] - deg[i]);
 }
@@ -152,17 +133,33 @@ static void measure_f3db(const tb_result *res, size_t l, tb_measures *m)
     m->notes |= 1u << TB_NOTE_NO_F3DB;
 }
 
+/* What exists at the DC point, and beta and the gain error, once for every reader. */
+static tb_dc_figures dc_figures(const tb_point *dc)
+{
+    unsigned fl = dc->flags;
+    tb_dc_figures f = {0};
+    bool io = !(fl & TB_PT_NO_IO);
+    f.has_T = !(fl & TB_PT_T_INF);
+    f.has_T_db = f.has_T && cabs(dc->T) > 0;
+    f.T_db = f.has_T_db ? tb_db(dc->T) : 0;
+    f.has_A = io;
+    f.has_A_inf = io && !(fl & TB_PT_AINF_NONE);
+    f.has_A0 = io && !(fl & TB_PT_A0_NONE);
+    f.has_a = f.has_A_inf && f.has_T;
+    f.has_beta = f.has_A_inf && cabs(dc->A_inf) > 0;
+    f.beta = f.has_beta ? 1.0 / dc->A_inf : 0;
+    f.has_gain_error = f.has_beta;
+    f.gain_error_pct = f.has_beta ? (dc->A - dc->A_inf) / dc->A_inf * 100.0 : 0;
+    return f;
+}
+
 static void measure_dc(const tb_result *res, size_t l, tb_measures *m)
 {
     const tb_point *pts = tb_result_loop(res, l);
-    if (res->has_dc) {
-        m->dc = res->dc[l];
-        m->dc_hz = 0.0;
-    } else {
-        m->dc = pts[0];
-        m->dc_hz = res->freqs[0];
+    m->dc = tb_result_dc_or_first(res, l, &m->dc_hz);
+    if (!res->has_dc)
         m->notes |= 1u << TB_NOTE_DC_FROM_SWEEP;
-    }
+    m->fig = dc_figures(&m->dc);
     if (m->dc.flags & TB_PT_T_INF)
         m->notes |= 1u << TB_NOTE_T_INF_DC;
     if (m->dc.flags & TB_PT_AINF_NONE)
@@ -177,37 +174,27 @@ static void measure_dc(const tb_result *res, size_t l, tb_measures *m)
         m->notes |= 1u << TB_NOTE_FEEDTHROUGH;
 }
 
-tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out)
+tb_status tb_measure_phase_run(tb_result *res)
 {
-    if (!res || !out || l >= res->nloops)
-        return TB_ERR_USAGE;
-    double *deg = tb_malloc(res->npoints, sizeof(double));
-    if (!deg)
+    size_t count = res->nloops * res->npoints;
+    res->phase = tb_malloc(count > 0 ? count : 1, sizeof(double));
+    if (!res->phase)
         return TB_ERR_NOMEM;
-    tb_measures m;
-    memset(&m, 0, sizeof m);
-    measure_dc(res, l, &m);
-    measure_unity(res, l, &m, deg);
-    measure_f3db(res, l, &m);
-    tb_free(deg);
-    *out = m;
+    for (size_t l = 0; l < res->nloops; l++)
+        unwrap_phase(res, l, res->phase + l * res->npoints);
     return TB_OK;
 }
 
-static const char *const note_text[TB_NOTE_COUNT] = {
-    [TB_NOTE_NO_IO] = "no .io directive: A, A_inf, A0, a and the closed-loop -3 dB point are not computed",
-    [TB_NOTE_NOT_IN_LOOP] = "the source never sees its own output: it is not in a loop",
-    [TB_NOTE_DC_FROM_SWEEP] = "the circuit is singular at DC: DC values are those at the lowest sweep frequency",
-    [TB_NOTE_T_INF_DC] = "T is infinite at DC (the circuit with the source's gain at zero is singular there, e.g. an integrator)",
-    [TB_NOTE_POSITIVE_FB_DC] = "T(0) < 0: positive feedback at DC, so phase margin is not defined",
-    [TB_NOTE_NO_UNITY] = "|T| never falls through 1 in the sweep: no unity-gain frequency or phase margin",
-    [TB_NOTE_NO_F3DB] = "|A| never falls 3 dB below its DC value in the sweep",
-    [TB_NOTE_AINF_NONE_DC] = "T has a zero at DC: A_inf is undefined there",
-    [TB_NOTE_FEEDTHROUGH] = "the feedthrough A0/(1+T) is more than 1 % of A at DC: A differs from a/(1+a*beta)",
-};
-_Static_assert(sizeof(note_text) / sizeof(note_text[0]) == TB_NOTE_COUNT, "note_text in step");
-
-const char *tb_note_str(tb_note note)
+tb_status tb_measure_run(tb_result *res)
 {
-    return (unsigned)note < TB_NOTE_COUNT ? note_text[note] : "unknown note";
+    res->measures = tb_calloc(res->nloops ? res->nloops : 1, sizeof(tb_measures));
+    if (!res->measures)
+        return TB_ERR_NOMEM;
+    for (size_t l = 0; l < res->nloops; l++) {
+        tb_measures *m = &res->measures[l];
+        measure_dc(res, l, m);
+        measure_unity(res, l, m);
+        measure_f3db(res, l, m);
+    }
+    return TB_OK;
 }

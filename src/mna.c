@@ -25,10 +25,19 @@ typedef struct {
     size_t elem;  /* the element being stamped */
 } stamper;
 
-/* Unknown index of node `node` (ground has none: SIZE_MAX). */
-static size_t node_unknown(int node)
+size_t tb_mna_node_unknown(int node)
 {
     return node == 0 ? SIZE_MAX : (size_t)node - 1;
+}
+
+size_t tb_mna_branch_unknown(const tb_circuit *ckt, const tb_element *e)
+{
+    return ckt->node_count - 1 + (size_t)e->branch;
+}
+
+static size_t node_unknown(int node)
+{
+    return tb_mna_node_unknown(node);
 }
 
 static size_t branch_unknown(const stamper *s, const tb_element *e)
@@ -151,26 +160,26 @@ static tb_svec unit(size_t idx, double coef)
     return sv;
 }
 
-/* u and v of design.md "The algebra" for one controlled source. */
-static tb_loopvec loop_vectors(const stamper *s, const tb_circuit *ckt, const tb_element *e)
+tb_loopvec tb_mna_source_vectors(const tb_circuit *ckt, size_t elem)
 {
-    tb_loopvec lv = {.k = e->value};
+    const tb_element *e = &ckt->elems[elem];
+    tb_loopvec lv = {.elem = elem, .k = e->value};
     switch (e->kind) {
     case TB_EL_G:
         lv.u = node_diff(e->node[0], e->node[1]);
         lv.v = node_diff(e->node[2], e->node[3]);
         break;
     case TB_EL_E:
-        lv.u = unit(branch_unknown(s, e), -1.0);
+        lv.u = unit(tb_mna_branch_unknown(ckt, e), -1.0);
         lv.v = node_diff(e->node[2], e->node[3]);
         break;
     case TB_EL_F:
         lv.u = node_diff(e->node[0], e->node[1]);
-        lv.v = unit(branch_unknown(s, &ckt->elems[e->ctrl]), 1.0);
+        lv.v = unit(tb_mna_branch_unknown(ckt, &ckt->elems[e->ctrl]), 1.0);
         break;
-    default: /* TB_EL_H: tb_circuit_finish admits only E, G, F, H */
-        lv.u = unit(branch_unknown(s, e), -1.0);
-        lv.v = unit(branch_unknown(s, &ckt->elems[e->ctrl]), 1.0);
+    default: /* TB_EL_H: the caller passes controlled sources only (tb_elem_is_controlled) */
+        lv.u = unit(tb_mna_branch_unknown(ckt, e), -1.0);
+        lv.v = unit(tb_mna_branch_unknown(ckt, &ckt->elems[e->ctrl]), 1.0);
         break;
     }
     return lv;
@@ -337,8 +346,7 @@ tb_status tb_mna_build(const tb_circuit *ckt, tb_diag *diag, tb_mna **out)
         goto fail;
     mna->loop_count = ckt->loop_count;
     for (size_t l = 0; l < ckt->loop_count; l++) {
-        mna->loops[l] = loop_vectors(&s, ckt, &ckt->elems[ckt->loops[l].elem]);
-        mna->loops[l].elem = ckt->loops[l].elem;
+        mna->loops[l] = tb_mna_source_vectors(ckt, ckt->loops[l].elem);
         own_entries(mna, sorted, triplets, &mna->loops[l]);
     }
     io_vectors(&s, ckt, mna);
@@ -371,6 +379,15 @@ void tb_mna_values(const tb_mna *mna, double omega, double *Mx)
         Mx[2 * k] = mna->Gx[k];
         Mx[2 * k + 1] = omega * mna->Cx[k];
     }
+}
+
+void tb_mna_values_gain(const tb_mna *mna, double omega, const tb_loopvec *lv, double dk, double *Mx)
+{
+    tb_mna_values(mna, omega, Mx);
+    int o = 0;
+    for (int i = 0; i < lv->u.count; i++)
+        for (int j = 0; j < lv->v.count; j++)
+            Mx[2 * lv->own_pos[o++]] += dk * lv->u.coef[i] * lv->v.coef[j];
 }
 
 void tb_mna_dense(const tb_mna *mna, double omega, double complex *M)

@@ -53,8 +53,22 @@ typedef struct {
 tb_status tb_mna_build(const tb_circuit *ckt, tb_diag *diag, tb_mna **out);
 void tb_mna_free(tb_mna *mna);
 
+/* The unknown numbering, owned here: node i > 0 is unknown i - 1 (ground has
+ * none: SIZE_MAX); the branch currents of V, L, E, H follow the nodes. */
+size_t tb_mna_node_unknown(int node);
+size_t tb_mna_branch_unknown(const tb_circuit *ckt, const tb_element *e);
+
+/* u, v and k of controlled source elem (tb_elem_is_controlled): M = M0 + k u v'
+ * (design.md "The algebra"); own_* are left empty (tb_mna_build fills them for
+ * the .loop sources). */
+tb_loopvec tb_mna_source_vectors(const tb_circuit *ckt, size_t elem);
+
 /* Writes M(jw) = G + jwC into Mx (2*nnz doubles, real/imag interleaved, KLU's layout). */
 void tb_mna_values(const tb_mna *mna, double omega, double *Mx);
+
+/* M(jw) with loop lv's source gain changed by dk (k -> k + dk) at its own
+ * positions, into Mx as tb_mna_values writes it. */
+void tb_mna_values_gain(const tb_mna *mna, double omega, const tb_loopvec *lv, double dk, double *Mx);
 
 /* Dense column-major copy of M(jw) into M (n*n), for tests and small dense work. */
 void tb_mna_dense(const tb_mna *mna, double omega, double complex *M);

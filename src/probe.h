@@ -1,10 +1,11 @@
-/* src/probe.h: every loop's feedback quantities at one arbitrary frequency by a fresh factorization */
+/* src/probe.h: fresh factorizations at new frequencies on the sweep's solver, never the same matrix twice */
 #ifndef TB_PROBE_H
 #define TB_PROBE_H
 
 #include "loop.h"
 
-/* Borrowed pieces of an analysis (the sweep's): the probe allocates nothing. */
+/* Borrowed pieces of the sweep (its mna, solver and workspace): the probe
+ * allocates nothing. The fields below `row` are the probe's own bookkeeping. */
 typedef struct {
     const tb_mna *mna;
     tb_solver *solver;
@@ -12,13 +13,35 @@ typedef struct {
     double *Mx;        /* 2*nnz doubles */
     tb_point *row;     /* mna->loop_count points, written by tb_probe_eval */
     double rcond_drop; /* as tb_options.refactor_rcond_drop */
-    size_t evaluations;
+    size_t evaluations; /* loop evaluations (tb_probe_eval calls) */
+    size_t factorizations; /* numeric factorizations the probe asked for */
+    bool held;         /* the solver holds M(j 2 pi held_f) (pivoted when held_pivoted) */
+    double held_f;
+    bool held_pivoted;
+    bool row_valid;    /* row holds the loops at held_f */
 } tb_probe;
 
-/* Writes M(j 2 pi f), factors it (the last pivot order, or afresh with pivoting
- * when the pivots degrade: tb_solver_refactor) and evaluates every loop into
- * probe->row. Errors: TB_ERR_SINGULAR (zero pivot at unknown *culprit),
- * TB_ERR_NOMEM, TB_ERR_NUMERIC. */
+/* A probe over borrowed pieces, holding nothing yet. */
+tb_probe tb_probe_make(const tb_mna *mna, tb_solver *solver, tb_loop_work *work, double *Mx, tb_point *row,
+                       double rcond_drop);
+
+/* Makes the solver hold the factorization of M(j 2 pi f): nothing when it holds
+ * it already; else writes M into probe->Mx and refactors with the last pivot
+ * order (pivot false: tb_solver_refactor, which pivots afresh when the pivots
+ * degrade) or factors with pivoting (pivot true). Errors: TB_ERR_SINGULAR (zero
+ * pivot at unknown *culprit), TB_ERR_NOMEM, TB_ERR_NUMERIC. */
+tb_status tb_probe_factor(tb_probe *probe, double f, bool pivot, size_t *culprit);
+
+/* tb_probe_factor(probe, f, false), then every loop into probe->row (kept while
+ * the solver holds the same matrix). Errors as tb_probe_factor. */
 tb_status tb_probe_eval(tb_probe *probe, double f, size_t *culprit);
+
+/* Factors, with pivoting, M(j 2 pi f) with loop l's source gain k changed to
+ * k (1 + d) (tb_mna_values_gain). Errors as tb_probe_factor. */
+tb_status tb_probe_factor_gain(tb_probe *probe, double f, size_t l, double d, size_t *culprit);
+
+/* The solver, for work of another kind (the time-step matrix): the probe
+ * forgets what it held. */
+tb_solver *tb_probe_take_solver(tb_probe *probe);
 
 #endif

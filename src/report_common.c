@@ -9,6 +9,22 @@ const char *const tb_report_caution =
     "replace full simulation, bench measurement or design review. Anyone working on "
     "mains-powered or high-voltage circuits follows local codes and licensed practice.";
 
+void tb_report_cell_complex(FILE *out, bool present, double complex z)
+{
+    if (present && isfinite(creal(z)) && isfinite(cimag(z)))
+        fprintf(out, ",%.17g,%.17g", creal(z), cimag(z));
+    else
+        fputs(",,", out);
+}
+
+void tb_report_cell_real(FILE *out, bool present, double x)
+{
+    if (present && isfinite(x))
+        fprintf(out, ",%.17g", x);
+    else
+        fputs(",", out);
+}
+
 const char *tb_report_grid_word(tb_grid_kind kind)
 {
     return kind == TB_GRID_DEC ? "dec" : kind == TB_GRID_OCT ? "oct" : "lin";

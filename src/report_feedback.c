@@ -4,15 +4,6 @@
 
 #include "report.h"
 
-/* ",re,im" at full precision, or ",," when absent. */
-static void cell(FILE *out, bool present, double complex z)
-{
-    if (present && isfinite(creal(z)) && isfinite(cimag(z)))
-        fprintf(out, ",%.17g,%.17g", creal(z), cimag(z));
-    else
-        fputs(",,", out);
-}
-
 static tb_status breakdown_csv(const tb_result *res, size_t l, FILE *out)
 {
     tb_feedback_summary fs;
@@ -25,12 +16,12 @@ static tb_status breakdown_csv(const tb_result *res, size_t l, FILE *out)
     for (size_t i = 0; i < tb_result_points(res); i++) {
         const tb_breakdown_point *p = &pts[i];
         fprintf(out, "%.17g", f[i]);
-        cell(out, true, p->total);
+        tb_report_cell_complex(out, true, p->total);
         for (int k = 0; k < TB_PART_COUNT; k++)
-            cell(out, p->has_parts, p->part[k]);
+            tb_report_cell_complex(out, p->has_parts, p->part[k]);
         fprintf(out, ",%.17g", 100.0 * cabs(p->total) / fabs(fs.estimate));
-        cell(out, p->has_S, p->S);
-        cell(out, p->has_S_A, p->S_A);
+        tb_report_cell_complex(out, p->has_S, p->S);
+        tb_report_cell_complex(out, p->has_S_A, p->S_A);
         fputc('\n', out);
     }
     return TB_OK;
@@ -48,11 +39,11 @@ static tb_status zport_csv(const tb_result *res, size_t l, const char *name, FIL
         for (size_t i = 0; i < tb_result_points(res); i++) {
             const tb_zpoint *z = &pts[i];
             fprintf(out, "%.17g", f[i]);
-            cell(out, z->has_Z, z->Z);
-            cell(out, z->has_Z0, z->Z0);
-            cell(out, z->has_T_sc, z->T_sc);
-            cell(out, z->has_T_oc, z->T_oc);
-            cell(out, z->has_blackman, z->Z_blackman);
+            tb_report_cell_complex(out, z->has_Z, z->Z);
+            tb_report_cell_complex(out, z->has_Z0, z->Z0);
+            tb_report_cell_complex(out, z->has_T_sc, z->T_sc);
+            tb_report_cell_complex(out, z->has_T_oc, z->T_oc);
+            tb_report_cell_complex(out, z->has_blackman, z->Z_blackman);
             fputc('\n', out);
         }
         return TB_OK;
@@ -70,10 +61,10 @@ static tb_status break_csv(const tb_result *res, FILE *out)
     const double *f = tb_result_freqs(res);
     for (size_t i = 0; i < tb_result_points(res); i++) {
         fprintf(out, "%.17g", f[i]);
-        cell(out, pts[i].has_Tv, pts[i].Tv);
-        cell(out, pts[i].has_Ti, pts[i].Ti);
-        cell(out, pts[i].has_T, pts[i].T);
-        cell(out, pts[i].has_T_probe, pts[i].T_probe);
+        tb_report_cell_complex(out, pts[i].has_Tv, pts[i].Tv);
+        tb_report_cell_complex(out, pts[i].has_Ti, pts[i].Ti);
+        tb_report_cell_complex(out, pts[i].has_T, pts[i].T);
+        tb_report_cell_complex(out, pts[i].has_T_probe, pts[i].T_probe);
         fputc('\n', out);
     }
     return TB_OK;

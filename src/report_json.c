@@ -2,7 +2,7 @@
 #include <jansson.h>
 #include <math.h>
 
-#include "measure.h"
+#include "units.h"
 #include "report.h"
 
 /* Builds a document while remembering whether any allocation failed. */
@@ -38,19 +38,15 @@ static json_t *dc_object(builder *b, const tb_measures *m)
         b->ok = false;
         return NULL;
     }
-    unsigned fl = m->dc.flags;
-    bool io = !(fl & TB_PT_NO_IO);
-    bool t_ok = !(fl & TB_PT_T_INF);
-    bool ainf_ok = io && !(fl & TB_PT_AINF_NONE) && cabs(m->dc.A_inf) > 0;
-    set(b, dc, "T", cnum(t_ok, m->dc.T));
-    set(b, dc, "T_db", num(t_ok ? tb_db(m->dc.T) : NAN));
-    set(b, dc, "a", cnum(io && t_ok && !(fl & TB_PT_AINF_NONE), m->dc.a));
-    set(b, dc, "beta", cnum(ainf_ok, ainf_ok ? 1.0 / m->dc.A_inf : 0));
-    set(b, dc, "A_inf", cnum(io && !(fl & TB_PT_AINF_NONE), m->dc.A_inf));
-    set(b, dc, "A0", cnum(io && !(fl & TB_PT_A0_NONE), m->dc.A0));
-    set(b, dc, "A", cnum(io, m->dc.A));
-    double complex err = ainf_ok ? (m->dc.A - m->dc.A_inf) / m->dc.A_inf * 100.0 : 0;
-    set(b, dc, "gain_error_pct", cnum(ainf_ok, err));
+    const tb_dc_figures *fig = &m->fig;
+    set(b, dc, "T", cnum(fig->has_T, m->dc.T));
+    set(b, dc, "T_db", fig->has_T_db ? num(fig->T_db) : json_null());
+    set(b, dc, "a", cnum(fig->has_a, m->dc.a));
+    set(b, dc, "beta", cnum(fig->has_beta, fig->beta));
+    set(b, dc, "A_inf", cnum(fig->has_A_inf, m->dc.A_inf));
+    set(b, dc, "A0", cnum(fig->has_A0, m->dc.A0));
+    set(b, dc, "A", cnum(fig->has_A, m->dc.A));
+    set(b, dc, "gain_error_pct", cnum(fig->has_gain_error, fig->gain_error_pct));
     return dc;
 }
 
@@ -124,7 +120,7 @@ static json_t *pole_value(builder *b, double complex s)
         return NULL;
     set(b, o, "re", num(creal(s)));
     set(b, o, "im", num(cimag(s)));
-    set(b, o, "hz", num(cabs(s) / (2.0 * 3.14159265358979323846)));
+    set(b, o, "hz", num(cabs(s) / TB_TWO_PI));
     return o;
 }
 
@@ -400,8 +396,8 @@ static json_t *sweep_object(builder *b, const tb_circuit *ckt, const tb_result *
     set(b, sw, "n", json_integer(ckt->ac.points));
     set(b, sw, "fstart_hz", num(ckt->ac.fstart));
     set(b, sw, "fstop_hz", num(ckt->ac.fstop));
-    set(b, sw, "points", json_integer((json_int_t)res->npoints));
-    set(b, sw, "dc_solved", json_boolean(res->has_dc));
+    set(b, sw, "points", json_integer((json_int_t)tb_result_points(res)));
+    set(b, sw, "dc_solved", json_boolean(tb_result_has_dc(res)));
     return sw;
 }
 
@@ -503,15 +499,15 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
         set(b, root, "input", json_string(ckt->io.source));
         set(b, root, "output", json_string(tb_report_output(&ckt->io, buf, sizeof buf)));
     }
-    for (size_t l = 0; l < res->nloops; l++) {
+    for (size_t l = 0; l < tb_result_loops(res); l++) {
         json_t *lp = loop_object(b, ckt, res, l);
         if (!lp || json_array_append_new(loops, lp))
             b->ok = false;
     }
     set(b, root, "loops", loops);
-    if (res->stab)
+    if (tb_result_has_stability(res))
         set(b, root, "step_response", step_object(b, res));
-    if (res->census)
+    if (tb_result_has_census(res))
         set(b, root, "census", census_array(b, res));
     set(b, root, "caution", json_string(tb_report_caution));
     return root;

@@ -3,7 +3,7 @@
 #include <string.h>
 
 #include "diag.h"
-#include "measure.h"
+#include "units.h"
 #include "report.h"
 
 /* A frequency with an SI prefix: "1.2346 MHz". */
@@ -37,30 +37,23 @@ static void line(FILE *out, const char *label, bool present, const char *value, 
 static void dc_block(FILE *out, const tb_measures *m)
 {
     char v[96], extra[96];
-    unsigned fl = m->dc.flags;
-    bool io = !(fl & TB_PT_NO_IO);
-    bool t_ok = !(fl & TB_PT_T_INF);
-    bool ainf_ok = io && !(fl & TB_PT_AINF_NONE);
-    bool beta_ok = ainf_ok && cabs(m->dc.A_inf) > 0;
+    const tb_dc_figures *fig = &m->fig;
     if (m->dc_hz == 0.0)
         fprintf(out, "  at DC (f = 0)\n");
     else
         fprintf(out, "  at the lowest sweep point (f = %s; DC is singular)\n",
                 fmt_hz(m->dc_hz, v, sizeof v));
-    snprintf(extra, sizeof extra, "   (%+.2f dB)", t_ok ? 20.0 * log10(cabs(m->dc.T)) : 0.0);
-    line(out, "loop gain T (return ratio)", true, t_ok ? fmt_value(m->dc.T, v, sizeof v) : "infinite",
-         t_ok && cabs(m->dc.T) > 0 ? extra : "");
-    line(out, "open-loop gain a = A_inf*T", ainf_ok && t_ok, fmt_value(m->dc.a, v, sizeof v), "");
-    line(out, "loaded feedback beta = 1/A_inf", beta_ok,
-         fmt_value(beta_ok ? 1.0 / m->dc.A_inf : 0, v, sizeof v), "");
-    line(out, "ideal gain A_inf", ainf_ok, fmt_value(m->dc.A_inf, v, sizeof v), "");
+    snprintf(extra, sizeof extra, "   (%+.2f dB)", fig->T_db);
+    line(out, "loop gain T (return ratio)", true, fig->has_T ? fmt_value(m->dc.T, v, sizeof v) : "infinite",
+         fig->has_T_db ? extra : "");
+    line(out, "open-loop gain a = A_inf*T", fig->has_a, fmt_value(m->dc.a, v, sizeof v), "");
+    line(out, "loaded feedback beta = 1/A_inf", fig->has_beta, fmt_value(fig->beta, v, sizeof v), "");
+    line(out, "ideal gain A_inf", fig->has_A_inf, fmt_value(m->dc.A_inf, v, sizeof v), "");
     double scale = fmax(cabs(m->dc.A), cabs(m->dc.A_inf));
-    line(out, "feedthrough A0", io && !(fl & TB_PT_A0_NONE),
-         fmt_value(denoise(m->dc.A0, scale), v, sizeof v), "");
-    line(out, "closed-loop gain A", io, fmt_value(m->dc.A, v, sizeof v), "");
-    double complex err = beta_ok ? (m->dc.A - m->dc.A_inf) / m->dc.A_inf * 100.0 : 0;
-    snprintf(v, sizeof v, "%+.4g %%", creal(err));
-    line(out, "gain error (A - A_inf)/A_inf", beta_ok, v, "");
+    line(out, "feedthrough A0", fig->has_A0, fmt_value(denoise(m->dc.A0, scale), v, sizeof v), "");
+    line(out, "closed-loop gain A", fig->has_A, fmt_value(m->dc.A, v, sizeof v), "");
+    snprintf(v, sizeof v, "%+.4g %%", creal(fig->gain_error_pct));
+    line(out, "gain error (A - A_inf)/A_inf", fig->has_gain_error, v, "");
 }
 
 static void crossing_block(FILE *out, const tb_measures *m)
@@ -108,7 +101,7 @@ static void pole_lines(FILE *out, const tb_stability *st)
         if (cimag(s) < 0)
             continue;
         fprintf(out, "      s = %.6g %s j%.6g rad/s  (%s)\n", creal(s), cimag(s) > 0 ? "+-" : "+",
-                fabs(cimag(s)), fmt_hz(cabs(s) / (2.0 * 3.14159265358979323846), f, sizeof f));
+                fabs(cimag(s)), fmt_hz(cabs(s) / TB_TWO_PI, f, sizeof f));
     }
 }
 
@@ -406,19 +399,19 @@ tb_status tb_report_text(const tb_circuit *ckt, const tb_result *res, FILE *out)
     if (tb_circuit_title(ckt)[0])
         fprintf(out, "  title   %s\n", tb_circuit_title(ckt));
     fprintf(out, "  sweep   %s to %s, %zu points (%s %ld)\n", fmt_hz(ckt->ac.fstart, f0, sizeof f0),
-            fmt_hz(ckt->ac.fstop, f1, sizeof f1), res->npoints, tb_report_grid_word(ckt->ac.kind),
+            fmt_hz(ckt->ac.fstop, f1, sizeof f1), tb_result_points(res), tb_report_grid_word(ckt->ac.kind),
             ckt->ac.points);
     if (ckt->io.given)
         fprintf(out, "  gain    A = %s / %s\n", tb_report_output(&ckt->io, o, sizeof o),
                 ckt->io.source);
-    for (size_t l = 0; l < res->nloops; l++) {
+    for (size_t l = 0; l < tb_result_loops(res); l++) {
         tb_status st = loop_block(out, ckt, res, l);
         if (st)
             return st;
     }
-    if (res->stab && res->has_io)
+    if (tb_result_has_stability(res) && tb_result_has_io(res))
         step_block(out, res);
-    if (res->census)
+    if (tb_result_has_census(res))
         census_block(out, res);
     fprintf(out, "\ncaution: %s\n", tb_report_caution);
     return ferror(out) ? TB_ERR_IO : TB_OK;

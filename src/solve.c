@@ -13,7 +13,7 @@ struct tb_solver {
     klu_symbolic *symbolic;
     klu_numeric *numeric;
     double rcond;         /* min/max |U_ii| of the last pivoted factorization */
-    size_t factor_count;
+    tb_solver_counts counts;
 };
 
 tb_status tb_solver_new(const tb_mna *mna, tb_solver **out)
@@ -58,6 +58,7 @@ tb_status tb_solver_factor(tb_solver *s, const double *Mx, size_t *culprit)
         klu_z_free_numeric(&s->numeric, &s->common);
     /* KLU's API takes non-const arrays but does not modify A */
     double *Ax = (double *)(uintptr_t)Mx;
+    s->counts.numeric++;
     s->numeric = klu_z_factor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, &s->common);
     if (!s->numeric) {
         if (s->common.status == KLU_OUT_OF_MEMORY)
@@ -70,7 +71,7 @@ tb_status tb_solver_factor(tb_solver *s, const double *Mx, size_t *culprit)
         klu_z_free_numeric(&s->numeric, &s->common);
         return singular(s, culprit);
     }
-    s->factor_count++;
+    s->counts.pivoted++;
     if (!klu_z_rcond(s->symbolic, s->numeric, &s->common))
         return TB_ERR_NUMERIC;
     s->rcond = s->common.rcond;
@@ -82,6 +83,7 @@ tb_status tb_solver_refactor(tb_solver *s, const double *Mx, double rcond_drop, 
     if (!s->numeric)
         return tb_solver_factor(s, Mx, culprit);
     double *Ax = (double *)(uintptr_t)Mx;
+    s->counts.numeric++;
     int ok = klu_z_refactor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, s->numeric, &s->common);
     /* A reused pivot that has become small shows as a collapse of min/max |U_ii|.
      * klu_z_rcond is O(n); klu_z_rgrowth would cost about half a refactor. */
@@ -101,6 +103,8 @@ tb_status tb_solver_solve(tb_solver *s, double complex *B, size_t nrhs)
         return TB_ERR_NUMERIC;
     /* double complex has the layout of KLU's interleaved (re, im) pairs (C11 6.2.5) */
     double *Bx = (double *)B;
+    s->counts.solves++;
+    s->counts.columns += nrhs;
     if (!klu_z_solve(s->symbolic, s->numeric, (int)s->mna->n, (int)nrhs, Bx, &s->common))
         return TB_ERR_NUMERIC;
     return TB_OK;
@@ -108,5 +112,10 @@ tb_status tb_solver_solve(tb_solver *s, double complex *B, size_t nrhs)
 
 size_t tb_solver_factor_count(const tb_solver *solver)
 {
-    return solver->factor_count;
+    return solver->counts.pivoted;
+}
+
+tb_solver_counts tb_solver_get_counts(const tb_solver *solver)
+{
+    return solver->counts;
 }

@@ -33,4 +33,15 @@ tb_status tb_solver_solve(tb_solver *solver, double complex *B, size_t nrhs);
 /* Number of pivoted factorizations so far (first one included). */
 size_t tb_solver_factor_count(const tb_solver *solver);
 
+/* Work done so far: numeric factorizations (every KLU factor or refactor call,
+ * a refactor that falls back to pivoting counting twice), of them pivoted ones,
+ * solve calls and right-hand sides solved. */
+typedef struct {
+    size_t numeric;
+    size_t pivoted;
+    size_t solves;
+    size_t columns;
+} tb_solver_counts;
+tb_solver_counts tb_solver_get_counts(const tb_solver *solver);
+
 #endif

@@ -3,7 +3,7 @@
 #define TB_STABILITY_H
 
 #include "probe.h"
-#include "sweep.h"
+#include "result.h"
 
 /* Fills res->stab (one tb_stability per loop) using probe's fresh solves, the
  * dense pencil of probe->mna (up to opt->pole_limit unknowns) and the sweep

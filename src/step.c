@@ -18,7 +18,6 @@ typedef struct {
 
 static void stepper_free(stepper *s)
 {
-    tb_solver_free(s->solver);
     tb_free(s->Mx);
     tb_free(s->x);
     tb_free(s->r);
@@ -151,8 +150,9 @@ static void figures(tb_step_figures *fig, const double *t, double *z, size_t cou
         z[k] *= final;
 }
 
-tb_status tb_step_run(const tb_mna *mna, tb_result *res)
+tb_status tb_step_run(tb_probe *probe, tb_result *res)
 {
+    const tb_mna *mna = probe->mna;
     tb_step_figures *fig = &res->step;
     *fig = (tb_step_figures){.why_absent = "no .io directive: no input to step"};
     if (!mna->has_io)
@@ -168,9 +168,9 @@ tb_status tb_step_run(const tb_mna *mna, tb_result *res)
                    : want > TB_STEP_STEPS  ? (size_t)want
                                            : TB_STEP_STEPS;
     double h = t_end / (double)steps;
-    stepper s = {.mna = mna};
-    tb_status st = tb_solver_new(mna, &s.solver);
-    if (st == TB_OK) {
+    stepper s = {.mna = mna, .solver = tb_probe_take_solver(probe)};
+    tb_status st = TB_OK;
+    {
         s.Mx = tb_malloc(2 * mna->nnz, sizeof(double));
         s.x = tb_malloc(mna->n, sizeof(double complex));
         s.r = tb_malloc(mna->n, sizeof(double complex));
@@ -198,23 +198,5 @@ tb_status tb_step_run(const tb_mna *mna, tb_result *res)
     bool stable = res->stab && res->stab[0].verdict == TB_VERDICT_STABLE;
     if (stable && fig->final_value != 0 && isfinite(fig->final_value))
         figures(fig, res->step_t, res->step_y, steps + 1);
-    return TB_OK;
-}
-
-tb_status tb_step_figures_get(const tb_result *res, tb_step_figures *out)
-{
-    if (!res || !out)
-        return TB_ERR_USAGE;
-    *out = res->step;
-    return TB_OK;
-}
-
-tb_status tb_step_samples(const tb_result *res, const double **t, const double **y, size_t *n)
-{
-    if (!res || !t || !y || !n)
-        return TB_ERR_USAGE;
-    *t = res->step_t;
-    *y = res->step_y;
-    *n = res->step.computed ? res->step.points : 0;
     return TB_OK;
 }

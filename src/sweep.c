@@ -1,102 +1,77 @@
-/* src/sweep.c: frequency grids; drives factor, refactor and loop evaluation point by point */
+/* src/sweep.c: the point loop: one factorization of M per frequency, handed to every per-point hook */
 #include "sweep.h"
 
-#include <math.h>
-#include <string.h>
-
 #include "alloc.h"
-#include "census.h"
 #include "diag.h"
-#include "feedback.h"
-#include "impedance.h"
-#include "wirebreak.h"
-#include "loop.h"
-#include "mna.h"
-#include "solve.h"
-#include "stability.h"
-#include "step.h"
+#include "units.h"
 
-static const double TWO_PI = 6.28318530717958647692528676655900577;
-
-void tb_options_init(tb_options *opt)
-{
-    opt->dc = true;
-    opt->refactor_rcond_drop = 1e-6;
-    opt->stability = true;
-    opt->pole_limit = 500; /* QZ is O(n^3): about 1.5 s at 500 unknowns, 18 s at 1000 */
-    opt->pm_min_deg = -1.0; /* the netlist's .margins, else 45 degrees (common practice) */
-    opt->gm_min_db = -1.0;  /* the netlist's .margins, else 10 dB (common practice) */
-    opt->census = false;
-}
-
-void tb_result_free(tb_result *res)
-{
-    if (!res)
-        return;
-    tb_free(res->freqs);
-    tb_free(res->pts);
-    tb_free(res->dc);
-    tb_free(res->stab);
-    tb_free(res->step_t);
-    tb_free(res->step_y);
-    tb_free(res->census);
-    tb_feedback_free(res->fb);
-    tb_impedance_free(res->zp);
-    tb_wirebreak_free(res->wb);
-    tb_free(res);
-}
-
-static tb_result *result_new(size_t npoints, size_t nloops)
-{
-    tb_result *res = tb_calloc(1, sizeof(*res));
-    if (!res)
-        return NULL;
-    res->npoints = npoints;
-    res->nloops = nloops;
-    res->freqs = tb_malloc(npoints, sizeof(double));
-    res->pts = tb_calloc(npoints * nloops, sizeof(tb_point));
-    res->dc = tb_calloc(nloops, sizeof(tb_point));
-    if (!res->freqs || !res->pts || !res->dc) {
-        tb_result_free(res);
-        return NULL;
-    }
-    return res;
-}
-
-/* Everything the point loop uses, allocated before it starts. */
-typedef struct {
+struct tb_sweep {
     const tb_circuit *ckt;
+    tb_diag *diag;
     tb_mna *mna;
     tb_solver *solver;
     tb_loop_work *work;
     double *Mx;
     tb_point *row; /* one point of every loop */
-    tb_diag *diag;
-} sweeper;
+    double rcond_drop;
+    tb_probe probe;
+};
 
-static void sweeper_free(sweeper *s)
+void tb_sweep_free(tb_sweep *s)
 {
-    tb_mna_free(s->mna);
+    if (!s)
+        return;
     tb_solver_free(s->solver);
+    tb_mna_free(s->mna);
     tb_loop_work_free(s->work);
     tb_free(s->Mx);
     tb_free(s->row);
+    tb_free(s);
 }
 
-static tb_status sweeper_init(sweeper *s, const tb_circuit *ckt, tb_diag *diag)
+tb_status tb_sweep_new(const tb_circuit *ckt, double rcond_drop, tb_diag *diag, tb_sweep **out)
 {
-    *s = (sweeper){.ckt = ckt, .diag = diag};
+    tb_sweep *s = tb_calloc(1, sizeof(*s));
+    if (!s)
+        return TB_ERR_NOMEM;
+    s->ckt = ckt;
+    s->diag = diag;
+    s->rcond_drop = rcond_drop;
     tb_status st = tb_mna_build(ckt, diag, &s->mna);
-    if (st)
+    if (!st)
+        st = tb_solver_new(s->mna, &s->solver);
+    if (!st)
+        st = tb_loop_work_new(s->mna, &s->work);
+    if (!st) {
+        s->Mx = tb_malloc(2 * s->mna->nnz, sizeof(double));
+        s->row = tb_calloc(ckt->loop_count, sizeof(tb_point));
+        st = s->Mx && s->row ? TB_OK : TB_ERR_NOMEM;
+    }
+    if (st) {
+        tb_sweep_free(s);
         return st;
-    if ((st = tb_solver_new(s->mna, &s->solver)) || (st = tb_loop_work_new(s->mna, &s->work)))
-        return st;
-    s->Mx = tb_malloc(2 * s->mna->nnz, sizeof(double));
-    s->row = tb_calloc(ckt->loop_count, sizeof(tb_point));
-    return s->Mx && s->row ? TB_OK : TB_ERR_NOMEM;
+    }
+    s->probe = tb_probe_make(s->mna, s->solver, s->work, s->Mx, s->row, rcond_drop);
+    *out = s;
+    return TB_OK;
 }
 
-static tb_status singular_diag(const sweeper *s, tb_severity sev, double f, size_t culprit,
+const tb_mna *tb_sweep_mna(const tb_sweep *s)
+{
+    return s->mna;
+}
+
+tb_probe *tb_sweep_probe(tb_sweep *s)
+{
+    return &s->probe;
+}
+
+tb_solver_counts tb_sweep_counts(const tb_sweep *s)
+{
+    return tb_solver_get_counts(s->solver);
+}
+
+static tb_status singular_diag(const tb_sweep *s, tb_severity sev, double f, size_t culprit,
                                const char *consequence)
 {
     /* Structural causes (floating nodes, loops of voltage sources or
@@ -117,135 +92,54 @@ static tb_status singular_diag(const sweeper *s, tb_severity sev, double f, size
     return st ? st : TB_ERR_SINGULAR;
 }
 
+/* Every loop at the point the solver holds, then every hook. */
+static tb_status visit(tb_sweep *s, size_t index, double f, const tb_sweep_hook *hooks, size_t nhooks)
+{
+    double omega = TB_TWO_PI * f;
+    tb_status st = tb_loop_eval(s->mna, s->solver, s->Mx, omega, s->work, s->row);
+    tb_sweep_point pt = {index, f, omega, s->mna, s->solver, s->Mx, s->row, s->work};
+    for (size_t h = 0; h < nhooks && !st; h++)
+        st = hooks[h].at(hooks[h].self, &pt);
+    return st;
+}
+
 /* DC: an exact f = 0 factorization when M(0) is non-singular; otherwise
- * *dc_culprit names the zero pivot (reported once the sweep has succeeded). */
-static tb_status sweep_dc(sweeper *s, tb_result *res, size_t *dc_culprit)
+ * *culprit names the zero pivot (reported once the sweep has succeeded). */
+static tb_status sweep_dc(tb_sweep *s, const tb_sweep_hook *hooks, size_t nhooks, bool *has_dc, size_t *culprit)
 {
     if (s->ckt->dc_singular)
         return TB_OK; /* singular by structure (warned); rounding could hide a zero pivot */
     tb_mna_values(s->mna, 0.0, s->Mx);
-    tb_status st = tb_solver_factor(s->solver, s->Mx, dc_culprit);
+    tb_status st = tb_solver_factor(s->solver, s->Mx, culprit);
     if (st == TB_ERR_SINGULAR)
         return TB_OK;
-    if (st)
+    if (st || (st = visit(s, TB_SWEEP_DC, 0.0, hooks, nhooks)))
         return st;
-    if ((st = tb_loop_eval(s->mna, s->solver, s->Mx, 0.0, s->work, res->dc)))
-        return st;
-    res->has_dc = true;
+    *has_dc = true;
     return TB_OK;
 }
 
-static tb_status sweep_points(sweeper *s, const tb_options *opt, tb_result *res)
+tb_status tb_sweep_run(tb_sweep *s, const double *freqs, size_t npoints, bool dc,
+                       const tb_sweep_hook *hooks, size_t nhooks, bool *has_dc)
 {
-    for (size_t i = 0; i < res->npoints; i++) {
-        size_t culprit = 0;
-        double f = res->freqs[i];
-        double omega = TWO_PI * f;
-        tb_mna_values(s->mna, omega, s->Mx);
-        tb_status st = i == 0 ? tb_solver_factor(s->solver, s->Mx, &culprit)
-                              : tb_solver_refactor(s->solver, s->Mx, opt->refactor_rcond_drop, &culprit);
-        if (st == TB_ERR_SINGULAR)
-            return singular_diag(s, TB_SEV_ERROR, f, culprit, "");
-        if (st || (st = tb_loop_eval(s->mna, s->solver, s->Mx, omega, s->work, s->row)))
-            return st;
-        for (size_t l = 0; l < res->nloops; l++)
-            res->pts[l * res->npoints + i] = s->row[l];
-    }
-    return TB_OK;
-}
-
-/* Thresholds left negative in the options come from the netlist's .margins,
- * else from common practice: PM >= 45 degrees, GM >= 10 dB. */
-static void effective_thresholds(const tb_circuit *ckt, tb_options *opt)
-{
-    if (opt->pm_min_deg < 0)
-        opt->pm_min_deg = ckt->margins.has_pm ? ckt->margins.pm_min_deg : 45.0;
-    if (opt->gm_min_db < 0)
-        opt->gm_min_db = ckt->margins.has_gm ? ckt->margins.gm_min_db : 10.0;
-}
-
-tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag, tb_result **out)
-{
-    if (!ckt || !out)
-        return TB_ERR_USAGE;
-    tb_options defaults;
-    if (!opt) {
-        tb_options_init(&defaults);
-        opt = &defaults;
-    }
-    size_t npoints = tb_sweep_count(&ckt->ac);
-    if (npoints == 0)
-        return TB_ERR_USAGE; /* the parser admits only usable grids */
-    tb_result *res = result_new(npoints, ckt->loop_count);
-    if (!res)
-        return TB_ERR_NOMEM;
-    tb_sweep_grid(&ckt->ac, res->freqs);
-    res->has_io = ckt->io.given;
-    sweeper s;
     size_t dc_culprit = 0;
-    tb_status st = sweeper_init(&s, ckt, diag);
-    if (!st && opt->dc)
-        st = sweep_dc(&s, res, &dc_culprit);
-    if (!st)
-        st = sweep_points(&s, opt, res);
-    if (!st && opt->dc && !res->has_dc) {
-        st = singular_diag(&s, TB_SEV_WARNING, 0.0, dc_culprit,
-                           "; DC values are those at the lowest sweep frequency");
+    *has_dc = false;
+    s->probe.held = false;
+    s->probe.row_valid = false;
+    tb_status st = dc ? sweep_dc(s, hooks, nhooks, has_dc, &dc_culprit) : TB_OK;
+    for (size_t i = 0; i < npoints && !st; i++) {
+        size_t culprit = 0;
+        tb_mna_values(s->mna, TB_TWO_PI * freqs[i], s->Mx);
+        st = i == 0 ? tb_solver_factor(s->solver, s->Mx, &culprit)
+                    : tb_solver_refactor(s->solver, s->Mx, s->rcond_drop, &culprit);
+        if (st == TB_ERR_SINGULAR)
+            return singular_diag(s, TB_SEV_ERROR, freqs[i], culprit, "");
+        if (!st)
+            st = visit(s, i, freqs[i], hooks, nhooks);
+    }
+    if (!st && dc && !*has_dc) {
+        st = singular_diag(s, TB_SEV_WARNING, 0.0, dc_culprit, "; DC values are those at the lowest sweep frequency");
         st = st == TB_ERR_SINGULAR ? TB_OK : st;
     }
-    if (!st)
-        res->factor_count = tb_solver_factor_count(s.solver);
-    if (!st && opt->census)
-        st = tb_census_run(ckt, s.mna, s.solver, s.Mx, opt->refactor_rcond_drop, res);
-    if (!st && opt->stability) {
-        tb_probe probe = {s.mna, s.solver, s.work, s.Mx, s.row, opt->refactor_rcond_drop, 0};
-        tb_options limits = *opt;
-        effective_thresholds(ckt, &limits);
-        st = tb_stability_run(&probe, &limits, res);
-        if (!st)
-            st = tb_step_run(s.mna, res);
-    }
-    if (!st) {
-        tb_probe probe = {s.mna, s.solver, s.work, s.Mx, s.row, opt->refactor_rcond_drop, 0};
-        st = tb_feedback_run(ckt, &probe, res);
-    }
-    if (!st)
-        st = tb_impedance_run(ckt, s.mna, s.solver, s.Mx, opt->refactor_rcond_drop, diag, res);
-    if (!st)
-        st = tb_wirebreak_run(ckt, s.mna, s.solver, s.Mx, opt->refactor_rcond_drop, diag, res);
-    sweeper_free(&s);
-    if (st) {
-        tb_result_free(res);
-        return st;
-    }
-    *out = res;
-    return TB_OK;
-}
-
-size_t tb_result_points(const tb_result *res)
-{
-    return res ? res->npoints : 0;
-}
-
-size_t tb_result_loops(const tb_result *res)
-{
-    return res ? res->nloops : 0;
-}
-
-const double *tb_result_freqs(const tb_result *res)
-{
-    return res ? res->freqs : NULL;
-}
-
-const tb_point *tb_result_loop(const tb_result *res, size_t l)
-{
-    return res && l < res->nloops ? res->pts + l * res->npoints : NULL;
-}
-
-bool tb_result_dc(const tb_result *res, size_t l, tb_point *out)
-{
-    if (!res || !res->has_dc || l >= res->nloops)
-        return false;
-    *out = res->dc[l];
-    return true;
+    return st;
 }

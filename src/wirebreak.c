@@ -5,18 +5,8 @@
 #include <string.h>
 
 #include "alloc.h"
-#include "diag.h"
-#include "measure.h"
+#include "units.h"
 
-static const double TWO_PI = 6.28318530717958647692528676655900577;
-
-void tb_wirebreak_free(tb_wb_data *wb)
-{
-    if (!wb)
-        return;
-    tb_free(wb->pts);
-    tb_free(wb);
-}
 
 /* The break source and where it sits in M. */
 typedef struct {
@@ -26,32 +16,12 @@ typedef struct {
     bool inject_y;  /* the test current enters at y (else at x, when y is ground) */
 } brk;
 
-static tb_status break_error(const tb_circuit *ckt, tb_diag *diag, const char *fmt, const char *what)
-{
-    const tb_loc *loc = &ckt->brk.loc;
-    size_t len = 0;
-    const char *line = tb_circuit_source_line(ckt, loc->file, loc->line, &len);
-    tb_status st = tb_diag_add(diag, TB_SEV_ERROR, loc->file, loc->line, loc->col, line, len, fmt,
-                               ckt->brk.source, what);
-    return st ? st : TB_ERR_INPUT;
-}
-
-static tb_status find_break(const tb_circuit *ckt, tb_diag *diag, brk *b)
-{
-    size_t e = 0;
-    if (!tb_circuit_find_element(ckt, ckt->brk.source, &e))
-        return break_error(ckt, diag, ".break names '%s', which does not exist%s", "");
-    const tb_element *el = &ckt->elems[e];
-    if (el->kind != TB_EL_V)
-        return break_error(ckt, diag, ".break names '%s', a %s; a zero-volt V source in the loop wire is expected",
-                           tb_elem_kind_word(el->kind));
-    if (el->node[0] == 0 && el->node[1] == 0)
-        return break_error(ckt, diag, ".break: '%s' has both ends at ground%s", "");
-    if (ckt->io.given && ckt->io.source_elem == e)
-        return break_error(ckt, diag, ".break: '%s' is the .io input; mark a zero-volt source of its own%s", "");
-    *b = (brk){ckt->node_count - 1 + (size_t)el->branch, el->node[0], el->node[1], el->node[1] != 0};
-    return TB_OK;
-}
+struct tb_wirebreak {
+    brk b;
+    size_t n;
+    tb_wb_data *wb;     /* what the result receives from tb_wirebreak_end */
+    double complex *S;  /* 2 columns: the voltage and the current injection */
+};
 
 static double complex node_v(const double complex *s, int node)
 {
@@ -90,21 +60,22 @@ static tb_break_point evaluate(const brk *b, const double complex *s1, const dou
     return p;
 }
 
-static tb_status at_frequency(const tb_mna *mna, tb_solver *solver, double *Mx, const brk *b, double f,
-                              bool fresh, double rcond_drop, double complex *S, tb_break_point *out)
+tb_status tb_wirebreak_at(void *self, const tb_sweep_point *pt)
 {
-    size_t n = mna->n;
-    size_t culprit = 0;
-    tb_mna_values(mna, TWO_PI * f, Mx);
-    tb_status st = fresh ? tb_solver_factor(solver, Mx, &culprit) : tb_solver_refactor(solver, Mx, rcond_drop, &culprit);
+    tb_wirebreak *w = self;
+    size_t n = w->n;
+    const brk *b = &w->b;
+    memset(w->S, 0, 2 * n * sizeof(double complex));
+    w->S[b->j] = 1.0;
+    w->S[n + tb_mna_node_unknown(b->inject_y ? b->y : b->x)] = 1.0;
+    tb_status st = tb_solver_solve(pt->solver, w->S, 2);
     if (st)
         return st;
-    memset(S, 0, 2 * n * sizeof(double complex));
-    S[b->j] = 1.0;
-    S[n + (size_t)(b->inject_y ? b->y : b->x) - 1] = 1.0;
-    if ((st = tb_solver_solve(solver, S, 2)))
-        return st;
-    *out = evaluate(b, S, S + n);
+    tb_break_point p = evaluate(b, w->S, w->S + n);
+    if (pt->index == TB_SWEEP_DC)
+        w->wb->sum.dc = p;
+    else
+        w->wb->pts[pt->index] = p;
     return TB_OK;
 }
 
@@ -132,51 +103,48 @@ static void unity(tb_wb_data *wb, const tb_result *res)
     }
 }
 
-tb_status tb_wirebreak_run(const tb_circuit *ckt, const tb_mna *mna, tb_solver *solver, double *Mx,
-                           double rcond_drop, tb_diag *diag, tb_result *res)
+void tb_wirebreak_free(tb_wirebreak *w)
 {
-    if (!ckt->brk.given)
-        return TB_OK;
-    brk b;
-    tb_status st = find_break(ckt, diag, &b);
-    if (st)
-        return st;
-    tb_wb_data *wb = tb_calloc(1, sizeof(*wb));
-    if (!wb)
-        return TB_ERR_NOMEM;
-    res->wb = wb;
-    wb->pts = tb_calloc(res->npoints ? res->npoints : 1, sizeof(tb_break_point));
-    double complex *S = tb_malloc(2 * mna->n, sizeof(double complex));
-    st = wb->pts && S ? TB_OK : TB_ERR_NOMEM;
-    tb_break_summary *s = &wb->sum;
-    *s = (tb_break_summary){.computed = true, .source = ckt->brk.source, .node_x = ckt->node_names[b.x],
-                            .node_y = ckt->node_names[b.y]};
-    if (!st && res->has_dc)
-        st = at_frequency(mna, solver, Mx, &b, 0.0, true, rcond_drop, S, &s->dc);
-    for (size_t i = 0; i < res->npoints && !st; i++)
-        st = at_frequency(mna, solver, Mx, &b, res->freqs[i], i == 0, rcond_drop, S, &wb->pts[i]);
-    if (!st && !res->has_dc && res->npoints > 0) {
-        s->dc = wb->pts[0];
-        s->dc_hz = res->freqs[0];
+    if (!w)
+        return;
+    if (w->wb) {
+        tb_free(w->wb->pts);
+        tb_free(w->wb);
     }
-    if (!st)
-        unity(wb, res);
-    tb_free(S);
-    return st;
+    tb_free(w->S);
+    tb_free(w);
 }
 
-tb_status tb_break_get(const tb_result *res, tb_break_summary *out, const tb_break_point **pts)
+tb_status tb_wirebreak_begin(const tb_circuit *ckt, const tb_mna *mna, size_t npoints, tb_wirebreak **out)
 {
-    if (!res || !out)
-        return TB_ERR_USAGE;
-    if (!res->wb) {
-        *out = (tb_break_summary){0};
-        if (pts)
-            *pts = NULL;
-        return TB_OK;
+    const tb_element *el = &ckt->elems[ckt->brk.elem];
+    tb_wirebreak *w = tb_calloc(1, sizeof(*w));
+    if (!w)
+        return TB_ERR_NOMEM;
+    w->b = (brk){tb_mna_branch_unknown(ckt, el), el->node[0], el->node[1], el->node[1] != 0};
+    w->n = mna->n;
+    w->wb = tb_calloc(1, sizeof(tb_wb_data));
+    if (w->wb)
+        w->wb->pts = tb_calloc(npoints ? npoints : 1, sizeof(tb_break_point));
+    w->S = tb_malloc(2 * mna->n, sizeof(double complex));
+    if (!w->wb || !w->wb->pts || !w->S) {
+        tb_wirebreak_free(w);
+        return TB_ERR_NOMEM;
     }
-    *out = res->wb->sum;
-    if (pts)
-        *pts = res->wb->pts;
+    w->wb->sum = (tb_break_summary){.computed = true, .source = ckt->brk.source, .node_x = ckt->node_names[w->b.x],
+                                    .node_y = ckt->node_names[w->b.y]};
+    *out = w;
     return TB_OK;
+}
+
+void tb_wirebreak_end(tb_wirebreak *w, tb_result *res)
+{
+    tb_wb_data *wb = w->wb;
+    if (!res->has_dc && res->npoints > 0) {
+        wb->sum.dc = wb->pts[0];
+        wb->sum.dc_hz = res->freqs[0];
+    }
+    unity(wb, res);
+    res->wb = wb;
+    w->wb = NULL;
 }

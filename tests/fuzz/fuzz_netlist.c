@@ -5,7 +5,7 @@
 #include <stdio.h>
 
 #include "circuit.h"
-#include "sweep.h"
+#include "grid.h"
 #include "tbeta.h"
 
 /* Keeps one run fast: analyse small circuits on short grids only. */
@@ -34,7 +34,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     if (!diag)
         return 0;
     if (tb_circuit_parse((const char *)data, size, "fuzz.net", diag, &ckt) == TB_OK &&
-        tb_circuit_unknowns(ckt) <= FUZZ_MAX_UNKNOWNS && tb_sweep_count(&ckt->ac) <= FUZZ_MAX_POINTS &&
+        tb_circuit_unknowns(ckt) <= FUZZ_MAX_UNKNOWNS && tb_grid_count(&ckt->ac) <= FUZZ_MAX_POINTS &&
         tb_analyse(ckt, NULL, diag, &res) == TB_OK)
         write_all(ckt, res);
     char buf[256];

@@ -1,0 +1,107 @@
+/* src/wording.c: the English of every enumeration in the results: notes, verdicts, parts, sides, types */
+#include "tbeta.h"
+
+static const char *const note_text[TB_NOTE_COUNT] = {
+    [TB_NOTE_NO_IO] = "no .io directive: A, A_inf, A0, a and the closed-loop -3 dB point are not computed",
+    [TB_NOTE_NOT_IN_LOOP] = "the source never sees its own output: it is not in a loop",
+    [TB_NOTE_DC_FROM_SWEEP] = "the circuit is singular at DC: DC values are those at the lowest sweep frequency",
+    [TB_NOTE_T_INF_DC] = "T is infinite at DC (the circuit with the source's gain at zero is singular there, e.g. an integrator)",
+    [TB_NOTE_POSITIVE_FB_DC] = "T(0) < 0: positive feedback at DC, so phase margin is not defined",
+    [TB_NOTE_NO_UNITY] = "|T| never falls through 1 in the sweep: no unity-gain frequency or phase margin",
+    [TB_NOTE_NO_F3DB] = "|A| never falls 3 dB below its DC value in the sweep",
+    [TB_NOTE_AINF_NONE_DC] = "T has a zero at DC: A_inf is undefined there",
+    [TB_NOTE_FEEDTHROUGH] = "the feedthrough A0/(1+T) is more than 1 % of A at DC: A differs from a/(1+a*beta)",
+};
+_Static_assert(sizeof(note_text) / sizeof(note_text[0]) == TB_NOTE_COUNT, "note_text in step");
+
+const char *tb_note_str(tb_note note)
+{
+    return (unsigned)note < TB_NOTE_COUNT ? note_text[note] : "unknown note";
+}
+
+static const char *const snote_text[TB_SNOTE_COUNT] = {
+    [TB_SNOTE_NO_PHASE_CROSSING] = "the phase of T never reaches -180 degrees (mod 360) in the sweep: no gain margin",
+    [TB_SNOTE_NO_UNITY] = "|T| never crosses 1 in the sweep: no phase or delay margin",
+    [TB_SNOTE_TRUNCATED] = "more crossings than are kept: only the lowest ones are listed",
+    [TB_SNOTE_POLES_TOO_BIG] = "poles not computed: more unknowns than the pole limit",
+    [TB_SNOTE_POLES_FAILED] = "poles not computed: the dense eigenvalue solver did not converge",
+    [TB_SNOTE_NYQUIST_ON_AXIS] = "poles on the j-omega axis: the Nyquist count is not compared",
+    [TB_SNOTE_NYQUIST_ASSUMES_P0] = "verdict from the Nyquist count alone, assuming the circuit with this source's gain at zero is stable",
+    [TB_SNOTE_DELAY_NONPOSITIVE] = "a phase margin is zero or negative: no delay margin",
+    [TB_SNOTE_REFINE_BUDGET] = "adaptive refinement stopped at its budget: a narrow feature may be missed",
+    [TB_SNOTE_PROBE_FAILED] = "a fresh solve found the circuit singular on the j-omega axis (a closed-loop pole there)",
+    [TB_SNOTE_MULTIPLE_UNITY] = "|T| crosses 1 more than once: margins alone do not decide stability, see the poles",
+};
+_Static_assert(sizeof(snote_text) / sizeof(snote_text[0]) == TB_SNOTE_COUNT, "snote_text in step");
+
+const char *tb_stab_note_str(tb_stab_note note)
+{
+    return (unsigned)note < TB_SNOTE_COUNT ? snote_text[note] : "unknown note";
+}
+
+const char *tb_verdict_str(tb_verdict verdict)
+{
+    switch (verdict) {
+    case TB_VERDICT_STABLE:
+        return "stable";
+    case TB_VERDICT_MARGINAL:
+        return "marginal";
+    case TB_VERDICT_UNSTABLE:
+        return "unstable";
+    case TB_VERDICT_DISAGREE:
+        return "poles and Nyquist disagree";
+    case TB_VERDICT_UNKNOWN:
+        break;
+    }
+    return "undecided";
+}
+
+static const char *const part_text[TB_PART_COUNT] = {
+    [TB_PART_LOADING] = "loading",
+    [TB_PART_LOOP_GAIN] = "finite loop gain",
+    [TB_PART_FEEDTHROUGH] = "feedthrough",
+};
+_Static_assert(sizeof(part_text) / sizeof(part_text[0]) == TB_PART_COUNT, "part_text in step");
+
+const char *tb_part_str(tb_part part)
+{
+    return (unsigned)part < TB_PART_COUNT ? part_text[part] : "unknown part";
+}
+
+static const char *const fnote_text[TB_FNOTE_COUNT] = {
+    [TB_FNOTE_NO_IO] = "no .io directive: no breakdown of A and no desensitivity check",
+    [TB_FNOTE_NO_ESTIMATE] = "no .ideal directive: no hand estimate to break the gain error down against",
+    [TB_FNOTE_MISSES_AT_DC] = "the hand estimate misses A by more than the tolerance already at DC",
+    [TB_FNOTE_HOLDS_IN_SWEEP] = "the hand estimate holds within the tolerance over the whole sweep",
+    [TB_FNOTE_POINTS_ABSENT] = "at some frequencies A_inf or T does not exist: no breakdown there",
+    [TB_FNOTE_A_ZERO_DC] = "A = 0 at DC: the relative change of A is not defined",
+    [TB_FNOTE_RESOLVE_FAILED] = "the circuit with the changed amplifier gain is singular at DC: no re-solve",
+};
+_Static_assert(sizeof(fnote_text) / sizeof(fnote_text[0]) == TB_FNOTE_COUNT, "fnote_text in step");
+
+const char *tb_fb_note_str(tb_fb_note note)
+{
+    return (unsigned)note < TB_FNOTE_COUNT ? fnote_text[note] : "unknown note";
+}
+
+static const char *const side_text[] = {"no feedback", "series", "shunt", "mixed"};
+_Static_assert(sizeof(side_text) / sizeof(side_text[0]) == TB_SIDE_MIXED + 1, "side_text in step");
+
+const char *tb_side_str(tb_side side)
+{
+    return (unsigned)side <= TB_SIDE_MIXED ? side_text[side] : "unknown";
+}
+
+static const char *const type_text[] = {
+    [TB_AMP_UNKNOWN] = "not one of the four classic types",
+    [TB_AMP_VOLTAGE] = "voltage amplifier (series-shunt feedback)",
+    [TB_AMP_CURRENT] = "current amplifier (shunt-series feedback)",
+    [TB_AMP_TRANSCONDUCTANCE] = "transconductance amplifier (series-series feedback)",
+    [TB_AMP_TRANSRESISTANCE] = "transresistance amplifier (shunt-shunt feedback)",
+};
+_Static_assert(sizeof(type_text) / sizeof(type_text[0]) == TB_AMP_TRANSRESISTANCE + 1, "type_text in step");
+
+const char *tb_amp_type_str(tb_amp_type type)
+{
+    return (unsigned)type <= TB_AMP_TRANSRESISTANCE ? type_text[type] : "unknown";
+}
