@@ -1,6 +1,6 @@
 #!/bin/sh
-# tests/run.sh: runs every test program in BUILD/tests and the outside-reference scripts,
-# then prints one closing line "tests: N passed, M failed".
+# tests/run.sh: runs every test program in BUILD/tests, the outside-reference scripts and the
+# layer check over BUILD/obj, then prints one closing line "tests: N passed, M failed".
 # Usage: sh tests/run.sh BUILD [WRAPPER]
 build=$1
 wrap=${2:-}
@@ -22,5 +22,10 @@ for s in tests/ref/*.py; do
         failed=$((failed + 1)); echo "FAILED: $s"
     fi
 done
+# module cycles and layer violations (scripts/layers.txt), and the layer check's own test
+if /usr/bin/python3 scripts/layers.py "$build/obj"; then passed=$((passed + 1)); else
+    failed=$((failed + 1)); echo "FAILED: scripts/layers.py $build/obj"; fi
+if sh tests/layers.sh; then passed=$((passed + 1)); else
+    failed=$((failed + 1)); echo "FAILED: tests/layers.sh"; fi
 echo "tests: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]
