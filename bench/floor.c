@@ -33,7 +33,7 @@
 #include "loop.h"
 #include "mna.h"
 #include "solve.h"
-#include "sweep.h"
+#include "grid.h"
 #include "tbeta.h"
 
 static const double TWO_PI = 6.28318530717958647692528676655900577;
@@ -119,7 +119,7 @@ static int setup(bench *b, const char *path)
 /* Grid, work arrays, the first pivoted factorization (tb_solver and bare KLU). */
 static int prepare(bench *b)
 {
-    b->npoints = tb_sweep_count(&b->ckt->ac);
+    b->npoints = tb_grid_count(&b->ckt->ac);
     b->freqs = tb_malloc(b->npoints, sizeof(double));
     b->Mx = tb_malloc(2 * b->mna->nnz, sizeof(double));
     b->rhs = tb_malloc(2 * b->mna->n, sizeof(double complex));
@@ -128,7 +128,7 @@ static int prepare(bench *b)
         return fail("allocation");
     if (tb_loop_work_new(b->mna, &b->work))
         return fail("tb_loop_work_new");
-    tb_sweep_grid(&b->ckt->ac, b->freqs);
+    tb_grid_fill(&b->ckt->ac, b->freqs);
     size_t culprit = 0;
     tb_mna_values(b->mna, TWO_PI * b->freqs[0], b->Mx);
     double t0 = now();

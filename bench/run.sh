@@ -27,7 +27,7 @@ ROOT=$HERE/..
 WARN="-std=c11 -Wall -Wextra -Werror -Wshadow -Wmissing-prototypes -Wstrict-prototypes -Wwrite-strings -Wundef -Wold-style-definition"
 mkdir -p "$DIR"
 
-for prog in floor peakrss; do
+for prog in floor peakrss counts; do
     ${CC:-cc} $WARN -O2 -D_POSIX_C_SOURCE=200809L -I"$ROOT/include" -I"$ROOT/src" -I/usr/include/suitesparse \
         "$HERE/$prog.c" "$BUILD/libtbeta.a" \
         -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -llapack -lblas -lm -o "$DIR/$prog"
@@ -71,6 +71,24 @@ check() {
         }
         END { if (NR != 201) { print "bench: expected 200 rows, got " NR - 1 > "/dev/stderr"; exit 1 } }' "$1"
 }
+
+# counts: the numeric factorizations of M on the grid with and without the per-point
+# analyses (.zport x2, .break, --all-sources): the same, one per point (docs/performance.md)
+counts() {
+    plain=$DIR/counts_plain.net
+    grep -v -i -e '^\.zport' -e '^\.break' "$1" > "$plain"
+    a=$("$DIR/counts" "$plain")
+    b=$("$DIR/counts" "$1" --all-sources)
+    printf '  %-34s %12s %12s\n' "$(basename "$1")" "plain" "all on"
+    for k in grid_points grid_factorizations grid_pivoted grid_solve_columns probe_factorizations step_factorizations; do
+        printf '  %-34s %12s %12s\n' "$k" "$(echo "$a" | awk -v k=$k '$1 == k { print $2 }')" \
+            "$(echo "$b" | awk -v k=$k '$1 == k { print $2 }')"
+    done
+}
+echo "tbeta bench: factorizations of M, plain and with .zport x2, .break and --all-sources"
+counts "$ROOT/tests/fb/noninverting_x20.net"
+counts "$ROOT/tests/fb/noninverting_gain1e7_ports.net"
+[ "${BENCH_COUNTS_ONLY:-0}" = 1 ] && exit 0
 
 echo "tbeta bench: $(nproc) cores, $(awk -F': ' '/^model name/ { print $2; exit }' /proc/cpuinfo)"
 echo "  grid: .ac dec 50 1 9.99k (200 points); times are seconds; best of $RUNS runs"
