@@ -589,6 +589,25 @@ typedef struct {
     double phase_margin_deg; /* 180 + unwrapped phase of T there */
 } tb_break_summary;
 
+/* How the wire-break loop gain compares with a loop's return ratio at the same
+ * point (DC, or the lowest sweep point). */
+typedef enum {
+    TB_BREAK_CMP_NONE = 0,   /* not comparable there: T infinite, or the break's T absent */
+    TB_BREAK_CMP_NO_LOOP,    /* both are 0 (|T| <= 1e-12): no loop at this frequency */
+    TB_BREAK_CMP_UNILATERAL, /* equal to 1e-9 relative: the break sees a unilateral loop */
+    TB_BREAK_CMP_BILATERAL   /* they differ: the wire-break value includes reverse transmission
+                              * around the loop (bilateral elements) that the return ratio excludes */
+} tb_break_compare;
+
+typedef struct {
+    tb_break_compare kind;
+    double complex T_return; /* the loop's return ratio there (when kind is not NONE) */
+    double rel_diff;         /* |T_return - T|/|T| of the break (0 when T is 0) */
+} tb_break_vs_loop;
+
+/* The comparison for loop l (kind NONE without .break). Errors: TB_ERR_USAGE. */
+TB_API tb_status tb_break_vs_loop_get(const tb_result *res, size_t l, tb_break_vs_loop *out);
+
 /* The wire-break loop gain (computed by tb_analyse when the netlist has .break);
  * *pts (when not NULL) points into res, one per sweep frequency. Errors: TB_ERR_USAGE. */
 TB_API tb_status tb_break_get(const tb_result *res, tb_break_summary *out, const tb_break_point **pts);

@@ -34,27 +34,35 @@ static double cross_at(double y0, double y1, double level)
     return y0 == y1 ? 0.0 : (level - y0) / (y1 - y0);
 }
 
-static double interp_logf(double f0, double f1, double t)
+double tb_grid_logf(double f0, double f1, double t)
 {
     return exp(log(f0) + t * (log(f1) - log(f0)));
 }
 
-/* Lowest frequency where |T| falls through 1 (0 dB), interpolated in (log f, dB). */
-static bool find_unity(const tb_result *res, const tb_point *pts, size_t *seg, double *t)
+static double interp_logf(double f0, double f1, double t)
 {
-    for (size_t i = 0; i + 1 < res->npoints; i++) {
-        bool inf0 = pts[i].flags & TB_PT_T_INF;
-        if (pts[i + 1].flags & TB_PT_T_INF)
-            continue;
-        double db0 = inf0 ? INFINITY : tb_db(pts[i].T);
-        double db1 = tb_db(pts[i + 1].T);
-        if (db0 >= 0.0 && db1 < 0.0) {
+    return tb_grid_logf(f0, f1, t);
+}
+
+bool tb_grid_unity(tb_db_fn db_at, const void *ctx, size_t n, size_t *seg, double *t)
+{
+    for (size_t i = 0; i + 1 < n; i++) {
+        double db0 = db_at(ctx, i);
+        double db1 = db_at(ctx, i + 1);
+        if (db0 >= 0.0 && db1 < 0.0) { /* false when either is absent (NaN) */
             *seg = i;
-            *t = inf0 ? 1.0 : cross_at(db0, db1, 0.0);
+            *t = isinf(db0) ? 1.0 : cross_at(db0, db1, 0.0);
             return true;
         }
     }
     return false;
+}
+
+/* |T| of a loop's point in dB, +infinity where T is infinite. */
+static double point_db(const void *ctx, size_t i)
+{
+    const tb_point *pts = ctx;
+    return pts[i].flags & TB_PT_T_INF ? INFINITY : tb_db(pts[i].T);
 }
 
 static bool positive_feedback_dc(const tb_measures *m)
@@ -92,7 +100,7 @@ static void measure_unity(const tb_result *res, size_t l, tb_measures *m)
     const tb_point *pts = tb_result_loop(res, l);
     size_t i = 0;
     double t = 0;
-    if (!find_unity(res, pts, &i, &t)) {
+    if (!tb_grid_unity(point_db, pts, res->npoints, &i, &t)) {
         m->notes |= 1u << TB_NOTE_NO_UNITY;
         return;
     }

@@ -279,20 +279,17 @@ static void break_lines(FILE *out, const tb_result *res, size_t l)
     line(out, "|T| = 1 at", s.has_unity, fmt_hz(s.unity_hz, f, sizeof f), "");
     snprintf(v, sizeof v, "%.2f deg", s.phase_margin_deg);
     line(out, "phase margin at the break", s.has_phase_margin, v, "");
-    tb_point p;
-    bool dc = s.dc_hz == 0 ? tb_result_dc(res, l, &p) : (p = tb_result_loop(res, l)[0], true);
-    if (!dc || (p.flags & TB_PT_T_INF) || !s.dc.has_T)
-        return;
-    double rel = cabs(s.dc.T) > 0 ? cabs(p.T - s.dc.T) / cabs(s.dc.T) : 0;
-    if (cabs(s.dc.T) <= 1e-12 && cabs(p.T) <= 1e-12)
+    tb_break_vs_loop vs;
+    tb_break_vs_loop_get(res, l, &vs);
+    if (vs.kind == TB_BREAK_CMP_NO_LOOP)
         fprintf(out, "    the return ratio at the loop's source is 0 too: no loop at this frequency\n");
-    else if (rel <= 1e-9)
+    else if (vs.kind == TB_BREAK_CMP_UNILATERAL)
         fprintf(out, "    equals the return ratio at the loop's source (%s): the break sees a unilateral loop\n",
-                fmt_value(p.T, v, sizeof v));
-    else
+                fmt_value(vs.T_return, v, sizeof v));
+    else if (vs.kind == TB_BREAK_CMP_BILATERAL)
         fprintf(out, "    return ratio at the loop's source: %s (%.3g %% apart): the wire-break value includes the\n"
                      "    reverse transmission around the loop (bilateral elements) that the return ratio excludes\n",
-                fmt_value(p.T, v, sizeof v), 100.0 * rel);
+                fmt_value(vs.T_return, v, sizeof v), 100.0 * vs.rel_diff);
 }
 
 /* The hand estimate's breakdown and the desensitivity of loop l (docs/feedback.md). */

@@ -45,6 +45,7 @@ static void wb_free(tb_wb_data *wb)
     if (!wb)
         return;
     tb_free(wb->pts);
+    tb_free(wb->vs);
     tb_free(wb);
 }
 
@@ -220,6 +221,14 @@ tb_status tb_feedback_type_loop(const tb_result *res, size_t l, tb_feedback_type
     if (!res || !out || l >= res->nloops)
         return TB_ERR_USAGE;
     *out = res->ftype ? res->ftype[l] : (tb_feedback_type){0};
+    return TB_OK;
+}
+
+tb_status tb_break_vs_loop_get(const tb_result *res, size_t l, tb_break_vs_loop *out)
+{
+    if (!res || !out || l >= res->nloops)
+        return TB_ERR_USAGE;
+    *out = res->wb && res->wb->vs ? res->wb->vs[l] : (tb_break_vs_loop){0};
     return TB_OK;
 }
 

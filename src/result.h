@@ -22,6 +22,7 @@ typedef struct tb_z_data {
 typedef struct tb_wb_data {
     tb_break_summary sum;
     tb_break_point *pts; /* npoints */
+    tb_break_vs_loop *vs; /* nloops: the break against each loop's return ratio */
 } tb_wb_data;
 
 /* Everything tb_analyse found. The analyses fill their parts; the writers and

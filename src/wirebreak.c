@@ -5,7 +5,7 @@
 #include <string.h>
 
 #include "alloc.h"
-#include "units.h"
+#include "measure.h"
 
 
 /* The break source and where it sits in M. */
@@ -79,28 +79,42 @@ tb_status tb_wirebreak_at(void *self, const tb_sweep_point *pt)
     return TB_OK;
 }
 
-/* Lowest frequency where |T| falls through 1, linear in (log f, dB), and the phase margin. */
-static void unity(tb_wb_data *wb, const tb_result *res)
+/* |T| at the break in dB, NAN where it is absent or zero. */
+static double break_db(const void *ctx, size_t i)
 {
-    tb_break_summary *s = &wb->sum;
-    double prev_deg = s->dc.has_T && cabs(s->dc.T) > 0 ? carg(s->dc.T) * TB_DEG_PER_RAD : 0;
-    for (size_t i = 0; i < res->npoints; i++) {
+    const tb_break_point *p = (const tb_break_point *)ctx + i;
+    return p->has_T && cabs(p->T) > 0 ? tb_db(p->T) : NAN;
+}
+
+/* Unwrapped phase of T at the break, from DC through point `through`, over the points where it exists. */
+static void break_phase(const tb_wb_data *wb, size_t through, double *before, double *at)
+{
+    const tb_break_summary *s = &wb->sum;
+    double prev = s->dc.has_T && cabs(s->dc.T) > 0 ? carg(s->dc.T) * TB_DEG_PER_RAD : 0;
+    *before = prev;
+    for (size_t i = 0; i <= through; i++) {
         const tb_break_point *p = &wb->pts[i];
         if (!p->has_T || cabs(p->T) == 0)
             continue;
-        double deg = prev_deg + tb_wrap180(carg(p->T) * TB_DEG_PER_RAD - prev_deg);
-        if (i > 0 && wb->pts[i - 1].has_T && cabs(wb->pts[i - 1].T) >= 1.0 && cabs(p->T) < 1.0) {
-            double d0 = tb_db(wb->pts[i - 1].T), d1 = tb_db(p->T);
-            double t = d0 == d1 ? 0 : d0 / (d0 - d1);
-            double f0 = res->freqs[i - 1], f1 = res->freqs[i];
-            s->has_unity = true;
-            s->unity_hz = exp(log(f0) + t * (log(f1) - log(f0)));
-            s->has_phase_margin = true;
-            s->phase_margin_deg = 180.0 + prev_deg + t * (deg - prev_deg);
-            return;
-        }
-        prev_deg = deg;
+        *before = prev;
+        prev += tb_wrap180(carg(p->T) * TB_DEG_PER_RAD - prev);
     }
+    *at = prev;
+}
+
+/* Lowest frequency where |T| falls through 1, linear in (log f, dB), and the phase margin. */
+static void unity(tb_wb_data *wb, const tb_result *res)
+{
+    size_t seg = 0;
+    double t = 0, d0 = 0, d1 = 0;
+    if (!tb_grid_unity(break_db, wb->pts, res->npoints, &seg, &t))
+        return;
+    break_phase(wb, seg + 1, &d0, &d1);
+    tb_break_summary *s = &wb->sum;
+    s->has_unity = true;
+    s->unity_hz = tb_grid_logf(res->freqs[seg], res->freqs[seg + 1], t);
+    s->has_phase_margin = true;
+    s->phase_margin_deg = 180.0 + d0 + t * (d1 - d0);
 }
 
 void tb_wirebreak_free(tb_wirebreak *w)
@@ -109,6 +123,7 @@ void tb_wirebreak_free(tb_wirebreak *w)
         return;
     if (w->wb) {
         tb_free(w->wb->pts);
+        tb_free(w->wb->vs);
         tb_free(w->wb);
     }
     tb_free(w->S);
@@ -126,8 +141,10 @@ tb_status tb_wirebreak_begin(const tb_circuit *ckt, const tb_mna *mna, size_t np
     w->wb = tb_calloc(1, sizeof(tb_wb_data));
     if (w->wb)
         w->wb->pts = tb_calloc(npoints ? npoints : 1, sizeof(tb_break_point));
+    if (w->wb)
+        w->wb->vs = tb_calloc(mna->loop_count ? mna->loop_count : 1, sizeof(tb_break_vs_loop));
     w->S = tb_malloc(2 * mna->n, sizeof(double complex));
-    if (!w->wb || !w->wb->pts || !w->S) {
+    if (!w->wb || !w->wb->pts || !w->wb->vs || !w->S) {
         tb_wirebreak_free(w);
         return TB_ERR_NOMEM;
     }
@@ -135,6 +152,22 @@ tb_status tb_wirebreak_begin(const tb_circuit *ckt, const tb_mna *mna, size_t np
                                     .node_y = ckt->node_names[w->b.y]};
     *out = w;
     return TB_OK;
+}
+
+/* The break's T against loop l's return ratio at the same point. */
+static tb_break_vs_loop versus_loop(const tb_break_summary *s, const tb_result *res, size_t l)
+{
+    tb_break_vs_loop vs = {0};
+    double hz = 0;
+    tb_point p = tb_result_dc_or_first(res, l, &hz);
+    if ((p.flags & TB_PT_T_INF) || !s->dc.has_T)
+        return vs;
+    vs.T_return = p.T;
+    vs.rel_diff = cabs(s->dc.T) > 0 ? cabs(p.T - s->dc.T) / cabs(s->dc.T) : 0;
+    vs.kind = cabs(s->dc.T) <= 1e-12 && cabs(p.T) <= 1e-12 ? TB_BREAK_CMP_NO_LOOP
+              : vs.rel_diff <= 1e-9                       ? TB_BREAK_CMP_UNILATERAL
+                                                          : TB_BREAK_CMP_BILATERAL;
+    return vs;
 }
 
 void tb_wirebreak_end(tb_wirebreak *w, tb_result *res)
@@ -145,6 +178,8 @@ void tb_wirebreak_end(tb_wirebreak *w, tb_result *res)
         wb->sum.dc_hz = res->freqs[0];
     }
     unity(wb, res);
+    for (size_t l = 0; l < res->nloops; l++)
+        wb->vs[l] = versus_loop(&wb->sum, res, l);
     res->wb = wb;
     w->wb = NULL;
 }
