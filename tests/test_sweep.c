@@ -57,6 +57,27 @@ static void test_sweep_one_factorization_per_point(void **state)
     assert_true(all.grid_solve_columns > plain.grid_solve_columns);
 }
 
+/* The stage's circuit and a sweep over it. */
+typedef struct {
+    tb_circuit *ckt;
+    tb_diag *diag;
+    tb_sweep *sw;
+} fixture;
+
+static fixture open_stage(void)
+{
+    fixture fx = {tu_parse(STAGE ".end\n"), tb_diag_new(), NULL};
+    assert_int_equal(tb_sweep_new(fx.ckt, 1e-6, fx.diag, &fx.sw), TB_OK);
+    return fx;
+}
+
+static void close_stage(fixture *fx)
+{
+    tb_sweep_free(fx->sw);
+    tb_diag_free(fx->diag);
+    tb_circuit_free(fx->ckt);
+}
+
 typedef struct {
     size_t calls;
     size_t dc_calls;
@@ -82,10 +103,8 @@ static tb_status count_point(void *self, const tb_sweep_point *pt)
 static void test_sweep_hooks_see_every_point_once(void **state)
 {
     (void)state;
-    tb_circuit *ckt = tu_parse(STAGE ".end\n");
-    tb_diag *diag = tb_diag_new();
-    tb_sweep *sw = NULL;
-    assert_int_equal(tb_sweep_new(ckt, 1e-6, diag, &sw), TB_OK);
+    fixture fx = open_stage();
+    tb_sweep *sw = fx.sw;
     double f[5] = {10, 100, 1e3, 1e4, 1e5};
     counter a = {0, 0, 0, true}, b = {0, 0, 0, true};
     tb_sweep_hook hooks[2] = {{&a, count_point}, {&b, count_point}};
@@ -97,9 +116,7 @@ static void test_sweep_hooks_see_every_point_once(void **state)
     assert_int_equal(a.dc_calls, 1);
     assert_int_equal(b.calls, 6);
     assert_int_equal(tb_sweep_counts(sw).numeric, 6);
-    tb_sweep_free(sw);
-    tb_diag_free(diag);
-    tb_circuit_free(ckt);
+    close_stage(&fx);
 }
 
 static tb_status fail_at_third(void *self, const tb_sweep_point *pt)
@@ -112,29 +129,23 @@ static tb_status fail_at_third(void *self, const tb_sweep_point *pt)
 static void test_sweep_hook_error_stops(void **state)
 {
     (void)state;
-    tb_circuit *ckt = tu_parse(STAGE ".end\n");
-    tb_diag *diag = tb_diag_new();
-    tb_sweep *sw = NULL;
-    assert_int_equal(tb_sweep_new(ckt, 1e-6, diag, &sw), TB_OK);
+    fixture fx = open_stage();
+    tb_sweep *sw = fx.sw;
     double f[5] = {10, 100, 1e3, 1e4, 1e5};
     counter a = {0, 0, 0, true};
     tb_sweep_hook hooks[2] = {{NULL, fail_at_third}, {&a, count_point}};
     bool has_dc = false;
     assert_int_equal(tb_sweep_run(sw, f, 5, true, hooks, 2, &has_dc), TB_ERR_NUMERIC);
     assert_int_equal(a.calls, 3); /* DC, 0, 1 */
-    tb_sweep_free(sw);
-    tb_diag_free(diag);
-    tb_circuit_free(ckt);
+    close_stage(&fx);
 }
 
 /* The probe does not factor the matrix the solver already holds. */
 static void test_sweep_probe_reuses_what_it_holds(void **state)
 {
     (void)state;
-    tb_circuit *ckt = tu_parse(STAGE ".end\n");
-    tb_diag *diag = tb_diag_new();
-    tb_sweep *sw = NULL;
-    assert_int_equal(tb_sweep_new(ckt, 1e-6, diag, &sw), TB_OK);
+    fixture fx = open_stage();
+    tb_sweep *sw = fx.sw;
     tb_probe *probe = tb_sweep_probe(sw);
     size_t culprit = 0;
     assert_int_equal(tb_probe_eval(probe, 1234.5, &culprit), TB_OK);
@@ -147,9 +158,7 @@ static void test_sweep_probe_reuses_what_it_holds(void **state)
     assert_int_equal(tb_sweep_counts(sw).numeric, numeric + 1);
     assert_int_equal(tb_probe_eval(probe, 99.0, &culprit), TB_OK);
     assert_int_equal(tb_sweep_counts(sw).numeric, numeric + 2);
-    tb_sweep_free(sw);
-    tb_diag_free(diag);
-    tb_circuit_free(ckt);
+    close_stage(&fx);
 }
 
 int main(void)
