@@ -314,23 +314,6 @@ tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop)
     return TB_OK;
 }
 
-const char *tb_circuit_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size_t size)
-{
-    size_t nodes = ckt->node_count - 1;
-    if (i < nodes) {
-        snprintf(buf, size, "node '%s'", ckt->node_names[i + 1]);
-        return buf;
-    }
-    for (size_t e = 0; e < ckt->elem_count; e++) {
-        if (ckt->elems[e].branch >= 0 && (size_t)ckt->elems[e].branch == i - nodes) {
-            snprintf(buf, size, "the branch current of %s", ckt->elems[e].name);
-            return buf;
-        }
-    }
-    snprintf(buf, size, "unknown %zu", i);
-    return buf;
-}
-
 /* ---- validation after parsing ------------------------------------------ */
 
 typedef struct {
@@ -786,7 +769,3 @@ size_t tb_circuit_node_count(const tb_circuit *ckt)
     return ckt ? ckt->node_count : 0;
 }
 
-size_t tb_circuit_unknowns(const tb_circuit *ckt)
-{
-    return ckt ? ckt->node_count - 1 + ckt->branch_count : 0;
-}

@@ -213,8 +213,6 @@ const char *tb_circuit_source_line(const tb_circuit *ckt, const char *file, int 
  * warning), branch numbering. Source lines are quoted through tb_circuit_source_line.
  * Errors go to diag; TB_ERR_INPUT if any. */
 tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag);
-/* Name of MNA unknown i: a node name, or "i(NAME)" for a branch current, in buf. */
-const char *tb_circuit_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size_t size);
 /* true for the controlled sources E, G, F, H (the ones a loop can be broken at). */
 bool tb_elem_is_controlled(tb_elem_kind kind);
 /* "resistor", "voltage-controlled voltage source" and the like. */

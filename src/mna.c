@@ -4,6 +4,7 @@
 #include <limits.h>
 #include <math.h>
 #include <stdint.h>
+#include <stdio.h>
 #include <string.h>
 
 #include "alloc.h"
@@ -33,6 +34,28 @@ size_t tb_mna_node_unknown(int node)
 size_t tb_mna_branch_unknown(const tb_circuit *ckt, const tb_element *e)
 {
     return ckt->node_count - 1 + (size_t)e->branch;
+}
+
+size_t tb_circuit_unknowns(const tb_circuit *ckt)
+{
+    return ckt ? ckt->node_count - 1 + ckt->branch_count : 0;
+}
+
+const char *tb_mna_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size_t size)
+{
+    size_t nodes = ckt->node_count - 1;
+    if (i < nodes) {
+        snprintf(buf, size, "node '%s'", ckt->node_names[i + 1]);
+        return buf;
+    }
+    for (size_t e = 0; e < ckt->elem_count; e++) {
+        if (ckt->elems[e].branch >= 0 && (size_t)ckt->elems[e].branch == i - nodes) {
+            snprintf(buf, size, "the branch current of %s", ckt->elems[e].name);
+            return buf;
+        }
+    }
+    snprintf(buf, size, "unknown %zu", i);
+    return buf;
 }
 
 static size_t node_unknown(int node)

@@ -57,6 +57,8 @@ void tb_mna_free(tb_mna *mna);
  * none: SIZE_MAX); the branch currents of V, L, E, H follow the nodes. */
 size_t tb_mna_node_unknown(int node);
 size_t tb_mna_branch_unknown(const tb_circuit *ckt, const tb_element *e);
+/* What MNA unknown i is, for people: "node 'NAME'" or "the branch current of NAME", in buf. */
+const char *tb_mna_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size_t size);
 
 /* u, v and k of controlled source elem (tb_elem_is_controlled): M = M0 + k u v'
  * (design.md "The algebra"); own_* are left empty (tb_mna_build fills them for

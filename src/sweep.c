@@ -83,7 +83,7 @@ static tb_status singular_diag(const tb_sweep *s, tb_severity sev, double f, siz
     char at[64];
     tb_format_hz(f, 6, at, sizeof at);
     char name[256];
-    tb_circuit_unknown_name(s->ckt, culprit, name, sizeof name);
+    tb_mna_unknown_name(s->ckt, culprit, name, sizeof name);
     tb_status st = tb_diag_add(s->diag, sev, s->ckt->file, 0, 0, NULL, 0,
                                "the circuit matrix is singular at %s (zero pivot at %s): element "
                                "values make the equations dependent there, e.g. a loop whose "

@@ -25,7 +25,7 @@ struct tb_wirebreak {
 
 static double complex node_v(const double complex *s, int node)
 {
-    return node == 0 ? 0 : s[node - 1];
+    return node == 0 ? 0 : s[tb_mna_node_unknown(node)];
 }
 
 /* Tv, Ti and T from s1 (1 V injected: v_x - v_y = 1) and s2 (1 A injected). */
