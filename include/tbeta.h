@@ -215,13 +215,62 @@ typedef struct {
     bool has_phase_margin;
     double phase_margin_deg; /* 180 + unwrapped phase of T at unity_hz */
     bool has_f3db;
-    double f3db_closed_hz;  /* lowest frequency where |A| < |A(0)|/sqrt(2) */
+    double f3db_closed_hz;  /* the closed-loop -3 dB frequency: where |A| falls through
+                             * |A_ref|/sqrt(2) above the reference (tb_closed_loop) */
+    bool has_mid;           /* AC-coupled (A(0) = 0): the loop at midband */
+    tb_point mid;
+    double mid_hz;
+    tb_dc_figures mid_fig;  /* derived from mid as fig is from dc */
+    bool has_max_sensitivity; /* the stability analysis found the vector margin */
+    double max_sensitivity_db; /* largest |1/(1+T)| = 1/vector margin, in dB */
+    double max_sensitivity_hz;
     unsigned notes;
 } tb_measures;
 
 /* Measures of loop l (computed once by tb_analyse). Errors: TB_ERR_USAGE (NULL,
  * l out of range). */
 TB_API tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out);
+
+/* ---- closed-loop response |A(j w)| ------------------------------------ */
+
+/* Reasons a closed-loop figure is absent or qualified (bits 1u << tb_cl_note). */
+typedef enum {
+    TB_CNOTE_NO_IO = 0,      /* no .io: no closed-loop gain */
+    TB_CNOTE_AC_COUPLED,     /* A(0) = 0: gains are referred to midband, where |A| is largest */
+    TB_CNOTE_EDGE_OUTSIDE,   /* a -3 dB edge lies outside the sweep (found by searching beyond it) */
+    TB_CNOTE_NO_HIGH_EDGE,   /* |A| does not fall 3 dB below the reference up to 6 decades above the sweep */
+    TB_CNOTE_NO_LOW_EDGE,    /* AC-coupled: |A| does not fall 3 dB below midband down to 6 decades below */
+    TB_CNOTE_PROBE_FAILED,   /* a fresh solve failed (matrix singular on the axis): an edge is left out */
+    TB_CNOTE_COUNT
+} tb_cl_note;
+
+/* A short English sentence for a note; never NULL. */
+TB_API const char *tb_cl_note_str(tb_cl_note note);
+
+/* The closed-loop gain A(j w) of the .io pair, the same for every loop: its
+ * reference (DC, or midband when A(0) = 0), the -3 dB band edges and the
+ * peaking, each found by root finding or minimization on fresh solves
+ * (bracketed on the sweep grid, and beyond it up to 6 decades). */
+typedef struct {
+    bool computed;           /* .io given */
+    bool ac_coupled;         /* |A(0)| <= 1e-9 of the largest |A| on the grid */
+    double ref_hz;           /* 0 (DC), the lowest sweep point when DC is singular, or midband */
+    double complex A_ref;    /* A there */
+    bool has_low_edge;       /* AC-coupled only: |A| rises through |A_ref|/sqrt 2 */
+    double low_edge_hz;
+    bool low_edge_outside;   /* below the sweep */
+    bool has_high_edge;      /* |A| falls through |A_ref|/sqrt 2 above the reference */
+    double high_edge_hz;
+    bool high_edge_outside;  /* above the sweep (or between DC and the first point) */
+    bool has_peak;           /* |A| rises above |A_ref| by more than 0.001 dB (not when AC-coupled:
+                              * the reference is then the peak) */
+    double peak_hz;
+    double peak_db;          /* 20 log10 (max |A| / |A_ref|) */
+    unsigned notes;
+} tb_closed_loop;
+
+/* The closed-loop figures (computed by tb_analyse). Errors: TB_ERR_USAGE (NULL). */
+TB_API tb_status tb_closed_loop_get(const tb_result *res, tb_closed_loop *out);
 
 /* ---- stability ------------------------------------------------------ */
 

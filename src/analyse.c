@@ -1,6 +1,7 @@
 /* src/analyse.c: the analysis driver, the one file that knows every analysis and the order they run in */
 #include "alloc.h"
 #include "census.h"
+#include "closedloop.h"
 #include "feedback.h"
 #include "feedback_type.h"
 #include "grid.h"
@@ -94,6 +95,8 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
     }
     if (!st)
         st = tb_feedback_run(ckt, probe, res);
+    if (!st)
+        st = tb_closed_loop_run(probe, res);
     res->stats.probe_factorizations = probe->factorizations;
     size_t before = tb_sweep_counts(sw).numeric;
     if (!st && opt->stability)

@@ -115,30 +115,27 @@ static void measure_unity(const tb_result *res, size_t l, tb_measures *m)
     m->phase_margin_deg = 180.0 + deg[i] + t * (deg[i + 1] - deg[i]);
 }
 
-static void measure_f3db(const tb_result *res, size_t l, tb_measures *m)
+static void measure_f3db(const tb_result *res, tb_measures *m)
 {
-    const tb_point *pts = tb_result_loop(res, l);
-    double ref = cabs(m->dc.A);
     if (!res->has_io) {
         m->notes |= 1u << TB_NOTE_NO_IO;
         return;
     }
-    if (ref > 0) {
-        double level = tb_db(m->dc.A) - 10.0 * log10(2.0);
-        double prev = tb_db(m->dc.A);
-        for (size_t i = 0; i < res->npoints; i++) {
-            double db = tb_db(pts[i].A);
-            if (prev >= level && db < level) {
-                double f0 = i == 0 ? res->freqs[0] : res->freqs[i - 1];
-                m->has_f3db = true;
-                m->f3db_closed_hz = i == 0 ? res->freqs[0]
-                                           : interp_logf(f0, res->freqs[i], cross_at(prev, db, level));
-                return;
-            }
-            prev = db;
-        }
-    }
-    m->notes |= 1u << TB_NOTE_NO_F3DB;
+    m->has_f3db = res->cl.has_high_edge;
+    m->f3db_closed_hz = res->cl.high_edge_hz;
+    if (!m->has_f3db)
+        m->notes |= 1u << TB_NOTE_NO_F3DB;
+}
+
+/* The largest sensitivity |1/(1+T)|, 1/(vector margin). */
+static void measure_sensitivity(const tb_result *res, size_t l, tb_measures *m)
+{
+    const tb_stability *st = res->stab ? &res->stab[l] : NULL;
+    if (!st || !st->computed || !st->has_vector_margin || !(st->vector_margin > 0))
+        return;
+    m->has_max_sensitivity = true;
+    m->max_sensitivity_db = -20.0 * log10(st->vector_margin);
+    m->max_sensitivity_hz = st->vector_margin_hz;
 }
 
 /* What exists at the DC point, and beta and the gain error, once for every reader. */
@@ -202,7 +199,14 @@ tb_status tb_measure_run(tb_result *res)
         tb_measures *m = &res->measures[l];
         measure_dc(res, l, m);
         measure_unity(res, l, m);
-        measure_f3db(res, l, m);
+        measure_f3db(res, m);
+        measure_sensitivity(res, l, m);
+        if (res->mid) {
+            m->has_mid = true;
+            m->mid = res->mid[l];
+            m->mid_hz = res->cl.ref_hz;
+            m->mid_fig = dc_figures(&m->mid);
+        }
     }
     return TB_OK;
 }

@@ -31,23 +31,39 @@ static void set(builder *b, json_t *obj, const char *key, json_t *val)
         b->ok = false;
 }
 
-static json_t *dc_object(builder *b, const tb_measures *m)
+/* A loop's gains at one point (DC, or midband) and the figures derived from them. */
+static json_t *gains_object(builder *b, const tb_point *p, const tb_dc_figures *fig)
 {
     json_t *dc = json_object();
     if (!dc) {
         b->ok = false;
         return NULL;
     }
-    const tb_dc_figures *fig = &m->fig;
-    set(b, dc, "T", cnum(fig->has_T, m->dc.T));
+    set(b, dc, "T", cnum(fig->has_T, p->T));
     set(b, dc, "T_db", fig->has_T_db ? num(fig->T_db) : json_null());
-    set(b, dc, "a", cnum(fig->has_a, m->dc.a));
+    set(b, dc, "a", cnum(fig->has_a, p->a));
     set(b, dc, "beta", cnum(fig->has_beta, fig->beta));
-    set(b, dc, "A_inf", cnum(fig->has_A_inf, m->dc.A_inf));
-    set(b, dc, "A0", cnum(fig->has_A0, m->dc.A0));
-    set(b, dc, "A", cnum(fig->has_A, m->dc.A));
+    set(b, dc, "A_inf", cnum(fig->has_A_inf, p->A_inf));
+    set(b, dc, "A0", cnum(fig->has_A0, p->A0));
+    set(b, dc, "A", cnum(fig->has_A, p->A));
     set(b, dc, "gain_error_pct", cnum(fig->has_gain_error, fig->gain_error_pct));
     return dc;
+}
+
+static json_t *dc_object(builder *b, const tb_measures *m)
+{
+    return gains_object(b, &m->dc, &m->fig);
+}
+
+/* AC-coupled: the loop at midband; null otherwise. */
+static json_t *midband_object(builder *b, const tb_measures *m)
+{
+    if (!m->has_mid)
+        return json_null();
+    json_t *o = gains_object(b, &m->mid, &m->mid_fig);
+    if (o)
+        set(b, o, "hz", num(m->mid_hz));
+    return o;
 }
 
 static json_t *notes_array(builder *b, unsigned notes)
@@ -380,6 +396,9 @@ static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *r
     if (st.computed)
         stability_keys(b, lp, &st);
     set(b, lp, "f3db_closed_hz", m.has_f3db ? num(m.f3db_closed_hz) : json_null());
+    set(b, lp, "midband", midband_object(b, &m));
+    set(b, lp, "max_sensitivity_db", m.has_max_sensitivity ? num(m.max_sensitivity_db) : json_null());
+    set(b, lp, "max_sensitivity_hz", m.has_max_sensitivity ? num(m.max_sensitivity_hz) : json_null());
     set(b, lp, "feedback", feedback_object(b, ckt, res, l));
     set(b, lp, "notes", notes_all(b, m.notes, &st));
     return lp;
@@ -404,6 +423,38 @@ static json_t *sweep_object(builder *b, const tb_circuit *ckt, const tb_result *
 static json_t *opt_num(bool present, double x)
 {
     return present ? num(x) : json_null();
+}
+
+/* The closed-loop response |A(jw)|: reference, -3 dB edges, peaking (null without .io). */
+static json_t *closed_loop_object(builder *b, const tb_result *res)
+{
+    tb_closed_loop cl;
+    tb_closed_loop_get(res, &cl);
+    if (!cl.computed)
+        return json_null();
+    json_t *o = obj(b);
+    json_t *notes = json_array();
+    if (!o || !notes) {
+        json_decref(o);
+        json_decref(notes);
+        b->ok = false;
+        return NULL;
+    }
+    set(b, o, "ac_coupled", json_boolean(cl.ac_coupled));
+    set(b, o, "ref_hz", num(cl.ref_hz));
+    set(b, o, "A_ref", cnum(true, cl.A_ref));
+    set(b, o, "low_edge_hz", cl.has_low_edge ? num(cl.low_edge_hz) : json_null());
+    set(b, o, "low_edge_outside_sweep", json_boolean(cl.low_edge_outside));
+    set(b, o, "high_edge_hz", cl.has_high_edge ? num(cl.high_edge_hz) : json_null());
+    set(b, o, "high_edge_outside_sweep", json_boolean(cl.high_edge_outside));
+    set(b, o, "peak_hz", cl.has_peak ? num(cl.peak_hz) : json_null());
+    set(b, o, "peak_db", cl.has_peak ? num(cl.peak_db) : json_null());
+    for (int n = 0; n < TB_CNOTE_COUNT; n++)
+        if (cl.notes & (1u << n))
+            if (json_array_append_new(notes, json_string(tb_cl_note_str((tb_cl_note)n))))
+                b->ok = false;
+    set(b, o, "notes", notes);
+    return o;
 }
 
 /* The closed-loop step response's figures (the samples: tbeta step NETLIST). */
@@ -505,6 +556,7 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
             b->ok = false;
     }
     set(b, root, "loops", loops);
+    set(b, root, "closed_loop", closed_loop_object(b, res));
     if (tb_result_has_stability(res))
         set(b, root, "step_response", step_object(b, res));
     if (tb_result_has_census(res))

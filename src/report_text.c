@@ -34,26 +34,56 @@ static void line(FILE *out, const char *label, bool present, const char *value, 
     fprintf(out, "    %-30s %s%s\n", label, present ? value : "--", present ? extra : "");
 }
 
-static void dc_block(FILE *out, const tb_measures *m)
+/* The loop's gains at one point (DC, or midband) with the figures derived from them. */
+static void gain_lines(FILE *out, const tb_point *p, const tb_dc_figures *fig)
 {
     char v[96], extra[96];
-    const tb_dc_figures *fig = &m->fig;
+    snprintf(extra, sizeof extra, "   (%+.2f dB)", fig->T_db);
+    line(out, "loop gain T (return ratio)", true, fig->has_T ? fmt_value(p->T, v, sizeof v) : "infinite",
+         fig->has_T_db ? extra : "");
+    line(out, "open-loop gain a = A_inf*T", fig->has_a, fmt_value(p->a, v, sizeof v), "");
+    line(out, "loaded feedback beta = 1/A_inf", fig->has_beta, fmt_value(fig->beta, v, sizeof v), "");
+    line(out, "ideal gain A_inf", fig->has_A_inf, fmt_value(p->A_inf, v, sizeof v), "");
+    double scale = fmax(cabs(p->A), cabs(p->A_inf));
+    line(out, "feedthrough A0", fig->has_A0, fmt_value(denoise(p->A0, scale), v, sizeof v), "");
+    line(out, "closed-loop gain A", fig->has_A, fmt_value(p->A, v, sizeof v), "");
+    snprintf(v, sizeof v, "%+.4g %%", creal(fig->gain_error_pct));
+    line(out, "gain error (A - A_inf)/A_inf", fig->has_gain_error, v, "");
+}
+
+static void dc_block(FILE *out, const tb_measures *m)
+{
+    char v[96];
     if (m->dc_hz == 0.0)
         fprintf(out, "  at DC (f = 0)\n");
     else
         fprintf(out, "  at the lowest sweep point (f = %s; DC is singular)\n",
                 fmt_hz(m->dc_hz, v, sizeof v));
-    snprintf(extra, sizeof extra, "   (%+.2f dB)", fig->T_db);
-    line(out, "loop gain T (return ratio)", true, fig->has_T ? fmt_value(m->dc.T, v, sizeof v) : "infinite",
-         fig->has_T_db ? extra : "");
-    line(out, "open-loop gain a = A_inf*T", fig->has_a, fmt_value(m->dc.a, v, sizeof v), "");
-    line(out, "loaded feedback beta = 1/A_inf", fig->has_beta, fmt_value(fig->beta, v, sizeof v), "");
-    line(out, "ideal gain A_inf", fig->has_A_inf, fmt_value(m->dc.A_inf, v, sizeof v), "");
-    double scale = fmax(cabs(m->dc.A), cabs(m->dc.A_inf));
-    line(out, "feedthrough A0", fig->has_A0, fmt_value(denoise(m->dc.A0, scale), v, sizeof v), "");
-    line(out, "closed-loop gain A", fig->has_A, fmt_value(m->dc.A, v, sizeof v), "");
-    snprintf(v, sizeof v, "%+.4g %%", creal(fig->gain_error_pct));
-    line(out, "gain error (A - A_inf)/A_inf", fig->has_gain_error, v, "");
+    gain_lines(out, &m->dc, &m->fig);
+    if (m->has_mid) {
+        fprintf(out, "  at midband (f = %s, where |A| is largest; A(0) = 0: AC-coupled)\n",
+                fmt_hz(m->mid_hz, v, sizeof v));
+        gain_lines(out, &m->mid, &m->mid_fig);
+    }
+}
+
+/* The closed-loop response beyond the -3 dB point: the low edge, peaking, the largest sensitivity. */
+static void closed_loop_lines(FILE *out, const tb_result *res, const tb_measures *m)
+{
+    char v[96], f[64];
+    tb_closed_loop cl;
+    tb_closed_loop_get(res, &cl);
+    if (cl.computed && cl.ac_coupled)
+        line(out, "closed-loop low -3 dB edge", cl.has_low_edge, fmt_hz(cl.low_edge_hz, v, sizeof v),
+             cl.low_edge_outside ? " (below the sweep)" : "");
+    if (cl.computed && cl.high_edge_outside)
+        fprintf(out, "      (the -3 dB edge lies outside the sweep; found by searching beyond it)\n");
+    if (cl.computed && !cl.ac_coupled) {
+        snprintf(v, sizeof v, "%+.3f dB at %s", cl.peak_db, fmt_hz(cl.peak_hz, f, sizeof f));
+        line(out, "peaking of |A| over A(0)", cl.has_peak, v, "");
+    }
+    snprintf(v, sizeof v, "%+.2f dB at %s", m->max_sensitivity_db, fmt_hz(m->max_sensitivity_hz, f, sizeof f));
+    line(out, "largest |1/(1+T)| = 1/min|1+T|", m->has_max_sensitivity, v, "");
 }
 
 static void crossing_block(FILE *out, const tb_measures *m)
@@ -324,12 +354,15 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
     fprintf(out, "\nloop at %s (%s, gain %.6g)\n", e->name, tb_elem_kind_word(e->kind), e->value);
     dc_block(out, &m);
     crossing_block(out, &m);
+    closed_loop_lines(out, res, &m);
     feedback_block(out, ckt, res, l);
     tb_stability stab;
     tb_stability_loop(res, l, &stab);
     if (stab.computed)
         stability_block(out, &stab);
-    if (m.notes || stab.notes) {
+    tb_closed_loop cl;
+    tb_closed_loop_get(res, &cl);
+    if (m.notes || stab.notes || (cl.notes & ~(1u << TB_CNOTE_NO_IO))) {
         fprintf(out, "  notes\n");
         for (int n = 0; n < TB_NOTE_COUNT; n++)
             if (m.notes & (1u << n))
@@ -337,6 +370,9 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
         for (int n = 0; n < TB_SNOTE_COUNT; n++)
             if (stab.notes & (1u << n))
                 fprintf(out, "    - %s\n", tb_stab_note_str((tb_stab_note)n));
+        for (int n = 0; n < TB_CNOTE_COUNT; n++)
+            if ((cl.notes & (1u << n)) && n != TB_CNOTE_NO_IO)
+                fprintf(out, "    - %s\n", tb_cl_note_str((tb_cl_note)n));
     }
     return TB_OK;
 }

@@ -66,6 +66,7 @@ void tb_result_free(tb_result *res)
     zp_free(res->zp);
     wb_free(res->wb);
     tb_free(res->ftype);
+    tb_free(res->mid);
     tb_free(res);
 }
 
@@ -143,6 +144,14 @@ tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out)
     if (!res || !out || l >= res->nloops || !res->measures)
         return TB_ERR_USAGE;
     *out = res->measures[l];
+    return TB_OK;
+}
+
+tb_status tb_closed_loop_get(const tb_result *res, tb_closed_loop *out)
+{
+    if (!res || !out)
+        return TB_ERR_USAGE;
+    *out = res->cl;
     return TB_OK;
 }
 

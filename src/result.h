@@ -48,6 +48,8 @@ struct tb_result {
     tb_z_data *zp;    /* .zport impedances, or NULL */
     tb_wb_data *wb;   /* .break loop gain, or NULL */
     tb_feedback_type *ftype; /* nloops: series/shunt topology, or NULL */
+    tb_closed_loop cl;       /* closed-loop response (closedloop.c) */
+    tb_point *mid;           /* nloops: every loop at cl.ref_hz when AC-coupled, else NULL */
 };
 
 /* A result for npoints frequencies and nloops loops, freqs and the point table

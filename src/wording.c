@@ -105,3 +105,18 @@ const char *tb_amp_type_str(tb_amp_type type)
 {
     return (unsigned)type <= TB_AMP_TRANSRESISTANCE ? type_text[type] : "unknown";
 }
+
+static const char *const cnote_text[TB_CNOTE_COUNT] = {
+    [TB_CNOTE_NO_IO] = "no .io directive: no closed-loop gain",
+    [TB_CNOTE_AC_COUPLED] = "A(0) = 0 (AC-coupled): A, A_inf, beta and the gain error are referred to midband, where |A| is largest",
+    [TB_CNOTE_EDGE_OUTSIDE] = "a -3 dB edge lies outside the sweep; it was found by searching beyond the sweep",
+    [TB_CNOTE_NO_HIGH_EDGE] = "|A| does not fall 3 dB below its reference up to six decades above the sweep",
+    [TB_CNOTE_NO_LOW_EDGE] = "|A| does not fall 3 dB below midband down to six decades below the sweep",
+    [TB_CNOTE_PROBE_FAILED] = "a fresh solve found the circuit singular on the j-omega axis: a -3 dB edge is left out",
+};
+_Static_assert(sizeof(cnote_text) / sizeof(cnote_text[0]) == TB_CNOTE_COUNT, "cnote_text in step");
+
+const char *tb_cl_note_str(tb_cl_note note)
+{
+    return (unsigned)note < TB_CNOTE_COUNT ? cnote_text[note] : "unknown note";
+}
