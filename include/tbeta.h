@@ -396,12 +396,23 @@ typedef struct {
     bool t_infinite;          /* T is infinite somewhere (the source's gain at zero is singular) */
     size_t unity_count;
     double unity_hz[TB_CENSUS_CROSSINGS];   /* |T| = 1, by Brent on fresh solves */
-    double margin_deg[TB_CENSUS_CROSSINGS]; /* phase margin there, wrapped into (-180, 180] */
+    double margin_deg[TB_CENSUS_CROSSINGS]; /* 180 + phase there, wrapped into (-180, 180] */
+    bool unity_falling[TB_CENSUS_CROSSINGS]; /* |T| falls through 1 there (else it rises) */
     bool has_phase_margin;
-    double phase_margin_deg;  /* worst of them */
-    const char *same_loop_as; /* a marked source with the same T (the same single loop), or NULL */
+    double phase_margin_deg;  /* worst of the margins where |T| falls through 1 */
+    bool has_T_dc;
+    double complex T_dc;      /* T at DC (or the lowest sweep point), with its sign: T(0) < 0 is
+                               * positive feedback around this source */
+    const char *same_loop_as; /* a source with the same T (the same single loop) listed before it:
+                               * a marked one, else the first of its local loop; or NULL */
     bool flagged;             /* an unmarked source whose |T| reaches 1 in a loop no .loop
-                               * covers: a local loop to look at */
+                               * covers: a local loop to look at (one entry per local loop) */
+    bool pm_ok;               /* flagged: its worst phase margin meets the phase-margin threshold
+                               * (true when it has no unity crossing); true when not flagged */
+    bool unstable_alone;      /* the circuit with a marked loop's gain at zero has right-half-plane
+                               * poles that go away when this source's gain is zero too: this
+                               * local cell is unstable on its own and relies on that loop */
+    const char *relies_on;    /* that marked source, or NULL */
 } tb_census_entry;
 
 /* Census of every controlled source (E, G, F, H), computed by tb_analyse when

@@ -85,14 +85,15 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
                            tb_result *res)
 {
     tb_probe *probe = tb_sweep_probe(sw);
+    tb_options limits = *opt;
+    effective_thresholds(ckt, &limits);
     tb_status st = tb_measure_phase_run(res);
     if (!st && pa->census)
         st = tb_census_end(pa->census, probe, res);
-    if (!st && opt->stability) {
-        tb_options limits = *opt;
-        effective_thresholds(ckt, &limits);
+    if (!st && opt->stability)
         st = tb_stability_run(probe, &limits, res);
-    }
+    if (!st && pa->census)
+        st = tb_census_judge(pa->census, &limits, res);
     if (!st)
         st = tb_feedback_run(ckt, probe, res);
     if (!st)

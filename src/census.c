@@ -8,6 +8,7 @@
 #include "alloc.h"
 #include "crossing.h"
 #include "loop.h"
+#include "poles.h"
 #include "units.h"
 
 
@@ -26,6 +27,7 @@ typedef struct {
     double lo[TB_CENSUS_CROSSINGS];
     double hi[TB_CENSUS_CROSSINGS];
     double deg_lo[TB_CENSUS_CROSSINGS];
+    bool falling[TB_CENSUS_CROSSINGS];
     tb_census_entry *entry;
 } source;
 
@@ -70,6 +72,10 @@ static void update(source *s, double f, const double complex *w)
     double complex T = 0;
     bool inf = !ratio(s, w, &T);
     e->t_infinite = e->t_infinite || inf;
+    if (!s->have_prev && !inf) { /* the first sample: DC, or the lowest sweep point */
+        e->has_T_dc = true;
+        e->T_dc = T;
+    }
     double db = inf ? 0 : 20.0 * log10(fmax(cabs(T), 1e-15));
     if (!inf && db > e->max_T_db) {
         e->max_T_db = db;
@@ -83,6 +89,7 @@ static void update(source *s, double f, const double complex *w)
     if (crossed && s->brackets < TB_CENSUS_CROSSINGS) {
         s->lo[s->brackets] = s->prev_f;
         s->hi[s->brackets] = f;
+        s->falling[s->brackets] = cabs(T) < 1.0;
         s->deg_lo[s->brackets++] = s->prev_deg;
     }
     s->have_prev = true;
@@ -147,7 +154,10 @@ static tb_status refine(census *cs, tb_probe *probe, size_t i)
         double deg = s->deg_lo[b] + tb_wrap180(carg(rc.T) * TB_DEG_PER_RAD - s->deg_lo[b]);
         double margin = tb_wrap180(deg + 180.0);
         e->unity_hz[e->unity_count] = exp(x);
+        e->unity_falling[e->unity_count] = s->falling[b];
         e->margin_deg[e->unity_count++] = margin;
+        if (!s->falling[b])
+            continue; /* a phase margin belongs to a crossing where |T| falls through 1 */
         if (!e->has_phase_margin || margin < e->phase_margin_deg)
             e->phase_margin_deg = margin;
         e->has_phase_margin = true;
@@ -173,10 +183,33 @@ static bool same_ratio(const tb_census_entry *a, const tb_census_entry *b)
     return true;
 }
 
+/* Largest |T| first; ties (the sources of one loop) marked first, then in name order, so
+ * the ranking does not depend on the sort. */
 static int by_max_T(const void *pa, const void *pb)
 {
     const tb_census_entry *a = pa, *b = pb;
-    return a->max_T_db > b->max_T_db ? -1 : a->max_T_db < b->max_T_db;
+    if (a->max_T_db != b->max_T_db)
+        return a->max_T_db > b->max_T_db ? -1 : 1;
+    if (a->marked != b->marked)
+        return a->marked ? -1 : 1;
+    return strcmp(a->source, b->source);
+}
+
+/* The source a later entry's loop is named by: a marked source with the same T, else the
+ * first (highest ranked) unmarked one of its local loop. */
+static void group(tb_census_entry *entries, size_t count)
+{
+    for (size_t i = 0; i < count; i++) {
+        tb_census_entry *e = &entries[i];
+        for (size_t j = 0; j < count && !e->marked && !e->same_loop_as; j++)
+            if (entries[j].marked && same_ratio(e, &entries[j]))
+                e->same_loop_as = entries[j].source;
+        for (size_t j = 0; j < i && !e->marked && !e->same_loop_as; j++)
+            if (!entries[j].marked && !entries[j].same_loop_as && same_ratio(e, &entries[j]))
+                e->same_loop_as = entries[j].source;
+        e->flagged = !e->marked && !e->same_loop_as && e->in_loop && (e->max_T_db >= 0 || e->t_infinite);
+        e->pm_ok = true;
+    }
 }
 
 static bool is_marked(const tb_circuit *ckt, size_t elem)
@@ -233,16 +266,102 @@ tb_status tb_census_end(tb_census *cs, tb_probe *probe, tb_result *res)
             return st;
     }
     tb_census_entry *entries = cs->entries;
-    for (size_t i = 0; i < cs->count; i++) {
-        tb_census_entry *e = &entries[i];
-        for (size_t j = 0; j < cs->count && !e->marked; j++)
-            if (entries[j].marked && same_ratio(e, &entries[j]))
-                e->same_loop_as = entries[j].source;
-        e->flagged = !e->marked && !e->same_loop_as && e->in_loop && (e->max_T_db >= 0 || e->t_infinite);
-    }
     qsort(entries, cs->count, sizeof(tb_census_entry), by_max_T);
+    group(entries, cs->count);
     res->census = entries;
     res->census_count = cs->count;
     cs->entries = NULL;
     return TB_OK;
+}
+
+/* Right-half-plane poles of the circuit with loop lv's gain and source s's gain at zero
+ * (s's stamp k u v' taken out of G at its positions); SIZE_MAX when QZ fails. */
+static size_t rhp_without(const tb_mna *mna, const tb_loopvec *lv, const source *s, double *Gx,
+                          double complex *eig, tb_status *st)
+{
+    memcpy(Gx, mna->Gx, mna->nnz * sizeof(double));
+    tb_loopvec lv0 = *lv; /* its own entries hold G without lv's stamp: take s's out there too */
+    for (int i = 0; i < s->u.count; i++)
+        for (int j = 0; j < s->v.count; j++) {
+            size_t k = tb_mna_position(mna, s->u.idx[i], s->v.idx[j]);
+            double stamp = s->k * s->u.coef[i] * s->v.coef[j];
+            if (k != SIZE_MAX)
+                Gx[k] -= stamp;
+            for (int o = 0; o < lv0.own_count; o++)
+                if (lv0.own_pos[o] == k)
+                    lv0.own_g0[o] -= stamp;
+        }
+    tb_mna both = *mna;
+    both.Gx = Gx;
+    size_t count = 0;
+    double scale = 0;
+    *st = tb_poles_compute(&both, &lv0, eig, &count, &scale);
+    if (*st)
+        return SIZE_MAX;
+    size_t rhp = 0;
+    for (size_t i = 0; i < count; i++)
+        rhp += creal(eig[i]) > 0 && !tb_poles_on_axis(eig[i], scale);
+    return rhp;
+}
+
+static bool is_marked_name(const tb_circuit *ckt, const char *name)
+{
+    for (size_t l = 0; l < ckt->loop_count; l++)
+        if (ckt->elems[ckt->loops[l].elem].name == name)
+            return true;
+    return false;
+}
+
+static const source *source_of(const census *cs, const tb_census_entry *e)
+{
+    for (size_t i = 0; i < cs->count; i++)
+        if (cs->ckt->elems[cs->src[i].elem].name == e->source)
+            return &cs->src[i];
+    return NULL;
+}
+
+/* Which flagged local cells are unstable on their own, for one marked loop with P > 0. */
+static tb_status cells_of_loop(const census *cs, size_t l, const tb_stability *stab, tb_result *res,
+                               double *Gx, double complex *eig)
+{
+    for (size_t i = 0; i < res->census_count; i++) {
+        tb_census_entry *e = &res->census[i];
+        const source *s = source_of(cs, e);
+        bool own_loop = !e->same_loop_as || !is_marked_name(cs->ckt, e->same_loop_as);
+        if (e->marked || !e->in_loop || !own_loop || e->unstable_alone || !s)
+            continue;
+        tb_status st = TB_OK;
+        size_t rhp = rhp_without(cs->mna, &cs->mna->loops[l], s, Gx, eig, &st);
+        if (st == TB_ERR_NOMEM)
+            return st;
+        if (rhp != SIZE_MAX && rhp < stab->ol_rhp) {
+            e->unstable_alone = true;
+            e->flagged = !e->same_loop_as; /* a local loop to look at, whatever its |T| */
+            e->relies_on = cs->ckt->elems[cs->mna->loops[l].elem].name;
+        }
+    }
+    return TB_OK;
+}
+
+tb_status tb_census_judge(const tb_census *cs, const tb_options *limits, tb_result *res)
+{
+    for (size_t i = 0; i < res->census_count; i++) {
+        tb_census_entry *e = &res->census[i];
+        e->pm_ok = !e->flagged || !e->has_phase_margin || e->phase_margin_deg >= limits->pm_min_deg;
+    }
+    bool any = false;
+    for (size_t l = 0; res->stab && l < res->nloops; l++)
+        any = any || (res->stab[l].has_poles && res->stab[l].ol_rhp > 0);
+    if (!any)
+        return TB_OK;
+    size_t n = cs->mna->n;
+    double *Gx = tb_malloc(cs->mna->nnz ? cs->mna->nnz : 1, sizeof(double));
+    double complex *eig = tb_malloc(n ? n : 1, sizeof(double complex));
+    tb_status st = Gx && eig ? TB_OK : TB_ERR_NOMEM;
+    for (size_t l = 0; !st && l < res->nloops; l++)
+        if (res->stab[l].has_poles && res->stab[l].ol_rhp > 0)
+            st = cells_of_loop(cs, l, &res->stab[l], res, Gx, eig);
+    tb_free(Gx);
+    tb_free(eig);
+    return st;
 }

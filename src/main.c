@@ -241,6 +241,16 @@ static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const ch
                     name, st.gain_margin_db, st.gm_min_db);
         ok = ok && st.pm_ok && st.gm_ok && st.verdict == TB_VERDICT_STABLE;
     }
+    const tb_census_entry *e = NULL;
+    size_t count = 0;
+    tb_census_get(res, &e, &count);
+    for (size_t i = 0; i < count; i++) {
+        if (e[i].pm_ok)
+            continue;
+        fprintf(stderr, "tbeta: %s: local loop at %s: phase margin %.3f deg is below the threshold\n", netlist,
+                e[i].source, e[i].phase_margin_deg);
+        ok = false;
+    }
     return ok;
 }
 

@@ -310,12 +310,17 @@ static size_t find_group(const triplet *t, size_t m, size_t row, size_t col)
     return lo < m && t[lo].col == col && t[lo].row == row ? lo : m;
 }
 
-static size_t csc_position(const tb_mna *mna, size_t row, size_t col)
+size_t tb_mna_position(const tb_mna *mna, size_t row, size_t col)
 {
     for (int k = mna->Ap[col]; k < mna->Ap[col + 1]; k++)
         if ((size_t)mna->Ai[k] == row)
             return (size_t)k;
-    return SIZE_MAX; /* not reached: every (u, v) pair was stamped */
+    return SIZE_MAX;
+}
+
+static size_t csc_position(const tb_mna *mna, size_t row, size_t col)
+{
+    return tb_mna_position(mna, row, col); /* found: every (u, v) pair was stamped */
 }
 
 /* The positions where lv's own gain sits, and G there without it. */

@@ -65,6 +65,9 @@ const char *tb_mna_unknown_name(const tb_circuit *ckt, size_t i, char *buf, size
  * the .loop sources). */
 tb_loopvec tb_mna_source_vectors(const tb_circuit *ckt, size_t elem);
 
+/* Index of entry (row, col) in the CSC value arrays, or SIZE_MAX when the pattern has none. */
+size_t tb_mna_position(const tb_mna *mna, size_t row, size_t col);
+
 /* Writes M(jw) = G + jwC into Mx (2*nnz doubles, real/imag interleaved, KLU's layout). */
 void tb_mna_values(const tb_mna *mna, double omega, double *Mx);
 

@@ -511,8 +511,12 @@ static json_t *census_entry(builder *b, const tb_census_entry *e)
     set(b, o, "T_infinite_somewhere", json_boolean(e->t_infinite));
     set(b, o, "unity", unity);
     set(b, o, "phase_margin_deg", e->has_phase_margin ? num(e->phase_margin_deg) : json_null());
+    set(b, o, "T_dc", cnum(e->has_T_dc, e->T_dc));
     set(b, o, "same_loop_as", e->same_loop_as ? json_string(e->same_loop_as) : json_null());
     set(b, o, "flagged", json_boolean(e->flagged));
+    set(b, o, "phase_margin_ok", json_boolean(e->pm_ok));
+    set(b, o, "unstable_alone", json_boolean(e->unstable_alone));
+    set(b, o, "relies_on", e->relies_on ? json_string(e->relies_on) : json_null());
     return o;
 }
 

@@ -402,11 +402,11 @@ static void census_block(FILE *out, const tb_result *res)
 {
     const tb_census_entry *e = NULL;
     size_t count = 0;
-    char f[64], pm[32];
+    char f[64], pm[32], t0[48];
     tb_census_get(res, &e, &count);
     fprintf(out, "\nloop census: the return ratio of every controlled source, largest |T| first\n");
-    fprintf(out, "    %-12s %-7s %-22s %-9s %-12s %s\n", "source", "marked", "max |T|", "|T| = 1", "worst PM",
-            "flag");
+    fprintf(out, "    %-12s %-7s %-12s %-22s %-9s %-12s %s\n", "source", "marked", "T(0)", "max |T|", "|T| = 1",
+            "worst PM", "flag");
     for (size_t i = 0; i < count; i++) {
         char peak[128];
         if (e[i].in_loop)
@@ -415,11 +415,23 @@ static void census_block(FILE *out, const tb_result *res)
         else
             snprintf(peak, sizeof peak, "not in a loop");
         snprintf(pm, sizeof pm, e[i].has_phase_margin ? "%.2f deg" : "--", e[i].phase_margin_deg);
-        char same[96];
-        snprintf(same, sizeof same, "same loop as %s", e[i].same_loop_as ? e[i].same_loop_as : "");
-        fprintf(out, "    %-12s %-7s %-22s %-9zu %-12s %s\n", e[i].source, e[i].marked ? "yes" : "no", peak,
-                e[i].unity_count, pm,
-                e[i].flagged ? "LOCAL LOOP with |T| >= 1: check it" : e[i].same_loop_as ? same : "");
+        if (e[i].has_T_dc)
+            fmt_value(e[i].T_dc, t0, sizeof t0);
+        else
+            snprintf(t0, sizeof t0, "infinite");
+        char flag[256];
+        if (e[i].flagged)
+            snprintf(flag, sizeof flag, "LOCAL LOOP: %s%s%s%s%s",
+                     e[i].max_T_db >= 0 || e[i].t_infinite ? "|T| >= 1, check it" : "|T| < 1",
+                     e[i].has_T_dc && creal(e[i].T_dc) < 0 ? "; positive feedback at DC" : "",
+                     e[i].pm_ok ? "" : "; phase margin FAILS",
+                     e[i].unstable_alone ? "; unstable on its own, relies on " : "",
+                     e[i].unstable_alone ? e[i].relies_on : "");
+        else
+            snprintf(flag, sizeof flag, "%s%s", e[i].same_loop_as ? "same loop as " : "",
+                     e[i].same_loop_as ? e[i].same_loop_as : "");
+        fprintf(out, "    %-12s %-7s %-12s %-22s %-9zu %-12s %s\n", e[i].source, e[i].marked ? "yes" : "no", t0, peak,
+                e[i].unity_count, pm, flag);
     }
 }
 
