@@ -13,7 +13,13 @@ LDFLAGS  := $(SAN) -pthread
 LDLIBS   := -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -llapack -lblas -lm
 TESTLIBS := -lcmocka
 
-LIB_SRC  := $(filter-out src/main.c,$(wildcard src/*.c))
+# The program: the command line and the regression runner behind 'tbeta check', which
+# only main.c uses; libtbeta.a holds what include/tbeta.h publishes and its internals.
+RUNNER_SRC := src/checkrun.c src/checkjson.c src/checkreport.c
+PROG_SRC := src/main.c $(RUNNER_SRC)
+PROG_OBJ := $(PROG_SRC:src/%.c=$(BUILD)/obj/%.o)
+RUNNER_OBJ := $(RUNNER_SRC:src/%.c=$(BUILD)/obj/%.o)
+LIB_SRC  := $(filter-out $(PROG_SRC),$(wildcard src/*.c))
 LIB_OBJ  := $(LIB_SRC:src/%.c=$(BUILD)/obj/%.o)
 TEST_SRC := $(wildcard tests/test_*.c)
 TEST_BIN := $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)
@@ -38,12 +44,16 @@ $(BUILD)/libtbeta.a: $(LIB_OBJ)
 	rm -f $@
 	ar rcs $@ $^
 
-$(BUILD)/tbeta: $(BUILD)/obj/main.o $(BUILD)/libtbeta.a
+$(BUILD)/tbeta: $(PROG_OBJ) $(BUILD)/libtbeta.a
 	$(CC) $(LDFLAGS) $^ $(LDLIBS) -o $@
 
+# a test links libtbeta.a and the objects named as its extra prerequisites below
 $(BUILD)/tests/%: tests/%.c tests/testutil.h $(BUILD)/libtbeta.a | $(DEPS_OK)
 	@mkdir -p $(dir $@)
-	$(CC) $(CPPFLAGS) $(CFLAGS) -Wno-missing-prototypes $< $(BUILD)/libtbeta.a $(LDFLAGS) $(LDWRAP) $(TESTLIBS) $(LDLIBS) -o $@
+	$(CC) $(CPPFLAGS) $(CFLAGS) -Wno-missing-prototypes $< $(filter %.o,$^) $(BUILD)/libtbeta.a $(LDFLAGS) $(LDWRAP) $(TESTLIBS) $(LDLIBS) -o $@
+
+# tests of the regression runner link its objects (they are not in libtbeta.a)
+$(BUILD)/tests/test_expect $(BUILD)/tests/test_oom: $(RUNNER_OBJ)
 
 # the allocation-failure sweep sees every allocation the library makes
 $(BUILD)/tests/test_oom: LDWRAP := -Wl,--wrap=malloc,--wrap=calloc,--wrap=realloc
@@ -72,8 +82,8 @@ debug:
 bench: $(BUILD)/tbeta $(BUILD)/libtbeta.a
 	@sh bench/run.sh $(BUILD)
 
-# fuzz: libFuzzer (clang) over read-parse-analyse-report for SECONDS seconds, corpus in
-# build/fuzz/corpus seeded from netlists/ and tests/bad/; crashes land in build/fuzz/.
+# fuzz: libFuzzer (clang) over read-parse-analyse-report-.expect for SECONDS seconds, corpus in
+# build/fuzz/corpus seeded from netlists/, tests/bad/, tests/ref/ and tests/fb/; crashes land in build/fuzz/.
 SECONDS  ?= 60
 FUZZ_CC  := clang
 FUZZ_FLAGS := -std=c11 -g -O1 -fsanitize=fuzzer,address,undefined -fno-sanitize-recover=all
@@ -81,7 +91,7 @@ fuzz:
 	@sh scripts/deps.sh clang libclang-rt-14-dev
 	@mkdir -p build/fuzz/corpus
 	$(FUZZ_CC) $(FUZZ_FLAGS) $(CPPFLAGS) $(LIB_SRC) tests/fuzz/fuzz_netlist.c $(LDLIBS) -o build/fuzz/fuzz_netlist
-	cp netlists/*.net tests/bad/*.net tests/ref/*.net build/fuzz/corpus/ 2>/dev/null || true
+	cp netlists/*.net tests/bad/*.net tests/ref/*.net tests/fb/*.net build/fuzz/corpus/ 2>/dev/null || true
 	cd build/fuzz && ./fuzz_netlist -max_total_time=$(SECONDS) -max_len=4096 -timeout=10 \
 	    -print_final_stats=1 corpus
 

@@ -22,7 +22,9 @@ typedef enum {
     TB_ERR_INPUT = -3,    /* malformed or inconsistent netlist (see diagnostics) */
     TB_ERR_IO = -4,       /* a file could not be read or written */
     TB_ERR_SINGULAR = -5, /* the circuit matrix is singular (see diagnostics) */
-    TB_ERR_NUMERIC = -6   /* a numerical failure other than singularity */
+    TB_ERR_NUMERIC = -6,  /* a numerical failure other than singularity */
+    TB_ERR_NOT_FOUND = -7 /* the named item does not exist or was not computed (no such loop,
+                           * table or step response) */
 } tb_status;
 
 /* A short English phrase for a status; never NULL. */
@@ -79,7 +81,8 @@ TB_API const char *tb_circuit_title(const tb_circuit *ckt);
 /* Number of .loop directives, and the name of loop i's controlled source as written. */
 TB_API size_t tb_circuit_loop_count(const tb_circuit *ckt);
 TB_API const char *tb_circuit_loop_name(const tb_circuit *ckt, size_t i);
-/* Index of the loop whose source is called name (case-insensitive); TB_ERR_USAGE if none. */
+/* Index of the loop whose source is called name (case-insensitive). Errors:
+ * TB_ERR_NOT_FOUND (no .loop names it), TB_ERR_USAGE (NULL argument). */
 TB_API tb_status tb_circuit_find_loop(const tb_circuit *ckt, const char *name, size_t *index);
 /* true when the netlist states its own stability thresholds (.margins): the
  * command line then exits 1 when a loop misses them. */
@@ -449,8 +452,8 @@ typedef struct {
 TB_API tb_status tb_step_figures_get(const tb_result *res, tb_step_figures *out);
 /* The samples: *t and *y point into res (n values each); *n = 0 when none. */
 TB_API tb_status tb_step_samples(const tb_result *res, const double **t, const double **y, size_t *n);
-/* The step response as CSV: "t_s,y" then one row per sample. TB_ERR_USAGE when
- * it was not computed. */
+/* The step response as CSV: "t_s,y" then one row per sample. Errors:
+ * TB_ERR_NOT_FOUND (it was not computed), TB_ERR_USAGE (NULL argument), TB_ERR_IO. */
 TB_API tb_status tb_report_step_csv(const tb_result *res, FILE *out);
 
 /* ---- writers -------------------------------------------------------- */
@@ -680,8 +683,9 @@ TB_API tb_status tb_break_get(const tb_result *res, tb_break_summary *out, const
  *                feedthrough_re,feedthrough_im,error_pct,S_re,S_im,SA_re,SA_im
  *   "zport:NAME": freq_hz,Z_re,Z_im,Z0_re,Z0_im,Tsc_re,Tsc_im,Toc_re,Toc_im,Zb_re,Zb_im
  *   "break":     freq_hz,Tv_re,Tv_im,Ti_re,Ti_im,T_re,T_im,Tprobe_re,Tprobe_im
- * Errors: TB_ERR_USAGE (no such table: no .ideal with .io, no such .zport, no
- * .break), TB_ERR_IO. */
+ * Errors: TB_ERR_NOT_FOUND (no such table: an unknown table name, no .ideal with
+ * .io, no such .zport, no .break), TB_ERR_USAGE (NULL argument, l out of range),
+ * TB_ERR_IO. */
 TB_API tb_status tb_report_feedback_csv(const tb_circuit *ckt, const tb_result *res, size_t l, const char *table,
                                         FILE *out);
 

@@ -24,13 +24,15 @@ static bool put(json_t *obj, const char *key, json_t *value)
     return value && json_object_set_new(obj, key, value) == 0;
 }
 
-static json_t *figure_value(const tb_check_figure *f)
+/* A figure's value: a number, a word, or null when absent. Made where it is put, so that it
+ * never leaks when an earlier put fails. */
+static json_t *figure_value(int figure, bool present, double value)
 {
-    if (!f->present)
+    if (!present)
         return json_null();
-    if (tb_figure_at((size_t)f->figure)->word)
-        return json_string(tb_figure_word(f->value));
-    return json_real(f->value);
+    if (tb_figure_at((size_t)figure)->word)
+        return json_string(tb_figure_word(value));
+    return json_real(value);
 }
 
 /* {"name": ..., "figures": {...}[, "absent": {figure: why}]} */
@@ -42,7 +44,7 @@ static json_t *loop_json(const tb_check_loop *lp, bool reasons)
     bool ok = loop && figs && absent && put(loop, "name", json_string(lp->name));
     for (size_t f = 0; ok && f < tb_figure_count(); f++) {
         const tb_check_figure *fig = &lp->figures[f];
-        ok = put(figs, tb_figure_at(f)->name, figure_value(fig)) &&
+        ok = put(figs, tb_figure_at(f)->name, figure_value(fig->figure, fig->present, fig->value)) &&
              (fig->present || !reasons || put(absent, tb_figure_at(f)->name, json_string(fig->why)));
     }
     ok = ok && put(loop, "figures", json_incref(figs)) &&
@@ -71,12 +73,8 @@ static json_t *loops_json(const tb_check_entry *e, bool reasons)
 static json_t *expect_json(const tb_check_expect *x)
 {
     json_t *o = json_object();
-    bool word = tb_figure_at((size_t)x->figure)->word;
-    json_t *value = !x->present ? json_null()
-                    : word      ? json_string(tb_figure_word(x->value))
-                                : json_real(x->value);
     if (o && put(o, "target", json_string(x->target)) && put(o, "line", json_integer(x->line)) &&
-        put(o, "pass", json_boolean(x->pass)) && put(o, "value", value) &&
+        put(o, "pass", json_boolean(x->pass)) && put(o, "value", figure_value(x->figure, x->present, x->value)) &&
         put(o, "measured", json_string(x->measured)) && put(o, "bound", json_string(x->bound)))
         return o;
     json_decref(o);
@@ -139,9 +137,9 @@ static tb_status write_doc(const tb_check_run *run, FILE *out, bool full)
     }
     int rc = json_dumpf(root, out, JSON_INDENT(1) | JSON_REAL_PRECISION(17) | JSON_PRESERVE_ORDER);
     json_decref(root);
-    if (rc != 0 || fputc('\n', out) == EOF)
-        return TB_ERR_IO;
-    return TB_OK;
+    if (rc != 0) /* a write error (the stream says so), or jansson ran out of memory */
+        return ferror(out) ? TB_ERR_IO : TB_ERR_NOMEM;
+    return fputc('\n', out) == EOF ? TB_ERR_IO : TB_OK;
 }
 
 tb_status tb_check_write_save(const tb_check_run *run, FILE *out)
@@ -160,10 +158,23 @@ tb_status tb_check_write_json(const tb_check_run *run, FILE *out)
 static json_t *load_doc(const char *path, char *why, size_t why_size, tb_status *st)
 {
     json_error_t err;
+    memset(&err, 0, sizeof err);
     json_t *root = json_load_file(path, 0, &err);
+    if (!root && json_error_code(&err) == json_error_cannot_open_file) {
+        snprintf(why, why_size, "%s", err.text);
+        *st = TB_ERR_IO;
+        return NULL;
+    }
+    /* A readable file fails without a position only when jansson runs out of memory (it may
+     * also report an allocation that fails inside a string as a syntax error there). */
+    if (!root && (err.line <= 0 || json_error_code(&err) == json_error_out_of_memory)) {
+        snprintf(why, why_size, "out of memory");
+        *st = TB_ERR_NOMEM;
+        return NULL;
+    }
     if (!root) {
         snprintf(why, why_size, "%s:%d: %s", path, err.line, err.text);
-        *st = err.line <= 0 ? TB_ERR_IO : TB_ERR_INPUT;
+        *st = TB_ERR_INPUT;
         return NULL;
     }
     const char *fmt = json_string_value(json_object_get(root, "format"));
@@ -384,14 +395,17 @@ static bool merge_entry(const json_t *src, tb_check_entry *e)
     e->status = status && strcmp(status, "error") == 0  ? TB_CHECK_ERROR
                 : status && strcmp(status, "fail") == 0 ? TB_CHECK_FAIL
                                                        : TB_CHECK_PASS;
-    if (json_is_string(json_object_get(src, "errors")))
+    bool has_errors = json_is_string(json_object_get(src, "errors"));
+    bool has_warnings = json_is_string(json_object_get(src, "warnings"));
+    if (has_errors)
         e->errors = json_str(src, "errors");
-    if (json_is_string(json_object_get(src, "warnings")))
+    if (has_warnings)
         e->warnings = json_str(src, "warnings");
     e->loops = tb_calloc(json_array_size(loops) + 1, sizeof(tb_check_loop));
     e->expects = tb_calloc(json_array_size(xs) + 1, sizeof(tb_check_expect));
     e->drifts = tb_calloc(json_array_size(ds) + 1, sizeof(tb_check_drift));
-    if (!e->path || !e->rel || !e->loops || !e->expects || !e->drifts)
+    if (!e->path || !e->rel || !e->loops || !e->expects || !e->drifts || (has_errors && !e->errors) ||
+        (has_warnings && !e->warnings))
         return false;
     for (size_t i = 0; i < json_array_size(loops); i++)
         if (!merge_loop(json_array_get(loops, i), &e->loops[e->loop_count++]))

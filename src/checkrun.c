@@ -4,7 +4,6 @@
 #include <dirent.h>
 #include <errno.h>
 #include <fnmatch.h>
-#include <math.h>
 #include <pthread.h>
 #include <stdarg.h>
 #include <stdatomic.h>
@@ -32,6 +31,7 @@ struct tb_check_run {
     size_t count;
     size_t cap;
     atomic_size_t next; /* the next entry a worker takes */
+    atomic_bool out_of_memory; /* a worker ran out of memory: the run is incomplete */
 };
 
 void tb_check_options_init(tb_check_options *opt)
@@ -183,6 +183,7 @@ static int by_path(const void *a, const void *b)
 }
 
 static void free_entry(tb_check_entry *e);
+static void clear_results(tb_check_entry *e);
 
 /* Keeps the entries of this shard (fnv1a(rel) % count == index). */
 static void keep_shard(tb_check_run *run)
@@ -228,6 +229,7 @@ tb_status tb_check_collect(const char *const *paths, size_t count, const tb_chec
         return TB_ERR_NOMEM;
     run->opt = *opt;
     atomic_init(&run->next, 0);
+    atomic_init(&run->out_of_memory, false);
     tb_status st = TB_OK;
     for (size_t i = 0; i < count && st == TB_OK; i++)
         st = collect_one(run, paths[i]);
@@ -249,63 +251,45 @@ void tb_check_sort(tb_check_run *run)
 
 /* ---- one netlist ------------------------------------------------------------ */
 
-/* Diagnostics of one severity (or all, sev 0) formatted into one string; NULL when none. */
-static char *diag_text(const tb_diag *diag, int sev)
+/* Diagnostics of one severity (or all, sev 0) formatted into one string in *out, which
+ * stays NULL when there are none. Errors: TB_ERR_NOMEM. */
+static tb_status diag_text(const tb_diag *diag, int sev, char **out)
 {
     size_t total = 0;
     for (size_t i = 0; i < tb_diag_count(diag); i++)
         if (!sev || (int)tb_diag_get(diag, i)->severity == sev)
             total += tb_diag_format(diag, i, NULL, 0);
     if (total == 0)
-        return NULL;
+        return TB_OK;
     char *s = tb_malloc(total + 1, 1);
     if (!s)
-        return NULL;
+        return TB_ERR_NOMEM;
     size_t n = 0;
     for (size_t i = 0; i < tb_diag_count(diag); i++)
         if (!sev || (int)tb_diag_get(diag, i)->severity == sev)
             n += tb_diag_format(diag, i, s + n, total + 1 - n);
-    return s;
+    *out = s;
+    return TB_OK;
 }
 
 /* Every figure of loop l into lp. */
 static tb_status measure(const tb_circuit *ckt, const tb_result *res, size_t l, tb_check_loop *lp)
 {
-    tb_measures m;
-    tb_stability st;
-    tb_step_figures step;
-    tb_feedback_summary fb;
-    tb_status rc = tb_measure_loop(res, l, &m);
-    if (rc == TB_OK)
-        rc = tb_stability_loop(res, l, &st);
-    if (rc == TB_OK)
-        rc = tb_step_figures_get(res, &step);
-    if (rc == TB_OK)
-        rc = tb_feedback_loop(res, l, &fb);
-    if (rc != TB_OK)
-        return rc;
+    size_t n = tb_figure_count();
+    tb_figure_value *v = tb_calloc(n, sizeof(tb_figure_value));
     lp->name = tb_check_strdup(tb_circuit_loop_name(ckt, l));
-    lp->figures = tb_calloc(tb_figure_count(), sizeof(tb_check_figure));
-    if (!lp->name || !lp->figures)
-        return TB_ERR_NOMEM;
-    tb_figure_src src = {&m, &st, &step, &fb};
-    for (size_t f = 0; f < tb_figure_count(); f++) {
+    lp->figures = tb_calloc(n, sizeof(tb_check_figure));
+    tb_status rc = v && lp->name && lp->figures ? tb_figure_measure(res, l, v) : TB_ERR_NOMEM;
+    for (size_t f = 0; rc == TB_OK && f < n; f++) {
         tb_check_figure *fig = &lp->figures[f];
-        const char *why = "absent";
         fig->figure = (int)f;
-        fig->present = tb_figure_at(f)->get(&src, &fig->value, &why);
-        if (fig->present && !isfinite(fig->value)) {
-            fig->present = false;
-            why = "not finite";
-        }
-        if (!fig->present) {
-            fig->value = 0;
-            fig->why = tb_check_strdup(why);
-            if (!fig->why)
-                return TB_ERR_NOMEM;
-        }
+        fig->present = v[f].present;
+        fig->value = v[f].value;
+        if (!fig->present && !(fig->why = tb_check_strdup(v[f].why)))
+            rc = TB_ERR_NOMEM;
     }
-    return TB_OK;
+    tb_free(v);
+    return rc;
 }
 
 /* Evaluates every .expect of ckt against the measured loops. */
@@ -336,7 +320,9 @@ static tb_status evaluate(const tb_circuit *ckt, tb_check_entry *e)
     return TB_OK;
 }
 
-/* Reads, analyses and evaluates e->path; diagnostics go to e->errors/e->warnings. */
+/* Reads, analyses and evaluates e->path; diagnostics go to e->errors/e->warnings. A netlist
+ * that cannot be read or analysed makes e an ERROR entry. Errors: TB_ERR_NOMEM (e then holds
+ * part of its results). */
 static tb_status run_one(const tb_check_options *opt, tb_check_entry *e)
 {
     tb_diag *diag = tb_diag_new();
@@ -357,12 +343,15 @@ static tb_status run_one(const tb_check_options *opt, tb_check_entry *e)
         st = evaluate(ckt, e);
     if (st != TB_OK && st != TB_ERR_NOMEM) {
         e->status = TB_CHECK_ERROR;
-        e->errors = diag_text(diag, TB_SEV_ERROR);
-        if (!e->errors)
-            e->errors = tb_check_format("%s: error: %s\n", e->path, tb_status_str(st));
-        st = TB_OK;
+        tb_status failed = st;
+        st = diag_text(diag, TB_SEV_ERROR, &e->errors);
+        if (st == TB_OK && !e->errors)
+            e->errors = tb_check_format("%s: error: %s\n", e->path, tb_status_str(failed));
+        if (st == TB_OK && !e->errors)
+            st = TB_ERR_NOMEM;
     }
-    e->warnings = diag_text(diag, TB_SEV_WARNING);
+    if (st == TB_OK)
+        st = diag_text(diag, TB_SEV_WARNING, &e->warnings);
     tb_result_free(res);
     tb_circuit_free(ckt);
     tb_diag_free(diag);
@@ -381,9 +370,9 @@ static void *worker(void *arg)
         if (e->status == TB_CHECK_ERROR)
             continue; /* could not be collected */
         if (run_one(&run->opt, e) != TB_OK) {
+            clear_results(e); /* no half-made results stay behind */
             e->status = TB_CHECK_ERROR;
-            tb_free(e->errors);
-            e->errors = tb_check_format("%s: error: out of memory\n", e->path);
+            atomic_store(&run->out_of_memory, true);
         }
     }
 }
@@ -396,6 +385,7 @@ tb_status tb_check_execute(tb_check_run *run)
     if (jobs > run->count)
         jobs = run->count ? (unsigned)run->count : 1u;
     atomic_store(&run->next, 0);
+    atomic_store(&run->out_of_memory, false);
     pthread_t *threads = tb_calloc(jobs, sizeof(pthread_t));
     if (!threads)
         return TB_ERR_NOMEM;
@@ -406,15 +396,14 @@ tb_status tb_check_execute(tb_check_run *run)
     for (unsigned t = 0; t < started; t++)
         pthread_join(threads[t], NULL);
     tb_free(threads);
-    return TB_OK;
+    return atomic_load(&run->out_of_memory) ? TB_ERR_NOMEM : TB_OK;
 }
 
 /* ---- freeing -------------------------------------------------------------- */
 
-static void free_entry(tb_check_entry *e)
+/* Frees what e holds beyond its path: diagnostics, figures, expectations, drifts. */
+static void clear_results(tb_check_entry *e)
 {
-    tb_free(e->path);
-    tb_free(e->rel);
     tb_free(e->errors);
     tb_free(e->warnings);
     for (size_t l = 0; l < e->loop_count; l++) {
@@ -436,6 +425,18 @@ static void free_entry(tb_check_entry *e)
         tb_free(e->drifts[i].now);
     }
     tb_free(e->drifts);
+    char *path = e->path;
+    char *rel = e->rel;
+    memset(e, 0, sizeof *e);
+    e->path = path;
+    e->rel = rel;
+}
+
+static void free_entry(tb_check_entry *e)
+{
+    clear_results(e);
+    tb_free(e->path);
+    tb_free(e->rel);
     memset(e, 0, sizeof *e);
 }
 

@@ -80,7 +80,9 @@ typedef struct tb_check_run tb_check_run;
  * entries. Errors: TB_ERR_NOMEM, TB_ERR_USAGE. Free with tb_check_free. */
 tb_status tb_check_collect(const char *const *paths, size_t count, const tb_check_options *opt,
                            tb_check_run **out);
-/* Reads, analyses and evaluates every netlist, opt->jobs at a time. */
+/* Reads, analyses and evaluates every netlist, opt->jobs at a time; a netlist that cannot
+ * be read or analysed becomes an ERROR entry with its diagnostics. Errors: TB_ERR_USAGE,
+ * TB_ERR_NOMEM (the run is incomplete then: free it). */
 tb_status tb_check_execute(tb_check_run *run);
 /* Compares every entry with a saved run (a --save or --json file); figures that
  * moved the worse way by more than drift_pct become drifts and fail the entry.

@@ -751,7 +751,7 @@ tb_status tb_circuit_find_loop(const tb_circuit *ckt, const char *name, size_t *
             return TB_OK;
         }
     }
-    return TB_ERR_USAGE;
+    return TB_ERR_NOT_FOUND;
 }
 
 bool tb_circuit_states_margins(const tb_circuit *ckt)

@@ -148,7 +148,7 @@ size_t tb_diag_format(const tb_diag *diag, size_t i, char *buf, size_t size)
     return len;
 }
 
-/* The words for each status, in enum order from TB_OK down to TB_ERR_NUMERIC. */
+/* The words for each status, in enum order from TB_OK down to TB_ERR_NOT_FOUND (the last). */
 static const char *const status_text[] = {
     "ok",                       /* TB_OK */
     "out of memory",            /* TB_ERR_NOMEM */
@@ -157,14 +157,15 @@ static const char *const status_text[] = {
     "input/output error",       /* TB_ERR_IO */
     "singular circuit",         /* TB_ERR_SINGULAR */
     "numerical failure",        /* TB_ERR_NUMERIC */
+    "not found",                /* TB_ERR_NOT_FOUND: does not exist or was not computed */
 };
-_Static_assert(sizeof(status_text) / sizeof(status_text[0]) == 1 - TB_ERR_NUMERIC,
+_Static_assert(sizeof(status_text) / sizeof(status_text[0]) == 1 - TB_ERR_NOT_FOUND,
                "status_text in step with tb_status");
 
 const char *tb_status_str(tb_status status)
 {
     int i = -(int)status;
-    return i >= 0 && i <= -TB_ERR_NUMERIC ? status_text[i] : "unknown status";
+    return i >= 0 && i <= -TB_ERR_NOT_FOUND ? status_text[i] : "unknown status";
 }
 
 const char *tb_format_hz(double f, int digits, char *buf, size_t size)

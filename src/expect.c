@@ -297,6 +297,39 @@ int tb_figure_find(const char *name, size_t len)
     return -1;
 }
 
+tb_status tb_figure_measure(const tb_result *res, size_t l, tb_figure_value *out)
+{
+    tb_measures m;
+    tb_stability st;
+    tb_step_figures step;
+    tb_feedback_summary fb;
+    if (!out)
+        return TB_ERR_USAGE;
+    tb_status rc = tb_measure_loop(res, l, &m);
+    if (rc == TB_OK)
+        rc = tb_stability_loop(res, l, &st);
+    if (rc == TB_OK)
+        rc = tb_step_figures_get(res, &step);
+    if (rc == TB_OK)
+        rc = tb_feedback_loop(res, l, &fb);
+    if (rc != TB_OK)
+        return rc;
+    tb_figure_src src = {&m, &st, &step, &fb};
+    for (size_t f = 0; f < tb_figure_count(); f++) {
+        tb_figure_value *v = &out[f];
+        const char *why = "absent";
+        v->present = figures[f].get(&src, &v->value, &why);
+        if (v->present && !isfinite(v->value)) {
+            v->present = false;
+            why = "not finite";
+        }
+        v->why = v->present ? NULL : why;
+        if (!v->present)
+            v->value = 0;
+    }
+    return TB_OK;
+}
+
 /* The words of the verdict figure, indexed by tb_verdict. */
 static const char *const verdict_words[] = {
     [TB_VERDICT_UNKNOWN] = "undecided", [TB_VERDICT_STABLE] = "stable",

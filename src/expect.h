@@ -37,6 +37,19 @@ typedef struct {
     const char *what; /* one line for docs and --help */
 } tb_figure;
 
+/* One figure of one loop as measured: present with a finite value, or absent with why
+ * (a static phrase). */
+typedef struct {
+    bool present;
+    double value; /* 0 when absent */
+    const char *why; /* NULL when present */
+} tb_figure_value;
+
+/* Every figure of loop l of res, in table order; out has tb_figure_count() entries. This is
+ * what every .expect card of the loop is evaluated against (tb_expect_holds). Errors:
+ * TB_ERR_USAGE (NULL, l out of range), TB_ERR_NOMEM. */
+tb_status tb_figure_measure(const tb_result *res, size_t l, tb_figure_value *out);
+
 /* The figure table: tb_figure_count() rows, in the order of docs/check.md. */
 size_t tb_figure_count(void);
 const tb_figure *tb_figure_at(size_t i);

@@ -200,7 +200,7 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
         if (!fig.computed) {
             fprintf(stderr, "tbeta: %s: no step response: %s\n", a->netlist,
                     fig.why_absent ? fig.why_absent : "not computed");
-            return TB_ERR_USAGE;
+            return TB_ERR_NOT_FOUND;
         }
         return tb_report_step_csv(res, stdout);
     }
@@ -210,12 +210,12 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
         for (size_t i = 0; i < tb_circuit_loop_count(ckt); i++)
             fprintf(stderr, " %s", tb_circuit_loop_name(ckt, i));
         fputc('\n', stderr);
-        return TB_ERR_USAGE;
+        return TB_ERR_NOT_FOUND;
     }
-    if (a->table && tb_report_feedback_csv(ckt, res, l, a->table, stdout) == TB_ERR_USAGE) {
+    if (a->table && tb_report_feedback_csv(ckt, res, l, a->table, stdout) == TB_ERR_NOT_FOUND) {
         fprintf(stderr, "tbeta: %s has no table '%s' (breakdown needs .ideal and .io, zport:NAME a .zport, "
                         "break a .break)\n", a->netlist, a->table);
-        return TB_ERR_USAGE;
+        return TB_ERR_NOT_FOUND;
     }
     if (a->table)
         return ferror(stdout) ? TB_ERR_IO : TB_OK;
@@ -269,7 +269,8 @@ static int run(const args *a)
     print_diags(diag);
     if (st == TB_OK)
         st = write_output(a, ckt, res);
-    if (st != TB_OK && st != TB_ERR_INPUT && st != TB_ERR_USAGE && tb_diag_errors(diag) == 0)
+    /* write_output has said what is missing (TB_ERR_NOT_FOUND); diagnostics say the rest */
+    if (st != TB_OK && st != TB_ERR_INPUT && st != TB_ERR_NOT_FOUND && tb_diag_errors(diag) == 0)
         fprintf(stderr, "tbeta: %s: %s\n", a->netlist, tb_status_str(st));
     if (fflush(stdout) != 0 && st == TB_OK) {
         fprintf(stderr, "tbeta: writing the output failed\n");

@@ -35,7 +35,7 @@ tb_status tb_report_step_csv(const tb_result *res, FILE *out)
     const double *t = NULL, *y = NULL;
     size_t n = 0;
     if (!out || tb_step_samples(res, &t, &y, &n) || n == 0)
-        return TB_ERR_USAGE;
+        return !out || !res ? TB_ERR_USAGE : TB_ERR_NOT_FOUND;
     fputs("t_s,y\n", out);
     for (size_t k = 0; k < n; k++) {
         fprintf(out, "%.17g", t[k]);

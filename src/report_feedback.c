@@ -9,7 +9,7 @@ static tb_status breakdown_csv(const tb_result *res, size_t l, FILE *out)
     tb_feedback_summary fs;
     const tb_breakdown_point *pts = NULL;
     if (tb_feedback_loop(res, l, &fs) || !fs.computed || !fs.has_estimate || tb_feedback_points(res, l, &pts))
-        return TB_ERR_USAGE;
+        return TB_ERR_NOT_FOUND;
     fputs("freq_hz,AmG_re,AmG_im,loading_re,loading_im,loopgain_re,loopgain_im,feedthrough_re,feedthrough_im,"
           "error_pct,S_re,S_im,SA_re,SA_im\n", out);
     const double *f = tb_result_freqs(res);
@@ -48,7 +48,7 @@ static tb_status zport_csv(const tb_result *res, size_t l, const char *name, FIL
         }
         return TB_OK;
     }
-    return TB_ERR_USAGE;
+    return TB_ERR_NOT_FOUND;
 }
 
 static tb_status break_csv(const tb_result *res, FILE *out)
@@ -56,7 +56,7 @@ static tb_status break_csv(const tb_result *res, FILE *out)
     tb_break_summary s;
     const tb_break_point *pts = NULL;
     if (tb_break_get(res, &s, &pts) || !s.computed)
-        return TB_ERR_USAGE;
+        return TB_ERR_NOT_FOUND;
     fputs("freq_hz,Tv_re,Tv_im,Ti_re,Ti_im,T_re,T_im,Tprobe_re,Tprobe_im\n", out);
     const double *f = tb_result_freqs(res);
     for (size_t i = 0; i < tb_result_points(res); i++) {
@@ -75,7 +75,7 @@ tb_status tb_report_feedback_csv(const tb_circuit *ckt, const tb_result *res, si
 {
     if (!ckt || !res || !table || !out || l >= tb_result_loops(res))
         return TB_ERR_USAGE;
-    tb_status st = TB_ERR_USAGE;
+    tb_status st = TB_ERR_NOT_FOUND;
     if (strcasecmp(table, "breakdown") == 0)
         st = breakdown_csv(res, l, out);
     else if (strcasecmp(table, "break") == 0)

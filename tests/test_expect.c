@@ -243,19 +243,30 @@ static void test_expect_figures_closed_form(void **state)
         {"phase_margin_deg", 180.0 - atan(fc / fp) * 180.0 / TU_PI, 1e-6},
         {"verdict", TB_VERDICT_STABLE, 0},
     };
+    /* tb_figure_measure reads every figure at once: what .expect cards are evaluated against */
+    tb_figure_value all[64];
+    assert_true(tb_figure_count() <= sizeof all / sizeof all[0]);
+    assert_int_equal(tb_figure_measure(res, 0, all), TB_OK);
+    assert_int_equal(tb_figure_measure(res, 1, all), TB_ERR_USAGE);
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
-        const tb_figure *f = tb_figure_at((size_t)tb_figure_find(cases[i].name, strlen(cases[i].name)));
+        int idx = tb_figure_find(cases[i].name, strlen(cases[i].name));
+        const tb_figure *f = tb_figure_at((size_t)idx);
         double x = 0;
         const char *why = NULL;
         assert_true(f->get(&src, &x, &why));
         if (fabs(x - cases[i].want) > cases[i].rel * fabs(cases[i].want))
             fail_msg("%s = %.12g, closed form %.12g", cases[i].name, x, cases[i].want);
+        assert_true(all[idx].present && all[idx].value == x && all[idx].why == NULL);
     }
     double x = 0;
     const char *why = NULL;
-    const tb_figure *gm = tb_figure_at((size_t)tb_figure_find("gain_margin_db", 14));
+    int gm_idx = tb_figure_find("gain_margin_db", 14);
+    const tb_figure *gm = tb_figure_at((size_t)gm_idx);
     assert_false(gm->get(&src, &x, &why));
     assert_string_equal(why, "the phase of T never reaches -180 deg");
+    assert_false(all[gm_idx].present);
+    assert_true(all[gm_idx].value == 0);
+    assert_string_equal(all[gm_idx].why, "the phase of T never reaches -180 deg");
     tb_result_free(res);
     tb_circuit_free(ckt);
 }

@@ -212,7 +212,7 @@ static void test_feedback_no_io(void **state)
 }
 
 /* The tables over frequency: one header and one row per sweep point; the breakdown's error
- * column agrees with the parts; a table the netlist does not have is a usage error. */
+ * column agrees with the parts; a table the netlist does not have is not found. */
 static void test_feedback_csv(void **state)
 {
     (void)state;
@@ -239,9 +239,41 @@ static void test_feedback_csv(void **state)
     fclose(f);
     f = tmpfile();
     assert_non_null(f);
-    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 0, "break", f), TB_ERR_USAGE);
-    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 0, "zport:out", f), TB_ERR_USAGE);
-    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 0, "nonsense", f), TB_ERR_USAGE);
+    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 0, "break", f), TB_ERR_NOT_FOUND);
+    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 0, "zport:out", f), TB_ERR_NOT_FOUND);
+    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 0, "nonsense", f), TB_ERR_NOT_FOUND);
+    fclose(f);
+    done(&r);
+}
+
+/* One meaning per status: what does not exist or was not computed is TB_ERR_NOT_FOUND,
+ * a NULL argument or an index out of range TB_ERR_USAGE (the contracts in tbeta.h). */
+static void test_feedback_not_found(void **state)
+{
+    (void)state;
+    assert_int_equal(TB_ERR_NOT_FOUND, -7);
+    assert_string_equal(tb_status_str(TB_ERR_NOT_FOUND), "not found");
+    assert_string_equal(tb_status_str(TB_ERR_USAGE), "invalid use of the API");
+    assert_string_equal(tb_status_str((tb_status)-8), "unknown status");
+    /* without .io there is no step response and no breakdown */
+    run r = analyse("no io\nVs in 0 AC 1\nE1 out 0 in n 1000\nR2 out n 9k\nR1 n 0 1k\nC1 out 0 1n\n"
+                    ".ac dec 1 1 10\n.loop E1\n.ideal gain=10\n");
+    size_t l = 99;
+    assert_int_equal(tb_circuit_find_loop(r.ckt, "e1", &l), TB_OK);
+    assert_int_equal(l, 0);
+    assert_int_equal(tb_circuit_find_loop(r.ckt, "Q7", &l), TB_ERR_NOT_FOUND);
+    assert_int_equal(tb_circuit_find_loop(r.ckt, NULL, &l), TB_ERR_USAGE);
+    assert_int_equal(tb_circuit_find_loop(NULL, "E1", &l), TB_ERR_USAGE);
+    FILE *f = tmpfile();
+    assert_non_null(f);
+    assert_int_equal(tb_report_step_csv(r.res, f), TB_ERR_NOT_FOUND);
+    assert_int_equal(tb_report_step_csv(NULL, f), TB_ERR_USAGE);
+    assert_int_equal(tb_report_step_csv(r.res, NULL), TB_ERR_USAGE);
+    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 0, "breakdown", f), TB_ERR_NOT_FOUND);
+    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 1, "breakdown", f), TB_ERR_USAGE);
+    assert_int_equal(tb_report_feedback_csv(r.ckt, r.res, 0, NULL, f), TB_ERR_USAGE);
+    assert_int_equal(tb_report_feedback_csv(NULL, r.res, 0, "break", f), TB_ERR_USAGE);
+    assert_int_equal(ftell(f), 0); /* nothing written */
     fclose(f);
     done(&r);
 }
@@ -267,6 +299,7 @@ int main(void)
         cmocka_unit_test(test_feedback_desensitivity_feedthrough),
         cmocka_unit_test(test_feedback_no_io),
         cmocka_unit_test(test_feedback_csv),
+        cmocka_unit_test(test_feedback_not_found),
         cmocka_unit_test(test_feedback_words),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

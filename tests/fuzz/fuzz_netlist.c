@@ -1,29 +1,78 @@
 /* tests/fuzz/fuzz_netlist.c: libFuzzer harness over the whole read-parse-analyse-report path.
  * Any input must end in a status (never a crash, a leak or undefined behaviour); inputs
- * whose sweep or size would make one run slow are parsed but not analysed. */
+ * whose sweep or size would make one run slow are parsed but not analysed. An analysed
+ * input goes through every writer (text, JSON, sweep, step and feedback CSV tables) and
+ * has every figure of every loop read and every .expect card evaluated. */
+#include <math.h>
 #include <stdint.h>
 #include <stdio.h>
+#include <stdlib.h>
 
 #include "circuit.h"
+#include "expect.h"
 #include "grid.h"
 #include "tbeta.h"
 
 /* Keeps one run fast: analyse small circuits on short grids only. */
 #define FUZZ_MAX_UNKNOWNS 400
 #define FUZZ_MAX_POINTS 64
+/* Room for the figure table (checked on every run). */
+#define FUZZ_MAX_FIGURES 64
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 
-static void write_all(const tb_circuit *ckt, const tb_result *res)
+/* Every feedback table of loop l the result may have, and one it cannot. */
+static void feedback_tables(const tb_circuit *ckt, const tb_result *res, size_t l, FILE *sink)
 {
-    FILE *sink = fopen("/dev/null", "w");
-    if (!sink)
-        return;
+    (void)tb_report_feedback_csv(ckt, res, l, "breakdown", sink);
+    (void)tb_report_feedback_csv(ckt, res, l, "break", sink);
+    (void)tb_report_feedback_csv(ckt, res, l, "zport:", sink);
+    for (size_t p = 0; p < tb_zport_count(res); p++) {
+        tb_zport_summary zs;
+        char table[256];
+        if (tb_zport_loop(res, p, l, &zs, NULL) != TB_OK)
+            continue;
+        int n = snprintf(table, sizeof table, "zport:%s", zs.name);
+        if (n > 0 && (size_t)n < sizeof table && tb_report_feedback_csv(ckt, res, l, table, sink) == TB_ERR_NOT_FOUND)
+            abort(); /* a port the result lists has its table */
+    }
+}
+
+static void write_all(const tb_circuit *ckt, const tb_result *res, FILE *sink)
+{
     (void)tb_report_text(ckt, res, sink);
     (void)tb_report_json(ckt, res, sink);
-    for (size_t l = 0; l < tb_result_loops(res); l++)
+    (void)tb_report_step_csv(res, sink);
+    for (size_t l = 0; l < tb_result_loops(res); l++) {
         (void)tb_report_csv(ckt, res, l, sink);
-    fclose(sink);
+        feedback_tables(ckt, res, l, sink);
+    }
+}
+
+/* Every figure of every loop, then every .expect card against its loop's figures, as the
+ * regression runner evaluates them. A present figure is finite. */
+static void expectations(const tb_circuit *ckt, const tb_result *res)
+{
+    tb_figure_value figs[FUZZ_MAX_FIGURES];
+    char bound[160];
+    char measured[96];
+    if (tb_figure_count() > FUZZ_MAX_FIGURES)
+        abort();
+    for (size_t l = 0; l < tb_result_loops(res); l++) {
+        if (tb_figure_measure(res, l, figs) != TB_OK)
+            continue;
+        for (size_t f = 0; f < tb_figure_count(); f++)
+            if ((figs[f].present && !isfinite(figs[f].value)) || (!figs[f].present && !figs[f].why))
+                abort();
+    }
+    for (const tb_expect *x = ckt->expects; x; x = x->next) {
+        if (tb_figure_measure(res, x->loop, figs) != TB_OK)
+            continue;
+        const tb_figure_value *v = &figs[x->figure];
+        (void)tb_expect_holds(x, v->present, v->value);
+        tb_expect_bound_text(x, bound, sizeof bound);
+        tb_figure_text(x->figure, v->present, v->value, measured, sizeof measured);
+    }
 }
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
@@ -35,8 +84,14 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
         return 0;
     if (tb_circuit_parse((const char *)data, size, "fuzz.net", diag, &ckt) == TB_OK &&
         tb_circuit_unknowns(ckt) <= FUZZ_MAX_UNKNOWNS && tb_grid_count(&ckt->ac) <= FUZZ_MAX_POINTS &&
-        tb_analyse(ckt, NULL, diag, &res) == TB_OK)
-        write_all(ckt, res);
+        tb_analyse(ckt, NULL, diag, &res) == TB_OK) {
+        FILE *sink = fopen("/dev/null", "w");
+        if (sink) {
+            write_all(ckt, res, sink);
+            fclose(sink);
+        }
+        expectations(ckt, res);
+    }
     char buf[256];
     for (size_t i = 0; i < tb_diag_count(diag); i++)
         (void)tb_diag_format(diag, i, buf, sizeof buf);
