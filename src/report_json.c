@@ -581,6 +581,8 @@ tb_status tb_report_json(const tb_circuit *ckt, const tb_result *res, FILE *out)
     }
     int rc = json_dumpf(root, out, JSON_INDENT(2) | JSON_REAL_PRECISION(17) | JSON_PRESERVE_ORDER);
     json_decref(root);
+    if (rc && !ferror(out))
+        return TB_ERR_NOMEM; /* json_dumpf fails without a write error only when it runs out of memory */
     if (rc || fputc('\n', out) == EOF || ferror(out))
         return TB_ERR_IO;
     return TB_OK;

@@ -211,10 +211,47 @@ static void test_oom_demo_netlists(void **state)
         {"tests/fb/noninverting_x20.net", false},
         {"tests/fb/transistor_wirebreak.net", false},
     };
-    /* jansson's allocations are not failed here: tb_report_json still reads a failure inside
-     * json_dumpf as TB_ERR_IO */
     for (size_t i = 0; i < sizeof passes / sizeof passes[0]; i++)
         sweep(passes[i].path, netlist_once, &passes[i]);
+}
+
+/* The JSON report of an analysed netlist with every section (loops, stability, step,
+ * breakdown, ports, break, census), written with jansson's allocations failed too:
+ * the tree and json_dumpf's buffers. */
+typedef struct {
+    const tb_circuit *ckt;
+    const tb_result *res;
+} json_pass;
+
+static tb_status json_once(const void *ctx)
+{
+    const json_pass *jp = ctx;
+    FILE *sink = fopen("/dev/null", "w");
+    assert_non_null(sink);
+    armed = true;
+    tb_status st = tb_report_json(jp->ckt, jp->res, sink);
+    fclose(sink);
+    return st;
+}
+
+static void test_oom_json_writer(void **state)
+{
+    (void)state;
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    tb_result *res = NULL;
+    tb_options opt;
+    tb_options_init(&opt);
+    opt.census = true;
+    assert_int_equal(tb_circuit_read("tests/fb/noninverting_x20.net", diag, &ckt), TB_OK);
+    assert_int_equal(tb_analyse(ckt, &opt, diag, &res), TB_OK);
+    json_pass jp = {ckt, res};
+    count_json = true;
+    sweep("tests/fb/noninverting_x20.net, JSON", json_once, &jp);
+    count_json = false;
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+    tb_diag_free(diag);
 }
 
 static void test_oom_malformed_netlist(void **state)
@@ -417,6 +454,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_oom_demo_netlists),
         cmocka_unit_test(test_oom_malformed_netlist),
+        cmocka_unit_test(test_oom_json_writer),
         cmocka_unit_test(test_oom_runner),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
