@@ -106,7 +106,23 @@ static void evaluate(const tb_mna *mna, const tb_loopvec *lv, const double compl
     pt->a = pt->A_inf * pt->T;
 }
 
-/* Queues the M0 vectors of loop l: x0 whenever A0 exists, w0 when T is large. */
+/* Whether A0 = c'x0 from Sherman-Morrison, x0 = x + alpha w with alpha = k v'x/(1 - q),
+ * already holds to the refinement's own goal (TB_LOOP_CONVERGED relative, above the noise
+ * floor), so that a step of refinement would not move it: its rounding error is bounded
+ * by TB_LOOP_ROUNDING times the terms it is formed from, S = |c'x| + |alpha c'w|, grown by
+ * 1 + |q|/|1 - q| (alpha's error, from 1 - q formed out of q). A0 much smaller than S
+ * (a cancellation: large T, or A0 = 0) is refined. */
+static bool x0_is_accurate(const tb_mna *mna, const tb_loopvec *lv, const double complex *x,
+                           const double complex *w, double complex q, const double complex *x0, double noise)
+{
+    double complex alpha = lv->k * tb_svec_dot(&lv->v, x) / (1.0 - q);
+    double S = cabs(tb_svec_dot(&mna->c, x)) + cabs(alpha * tb_svec_dot(&mna->c, w));
+    double bound = TB_LOOP_ROUNDING * S * (1.0 + cabs(q) / cabs(1.0 - q));
+    return bound <= TB_LOOP_CONVERGED * cabs(tb_svec_dot(&mna->c, x0)) + noise;
+}
+
+/* Queues the M0 vectors of loop l: x0 when A0 exists and its formula may have lost
+ * digits, w0 when T is large. */
 static size_t start_vectors(const tb_mna *mna, tb_loop_work *work, size_t l, const tb_point *pt,
                             size_t count)
 {
@@ -121,7 +137,8 @@ static size_t start_vectors(const tb_mna *mna, tb_loop_work *work, size_t l, con
         const double complex *x = work->rhs;
         tb_loop_sherman_morrison(lv, w, q, x, NULL, x0, n);
         double noise = 1e-15 * cabs(tb_svec_dot(&mna->c, x));
-        work->pending[count++] = (refinement){l, &mna->b, &mna->c, noise, x0};
+        if (!x0_is_accurate(mna, lv, x, w, q, x0, noise))
+            work->pending[count++] = (refinement){l, &mna->b, &mna->c, noise, x0};
     }
     if (cabs(1.0 - q) < TB_LOOP_REFINE_TOL) {
         double complex *w0 = work->vec0 + (2 * l + 1) * n;

@@ -16,6 +16,10 @@
  * more than TB_LOOP_CONVERGED relative needs no further step. */
 #define TB_LOOP_REFINE_STEPS 3
 #define TB_LOOP_CONVERGED 1e-9
+/* A bound on the relative rounding error of one Sherman-Morrison term (about 500 units
+ * in the last place, to cover the solves' own errors): x0 is refined only when this
+ * bound, grown by the cancellation, can exceed TB_LOOP_CONVERGED of A0. */
+#define TB_LOOP_ROUNDING 1e-13
 
 /* M0^-1 r from d = M^-1 r by Sherman-Morrison (M0 = M - k u v', w = M^-1 u,
  * q = k v'w, 1 - q != 0): out[i] = base[i] + (d[i] + k (v'd)/(1 - q) w[i]),
