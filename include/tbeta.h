@@ -675,6 +675,36 @@ TB_API tb_status tb_break_vs_loop_get(const tb_result *res, size_t l, tb_break_v
  * *pts (when not NULL) points into res, one per sweep frequency. Errors: TB_ERR_USAGE. */
 TB_API tb_status tb_break_get(const tb_result *res, tb_break_summary *out, const tb_break_point **pts);
 
+/* ---- pictures (SVG) ------------------------------------------------------ */
+
+/* The pictures tbeta draws (docs/pictures.md). */
+typedef enum {
+    TB_PIC_BODE = 0,   /* |T| and its phase over frequency, with |A|, |A_inf| and the hand estimate,
+                        * every unity and -180 degree crossing marked with its margin */
+    TB_PIC_NYQUIST,    /* T(jw) on a log-magnitude scale (|T| = 1 stays the unit circle), -1,
+                        * the vector-margin circle and the encirclement count */
+    TB_PIC_STEP,       /* the closed-loop step response with overshoot, rise and settling marked */
+    TB_PIC_IMPEDANCE,  /* |Z| of one .zport with and without feedback over frequency */
+    TB_PIC_BREAKDOWN,  /* |A - G| and its three parts over frequency (.ideal) */
+    TB_PIC_COUNT
+} tb_picture_kind;
+
+/* "bode", "nyquist", "step", "impedance", "breakdown": the picture's name in file names. */
+TB_API const char *tb_picture_name(tb_picture_kind kind);
+
+/* Writes picture `kind` of loop l (for TB_PIC_IMPEDANCE: of .zport number `port`; ignored
+ * otherwise) to out as one self-contained SVG document. Errors: TB_ERR_USAGE (NULL, l or
+ * port out of range), TB_ERR_NOT_FOUND (the picture has nothing to show: no step response,
+ * no .zport, no .ideal with .io), TB_ERR_NOMEM, TB_ERR_IO. */
+TB_API tb_status tb_report_svg(const tb_circuit *ckt, const tb_result *res, tb_picture_kind kind, size_t l,
+                               size_t port, FILE *out);
+
+/* One self-contained HTML page for a design review: the netlist's title, each loop's
+ * verdict first, the summary tables, the estimate's breakdown, every picture as inline
+ * SVG, and the caution. No script, font or style is fetched from anywhere; it reads the
+ * same with scripts off. Errors: TB_ERR_USAGE (NULL), TB_ERR_NOMEM, TB_ERR_IO. */
+TB_API tb_status tb_report_html(const tb_circuit *ckt, const tb_result *res, FILE *out);
+
 /* ---- over frequency, as CSV ------------------------------------------- */
 
 /* One row per sweep frequency of a feedback table of loop l (full precision, an
