@@ -1,4 +1,5 @@
-# Makefile: builds tbeta (build/tbeta, build/libtbeta.a), runs its tests, demo and benchmarks.
+# Makefile: builds tbeta (build/tbeta, build/libtbeta.a, build/libtbeta.so), installs it, runs its
+# tests, demo and benchmarks.
 # Every target first makes sure the Debian packages it needs are installed (scripts/deps.sh).
 
 CC       ?= gcc
@@ -8,7 +9,7 @@ SAN      ?=
 WARN     := -std=c11 -Wall -Wextra -Werror -Wshadow -Wmissing-prototypes -Wstrict-prototypes \
             -Wwrite-strings -Wundef -Wold-style-definition
 CPPFLAGS := -Iinclude -Isrc -I/usr/include/suitesparse -D_POSIX_C_SOURCE=200809L
-CFLAGS   := $(WARN) $(OPT) $(SAN) -fvisibility=hidden -pthread
+CFLAGS   := $(WARN) $(OPT) $(SAN) -fvisibility=hidden -fPIC -pthread
 LDFLAGS  := $(SAN) -pthread
 LDLIBS   := -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -llapack -lblas -lm
 TESTLIBS := -lcmocka
@@ -25,9 +26,15 @@ TEST_SRC := $(wildcard tests/test_*.c)
 TEST_BIN := $(TEST_SRC:tests/%.c=$(BUILD)/tests/%)
 DEPS_OK  := $(BUILD)/.deps-ok
 DEMO     ?= netlists/noninverting_loaded_opamp.net
+# the library's version (TB_VERSION in include/tbeta.h) and the shared library's soname
+VERSION  := 0.1.0
+SONAME   := libtbeta.so.0
+SHLIB    := $(BUILD)/libtbeta.so.$(VERSION)
+PREFIX   ?= /usr/local
+DESTDIR  ?=
 
-.PHONY: all deps test check demo asan valgrind debug bench fuzz clean
-all: $(BUILD)/tbeta $(BUILD)/libtbeta.a
+.PHONY: all deps test check demo asan valgrind debug bench fuzz clean install
+all: $(BUILD)/tbeta $(BUILD)/libtbeta.a $(SHLIB)
 
 $(DEPS_OK):
 	@sh scripts/deps.sh
@@ -44,6 +51,10 @@ $(BUILD)/libtbeta.a: $(LIB_OBJ)
 	rm -f $@
 	ar rcs $@ $^
 
+# the same objects (position-independent) as a shared library exporting only TB_API names
+$(SHLIB): $(LIB_OBJ)
+	$(CC) -shared -Wl,-soname,$(SONAME) $(LDFLAGS) $^ $(LDLIBS) -o $@
+
 $(BUILD)/tbeta: $(PROG_OBJ) $(BUILD)/libtbeta.a
 	$(CC) $(LDFLAGS) $^ $(LDLIBS) -o $@
 
@@ -58,8 +69,23 @@ $(BUILD)/tests/test_expect $(BUILD)/tests/test_oom: $(RUNNER_OBJ)
 # the allocation-failure sweep sees every allocation the library makes
 $(BUILD)/tests/test_oom: LDWRAP := -Wl,--wrap=malloc,--wrap=calloc,--wrap=realloc
 
+# install: the program, both libraries, the header, tbeta.pc for pkg-config and the man page,
+# under $(DESTDIR)$(PREFIX) (default /usr/local).
+install: all
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/lib/pkgconfig $(DESTDIR)$(PREFIX)/include \
+	    $(DESTDIR)$(PREFIX)/share/man/man1
+	install -m 755 $(BUILD)/tbeta $(DESTDIR)$(PREFIX)/bin/tbeta
+	install -m 644 $(BUILD)/libtbeta.a $(DESTDIR)$(PREFIX)/lib/libtbeta.a
+	install -m 755 $(SHLIB) $(DESTDIR)$(PREFIX)/lib/libtbeta.so.$(VERSION)
+	ln -sf libtbeta.so.$(VERSION) $(DESTDIR)$(PREFIX)/lib/$(SONAME)
+	ln -sf $(SONAME) $(DESTDIR)$(PREFIX)/lib/libtbeta.so
+	install -m 644 include/tbeta.h $(DESTDIR)$(PREFIX)/include/tbeta.h
+	sed -e 's|@PREFIX@|$(PREFIX)|' -e 's|@VERSION@|$(VERSION)|' docs/tbeta.pc.in \
+	    > $(DESTDIR)$(PREFIX)/lib/pkgconfig/tbeta.pc
+	install -m 644 docs/tbeta.1 $(DESTDIR)$(PREFIX)/share/man/man1/tbeta.1
+
 # check: build and run every test in $(BUILD) (RUNWRAP wraps each test program).
-check: $(BUILD)/tbeta $(TEST_BIN)
+check: $(BUILD)/tbeta $(SHLIB) $(TEST_BIN)
 	@sh tests/run.sh $(BUILD) "$(RUNWRAP)"
 
 test: check
