@@ -128,6 +128,7 @@ typedef struct {
     double gm_min_db;     /* gain-margin threshold; negative (the default): the netlist's
                            * .margins gm=, else 10 dB (common practice) */
     bool census;          /* return ratio of every controlled source (default false) */
+    bool sensitivity;     /* adjoint sensitivities to every element (default false) */
 } tb_options;
 
 /* Sets every field of *opt to its default. */
@@ -233,6 +234,44 @@ typedef struct {
 /* Measures of loop l (computed once by tb_analyse). Errors: TB_ERR_USAGE (NULL,
  * l out of range). */
 TB_API tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out);
+
+/* ---- sensitivities to every element (adjoint method, docs/spread.md) ---- */
+
+/* How one loop's figures move with one element's value p (R, C, L, a controlled source's
+ * gain, a coupling): normalized to relative changes of p. Computed from the adjoint
+ * (transposed) systems on the same factorization: two more solves per frequency, not one
+ * per element. */
+typedef struct {
+    const char *element;  /* as written; owned by the circuit */
+    double value;         /* p */
+    bool has_T;
+    double T_mag;         /* (d|T|/|T|)/(dp/p) at DC (or the lowest sweep point) */
+    double T_phase_deg;   /* degrees the phase of T moves per 1 % increase of p, there */
+    bool has_A;
+    double A_mag;         /* (d|A|/|A|)/(dp/p) there */
+    bool has_A_inf;
+    double A_inf_mag;     /* (d|A_inf|/|A_inf|)/(dp/p) there */
+    bool has_unity;
+    double unity;         /* (df/f)/(dp/p) of the headline phase margin's unity crossing */
+    bool has_pm;
+    double pm_deg_pct;    /* degrees of phase margin per 1 % increase of p */
+    bool has_gm;
+    double gm_db_pct;     /* dB of gain margin per 1 % increase of p */
+} tb_sens_entry;
+
+typedef struct {
+    bool computed;        /* tb_options.sensitivity was set */
+    double dc_hz;         /* where the DC sensitivities are taken: 0 or the lowest sweep point */
+    bool has_pm_hz;
+    double pm_hz;         /* the unity crossing of the headline phase margin */
+    bool has_gm_hz;
+    double gm_hz;         /* the phase crossing of the headline gain margin */
+    size_t count;
+    const tb_sens_entry *entries; /* ranked: largest |pm_deg_pct| first (then |T_mag|); into res */
+} tb_sensitivity;
+
+/* The sensitivities of loop l (tb_analyse with opt->sensitivity). Errors: TB_ERR_USAGE. */
+TB_API tb_status tb_sensitivity_get(const tb_result *res, size_t l, tb_sensitivity *out);
 
 /* ---- closed-loop response |A(j w)| ------------------------------------ */
 

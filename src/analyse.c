@@ -7,6 +7,7 @@
 #include "grid.h"
 #include "impedance.h"
 #include "measure.h"
+#include "sensitivity.h"
 #include "stability.h"
 #include "step.h"
 #include "sweep.h"
@@ -21,6 +22,7 @@ void tb_options_init(tb_options *opt)
     opt->pm_min_deg = -1.0; /* the netlist's .margins, else 45 degrees (common practice) */
     opt->gm_min_db = -1.0;  /* the netlist's .margins, else 10 dB (common practice) */
     opt->census = false;
+    opt->sensitivity = false;
 }
 
 /* Thresholds left negative in the options come from the netlist's .margins,
@@ -98,6 +100,8 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
         st = tb_feedback_run(ckt, probe, res);
     if (!st)
         st = tb_closed_loop_run(probe, res);
+    if (!st && opt->sensitivity)
+        st = tb_sensitivity_run(ckt, probe, res);
     res->stats.probe_factorizations = probe->factorizations;
     size_t before = tb_sweep_counts(sw).numeric;
     if (!st && opt->stability)

@@ -454,3 +454,100 @@ void tb_mna_residual0(const tb_mna *mna, const double *Mx, double omega, const t
         }
     }
 }
+
+/* Visits d (e_a - e_b)(e_ca - e_cb)' without ground. */
+static void visit_pair(tb_mna_visit visit, void *ctx, int a, int b, int ca, int cb, double complex d)
+{
+    size_t r[2] = {tb_mna_node_unknown(a), tb_mna_node_unknown(b)};
+    size_t c[2] = {tb_mna_node_unknown(ca), tb_mna_node_unknown(cb)};
+    for (int i = 0; i < 2; i++)
+        for (int j = 0; j < 2; j++)
+            if (r[i] != SIZE_MAX && c[j] != SIZE_MAX)
+                visit(ctx, r[i], c[j], (i == j ? 1.0 : -1.0) * d);
+}
+
+static void visit_one(tb_mna_visit visit, void *ctx, size_t row, size_t col, double complex d)
+{
+    if (row != SIZE_MAX && col != SIZE_MAX)
+        visit(ctx, row, col, d);
+}
+
+/* The mutual terms of inductor e (value L): d/dL of -jw k sqrt(L L_other) at both off-diagonal places. */
+static void visit_mutuals(const tb_circuit *ckt, size_t e, double omega, tb_mna_visit visit, void *ctx)
+{
+    const tb_element *el = &ckt->elems[e];
+    for (size_t k = 0; k < ckt->elem_count; k++) {
+        const tb_element *kc = &ckt->elems[k];
+        if (kc->kind != TB_EL_K || (kc->ctrl != e && kc->ctrl2 != e))
+            continue;
+        const tb_element *other = &ckt->elems[kc->ctrl == e ? kc->ctrl2 : kc->ctrl];
+        double dM = kc->value * sqrt(other->value / el->value) / 2.0;
+        size_t j1 = tb_mna_branch_unknown(ckt, el), j2 = tb_mna_branch_unknown(ckt, other);
+        visit(ctx, j1, j2, CMPLX(0, -omega * dM));
+        visit(ctx, j2, j1, CMPLX(0, -omega * dM));
+    }
+}
+
+void tb_mna_derivative(const tb_circuit *ckt, size_t elem, double omega, tb_mna_visit visit, void *ctx)
+{
+    const tb_element *e = &ckt->elems[elem];
+    const int *nd = e->node;
+    switch (e->kind) {
+    case TB_EL_R:
+        visit_pair(visit, ctx, nd[0], nd[1], nd[0], nd[1], -1.0 / (e->value * e->value));
+        break;
+    case TB_EL_C:
+        visit_pair(visit, ctx, nd[0], nd[1], nd[0], nd[1], CMPLX(0, omega));
+        break;
+    case TB_EL_G:
+        visit_pair(visit, ctx, nd[0], nd[1], nd[2], nd[3], 1.0);
+        break;
+    case TB_EL_L: {
+        size_t j = tb_mna_branch_unknown(ckt, e);
+        visit(ctx, j, j, CMPLX(0, -omega));
+        visit_mutuals(ckt, elem, omega, visit, ctx);
+        break;
+    }
+    case TB_EL_E: {
+        size_t j = tb_mna_branch_unknown(ckt, e);
+        visit_one(visit, ctx, j, tb_mna_node_unknown(nd[2]), -1.0);
+        visit_one(visit, ctx, j, tb_mna_node_unknown(nd[3]), 1.0);
+        break;
+    }
+    case TB_EL_F: {
+        size_t js = tb_mna_branch_unknown(ckt, &ckt->elems[e->ctrl]);
+        visit_one(visit, ctx, tb_mna_node_unknown(nd[0]), js, 1.0);
+        visit_one(visit, ctx, tb_mna_node_unknown(nd[1]), js, -1.0);
+        break;
+    }
+    case TB_EL_H:
+        visit(ctx, tb_mna_branch_unknown(ckt, e), tb_mna_branch_unknown(ckt, &ckt->elems[e->ctrl]), -1.0);
+        break;
+    case TB_EL_K: {
+        const tb_element *l1 = &ckt->elems[e->ctrl];
+        const tb_element *l2 = &ckt->elems[e->ctrl2];
+        double dM = sqrt(l1->value * l2->value);
+        size_t j1 = tb_mna_branch_unknown(ckt, l1), j2 = tb_mna_branch_unknown(ckt, l2);
+        visit(ctx, j1, j2, CMPLX(0, -omega * dM));
+        visit(ctx, j2, j1, CMPLX(0, -omega * dM));
+        break;
+    }
+    case TB_EL_V:
+    case TB_EL_I:
+    case TB_EL_COUNT:
+        break;
+    }
+}
+
+double complex tb_mna_form_C(const tb_mna *mna, const double complex *g, const double complex *h)
+{
+    double complex sum = 0;
+    for (size_t j = 0; j < mna->n; j++) {
+        if (h[j] == 0)
+            continue;
+        for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++)
+            if (mna->Cx[k] != 0)
+                sum += g[mna->Ai[k]] * mna->Cx[k] * h[j];
+    }
+    return sum;
+}

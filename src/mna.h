@@ -71,6 +71,16 @@ size_t tb_mna_position(const tb_mna *mna, size_t row, size_t col);
 /* Writes M(jw) = G + jwC into Mx (2*nnz doubles, real/imag interleaved, KLU's layout). */
 void tb_mna_values(const tb_mna *mna, double omega, double *Mx);
 
+/* dM/dp for element elem's value p (R ohms, C farads, L henries, E/G/F/H gain, K coupling) at
+ * angular frequency omega: visit(ctx, row, col, d) for each non-zero entry d (ground rows and
+ * columns left out; an inductor's entries include the mutual terms of every K coupling it).
+ * Independent sources do not enter M: no visit. */
+typedef void (*tb_mna_visit)(void *ctx, size_t row, size_t col, double complex d);
+void tb_mna_derivative(const tb_circuit *ckt, size_t elem, double omega, tb_mna_visit visit, void *ctx);
+
+/* g' C h over complex vectors (C: the capacitance-like values; dM/domega = jC). */
+double complex tb_mna_form_C(const tb_mna *mna, const double complex *g, const double complex *h);
+
 /* M(jw) with loop lv's source gain changed by dk (k -> k + dk) at its own
  * positions, into Mx as tb_mna_values writes it. */
 void tb_mna_values_gain(const tb_mna *mna, double omega, const tb_loopvec *lv, double dk, double *Mx);

@@ -368,6 +368,44 @@ static json_t *feedback_object(builder *b, const tb_circuit *ckt, const tb_resul
     return o;
 }
 
+/* The loop's sensitivities to every element, ranked; null when not asked for. */
+static json_t *sensitivity_object(builder *b, const tb_result *res, size_t l)
+{
+    tb_sensitivity s;
+    if (tb_sensitivity_get(res, l, &s) || !s.computed)
+        return json_null();
+    json_t *o = obj(b);
+    json_t *arr = json_array();
+    if (!o || !arr) {
+        json_decref(o);
+        json_decref(arr);
+        b->ok = false;
+        return NULL;
+    }
+    set(b, o, "dc_hz", num(s.dc_hz));
+    set(b, o, "phase_margin_hz", s.has_pm_hz ? num(s.pm_hz) : json_null());
+    set(b, o, "gain_margin_hz", s.has_gm_hz ? num(s.gm_hz) : json_null());
+    for (size_t i = 0; i < s.count; i++) {
+        const tb_sens_entry *e = &s.entries[i];
+        json_t *x = obj(b);
+        if (!x)
+            break;
+        set(b, x, "element", json_string(e->element));
+        set(b, x, "value", num(e->value));
+        set(b, x, "T_mag", e->has_T ? num(e->T_mag) : json_null());
+        set(b, x, "T_phase_deg_per_pct", e->has_T ? num(e->T_phase_deg) : json_null());
+        set(b, x, "A_mag", e->has_A ? num(e->A_mag) : json_null());
+        set(b, x, "A_inf_mag", e->has_A_inf ? num(e->A_inf_mag) : json_null());
+        set(b, x, "unity_hz", e->has_unity ? num(e->unity) : json_null());
+        set(b, x, "phase_margin_deg_per_pct", e->has_pm ? num(e->pm_deg_pct) : json_null());
+        set(b, x, "gain_margin_db_per_pct", e->has_gm ? num(e->gm_db_pct) : json_null());
+        if (json_array_append_new(arr, x))
+            b->ok = false;
+    }
+    set(b, o, "elements", arr);
+    return o;
+}
+
 static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *res, size_t l)
 {
     tb_measures m;
@@ -400,6 +438,7 @@ static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *r
     set(b, lp, "max_sensitivity_db", m.has_max_sensitivity ? num(m.max_sensitivity_db) : json_null());
     set(b, lp, "max_sensitivity_hz", m.has_max_sensitivity ? num(m.max_sensitivity_hz) : json_null());
     set(b, lp, "feedback", feedback_object(b, ckt, res, l));
+    set(b, lp, "sensitivities", sensitivity_object(b, res, l));
     set(b, lp, "notes", notes_all(b, m.notes, &st));
     return lp;
 }

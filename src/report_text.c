@@ -344,6 +344,37 @@ static void feedback_block(FILE *out, const tb_circuit *ckt, const tb_result *re
             fprintf(out, "    - %s\n", tb_fb_note_str((tb_fb_note)n));
 }
 
+/* The elements that move the loop most: a sentence for the phase margin, then a table. */
+static void sensitivity_block(FILE *out, const tb_result *res, size_t l)
+{
+    tb_sensitivity s;
+    char f[64];
+    if (tb_sensitivity_get(res, l, &s) || !s.computed)
+        return;
+    fprintf(out, "  sensitivities (adjoint; per 1 %% increase of each element)\n");
+    if (s.count > 0 && s.entries[0].has_pm) {
+        fprintf(out, "    the phase margin is set by %s (%+.3g deg/%%)", s.entries[0].element, s.entries[0].pm_deg_pct);
+        if (s.count > 1 && s.entries[1].has_pm)
+            fprintf(out, " and %s (%+.3g deg/%%)", s.entries[1].element, s.entries[1].pm_deg_pct);
+        fprintf(out, ", at %s\n", fmt_hz(s.pm_hz, f, sizeof f));
+    }
+    fprintf(out, "    %-12s %12s %12s %12s %12s %12s %12s\n", "element", "|T| %/%", "arg T deg/%", "|A| %/%",
+            "f_unity %/%", "PM deg/%", "GM dB/%");
+    for (size_t i = 0; i < s.count && i < 8; i++) {
+        const tb_sens_entry *e = &s.entries[i];
+        char c[6][24];
+        snprintf(c[0], sizeof c[0], e->has_T ? "%+.4g" : "--", e->T_mag);
+        snprintf(c[1], sizeof c[1], e->has_T ? "%+.4g" : "--", e->T_phase_deg);
+        snprintf(c[2], sizeof c[2], e->has_A ? "%+.4g" : "--", e->A_mag);
+        snprintf(c[3], sizeof c[3], e->has_unity ? "%+.4g" : "--", e->unity);
+        snprintf(c[4], sizeof c[4], e->has_pm ? "%+.4g" : "--", e->pm_deg_pct);
+        snprintf(c[5], sizeof c[5], e->has_gm ? "%+.4g" : "--", e->gm_db_pct);
+        fprintf(out, "    %-12s %12s %12s %12s %12s %12s %12s\n", e->element, c[0], c[1], c[2], c[3], c[4], c[5]);
+    }
+    if (s.count > 8)
+        fprintf(out, "    (%zu more in --json)\n", s.count - 8);
+}
+
 static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *res, size_t l)
 {
     tb_measures m;
@@ -356,6 +387,7 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
     crossing_block(out, &m);
     closed_loop_lines(out, res, &m);
     feedback_block(out, ckt, res, l);
+    sensitivity_block(out, res, l);
     tb_stability stab;
     tb_stability_loop(res, l, &stab);
     if (stab.computed)

@@ -67,6 +67,8 @@ void tb_result_free(tb_result *res)
     wb_free(res->wb);
     tb_free(res->ftype);
     tb_free(res->mid);
+    tb_free(res->sens);
+    tb_free(res->sens_entries);
     tb_free(res);
 }
 
@@ -144,6 +146,14 @@ tb_status tb_measure_loop(const tb_result *res, size_t l, tb_measures *out)
     if (!res || !out || l >= res->nloops || !res->measures)
         return TB_ERR_USAGE;
     *out = res->measures[l];
+    return TB_OK;
+}
+
+tb_status tb_sensitivity_get(const tb_result *res, size_t l, tb_sensitivity *out)
+{
+    if (!res || !out || l >= res->nloops)
+        return TB_ERR_USAGE;
+    *out = res->sens ? res->sens[l] : (tb_sensitivity){0};
     return TB_OK;
 }
 

@@ -49,6 +49,9 @@ struct tb_result {
     tb_wb_data *wb;   /* .break loop gain, or NULL */
     tb_feedback_type *ftype; /* nloops: series/shunt topology, or NULL */
     tb_closed_loop cl;       /* closed-loop response (closedloop.c) */
+    tb_sensitivity *sens;    /* nloops, or NULL (sensitivity.c) */
+    tb_sens_entry *sens_entries; /* nloops x sens_per_loop, each loop's ranked */
+    size_t sens_per_loop;
     tb_point *mid;           /* nloops: every loop at cl.ref_hz when AC-coupled, else NULL */
 };
 

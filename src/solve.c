@@ -119,3 +119,17 @@ tb_solver_counts tb_solver_get_counts(const tb_solver *solver)
 {
     return solver->counts;
 }
+
+tb_status tb_solver_solve_transposed(tb_solver *s, double complex *B, size_t nrhs)
+{
+    if (nrhs == 0)
+        return TB_OK;
+    if (nrhs > (size_t)INT_MAX || s->mna->n > (size_t)INT_MAX / 2)
+        return TB_ERR_NUMERIC;
+    double *Bx = (double *)B;
+    s->counts.solves++;
+    s->counts.columns += nrhs;
+    if (!klu_z_tsolve(s->symbolic, s->numeric, (int)s->mna->n, (int)nrhs, Bx, 0, &s->common))
+        return TB_ERR_NUMERIC;
+    return TB_OK;
+}

@@ -30,6 +30,10 @@ tb_status tb_solver_refactor(tb_solver *solver, const double *Mx, double rcond_d
  * (each n complex values). Errors: TB_ERR_NUMERIC. */
 tb_status tb_solver_solve(tb_solver *solver, double complex *B, size_t nrhs);
 
+/* Solves M' X = B (the transpose, not conjugated) in place on the same factorization:
+ * the adjoint systems of sensitivity analysis. Errors: TB_ERR_NUMERIC. */
+tb_status tb_solver_solve_transposed(tb_solver *solver, double complex *B, size_t nrhs);
+
 /* Number of pivoted factorizations so far (first one included). */
 size_t tb_solver_factor_count(const tb_solver *solver);
 

@@ -177,6 +177,7 @@ static tb_status netlist_once(const void *ctx)
     tb_options opt;
     tb_options_init(&opt);
     opt.census = np->census;
+    opt.sensitivity = np->census; /* the passes with the census also take the sensitivities */
     tb_diag *diag = tb_diag_new();
     tb_circuit *ckt = NULL;
     tb_result *res = NULL;
