@@ -192,7 +192,7 @@ static void stability_block(FILE *out, const tb_stability *st)
     snprintf(v, sizeof v, "%.4g at %s", st->vector_margin, fmt_hz_or_dc(st->vector_margin_hz, f, sizeof f));
     line(out, "vector margin min|1+T|", st->has_vector_margin, v, "");
     snprintf(v, sizeof v, "%s to %s%s", fmt_hz(st->search_lo_hz, f, sizeof f), fmt_hz(st->search_hi_hz, g, sizeof g),
-             st->margins_determined ? " and DC, T settled at both ends" : " and DC");
+             st->margins_determined ? " (T settled at both ends)" : "");
     line(out, "crossings searched", true, v, "");
     crossing_lines(out, st);
     pole_lines(out, st);
