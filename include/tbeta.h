@@ -181,7 +181,7 @@ typedef enum {
     TB_NOTE_NOT_IN_LOOP,     /* the source never sees its own output: not in a loop */
     TB_NOTE_DC_FROM_SWEEP,   /* DC is singular: "DC" values are those at the lowest sweep frequency */
     TB_NOTE_T_INF_DC,        /* T is infinite at DC (e.g. an integrator in the loop) */
-    TB_NOTE_POSITIVE_FB_DC,  /* T(0) < 0: positive feedback at DC, phase margin absent */
+    TB_NOTE_POSITIVE_FB_DC,  /* T(0) < 0: positive feedback at DC (no grid phase margin without stability) */
     TB_NOTE_NO_UNITY,        /* |T| never falls through 1 in the sweep */
     TB_NOTE_NO_F3DB,         /* |A| never falls 3 dB below its DC value in the sweep */
     TB_NOTE_AINF_NONE_DC,    /* A_inf undefined at DC (T has a zero there) */
@@ -215,9 +215,11 @@ typedef struct {
     double dc_hz;           /* 0, or the lowest sweep frequency */
     tb_dc_figures fig;      /* derived from dc */
     bool has_unity;
-    double unity_hz;        /* lowest frequency where |T| falls through 1 */
+    double unity_hz;        /* the headline unity crossing: tb_stability.phase_margin_hz (without
+                             * the stability analysis: the lowest grid point where |T| falls through 1) */
     bool has_phase_margin;
-    double phase_margin_deg; /* 180 + unwrapped phase of T at unity_hz */
+    double phase_margin_deg; /* its phase margin: tb_stability.phase_margin_deg (without the
+                              * stability analysis: 180 + unwrapped phase at unity_hz, on the grid) */
     bool has_f3db;
     double f3db_closed_hz;  /* the closed-loop -3 dB frequency: where |A| falls through
                              * |A_ref|/sqrt(2) above the reference (tb_closed_loop) */
@@ -256,7 +258,8 @@ typedef struct {
     bool has_pm;
     double pm_deg_pct;    /* degrees of phase margin per 1 % increase of p */
     bool has_gm;
-    double gm_db_pct;     /* dB of gain margin per 1 % increase of p */
+    double gm_db_pct;     /* dB of the gain margin upward (how far the loop gain may rise)
+                           * per 1 % increase of p */
 } tb_sens_entry;
 
 typedef struct {
@@ -265,7 +268,7 @@ typedef struct {
     bool has_pm_hz;
     double pm_hz;         /* the unity crossing of the headline phase margin */
     bool has_gm_hz;
-    double gm_hz;         /* the phase crossing of the headline gain margin */
+    double gm_hz;         /* the phase crossing of the upward gain margin */
     size_t count;
     const tb_sens_entry *entries; /* ranked: largest |pm_deg_pct| first (then |T_mag|); into res */
 } tb_sensitivity;
@@ -320,17 +323,30 @@ TB_API tb_status tb_closed_loop_get(const tb_result *res, tb_closed_loop *out);
 #define TB_MAX_CROSSINGS 16  /* crossings kept per kind and loop (more: truncated, said so) */
 #define TB_MAX_POLES 16      /* closed-loop poles kept per loop, least damped first */
 
+/* Where a crossing lies against the .ac range: the search follows T from DC to far
+ * above the sweep, so margins outside the range are found and checked too. */
+typedef enum {
+    TB_SWEEP_INSIDE = 0, /* within [first, last] sweep frequency */
+    TB_SWEEP_BELOW,      /* below the first sweep frequency (DC included) */
+    TB_SWEEP_ABOVE       /* above the last sweep frequency */
+} tb_sweep_side;
+
 /* One crossing found by root finding on fresh solves: |T| = 1 (unity) or the
- * unwrapped phase of T at an odd multiple of 180 degrees (phase). */
+ * unwrapped phase of T at an odd multiple of 180 degrees (phase; also DC itself
+ * when T(0) is real and negative, a critical point of the gain). */
 typedef struct {
-    double hz;
+    double hz;            /* 0: DC */
     double T_db;          /* 20 log10 |T| there */
     double phase_deg;     /* unwrapped phase of T there */
-    int direction;        /* +1: |T| (or the phase) rises through the level, -1: falls */
-    double margin;        /* unity: phase margin in degrees, wrapped into (-180, 180];
-                           * phase: gain margin in dB, -20 log10 |T| */
-    bool has_delay;
-    double delay_s;       /* unity with margin > 0: delay that closes it, margin/(2 pi hz) */
+    int direction;        /* +1: |T| (or the phase) rises through the level, -1: falls,
+                           * 0: at DC (the phase starts at 180 degrees there) */
+    double margin;        /* unity: phase margin in degrees, wrapped into (-180, 180]
+                           * (negative: that much phase lead puts T through -1);
+                           * phase: the change of loop gain in dB that puts T through -1
+                           * here, -20 log10 |T| (positive: a rise, negative: a fall) */
+    double delay_s;       /* unity: the smallest pure delay that puts T through -1 here,
+                           * (margin, or margin + 360 when it is negative) degrees of lag at hz */
+    tb_sweep_side sweep;  /* inside, below or above the .ac range */
 } tb_crossing;
 
 typedef enum {
@@ -343,17 +359,29 @@ typedef enum {
 
 /* Why the stability figures are as they are (bits 1u << tb_stab_note). */
 typedef enum {
-    TB_SNOTE_NO_PHASE_CROSSING = 0, /* the phase never reaches -180 (mod 360): no gain margin */
-    TB_SNOTE_NO_UNITY,              /* |T| never crosses 1 in the sweep: no phase or delay margin */
-    TB_SNOTE_TRUNCATED,             /* more crossings than TB_MAX_CROSSINGS: the first ones kept */
+    TB_SNOTE_NO_PHASE_CROSSING = 0, /* the phase never reaches -180 (mod 360), DC to far above the
+                                     * sweep: no gain margin either way */
+    TB_SNOTE_NO_UNITY,              /* |T| never crosses 1, DC to far above the sweep: no phase or
+                                     * delay margin */
+    TB_SNOTE_TRUNCATED,             /* more crossings than TB_MAX_CROSSINGS: the first ones kept,
+                                     * margins not determined */
     TB_SNOTE_POLES_TOO_BIG,         /* more unknowns than the pole limit: poles not computed */
     TB_SNOTE_POLES_FAILED,          /* the dense eigenvalue solver did not converge */
     TB_SNOTE_NYQUIST_ON_AXIS,       /* T(jw) passes through -1 or is infinite on the axis */
     TB_SNOTE_NYQUIST_ASSUMES_P0,    /* poles not computed: Nyquist verdict assumes a stable open loop */
-    TB_SNOTE_DELAY_NONPOSITIVE,     /* a phase margin is <= 0: no delay margin */
-    TB_SNOTE_REFINE_BUDGET,         /* adaptive refinement stopped at its budget */
-    TB_SNOTE_PROBE_FAILED,          /* a fresh solve failed (matrix singular on the axis) */
+    TB_SNOTE_NOT_STABLE,            /* the loop is not shown stable: no delay margin, and the gain
+                                     * figures are distances to critical gains, not margins */
+    TB_SNOTE_REFINE_BUDGET,         /* adaptive refinement stopped at its budget: margins not determined */
+    TB_SNOTE_PROBE_FAILED,          /* a fresh solve failed (matrix singular on the axis, or T
+                                     * infinite at a root-finding point): margins not determined */
     TB_SNOTE_MULTIPLE_UNITY,        /* several unity crossings: margins alone do not decide, see poles */
+    TB_SNOTE_UNSETTLED_LOW,         /* T did not settle to its low-frequency asymptote within the
+                                     * search: crossings further down not ruled out, margins not
+                                     * determined */
+    TB_SNOTE_UNSETTLED_HIGH,        /* likewise at the top of the search */
+    TB_SNOTE_OUTSIDE_SWEEP,         /* a crossing lies outside the .ac range (found beyond it) */
+    TB_SNOTE_NO_GAIN_UP,            /* no -180 crossing where |T| < 1: no critical gain above */
+    TB_SNOTE_NO_GAIN_DOWN,          /* no -180 crossing where |T| > 1: no critical gain below */
     TB_SNOTE_COUNT
 } tb_stab_note;
 
@@ -369,17 +397,36 @@ typedef struct {
     tb_crossing unity[TB_MAX_CROSSINGS];
     size_t phase_count;
     tb_crossing phase[TB_MAX_CROSSINGS];
+    /* The search follows T from DC (or search_lo_hz) to search_hi_hz, where T has settled
+     * to its asymptote (|T| c f^n with the phase constant). margins_determined false: it did
+     * not settle, a solve failed, or the budget or the crossing list ran out; the headline
+     * margins below are then absent and every threshold fails (notes say why). */
+    bool margins_determined;
+    double search_lo_hz;      /* lowest frequency followed (above DC) */
+    double search_hi_hz;      /* highest frequency followed */
+    /* headline phase margin: that of one unity crossing, unity[phase_margin_index]; the
+     * smallest in magnitude when the loop is stable (a negative margin then says that much
+     * lead puts T through -1), else the smallest signed one */
     bool has_phase_margin;
-    double phase_margin_deg;  /* the unity crossings' phase margin of smallest magnitude (signed:
-                               * negative = that much phase lead puts T through -1) */
+    double phase_margin_deg;
     double phase_margin_hz;
-    bool has_gain_margin;
-    double gain_margin_db;    /* the gain margin of smallest magnitude (signed) */
-    double gain_margin_hz;
+    size_t phase_margin_index;
+    /* the loop gain may rise by gain_margin_up_db before a closed-loop pole reaches the
+     * axis: min of -20 log10 |T| over the phase crossings where |T| < 1 ... */
+    bool has_gain_margin_up;
+    double gain_margin_up_db;
+    double gain_margin_up_hz;
+    /* ... and fall by gain_margin_down_db: min of 20 log10 |T| where |T| > 1 (conditional
+     * stability, or T(0) < 0 with |T(0)| > 1). Both positive; distances to the nearest
+     * critical gains, margins only when the verdict is stable (TB_SNOTE_NOT_STABLE). */
+    bool has_gain_margin_down;
+    double gain_margin_down_db;
+    double gain_margin_down_hz;
     bool has_delay_margin;
-    double delay_margin_s;    /* smallest delay that closes a phase margin */
+    double delay_margin_s;    /* smallest delay_s over the unity crossings (stable loops only) */
+    double delay_margin_hz;   /* the crossing it belongs to */
     bool has_vector_margin;
-    double vector_margin;     /* min over the sweep of |1 + T(jw)|, distance of T from -1 */
+    double vector_margin;     /* min over the whole axis of |1 + T(jw)|, distance of T from -1 */
     double vector_margin_hz;
     size_t evaluations;       /* fresh solves spent on refinement, roots and the Nyquist path */
     /* poles: natural frequencies in rad/s, det(G + sC) = 0 (closed loop) and the
@@ -413,9 +460,10 @@ typedef struct {
     tb_verdict verdict;
     double pm_min_deg;        /* thresholds applied */
     double gm_min_db;
-    bool pm_ok;               /* |phase margin| >= pm_min_deg, and positive unless the loop is
-                               * stable (true when there is no unity crossing) */
-    bool gm_ok;               /* |gain margin| >= gm_min_db, likewise (true without phase crossing) */
+    bool pm_ok;               /* every unity crossing's |phase margin| >= pm_min_deg, positive
+                               * unless the loop is stable; false when not determined */
+    bool gm_ok;               /* both gain margins (where they exist) >= gm_min_db, in a stable
+                               * loop; false when not determined */
     unsigned notes;
 } tb_stability;
 

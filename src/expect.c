@@ -112,20 +112,26 @@ static bool get_gain_error(const tb_figure_src *s, double *x, const char **why)
     return true;
 }
 
+/* Why a headline margin is absent when the stability analysis ran. */
+static const char *margin_why(const tb_figure_src *s, const char *none)
+{
+    if (!s->st->margins_determined)
+        return "the margins could not be determined (see the notes)";
+    return none;
+}
+
 static bool get_unity(const tb_figure_src *s, double *x, const char **why)
 {
     *x = s->m->unity_hz;
-    *why = "|T| never falls through 1 in the sweep";
+    *why = s->st->computed ? margin_why(s, "|T| never crosses 1")
+                           : "|T| never falls through 1 in the sweep";
     return s->m->has_unity;
 }
 
+/* The headline phase margin; tb_measures carries the stability analysis's when it ran. */
 static bool get_pm(const tb_figure_src *s, double *x, const char **why)
 {
-    *why = "no unity crossing of |T|";
-    if (s->st->computed) {
-        *x = s->st->phase_margin_deg;
-        return s->st->has_phase_margin;
-    }
+    *why = s->st->computed ? margin_why(s, "no unity crossing of |T|") : "no unity crossing of |T| in the sweep";
     *x = s->m->phase_margin_deg;
     return s->m->has_phase_margin;
 }
@@ -139,13 +145,22 @@ static bool stab(const tb_figure_src *s, const char **why)
     return true;
 }
 
-static bool get_gm(const tb_figure_src *s, double *x, const char **why)
+static bool get_gm_up(const tb_figure_src *s, double *x, const char **why)
 {
     if (!stab(s, why))
         return false;
-    *x = s->st->gain_margin_db;
-    *why = "the phase of T never reaches -180 deg";
-    return s->st->has_gain_margin;
+    *x = s->st->gain_margin_up_db;
+    *why = margin_why(s, "the phase of T never reaches -180 deg where |T| < 1");
+    return s->st->has_gain_margin_up;
+}
+
+static bool get_gm_down(const tb_figure_src *s, double *x, const char **why)
+{
+    if (!stab(s, why))
+        return false;
+    *x = s->st->gain_margin_down_db;
+    *why = margin_why(s, "the phase of T never reaches -180 deg where |T| > 1");
+    return s->st->has_gain_margin_down;
 }
 
 static bool get_delay(const tb_figure_src *s, double *x, const char **why)
@@ -153,7 +168,7 @@ static bool get_delay(const tb_figure_src *s, double *x, const char **why)
     if (!stab(s, why))
         return false;
     *x = s->st->delay_margin_s;
-    *why = "no positive phase margin";
+    *why = margin_why(s, s->st->unity_count ? "the loop is not stable" : "no unity crossing of |T|");
     return s->st->has_delay_margin;
 }
 
@@ -260,11 +275,16 @@ static const tb_figure figures[] = {
     {"dc.A", "", TB_WORSE_ANY, false, get_dc_closed, "closed-loop gain A at DC"},
     {"dc.gain_error_pct", "%", TB_WORSE_FARTHER, false, get_gain_error,
      "gain error (A - A_inf)/A_inf at DC, in percent"},
-    {"unity_hz", "Hz", TB_WORSE_ANY, false, get_unity, "lowest frequency where |T| falls through 1"},
+    {"unity_hz", "Hz", TB_WORSE_ANY, false, get_unity,
+     "the unity crossing of the headline phase margin"},
     {"phase_margin_deg", "deg", TB_WORSE_LOWER, false, get_pm, "phase margin (headline, signed)"},
-    {"gain_margin_db", "dB", TB_WORSE_LOWER, false, get_gm, "gain margin (headline, signed)"},
-    {"delay_margin_s", "s", TB_WORSE_LOWER, false, get_delay, "delay that would close the phase margin"},
-    {"vector_margin", "", TB_WORSE_LOWER, false, get_vector, "min |1 + T| over the sweep"},
+    {"gain_margin_up_db", "dB", TB_WORSE_LOWER, false, get_gm_up,
+     "how far the loop gain may rise before instability"},
+    {"gain_margin_down_db", "dB", TB_WORSE_LOWER, false, get_gm_down,
+     "how far the loop gain may fall before instability"},
+    {"delay_margin_s", "s", TB_WORSE_LOWER, false, get_delay,
+     "smallest delay that puts T through -1 (over every unity crossing)"},
+    {"vector_margin", "", TB_WORSE_LOWER, false, get_vector, "min |1 + T| over the whole axis"},
     {"f3db_closed_hz", "Hz", TB_WORSE_ANY, false, get_f3db, "closed-loop -3 dB frequency"},
     {"peaking_db", "dB", TB_WORSE_HIGHER, false, get_peaking,
      "closed-loop peaking of the dominant pair (0 when it does not peak)"},

@@ -233,12 +233,18 @@ static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const ch
         const char *name = tb_circuit_loop_name(ckt, l);
         if (st.verdict != TB_VERDICT_STABLE)
             fprintf(stderr, "tbeta: %s: loop %s: verdict %s\n", netlist, name, tb_verdict_str(st.verdict));
-        if (!st.pm_ok)
+        if (!st.margins_determined)
+            fprintf(stderr, "tbeta: %s: loop %s: the margins could not be determined (see the notes)\n",
+                    netlist, name);
+        else if (!st.pm_ok)
             fprintf(stderr, "tbeta: %s: loop %s: phase margin %.3f deg is below %g deg\n", netlist, name,
                     st.phase_margin_deg, st.pm_min_deg);
-        if (!st.gm_ok)
-            fprintf(stderr, "tbeta: %s: loop %s: gain margin %+.3f dB is within %g dB of 0 dB\n", netlist,
-                    name, st.gain_margin_db, st.gm_min_db);
+        if (st.margins_determined && !st.gm_ok && st.has_gain_margin_up && st.gain_margin_up_db < st.gm_min_db)
+            fprintf(stderr, "tbeta: %s: loop %s: the loop gain may rise by only %.3f dB (needs %g dB)\n",
+                    netlist, name, st.gain_margin_up_db, st.gm_min_db);
+        if (st.margins_determined && !st.gm_ok && st.has_gain_margin_down && st.gain_margin_down_db < st.gm_min_db)
+            fprintf(stderr, "tbeta: %s: loop %s: the loop gain may fall by only %.3f dB (needs %g dB)\n",
+                    netlist, name, st.gain_margin_down_db, st.gm_min_db);
         ok = ok && st.pm_ok && st.gm_ok && st.verdict == TB_VERDICT_STABLE;
     }
     const tb_census_entry *e = NULL;

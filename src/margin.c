@@ -1,13 +1,13 @@
-/* src/margin.c: exact crossings of T by adaptive refinement and Brent on fresh solves; margins */
+/* src/margin.c: exact crossings of T over the whole frequency axis by adaptive refinement and Brent on fresh solves; margins */
 #include "margin.h"
 #include "units.h"
 
 #include <math.h>
 
-#include "alloc.h"
 #include "crossing.h"
 
-
+/* Samples the low end may go down by: the first three, then half decades. */
+#define LOW_MAX (3 + 2 * TB_MARGIN_MAX_EXTRA_DECADES)
 
 /* One point of the path: T, its unwrapped phase, and the unwrapped phase of 1 + T. */
 typedef struct {
@@ -23,8 +23,15 @@ typedef struct {
     size_t l;
     tb_stability *st;
     tb_nyquist_path *path;
-    bool record;     /* inside the sweep: crossings and the vector margin are recorded */
+    double fstart;   /* the sweep's range: crossings outside it are flagged */
+    double fstop;
+    bool in_sweep;   /* the interval lies between two grid points: split as inside the sweep */
+    bool complete;   /* nothing failed or ran out: the crossings found are all there are */
     size_t budget;   /* refinement solves left */
+    bool has_up;     /* the nearest critical gains so far: |T| at the phase crossing where */
+    double up_mag;   /* |T| < 1 comes closest to 1 (from below) ... */
+    bool has_down;
+    double down_mag; /* ... and where |T| > 1 comes closest to 1 (from above) */
     bool vm_open;    /* the best |1 + T| so far waits for its right neighbour */
     double vm_lo;
     double vm_hi;
@@ -50,6 +57,13 @@ static void note(scan *sc, tb_stab_note n)
     sc->st->notes |= 1u << n;
 }
 
+/* Something the margins depend on failed or ran out: they are not determined. */
+static void incomplete(scan *sc, tb_stab_note why)
+{
+    note(sc, why);
+    sc->complete = false;
+}
+
 /* A fresh solve at f, unwrapped from `from`. A singular matrix (a closed-loop
  * pole on the axis) is noted and passed on for the caller to skip the point. */
 static tb_status eval(scan *sc, double f, const sample *from, sample *out)
@@ -58,7 +72,7 @@ static tb_status eval(scan *sc, double f, const sample *from, sample *out)
     tb_status st = tb_probe_eval(sc->probe, f, &culprit);
     if (st) {
         if (st != TB_ERR_NOMEM)
-            note(sc, TB_SNOTE_PROBE_FAILED);
+            incomplete(sc, TB_SNOTE_PROBE_FAILED);
         return st;
     }
     const tb_point *pt = &sc->probe->row[sc->l];
@@ -74,16 +88,54 @@ static double db_of(double complex T)
     return 20.0 * log10(fmax(cabs(T), 1e-300));
 }
 
-/* Outside the sweep only the Nyquist turn matters: split on the phase of 1 + T alone. */
+/* Outside the sweep, false when a phase crossing between a and b could set no
+ * gain margin: |T| at both ends lies TB_MARGIN_FAR_DB further from 1 than at a
+ * critical gain already found on that side. There the phase of T is neither
+ * refined nor searched (a loop with hundreds of poles above its sweep turns its
+ * phase thousands of degrees where |T| is astronomically small). */
+static bool phase_matters(const scan *sc, const sample *a, const sample *b)
+{
+    if (sc->in_sweep)
+        return true;
+    double far = pow(10.0, TB_MARGIN_FAR_DB / 20.0);
+    double lo = fmin(cabs(a->T), cabs(b->T)), hi = fmax(cabs(a->T), cabs(b->T));
+    return !(sc->has_up && hi * far < sc->up_mag) && !(sc->has_down && lo > sc->down_mag * far);
+}
+
+/* Between grid points every rule applies; outside the sweep the |T| rule only
+ * near 0 dB, where it sharpens the brackets of unity crossings. The phase of T
+ * only where it matters (the phase of 1 + T always, for the Nyquist count). */
 static bool needs_split(const scan *sc, const sample *a, const sample *b)
 {
     if (a->inf || b->inf)
         return false;
-    if (!sc->record)
-        return fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET;
-    return fabs(b->deg - a->deg) > TB_MARGIN_SPLIT_DEG ||
-           fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET ||
-           fabs(db_of(b->T) - db_of(a->T)) > TB_MARGIN_SPLIT_DB;
+    double da = db_of(a->T), db = db_of(b->T);
+    bool near = sc->in_sweep || fmin(fabs(da), fabs(db)) < TB_MARGIN_NEAR_DB || (da < 0) != (db < 0);
+    return (fabs(b->deg - a->deg) > TB_MARGIN_SPLIT_DEG && phase_matters(sc, a, b)) ||
+           fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET || (near && fabs(db - da) > TB_MARGIN_SPLIT_DB);
+}
+
+/* A phase crossing with |T| = mag: the nearest critical gains so far. */
+static void critical(scan *sc, double mag)
+{
+    if (mag <= 1.0 && (!sc->has_up || mag > sc->up_mag)) {
+        sc->has_up = true;
+        sc->up_mag = mag;
+    } else if (mag > 1.0 && (!sc->has_down || mag < sc->down_mag)) {
+        sc->has_down = true;
+        sc->down_mag = mag;
+    }
+}
+
+static tb_sweep_side side_of(const scan *sc, double f)
+{
+    return f < sc->fstart ? TB_SWEEP_BELOW : f > sc->fstop ? TB_SWEEP_ABOVE : TB_SWEEP_INSIDE;
+}
+
+/* Degrees of lag that take T through -1 at a unity crossing with phase margin pm. */
+static double lag_deg(double pm)
+{
+    return pm >= 0 ? pm : pm + 360.0;
 }
 
 typedef struct {
@@ -109,7 +161,7 @@ static tb_status root_fn(void *ctx, double x, double *y)
 static void append(scan *sc, tb_crossing *list, size_t *count, const tb_crossing *c)
 {
     if (*count >= TB_MAX_CROSSINGS) {
-        note(sc, TB_SNOTE_TRUNCATED);
+        incomplete(sc, TB_SNOTE_TRUNCATED);
         return;
     }
     list[(*count)++] = *c;
@@ -126,18 +178,20 @@ static tb_status refine_root(scan *sc, const sample *a, const sample *b, int kin
     tb_status st = tb_brent_root(root_fn, &rc, log(a->f), log(b->f), fa, fb, 1e-13, 100, &x);
     if (!st)
         st = eval(sc, exp(x), a, &s);
+    if (st == TB_ERR_NUMERIC || st == TB_ERR_USAGE)
+        incomplete(sc, TB_SNOTE_PROBE_FAILED);
     if (st)
         return st == TB_ERR_NOMEM ? st : TB_OK; /* noted; the crossing is skipped */
-    tb_crossing c = {.hz = s.f, .T_db = db_of(s.T), .phase_deg = s.deg};
+    tb_crossing c = {.hz = s.f, .T_db = db_of(s.T), .phase_deg = s.deg, .sweep = side_of(sc, s.f)};
     if (kind == ROOT_UNITY) {
         c.direction = db_of(b->T) > db_of(a->T) ? 1 : -1;
         c.margin = tb_wrap180(s.deg + 180.0);
-        c.has_delay = c.margin > 0;
-        c.delay_s = c.has_delay ? c.margin / TB_DEG_PER_RAD / (TB_TWO_PI * s.f) : 0;
+        c.delay_s = lag_deg(c.margin) / 360.0 / s.f;
         append(sc, sc->st->unity, &sc->st->unity_count, &c);
     } else {
         c.direction = b->deg > a->deg ? 1 : -1;
         c.margin = -c.T_db;
+        critical(sc, cabs(s.T));
         append(sc, sc->st->phase, &sc->st->phase_count, &c);
     }
     return TB_OK;
@@ -154,7 +208,7 @@ static void track_vector(scan *sc, const sample *a, const sample *b)
     double d = cabs(1.0 + b->T);
     if (d < 1e-9)
         sc->path->near_minus1 = true;
-    if (!sc->record || (sc->st->has_vector_margin && d >= sc->st->vector_margin))
+    if (sc->st->has_vector_margin && d >= sc->st->vector_margin)
         return;
     sc->st->has_vector_margin = true;
     sc->st->vector_margin = d;
@@ -168,11 +222,13 @@ static void track_vector(scan *sc, const sample *a, const sample *b)
 static tb_status leaf(scan *sc, const sample *a, const sample *b)
 {
     track_vector(sc, a, b);
-    if (!sc->record || a->inf || b->inf)
+    if (a->inf || b->inf)
         return TB_OK;
     tb_status st = TB_OK;
     if ((cabs(a->T) < 1.0) != (cabs(b->T) < 1.0))
         st = refine_root(sc, a, b, ROOT_UNITY, 0);
+    if (st || !phase_matters(sc, a, b))
+        return st;
     double lo = fmin(a->deg, b->deg), hi = fmax(a->deg, b->deg);
     for (double k = ceil((lo - 180.0) / 360.0); !st && 180.0 + 360.0 * k <= hi; k++) {
         double level = 180.0 + 360.0 * k;
@@ -188,7 +244,7 @@ static tb_status interval(scan *sc, const sample *a, sample *b, int depth)
 {
     if (depth < TB_MARGIN_MAX_DEPTH && needs_split(sc, a, b)) {
         if (sc->budget == 0) {
-            note(sc, TB_SNOTE_REFINE_BUDGET);
+            incomplete(sc, TB_SNOTE_REFINE_BUDGET);
         } else {
             sc->budget--;
             sample m;
@@ -215,71 +271,200 @@ static tb_status step_to(scan *sc, sample *cur, sample next)
     return st;
 }
 
-/* Probes f and steps there; a failed solve leaves the path broken. */
-static tb_status probe_step(scan *sc, sample *cur, double f)
+/* Probes f and steps there (*stepped says so); a failed solve leaves the path broken. */
+static tb_status probe_step(scan *sc, sample *cur, double f, bool *stepped)
 {
     sample next;
+    *stepped = false;
     tb_status st = eval(sc, f, cur, &next);
     if (st) {
         sc->path->ok = false;
         return st == TB_ERR_NOMEM ? st : TB_OK;
     }
+    *stepped = true;
     return step_to(sc, cur, next);
 }
 
-/* From DC (or the small arc around s = 0 when T is infinite there) up to just
- * below the sweep, TB_MARGIN_EXT_DECADES decades at two points per decade. */
-static tb_status low_leg(scan *sc, const tb_result *res, double f0, sample *cur, double *ret0)
+/* Fits |T| ~ c f^n with a constant phase to three ascending samples: *n the
+ * nearest integer slope, true when both slopes lie within TB_MARGIN_SETTLE_SLOPE
+ * of it and the phase moves less than TB_MARGIN_SETTLE_DEG per step. */
+static bool power_law(const sample *s, int *n)
 {
-    double f_low = f0 * pow(10.0, -TB_MARGIN_EXT_DECADES);
-    sample zero = {0};
-    tb_status st;
-    if (!res->has_dc) { /* M(0) singular: a closed-loop pole at s = 0 */
-        sc->path->ok = false;
-        st = eval(sc, f_low, &zero, cur);
-    } else if (!(res->dc[sc->l].flags & TB_PT_T_INF)) {
-        sample dc = {.f = 0, .T = res->dc[sc->l].T};
-        dc.deg = carg(dc.T) * TB_DEG_PER_RAD;
-        dc.ret = carg(1.0 + dc.T) * TB_DEG_PER_RAD;
-        *ret0 = dc.ret;
-        st = eval(sc, f_low, &dc, cur);
-    } else { /* T ~ K/s^m near 0: along the arc arg(1 + T) turns by -m 180 degrees */
-        sample up;
-        st = eval(sc, f_low, &zero, cur);
-        if (!st)
-            st = eval(sc, f_low * sqrt(10.0), cur, &up);
-        if (!st && !cur->inf && !up.inf && cabs(up.T) > 0) {
-            double m = round(-2.0 * log10(cabs(up.T) / cabs(cur->T)));
-            sc->path->arc_deg = -m * 180.0;
-        } else if (!st) {
-            sc->path->ok = false;
-        }
-        cur->ret = carg(1.0 + cur->T) * TB_DEG_PER_RAD;
-        *ret0 = cur->ret;
+    *n = 0;
+    if (s[0].inf || s[1].inf || s[2].inf)
+        return false;
+    double m0 = cabs(s[0].T), m1 = cabs(s[1].T), m2 = cabs(s[2].T);
+    if (m0 == 0 && m1 == 0 && m2 == 0)
+        return true; /* T vanishes here: no loop, no crossing */
+    if (m0 == 0 || m1 == 0 || m2 == 0)
+        return false;
+    double k1 = log(m1 / m0) / log(s[1].f / s[0].f);
+    double k2 = log(m2 / m1) / log(s[2].f / s[1].f);
+    double k = round(0.5 * (k1 + k2));
+    *n = (int)k;
+    return fabs(k1 - k) <= TB_MARGIN_SETTLE_SLOPE && fabs(k2 - k) <= TB_MARGIN_SETTLE_SLOPE &&
+           fabs(carg(s[1].T / s[0].T)) * TB_DEG_PER_RAD <= TB_MARGIN_SETTLE_DEG &&
+           fabs(carg(s[2].T / s[1].T)) * TB_DEG_PER_RAD <= TB_MARGIN_SETTLE_DEG;
+}
+
+/* true when three ascending samples show T on its asymptote at one end of the
+ * axis (end < 0: towards DC, end > 0: towards infinity) and the asymptote carries
+ * |T| away from 1 there: no crossing lies beyond them. */
+static bool settled(const sample *s, int end, int *n)
+{
+    if (!power_law(s, n))
+        return false;
+    double mag = cabs(s[end < 0 ? 0 : 2].T);
+    int outward = end < 0 ? -*n : *n; /* the sign of d ln|T| moving outwards */
+    return !(outward > 0 && mag < 1.0) && !(outward < 0 && mag > 1.0);
+}
+
+/* The low asymptote agrees with DC: T(0) itself (to 1 %), an integrator's
+ * infinity, or T's zero at s = 0. */
+static bool meets_dc(const tb_result *res, size_t l, const sample *bottom, int n)
+{
+    if (!res->has_dc)
+        return true;
+    const tb_point *dc = &res->dc[l];
+    if (dc->flags & TB_PT_T_INF)
+        return n < 0;
+    if (cabs(dc->T) == 0)
+        return n > 0 || cabs(bottom->T) == 0;
+    return n == 0 && cabs(bottom->T / dc->T - 1.0) <= 1e-2;
+}
+
+/* DC itself: |1 + T(0)| for the vector margin, and a critical point of the gain
+ * when T(0) is real and negative (K T(0) = -1 at K = 1/|T(0)|). */
+static void dc_point(scan *sc, const sample *z)
+{
+    double d = cabs(1.0 + z->T);
+    tb_stability *st = sc->st;
+    if (!st->has_vector_margin || d < st->vector_margin) {
+        st->has_vector_margin = true;
+        st->vector_margin = d;
+        st->vector_margin_hz = 0;
     }
+    if (creal(z->T) < 0 && fabs(cimag(z->T)) <= 1e-12 * fabs(creal(z->T))) {
+        tb_crossing c = {.hz = 0, .T_db = db_of(z->T), .phase_deg = z->deg, .sweep = TB_SWEEP_BELOW};
+        c.margin = -c.T_db;
+        critical(sc, cabs(z->T));
+        append(sc, st->phase, &st->phase_count, &c);
+    }
+}
+
+/* The phases of the lowest sample: continued from T(0); or its own when T is
+ * infinite at DC (the arc round s = 0 then turns arg(1 + T) by n 180 degrees,
+ * T ~ K s^n, n < 0) or M(0) is singular (a closed-loop pole at s = 0). */
+static void start_path(scan *sc, const tb_result *res, sample *bottom, int n, double *ret0)
+{
+    const tb_point *dc = res->has_dc ? &res->dc[sc->l] : NULL;
+    if (dc && !(dc->flags & TB_PT_T_INF)) {
+        sample z = {.f = 0, .T = dc->T};
+        z.deg = carg(z.T) * TB_DEG_PER_RAD;
+        z.ret = carg(1.0 + z.T) * TB_DEG_PER_RAD;
+        *ret0 = z.ret;
+        link_phase(&z, bottom);
+        dc_point(sc, &z);
+        return;
+    }
+    if (!dc)
+        sc->path->ok = false;
+    else
+        sc->path->arc_deg = n * 180.0;
+    bottom->deg = carg(bottom->T) * TB_DEG_PER_RAD;
+    bottom->ret = carg(1.0 + bottom->T) * TB_DEG_PER_RAD;
+    *ret0 = bottom->ret;
+}
+
+/* From DC up to just below the sweep: three points from TB_MARGIN_EXT_DECADES
+ * decades below it, then half decades further down until T has settled there
+ * (the samples kept, so none is solved twice), then the path up from the lowest
+ * at two points per decade. Leaves cur->f = 0 when the first solves fail. */
+static tb_status low_leg(scan *sc, const tb_result *res, sample *cur, double *ret0)
+{
+    sample s[LOW_MAX];
+    size_t lo = LOW_MAX - 3; /* s[lo..LOW_MAX) ascending */
+    double f_low = sc->fstart * pow(10.0, -TB_MARGIN_EXT_DECADES);
+    sample zero = {0};
+    tb_status st = TB_OK;
+    for (size_t i = 0; i < 3 && !st; i++)
+        st = eval(sc, f_low * pow(10.0, i / 2.0), &zero, &s[lo + i]);
     if (st) {
         sc->path->ok = false;
         return st == TB_ERR_NOMEM ? st : TB_OK;
     }
-    for (int k = 1; k < 2 * TB_MARGIN_EXT_DECADES && !st; k++)
-        st = probe_step(sc, cur, f_low * pow(10.0, k / 2.0));
+    int n = 0;
+    while (!(settled(s + lo, -1, &n) && meets_dc(res, sc->l, &s[lo], n))) {
+        if (lo == 0) {
+            incomplete(sc, TB_SNOTE_UNSETTLED_LOW);
+            break;
+        }
+        st = eval(sc, s[lo].f / sqrt(10.0), &zero, &s[lo - 1]);
+        if (st == TB_ERR_NOMEM)
+            return st;
+        if (st)
+            break; /* noted: the margins are not determined */
+        lo--;
+    }
+    sc->st->search_lo_hz = s[lo].f;
+    start_path(sc, res, &s[lo], n, ret0);
+    *cur = s[lo];
+    st = TB_OK;
+    for (size_t i = lo + 1; i < LOW_MAX && !st; i++)
+        st = step_to(sc, cur, s[i]);
+    bool stepped = false;
+    for (int k = 3; k < 2 * TB_MARGIN_EXT_DECADES && !st; k++)
+        st = probe_step(sc, cur, f_low * pow(10.0, k / 2.0), &stepped);
     return st;
 }
 
-static tb_status sweep_leg(scan *sc, const tb_result *res, const double *deg, sample *cur)
+static tb_status sweep_leg(scan *sc, const tb_result *res, sample *cur)
 {
     const tb_point *pts = tb_result_loop(res, sc->l);
     tb_status st = TB_OK;
     for (size_t i = 0; i < res->npoints && !st; i++) {
         bool inf = pts[i].flags & TB_PT_T_INF;
         sample next = {.f = res->freqs[i], .T = inf ? 0 : pts[i].T, .inf = inf};
-        sc->record = i > 0;
+        if (cur->f == 0) { /* no low leg: start here, with the table's phase */
+            next.deg = tb_result_phase(res, sc->l)[i];
+            next.ret = carg(1.0 + next.T) * TB_DEG_PER_RAD;
+            *cur = next;
+            continue;
+        }
+        sc->in_sweep = i > 0;
         st = step_to(sc, cur, next);
-        if (i == 0)
-            cur->deg = deg[0]; /* the phase the foundation's table is unwrapped to */
     }
-    sc->record = false;
+    sc->in_sweep = false;
     return st;
+}
+
+/* Above the sweep, half a decade at a time: at least TB_MARGIN_EXT_DECADES
+ * decades, then on until the last three points show T settled. */
+static tb_status high_leg(scan *sc, sample *cur)
+{
+    sample last[3];
+    size_t have = 0;
+    int n = 0;
+    for (int k = 1; k <= 2 * (TB_MARGIN_EXT_DECADES + TB_MARGIN_MAX_EXTRA_DECADES); k++) {
+        bool stepped = false;
+        tb_status st = probe_step(sc, cur, sc->fstop * pow(10.0, k / 2.0), &stepped);
+        if (st)
+            return st;
+        if (!stepped) {
+            have = 0;
+            continue;
+        }
+        last[0] = last[1];
+        last[1] = last[2];
+        last[2] = *cur;
+        if (have < 3)
+            have++;
+        sc->st->search_hi_hz = cur->f;
+        if (k >= 2 * TB_MARGIN_EXT_DECADES && have == 3 && settled(last, 1, &n))
+            return TB_OK;
+    }
+    incomplete(sc, TB_SNOTE_UNSETTLED_HIGH);
+    return TB_OK;
 }
 
 typedef struct {
@@ -301,7 +486,7 @@ static tb_status distance_fn(void *ctx, double x, double *y)
 static tb_status refine_vector(scan *sc)
 {
     tb_stability *st = sc->st;
-    if (!st->has_vector_margin || !(sc->vm_lo < sc->vm_hi))
+    if (!st->has_vector_margin || !(sc->vm_lo > 0 && sc->vm_lo < sc->vm_hi))
         return TB_OK;
     min_ctx mc = {sc};
     double x = 0, y = 0;
@@ -315,64 +500,105 @@ static tb_status refine_vector(scan *sc)
     return TB_OK;
 }
 
-/* The phase and gain margins of smallest magnitude (signed), the delay margin, notes. */
-static void summarize(tb_stability *st)
+/* The gain margins both ways (the nearest critical gains above and below the
+ * present one), and the notes on what exists. */
+static void summarize(scan *sc)
 {
-    bool all_positive = true;
-    for (size_t i = 0; i < st->unity_count; i++) {
-        const tb_crossing *c = &st->unity[i];
-        if (!st->has_phase_margin || fabs(c->margin) < fabs(st->phase_margin_deg)) {
-            st->has_phase_margin = true;
-            st->phase_margin_deg = c->margin;
-            st->phase_margin_hz = c->hz;
-        }
-        all_positive = all_positive && c->has_delay;
-        if (c->has_delay && (!st->has_delay_margin || c->delay_s < st->delay_margin_s)) {
-            st->has_delay_margin = true;
-            st->delay_margin_s = c->delay_s;
-        }
-    }
-    if (!all_positive) {
-        st->has_delay_margin = false;
-        st->notes |= 1u << TB_SNOTE_DELAY_NONPOSITIVE;
-    }
+    tb_stability *st = sc->st;
+    bool outside = false;
     for (size_t i = 0; i < st->phase_count; i++) {
         const tb_crossing *c = &st->phase[i];
-        if (!st->has_gain_margin || fabs(c->margin) < fabs(st->gain_margin_db)) {
-            st->has_gain_margin = true;
-            st->gain_margin_db = c->margin;
-            st->gain_margin_hz = c->hz;
+        outside = outside || c->sweep != TB_SWEEP_INSIDE;
+        if (c->margin >= 0 && (!st->has_gain_margin_up || c->margin < st->gain_margin_up_db)) {
+            st->has_gain_margin_up = true;
+            st->gain_margin_up_db = c->margin;
+            st->gain_margin_up_hz = c->hz;
+        } else if (c->margin < 0 && (!st->has_gain_margin_down || -c->margin < st->gain_margin_down_db)) {
+            st->has_gain_margin_down = true;
+            st->gain_margin_down_db = -c->margin;
+            st->gain_margin_down_hz = c->hz;
         }
     }
+    for (size_t i = 0; i < st->unity_count; i++)
+        outside = outside || st->unity[i].sweep != TB_SWEEP_INSIDE;
+    if (outside)
+        note(sc, TB_SNOTE_OUTSIDE_SWEEP);
     if (st->unity_count == 0)
-        st->notes |= 1u << TB_SNOTE_NO_UNITY;
+        note(sc, TB_SNOTE_NO_UNITY);
     if (st->unity_count > 1)
-        st->notes |= 1u << TB_SNOTE_MULTIPLE_UNITY;
+        note(sc, TB_SNOTE_MULTIPLE_UNITY);
     if (st->phase_count == 0)
-        st->notes |= 1u << TB_SNOTE_NO_PHASE_CROSSING;
+        note(sc, TB_SNOTE_NO_PHASE_CROSSING);
+    else if (!st->has_gain_margin_up)
+        note(sc, TB_SNOTE_NO_GAIN_UP);
+    else if (!st->has_gain_margin_down)
+        note(sc, TB_SNOTE_NO_GAIN_DOWN);
+    st->margins_determined = sc->complete;
 }
 
 tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, tb_stability *st,
                          tb_nyquist_path *path)
 {
-    const double *deg = tb_result_phase(res, l);
     size_t before = probe->evaluations;
     *path = (tb_nyquist_path){.ok = true};
-    scan sc = {.probe = probe, .l = l, .st = st, .path = path, .budget = TB_MARGIN_BUDGET};
+    scan sc = {.probe = probe, .l = l, .st = st, .path = path, .complete = true, .budget = TB_MARGIN_BUDGET,
+               .fstart = res->freqs[0], .fstop = res->freqs[res->npoints - 1]};
     sample cur = {0};
     double ret0 = 0;
-    double ftop = res->freqs[res->npoints - 1];
-    tb_status s = low_leg(&sc, res, res->freqs[0], &cur, &ret0);
+    tb_status s = low_leg(&sc, res, &cur, &ret0);
     if (!s)
-        s = sweep_leg(&sc, res, deg, &cur);
-    for (int k = 1; k <= 2 * TB_MARGIN_EXT_DECADES && !s; k++)
-        s = probe_step(&sc, &cur, ftop * pow(10.0, k / 2.0));
+        s = sweep_leg(&sc, res, &cur);
+    if (!s)
+        s = high_leg(&sc, &cur);
     path->turn_deg = cur.ret - ret0;
     if (!s)
         s = refine_vector(&sc);
     if (s)
         return s;
-    summarize(st);
+    summarize(&sc);
     st->evaluations = probe->evaluations - before;
     return TB_OK;
+}
+
+/* Smaller is worse: |margin| in a stable loop (lead or lag alike), the signed margin otherwise. */
+static double pm_key(const tb_crossing *c, bool stable)
+{
+    return stable ? fabs(c->margin) : c->margin;
+}
+
+void tb_margin_judge(tb_stability *st, double pm_min_deg, double gm_min_db)
+{
+    bool stable = st->verdict == TB_VERDICT_STABLE;
+    st->has_phase_margin = false;
+    st->has_delay_margin = false;
+    for (size_t i = 0; i < st->unity_count; i++) {
+        const tb_crossing *c = &st->unity[i];
+        if (!st->has_phase_margin || pm_key(c, stable) < pm_key(&st->unity[st->phase_margin_index], stable)) {
+            st->has_phase_margin = true;
+            st->phase_margin_index = i;
+        }
+        if (stable && (!st->has_delay_margin || c->delay_s < st->delay_margin_s)) {
+            st->has_delay_margin = true;
+            st->delay_margin_s = c->delay_s;
+            st->delay_margin_hz = c->hz;
+        }
+    }
+    if (!stable && (st->unity_count > 0 || st->phase_count > 0))
+        st->notes |= 1u << TB_SNOTE_NOT_STABLE;
+    if (!st->margins_determined) {
+        st->has_phase_margin = st->has_delay_margin = false;
+        st->has_gain_margin_up = st->has_gain_margin_down = false;
+        st->pm_ok = st->gm_ok = false;
+        return;
+    }
+    if (st->has_phase_margin) {
+        const tb_crossing *c = &st->unity[st->phase_margin_index];
+        st->phase_margin_deg = c->margin;
+        st->phase_margin_hz = c->hz;
+    }
+    double key = st->has_phase_margin ? pm_key(&st->unity[st->phase_margin_index], stable) : 0;
+    st->pm_ok = !st->has_phase_margin || (key >= pm_min_deg && (stable || key > 0));
+    bool up = !st->has_gain_margin_up || st->gain_margin_up_db >= gm_min_db;
+    bool down = !st->has_gain_margin_down || st->gain_margin_down_db >= gm_min_db;
+    st->gm_ok = up && down && (stable || (!st->has_gain_margin_up && !st->has_gain_margin_down));
 }

@@ -1,21 +1,32 @@
-/* src/margin.h: exact crossings of T by adaptive refinement and Brent on fresh solves; margins */
+/* src/margin.h: exact crossings of T over the whole frequency axis by adaptive refinement and Brent on fresh solves; margins */
 #ifndef TB_MARGIN_H
 #define TB_MARGIN_H
 
 #include "probe.h"
 #include "result.h"
 
-/* Bisections of one sweep interval at most this deep, and at most this many
+/* Bisections of one interval at most this deep, and at most this many
  * refinement solves per loop (the roots come on top). */
 #define TB_MARGIN_MAX_DEPTH 12
 #define TB_MARGIN_BUDGET 4000
 /* An interval is split when T's phase moves more than this many degrees, |T|
- * more than TB_MARGIN_SPLIT_DB, or the phase of 1 + T more than TB_MARGIN_SPLIT_RET. */
+ * more than TB_MARGIN_SPLIT_DB, or the phase of 1 + T more than TB_MARGIN_SPLIT_RET.
+ * Outside the sweep the |T| rule applies only within TB_MARGIN_NEAR_DB of 0 dB. */
 #define TB_MARGIN_SPLIT_DEG 12.0
 #define TB_MARGIN_SPLIT_DB 3.0
 #define TB_MARGIN_SPLIT_RET 20.0
-/* The Nyquist path runs this many decades below and above the sweep. */
+#define TB_MARGIN_NEAR_DB 20.0
+/* Outside the sweep the phase of T is not followed where |T| lies this much further
+ * from 1 than at a critical gain already found on the same side of 1. */
+#define TB_MARGIN_FAR_DB 20.0
+/* The path runs at least this many decades below and above the sweep ... */
 #define TB_MARGIN_EXT_DECADES 6
+/* ... and on, at most this many decades further, until T has settled to its
+ * asymptote |T| ~ c f^n with a constant phase (TB_MARGIN_SETTLE_SLOPE, _DEG per
+ * half decade) on the side where it moves away from |T| = 1. */
+#define TB_MARGIN_MAX_EXTRA_DECADES 30
+#define TB_MARGIN_SETTLE_SLOPE 0.05
+#define TB_MARGIN_SETTLE_DEG 1.0
 
 /* What the scan of one loop leaves for the Nyquist count. */
 typedef struct {
@@ -25,12 +36,22 @@ typedef struct {
     double arc_deg;     /* change of arg(1 + T) along the small arc around s = 0 (T infinite at DC) */
 } tb_nyquist_path;
 
-/* Finds every unity crossing and every crossing of the unwrapped phase through
- * an odd multiple of 180 degrees in loop l's sweep, each refined by Brent on
- * fresh solves after adaptive bisection of fast-changing intervals; the phase,
- * gain, delay and vector margins; and follows arg(1 + T) along the Nyquist path.
- * Fills the crossing and margin fields of *st and *path. Errors: TB_ERR_NOMEM. */
+/* Follows loop l's T from DC (the small arc round s = 0 when T is infinite there)
+ * through the sweep to far above it, until T has settled to its asymptote at
+ * both ends, and finds every unity crossing and every crossing of the unwrapped
+ * phase through an odd multiple of 180 degrees (and DC itself when T(0) < 0),
+ * each refined by Brent on fresh solves after adaptive bisection; the gain
+ * margins up and down, the vector margin, and arg(1 + T) along the Nyquist path.
+ * Fills the crossing and margin fields of *st (all but the headline phase and
+ * delay margins, which need the verdict: tb_margin_judge) and *path.
+ * Errors: TB_ERR_NOMEM. */
 tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, tb_stability *st,
                          tb_nyquist_path *path);
+
+/* Once st->verdict is known: the headline phase margin (the crossing of smallest
+ * |margin| in a stable loop, smallest signed margin otherwise), the delay margin
+ * (stable loops only), and whether the thresholds pm_min_deg and gm_min_db hold
+ * (st->pm_ok, st->gm_ok; both false when the margins are not determined). */
+void tb_margin_judge(tb_stability *st, double pm_min_deg, double gm_min_db);
 
 #endif

@@ -71,26 +71,26 @@ static bool positive_feedback_dc(const tb_measures *m)
            fabs(cimag(m->dc.T)) <= 1e-12 * fabs(creal(m->dc.T));
 }
 
-/* The lowest crossing where |T| falls through 1, found by Brent on fresh solves. */
+/* The headline crossing of the stability analysis: the unity crossing whose
+ * phase margin is the headline one, so that every writer and .expect name the
+ * same crossing (absent, with the stability notes saying why, when there is no
+ * crossing or the margins could not be determined). */
 static void exact_unity(const tb_result *res, size_t l, tb_measures *m)
 {
     const tb_stability *st = &res->stab[l];
-    for (size_t i = 0; i < st->unity_count; i++) {
-        if (st->unity[i].direction > 0)
-            continue;
-        m->has_unity = true;
-        m->unity_hz = st->unity[i].hz;
-        if (positive_feedback_dc(m)) {
-            m->notes |= 1u << TB_NOTE_POSITIVE_FB_DC;
-            return;
-        }
-        m->has_phase_margin = true;
-        m->phase_margin_deg = 180.0 + st->unity[i].phase_deg;
+    if (positive_feedback_dc(m))
+        m->notes |= 1u << TB_NOTE_POSITIVE_FB_DC;
+    if (!st->has_phase_margin)
         return;
-    }
-    m->notes |= 1u << TB_NOTE_NO_UNITY;
+    m->has_unity = true;
+    m->unity_hz = st->phase_margin_hz;
+    m->has_phase_margin = true;
+    m->phase_margin_deg = st->phase_margin_deg;
 }
 
+/* Without the stability analysis, the foundation's estimate: the lowest grid
+ * segment where |T| falls through 1, interpolated, and 180 + the unwrapped phase
+ * there (none when T(0) < 0). */
 static void measure_unity(const tb_result *res, size_t l, tb_measures *m)
 {
     if (res->stab && res->stab[l].computed) {

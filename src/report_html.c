@@ -99,10 +99,14 @@ static void frequency_table(FILE *out, const tb_result *res, const tb_measures *
         snprintf(v, sizeof v, "%.2f deg at %s (threshold %g: %s)", st->phase_margin_deg,
                  fmt_hz(true, st->phase_margin_hz, f, sizeof f), st->pm_min_deg, st->pm_ok ? "met" : "MISSED");
     cell_text(out, "phase margin", st->computed && st->has_phase_margin ? v : "--");
-    if (st->computed && st->has_gain_margin)
-        snprintf(v, sizeof v, "%+.2f dB at %s (threshold %g: %s)", st->gain_margin_db,
-                 fmt_hz(true, st->gain_margin_hz, f, sizeof f), st->gm_min_db, st->gm_ok ? "met" : "MISSED");
-    cell_text(out, "gain margin", st->computed && st->has_gain_margin ? v : "--");
+    if (st->computed && st->has_gain_margin_up)
+        snprintf(v, sizeof v, "%.2f dB at %s (threshold %g: %s)", st->gain_margin_up_db,
+                 fmt_hz(true, st->gain_margin_up_hz, f, sizeof f), st->gm_min_db, st->gm_ok ? "met" : "MISSED");
+    cell_text(out, "loop gain may rise by", st->computed && st->has_gain_margin_up ? v : "--");
+    if (st->computed && st->has_gain_margin_down)
+        snprintf(v, sizeof v, "%.2f dB at %s (threshold %g: %s)", st->gain_margin_down_db,
+                 fmt_hz(true, st->gain_margin_down_hz, f, sizeof f), st->gm_min_db, st->gm_ok ? "met" : "MISSED");
+    cell_text(out, "loop gain may fall by", st->computed && st->has_gain_margin_down ? v : "--");
     if (st->computed && st->has_delay_margin)
         snprintf(v, sizeof v, "%.4g s", st->delay_margin_s);
     cell_text(out, "delay margin", st->computed && st->has_delay_margin ? v : "--");

@@ -88,20 +88,26 @@ static json_t *obj(builder *b)
     return o;
 }
 
+static const char *sweep_word(tb_sweep_side side)
+{
+    return side == TB_SWEEP_BELOW ? "below" : side == TB_SWEEP_ABOVE ? "above" : "inside";
+}
+
 static json_t *crossing_object(builder *b, const tb_crossing *c, bool unity)
 {
     json_t *o = obj(b);
     if (!o)
         return NULL;
     set(b, o, "hz", num(c->hz));
+    set(b, o, "sweep", json_string(sweep_word(c->sweep)));
     set(b, o, "T_db", num(c->T_db));
     set(b, o, "phase_deg", num(c->phase_deg));
-    set(b, o, "direction", json_string(c->direction > 0 ? "rising" : "falling"));
+    set(b, o, "direction", json_string(c->direction > 0 ? "rising" : c->direction < 0 ? "falling" : "dc"));
     if (unity) {
         set(b, o, "phase_margin_deg", num(c->margin));
-        set(b, o, "delay_margin_s", c->has_delay ? num(c->delay_s) : json_null());
+        set(b, o, "delay_margin_s", num(c->delay_s));
     } else {
-        set(b, o, "gain_margin_db", num(c->margin));
+        set(b, o, "gain_change_db", num(c->margin));
     }
     return o;
 }
@@ -201,11 +207,17 @@ static void stability_keys(builder *b, json_t *lp, const tb_stability *st)
 {
     char reason[512];
     set(b, lp, "phase_margin_hz", st->has_phase_margin ? num(st->phase_margin_hz) : json_null());
-    set(b, lp, "gain_margin_db", st->has_gain_margin ? num(st->gain_margin_db) : json_null());
-    set(b, lp, "gain_margin_hz", st->has_gain_margin ? num(st->gain_margin_hz) : json_null());
+    set(b, lp, "gain_margin_up_db", st->has_gain_margin_up ? num(st->gain_margin_up_db) : json_null());
+    set(b, lp, "gain_margin_up_hz", st->has_gain_margin_up ? num(st->gain_margin_up_hz) : json_null());
+    set(b, lp, "gain_margin_down_db", st->has_gain_margin_down ? num(st->gain_margin_down_db) : json_null());
+    set(b, lp, "gain_margin_down_hz", st->has_gain_margin_down ? num(st->gain_margin_down_hz) : json_null());
     set(b, lp, "delay_margin_s", st->has_delay_margin ? num(st->delay_margin_s) : json_null());
+    set(b, lp, "delay_margin_hz", st->has_delay_margin ? num(st->delay_margin_hz) : json_null());
     set(b, lp, "vector_margin", st->has_vector_margin ? num(st->vector_margin) : json_null());
     set(b, lp, "vector_margin_hz", st->has_vector_margin ? num(st->vector_margin_hz) : json_null());
+    set(b, lp, "margins_determined", json_boolean(st->margins_determined));
+    set(b, lp, "searched_from_hz", num(st->search_lo_hz));
+    set(b, lp, "searched_to_hz", num(st->search_hi_hz));
     set(b, lp, "crossings", crossings_object(b, st));
     set(b, lp, "poles", poles_object(b, st));
     set(b, lp, "nyquist_encirclements", st->has_nyquist ? json_integer(st->nyquist_n) : json_null());
@@ -398,7 +410,7 @@ static json_t *sensitivity_object(builder *b, const tb_result *res, size_t l)
         set(b, x, "A_inf_mag", e->has_A_inf ? num(e->A_inf_mag) : json_null());
         set(b, x, "unity_hz", e->has_unity ? num(e->unity) : json_null());
         set(b, x, "phase_margin_deg_per_pct", e->has_pm ? num(e->pm_deg_pct) : json_null());
-        set(b, x, "gain_margin_db_per_pct", e->has_gm ? num(e->gm_db_pct) : json_null());
+        set(b, x, "gain_margin_up_db_per_pct", e->has_gm ? num(e->gm_db_pct) : json_null());
         if (json_array_append_new(arr, x))
             b->ok = false;
     }
@@ -426,11 +438,9 @@ static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *r
     set(b, lp, "dc", dc_object(b, &m));
     tb_stability st;
     tb_stability_loop(res, l, &st);
+    /* the headline crossing: the same in tb_measures and tb_stability when the latter ran */
     set(b, lp, "unity_hz", m.has_unity ? num(m.unity_hz) : json_null());
-    if (st.computed)
-        set(b, lp, "phase_margin_deg", st.has_phase_margin ? num(st.phase_margin_deg) : json_null());
-    else
-        set(b, lp, "phase_margin_deg", m.has_phase_margin ? num(m.phase_margin_deg) : json_null());
+    set(b, lp, "phase_margin_deg", m.has_phase_margin ? num(m.phase_margin_deg) : json_null());
     if (st.computed)
         stability_keys(b, lp, &st);
     set(b, lp, "f3db_closed_hz", m.has_f3db ? num(m.f3db_closed_hz) : json_null());

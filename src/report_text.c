@@ -86,14 +86,33 @@ static void closed_loop_lines(FILE *out, const tb_result *res, const tb_measures
     line(out, "largest |1/(1+T)| = 1/min|1+T|", m->has_max_sensitivity, v, "");
 }
 
-static void crossing_block(FILE *out, const tb_measures *m)
+static void crossing_block(FILE *out, const tb_measures *m, const tb_stability *st)
 {
-    char v[96];
+    char v[96], extra[96];
     fprintf(out, "  over frequency\n");
-    line(out, "unity loop gain |T| = 1 at", m->has_unity, fmt_hz(m->unity_hz, v, sizeof v), "");
+    extra[0] = '\0';
+    if (st->computed && st->unity_count > 1)
+        snprintf(extra, sizeof extra, "   (the headline crossing, %zu of %zu)", st->phase_margin_index + 1,
+                 st->unity_count);
+    line(out, "unity loop gain |T| = 1 at", m->has_unity, fmt_hz(m->unity_hz, v, sizeof v), extra);
     snprintf(v, sizeof v, "%.2f deg", m->phase_margin_deg);
     line(out, "phase margin", m->has_phase_margin, v, "");
     line(out, "closed-loop -3 dB at", m->has_f3db, fmt_hz(m->f3db_closed_hz, v, sizeof v), "");
+}
+
+/* "", " [below the sweep]" or " [above the sweep]". */
+static const char *sweep_mark(tb_sweep_side side)
+{
+    return side == TB_SWEEP_BELOW ? "   [below the sweep]" : side == TB_SWEEP_ABOVE ? "   [above the sweep]" : "";
+}
+
+static const char *fmt_hz_or_dc(double f, char *buf, size_t size)
+{
+    if (f == 0.0) {
+        snprintf(buf, size, "DC");
+        return buf;
+    }
+    return fmt_hz(f, buf, size);
 }
 
 static void crossing_lines(FILE *out, const tb_stability *st)
@@ -101,16 +120,16 @@ static void crossing_lines(FILE *out, const tb_stability *st)
     char f[64];
     for (size_t i = 0; i < st->unity_count; i++) {
         const tb_crossing *c = &st->unity[i];
-        fprintf(out, "      |T| = 1 (%s) at %-14s phase %9.3f deg   PM %8.3f deg", c->direction > 0 ? "rising " : "falling",
-                fmt_hz(c->hz, f, sizeof f), c->phase_deg, c->margin);
-        if (c->has_delay)
-            fprintf(out, "   delay margin %.4g s", c->delay_s);
-        fputc('\n', out);
+        fprintf(out, "      |T| = 1 (%s) at %-14s phase %9.3f deg   PM %8.3f deg   delay to -1 %.4g s%s%s\n",
+                c->direction > 0 ? "rising " : "falling", fmt_hz(c->hz, f, sizeof f), c->phase_deg, c->margin,
+                c->delay_s, sweep_mark(c->sweep),
+                st->has_phase_margin && i == st->phase_margin_index ? "   <- headline" : "");
     }
     for (size_t i = 0; i < st->phase_count; i++) {
         const tb_crossing *c = &st->phase[i];
-        fprintf(out, "      phase = %.0f deg at %-14s |T| %+9.3f dB   GM %+8.3f dB\n", c->phase_deg,
-                fmt_hz(c->hz, f, sizeof f), c->T_db, c->margin);
+        fprintf(out, "      phase = %.0f deg at %-14s |T| %+9.3f dB   -1 reached if the gain %s by %.3f dB%s\n",
+                c->phase_deg, fmt_hz_or_dc(c->hz, f, sizeof f), c->T_db, c->margin >= 0 ? "rises" : "falls",
+                fabs(c->margin), sweep_mark(c->sweep));
     }
 }
 
@@ -150,20 +169,61 @@ static void dominant_lines(FILE *out, const tb_stability *st)
             st->overshoot_pct, st->settling_s);
 }
 
+static void phase_margin_line(FILE *out, const tb_stability *st)
+{
+    char v[160], f[64];
+    if (!st->margins_determined) {
+        snprintf(v, sizeof v, "not determined, see the notes (needs |PM| >= %g: FAILS)", st->pm_min_deg);
+        line(out, "phase margin", true, v, "");
+        return;
+    }
+    snprintf(v, sizeof v, "%.3f deg at %s (the worst of %zu unity crossing%s; needs |PM| >= %g: %s)",
+             st->phase_margin_deg, fmt_hz(st->phase_margin_hz, f, sizeof f), st->unity_count,
+             st->unity_count == 1 ? "" : "s", st->pm_min_deg, st->pm_ok ? "ok" : "FAILS");
+    line(out, "phase margin", st->has_phase_margin, v, "");
+}
+
+/* "the loop gain may rise by X dB / fall by Y dB before instability", or what
+ * the critical gains are when the loop is not stable. */
+static void gain_margin_line(FILE *out, const tb_stability *st)
+{
+    char v[400], up[96], down[96], f[64], g[64];
+    bool stable = st->verdict == TB_VERDICT_STABLE;
+    if (!st->margins_determined) {
+        snprintf(v, sizeof v, "not determined, see the notes (needs >= %g dB: FAILS)", st->gm_min_db);
+        line(out, "gain margin", true, v, "");
+        return;
+    }
+    snprintf(up, sizeof up, "rise by %.3f dB (at %s)", st->gain_margin_up_db,
+             fmt_hz_or_dc(st->gain_margin_up_hz, f, sizeof f));
+    snprintf(down, sizeof down, "fall by %.3f dB (at %s)", st->gain_margin_down_db,
+             fmt_hz_or_dc(st->gain_margin_down_hz, g, sizeof g));
+    const char *both = st->has_gain_margin_up && st->has_gain_margin_down ? " / " : "";
+    if (stable)
+        snprintf(v, sizeof v, "the loop gain may %s%s%s before instability%s (needs >= %g dB: %s)",
+                 st->has_gain_margin_up ? up : "", both, st->has_gain_margin_down ? down : "",
+                 !st->has_gain_margin_up ? ", and rise without limit"
+                 : !st->has_gain_margin_down ? ", and fall to zero" : "",
+                 st->gm_min_db, st->gm_ok ? "ok" : "FAILS");
+    else
+        snprintf(v, sizeof v, "none: the loop is not shown stable (a pole reaches the axis if the gain would %s%s%s)",
+                 st->has_gain_margin_up ? up : "", both, st->has_gain_margin_down ? down : "");
+    line(out, "gain margin", st->has_gain_margin_up || st->has_gain_margin_down, v, "");
+}
+
 static void stability_block(FILE *out, const tb_stability *st)
 {
-    char v[96], reason[512];
+    char v[96], reason[512], f[64], g[64];
     fprintf(out, "  stability\n");
-    snprintf(v, sizeof v, "%.3f deg at %.6g Hz (needs |PM| >= %g: %s)", st->phase_margin_deg, st->phase_margin_hz,
-             st->pm_min_deg, st->pm_ok ? "ok" : "FAILS");
-    line(out, "phase margin (smallest)", st->has_phase_margin, v, "");
-    snprintf(v, sizeof v, "%+.3f dB at %.6g Hz (needs |GM| >= %g: %s)", st->gain_margin_db, st->gain_margin_hz,
-             st->gm_min_db, st->gm_ok ? "ok" : "FAILS");
-    line(out, "gain margin", st->has_gain_margin, v, "");
-    snprintf(v, sizeof v, "%.4g s", st->delay_margin_s);
+    phase_margin_line(out, st);
+    gain_margin_line(out, st);
+    snprintf(v, sizeof v, "%.4g s (at %s)", st->delay_margin_s, fmt_hz(st->delay_margin_hz, f, sizeof f));
     line(out, "delay margin", st->has_delay_margin, v, "");
-    snprintf(v, sizeof v, "%.4g at %.6g Hz", st->vector_margin, st->vector_margin_hz);
+    snprintf(v, sizeof v, "%.4g at %s", st->vector_margin, fmt_hz_or_dc(st->vector_margin_hz, f, sizeof f));
     line(out, "vector margin min|1+T|", st->has_vector_margin, v, "");
+    snprintf(v, sizeof v, "%s to %s%s", fmt_hz(st->search_lo_hz, f, sizeof f), fmt_hz(st->search_hi_hz, g, sizeof g),
+             st->margins_determined ? " (T settled at both ends)" : "");
+    line(out, "crossings searched", true, v, "");
     crossing_lines(out, st);
     pole_lines(out, st);
     if (st->has_nyquist)
@@ -384,12 +444,12 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
     const tb_element *e = &ckt->elems[ckt->loops[l].elem];
     fprintf(out, "\nloop at %s (%s, gain %.6g)\n", e->name, tb_elem_kind_word(e->kind), e->value);
     dc_block(out, &m);
-    crossing_block(out, &m);
+    tb_stability stab;
+    tb_stability_loop(res, l, &stab);
+    crossing_block(out, &m, &stab);
     closed_loop_lines(out, res, &m);
     feedback_block(out, ckt, res, l);
     sensitivity_block(out, res, l);
-    tb_stability stab;
-    tb_stability_loop(res, l, &stab);
     if (stab.computed)
         stability_block(out, &stab);
     tb_closed_loop cl;

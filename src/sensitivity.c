@@ -186,9 +186,9 @@ static tb_status one_loop(const tb_circuit *ckt, point *pt, tb_result *res, size
         if (!st) /* a singular point on the axis leaves these figures out */
             at_crossing(ckt, pt, l, TB_TWO_PI * s->pm_hz, true, out);
     }
-    if (stab && stab->computed && stab->has_gain_margin) {
+    if (stab && stab->computed && stab->has_gain_margin_up) {
         s->has_gm_hz = true;
-        s->gm_hz = stab->gain_margin_hz;
+        s->gm_hz = stab->gain_margin_up_hz;
         st = solve_at(pt, s->gm_hz);
         if (st == TB_ERR_NOMEM)
             return st;

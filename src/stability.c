@@ -94,17 +94,14 @@ static void keep_poles(pole_set *cl, tb_stability *st)
     dominant_pair(cl, st);
 }
 
+/* The headline margins once the verdict is known, and the user's thresholds:
+ * every margin that exists, wherever it lies on the axis, is checked; margins
+ * that could not be determined fail (tb_margin_judge). */
 static void thresholds(const tb_options *opt, tb_stability *st)
 {
     st->pm_min_deg = opt->pm_min_deg;
     st->gm_min_db = opt->gm_min_db;
-    /* a negative margin (the crossing already past -180 degrees, or |T| > 1 there)
-     * is acceptable only in a loop shown stable: conditional stability, band-pass loops */
-    bool stable = st->verdict == TB_VERDICT_STABLE;
-    st->pm_ok = !st->has_phase_margin ||
-                (fabs(st->phase_margin_deg) >= opt->pm_min_deg && (st->phase_margin_deg > 0 || stable));
-    st->gm_ok = !st->has_gain_margin ||
-                (fabs(st->gain_margin_db) >= opt->gm_min_db && (st->gain_margin_db > 0 || stable));
+    tb_margin_judge(st, opt->pm_min_deg, opt->gm_min_db);
 }
 
 /* One loop: margins by the scan, open-loop poles, Nyquist count, verdict. */

@@ -6,7 +6,7 @@ static const char *const note_text[TB_NOTE_COUNT] = {
     [TB_NOTE_NOT_IN_LOOP] = "the source never sees its own output: it is not in a loop",
     [TB_NOTE_DC_FROM_SWEEP] = "the circuit is singular at DC: DC values are those at the lowest sweep frequency",
     [TB_NOTE_T_INF_DC] = "T is infinite at DC (the circuit with the source's gain at zero is singular there, e.g. an integrator)",
-    [TB_NOTE_POSITIVE_FB_DC] = "T(0) < 0: positive feedback at DC, so phase margin is not defined",
+    [TB_NOTE_POSITIVE_FB_DC] = "T(0) < 0: positive feedback at DC: the phase of T starts at 180 degrees (without the stability analysis no phase margin is given)",
     [TB_NOTE_NO_UNITY] = "|T| never falls through 1 in the sweep: no unity-gain frequency or phase margin",
     [TB_NOTE_NO_F3DB] = "|A| never falls 3 dB below its DC value in the sweep",
     [TB_NOTE_AINF_NONE_DC] = "T has a zero at DC: A_inf is undefined there",
@@ -20,17 +20,22 @@ const char *tb_note_str(tb_note note)
 }
 
 static const char *const snote_text[TB_SNOTE_COUNT] = {
-    [TB_SNOTE_NO_PHASE_CROSSING] = "the phase of T never reaches -180 degrees (mod 360) in the sweep: no gain margin",
-    [TB_SNOTE_NO_UNITY] = "|T| never crosses 1 in the sweep: no phase or delay margin",
-    [TB_SNOTE_TRUNCATED] = "more crossings than are kept: only the lowest ones are listed",
+    [TB_SNOTE_NO_PHASE_CROSSING] = "the phase of T never reaches -180 degrees (mod 360) from DC to far above the sweep: no gain margin",
+    [TB_SNOTE_NO_UNITY] = "|T| never crosses 1 from DC to far above the sweep: no phase or delay margin",
+    [TB_SNOTE_TRUNCATED] = "more crossings than are kept: only the lowest ones are listed, and the margins are not determined",
     [TB_SNOTE_POLES_TOO_BIG] = "poles not computed: more unknowns than the pole limit",
     [TB_SNOTE_POLES_FAILED] = "poles not computed: the dense eigenvalue solver did not converge",
     [TB_SNOTE_NYQUIST_ON_AXIS] = "poles on the j-omega axis: the Nyquist count is not compared",
     [TB_SNOTE_NYQUIST_ASSUMES_P0] = "verdict from the Nyquist count alone, assuming the circuit with this source's gain at zero is stable",
-    [TB_SNOTE_DELAY_NONPOSITIVE] = "a phase margin is zero or negative: no delay margin",
-    [TB_SNOTE_REFINE_BUDGET] = "adaptive refinement stopped at its budget: a narrow feature may be missed",
-    [TB_SNOTE_PROBE_FAILED] = "a fresh solve found the circuit singular on the j-omega axis (a closed-loop pole there)",
+    [TB_SNOTE_NOT_STABLE] = "the loop is not shown stable: no delay margin, and the gain figures are distances to the nearest critical gains, not margins",
+    [TB_SNOTE_REFINE_BUDGET] = "adaptive refinement stopped at its budget: a narrow feature may be missed, so the margins are not determined",
+    [TB_SNOTE_PROBE_FAILED] = "a fresh solve failed on the j-omega axis (the circuit singular there, a closed-loop pole, or T infinite): the margins are not determined",
     [TB_SNOTE_MULTIPLE_UNITY] = "|T| crosses 1 more than once: margins alone do not decide stability, see the poles",
+    [TB_SNOTE_UNSETTLED_LOW] = "T did not settle to its low-frequency asymptote within the search: crossings further down are not ruled out, so the margins are not determined",
+    [TB_SNOTE_UNSETTLED_HIGH] = "T did not settle to its high-frequency asymptote within the search: crossings further up are not ruled out, so the margins are not determined",
+    [TB_SNOTE_OUTSIDE_SWEEP] = "a crossing lies outside the .ac range (found by following T beyond it)",
+    [TB_SNOTE_NO_GAIN_UP] = "the phase never reaches -180 degrees (mod 360) where |T| < 1: no critical gain above the present one",
+    [TB_SNOTE_NO_GAIN_DOWN] = "the phase never reaches -180 degrees (mod 360) where |T| > 1: no critical gain below the present one",
 };
 _Static_assert(sizeof(snote_text) / sizeof(snote_text[0]) == TB_SNOTE_COUNT, "snote_text in step");
 

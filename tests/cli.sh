@@ -63,6 +63,36 @@ has margins-stated out "needs |PM| >= 60: FAILS"
 expect margins-override 0 $tb tests/cli/margins_stated.net --pm-min 5
 has margins-override out "needs |PM| >= 5: ok"
 
+# thresholds apply to every margin wherever it lies on the axis (issue 11; figures from
+# tests/ref/stability_check.py): a gain margin of 4.44 dB just above the sweep
+expect gm-above 1 $tb tests/stab/stab_gm_above_sweep.net --gm-min 10
+has gm-above err "loop G1: the loop gain may rise by only 4.437 dB (needs 10 dB)"
+has gm-above out "[above the sweep]"
+expect gm-above-strict 1 $tb tests/stab/stab_gm_above_sweep.net --strict
+expect gm-above-met 0 $tb tests/stab/stab_gm_above_sweep.net --gm-min 4
+# a phase margin of 46.9 degrees above an audio-band sweep
+expect pm-above 1 $tb tests/stab/stab_pm_above_sweep.net --pm-min 60
+has pm-above err "loop G1: phase margin 46.931 deg is below 60 deg"
+expect pm-above-strict 0 $tb tests/stab/stab_pm_above_sweep.net --strict
+# conditionally stable, its lower critical gain (9.4 dB down) below the sweep
+expect conditional-down 1 $tb tests/stab/stab_conditional_below_sweep.net --gm-min 10 --pm-min 30
+has conditional-down err "loop G1: the loop gain may fall by only 9.405 dB (needs 10 dB)"
+has conditional-down out "the loop gain may rise by 71.249 dB (at 999.21 kHz) / fall by 9.405 dB (at 385.01 Hz) before instability"
+expect conditional-met 0 $tb tests/stab/stab_conditional_below_sweep.net --gm-min 9 --pm-min 30
+# T(0) = -0.4: DC is a critical point, 7.96 dB up
+expect positive-dc 1 $tb tests/stab/stab_positive_dc.net --gm-min 10
+has positive-dc out "the loop gain may rise by 7.959 dB (at DC) before instability"
+expect positive-dc-met 0 $tb tests/stab/stab_positive_dc.net --gm-min 7
+# two unity crossings: the headline is the -37 degree one, in a stable loop |PM| counts
+expect two-unity 0 $tb tests/stab/stab_two_unity.net --pm-min 30
+has two-unity out "unity loop gain |T| = 1 at     33.333 Hz   (the headline crossing, 1 of 2)"
+expect two-unity-fails 1 $tb tests/stab/stab_two_unity.net --pm-min 40
+# margins that cannot be determined fail --strict, and say why
+expect unsettled 0 $tb tests/cli/margins_unsettled.net
+has unsettled out "T did not settle to its high-frequency asymptote within the search"
+expect unsettled-strict 1 $tb tests/cli/margins_unsettled.net --strict
+has unsettled-strict err "loop G1: the margins could not be determined (see the notes)"
+
 # every malformed netlist: exit 2 and the first line of stderr as stated in its .err file
 for f in tests/bad/*.net; do
     [ -f "$f" ] || continue

@@ -52,11 +52,11 @@ static void test_expect_grammar(void **state)
         {".expect G1.dc.A = {5*2} +- 2m", "dc.A", TB_XOP_EQ, 10, 2e-3, false, 9.998, 10.002},
         {".expect G1.dc.A = -8 ±2%", "dc.A", TB_XOP_EQ, -8, 2, true, -8.16, -7.84},
         {".expect G1.phase_margin_deg >= 45", "phase_margin_deg", TB_XOP_GE, 0, 0, false, 45, 0},
-        {".expect G1.gain_margin_db <= {2*3}", "gain_margin_db", TB_XOP_LE, 0, 0, false, 0, 6},
+        {".expect G1.gain_margin_up_db <= {2*3}", "gain_margin_up_db", TB_XOP_LE, 0, 0, false, 0, 6},
         {".expect G1.unity_hz in 1meg 2meg", "unity_hz", TB_XOP_IN, 0, 0, false, 1e6, 2e6},
         {".expect G1.verdict = stable", "verdict", TB_XOP_EQ, TB_VERDICT_STABLE, 0, false, 0, 0},
         {".EXPECT G1.verdict = UNSTABLE", "verdict", TB_XOP_EQ, TB_VERDICT_UNSTABLE, 0, false, 0, 0},
-        {".expect G1.gain_margin_db = none", "gain_margin_db", TB_XOP_NONE, 0, 0, false, 0, 0},
+        {".expect G1.gain_margin_down_db = none", "gain_margin_down_db", TB_XOP_NONE, 0, 0, false, 0, 0},
         {".expect G1.dc.T_db >= 59", "dc.T_db", TB_XOP_GE, 0, 0, false, 59, 0},
     };
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
@@ -142,14 +142,14 @@ static void test_expect_holds(void **state)
         {".expect G1.phase_margin_deg >= 45", true, 45, true},
         {".expect G1.phase_margin_deg >= 45", true, 44.999, false},
         {".expect G1.phase_margin_deg >= 45", false, 0, false},
-        {".expect G1.gain_margin_db <= 3", true, 3, true},
-        {".expect G1.gain_margin_db <= 3", true, 3.001, false},
+        {".expect G1.gain_margin_up_db <= 3", true, 3, true},
+        {".expect G1.gain_margin_up_db <= 3", true, 3.001, false},
         {".expect G1.unity_hz in 1meg 2meg", true, 1e6, true},
         {".expect G1.unity_hz in 1meg 2meg", true, 2e6, true},
         {".expect G1.unity_hz in 1meg 2meg", true, 2.0001e6, false},
         {".expect G1.unity_hz in 1meg 2meg", true, 0.9999e6, false},
-        {".expect G1.gain_margin_db = none", false, 0, true},
-        {".expect G1.gain_margin_db = none", true, 12, false},
+        {".expect G1.gain_margin_down_db = none", false, 0, true},
+        {".expect G1.gain_margin_down_db = none", true, 12, false},
         {".expect G1.verdict = stable", true, TB_VERDICT_STABLE, true},
         {".expect G1.verdict = stable", true, TB_VERDICT_MARGINAL, false},
         {".expect G1.verdict = stable", false, 0, false},
@@ -260,13 +260,16 @@ static void test_expect_figures_closed_form(void **state)
     }
     double x = 0;
     const char *why = NULL;
-    int gm_idx = tb_figure_find("gain_margin_db", 14);
+    int gm_idx = tb_figure_find("gain_margin_up_db", 17);
     const tb_figure *gm = tb_figure_at((size_t)gm_idx);
     assert_false(gm->get(&src, &x, &why));
-    assert_string_equal(why, "the phase of T never reaches -180 deg");
+    assert_string_equal(why, "the phase of T never reaches -180 deg where |T| < 1");
     assert_false(all[gm_idx].present);
     assert_true(all[gm_idx].value == 0);
-    assert_string_equal(all[gm_idx].why, "the phase of T never reaches -180 deg");
+    assert_string_equal(all[gm_idx].why, "the phase of T never reaches -180 deg where |T| < 1");
+    gm = tb_figure_at((size_t)tb_figure_find("gain_margin_down_db", 19));
+    assert_false(gm->get(&src, &x, &why));
+    assert_string_equal(why, "the phase of T never reaches -180 deg where |T| > 1");
     tb_result_free(res);
     tb_circuit_free(ckt);
 }

@@ -69,20 +69,38 @@ static void test_loop_not_in_a_loop(void **state)
     tb_circuit_free(ckt);
 }
 
-/* Feedback into the non-inverting input: T(0) = -a R1/(R1+R2) < 0, so the phase
- * margin is absent (design.md "Measures") while T itself is reported. */
+/* Feedback into the non-inverting input: T(0) = -a R1/(R1+R2) < 0. With Cp across R1,
+ * T(s) = -3/(1 + s tau), tau = R1 R2 Cp/(R1 + R2) (our algebra): |T| = 1 at w tau = sqrt 8,
+ * where the phase of T is 180 - atan(sqrt 8) degrees, so the phase margin, wrapped into
+ * (-180, 180], is -atan(sqrt 8) = -70.53 degrees (that much lead puts T on -1; the loop is
+ * unstable, a real pole at s = 2/tau). The stability analysis gives it; the grid estimate
+ * without it keeps the foundation's rule (design.md "Measures": absent when T(0) < 0). */
 static void test_loop_positive_feedback_at_dc(void **state)
 {
     (void)state;
+    static const char text[] = "positive feedback\nVs in 0 AC 1\nRin in n 1k\nE1 out 0 p n 30\n"
+                               "R2 out p 9k\nR1 p 0 1k\nCp p 0 1u\n"
+                               ".ac dec 20 1 1meg\n.loop E1\n.io Vs v(out)\n";
     tb_circuit *ckt = NULL;
-    tb_result *res = analyse("positive feedback\nVs in 0 AC 1\nRin in n 1k\nE1 out 0 p n 30\n"
-                             "R2 out p 9k\nR1 p 0 1k\nCp p 0 1u\n"
-                             ".ac dec 20 1 1meg\n.loop E1\n.io Vs v(out)\n",
-                             &ckt);
+    tb_result *res = analyse(text, &ckt);
     tb_point dc;
     assert_true(tb_result_dc(res, 0, &dc));
     tu_close(dc.T, -30.0 * 1e3 / 10e3, 1e-12);
     tb_measures m;
+    assert_int_equal(tb_measure_loop(res, 0, &m), TB_OK);
+    double tau = 1e3 * 9e3 * 1e-6 / 10e3;
+    assert_true(m.has_unity);
+    tu_close(m.unity_hz, sqrt(8.0) / tau / (2 * TU_PI), 1e-9);
+    assert_true(m.has_phase_margin);
+    tu_close(m.phase_margin_deg, -atan(sqrt(8.0)) * 180 / TU_PI, 1e-9);
+    assert_true(m.notes & (1u << TB_NOTE_POSITIVE_FB_DC));
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+    tb_options opt;
+    tb_options_init(&opt);
+    opt.stability = false;
+    ckt = tu_parse(text);
+    assert_int_equal(tb_analyse(ckt, &opt, NULL, &res), TB_OK);
     assert_int_equal(tb_measure_loop(res, 0, &m), TB_OK);
     assert_true(m.has_unity);
     assert_false(m.has_phase_margin);

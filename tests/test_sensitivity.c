@@ -24,8 +24,8 @@ static figures analyse_figures(tb_circuit *ckt)
     tb_stability st;
     assert_int_equal(tb_measure_loop(res, 0, &m), TB_OK);
     assert_int_equal(tb_stability_loop(res, 0, &st), TB_OK);
-    figures f = {m.dc, st.phase_margin_deg, st.phase_margin_hz, st.gain_margin_db, st.has_phase_margin,
-                 st.has_gain_margin};
+    figures f = {m.dc, st.phase_margin_deg, st.phase_margin_hz, st.gain_margin_up_db, st.has_phase_margin,
+                 st.has_gain_margin_up};
     tb_result_free(res);
     tb_diag_free(diag);
     return f;

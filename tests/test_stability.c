@@ -78,7 +78,9 @@ static void test_stability_second_order_relations(void **state)
     tu_close(st.phase_margin_deg, pm, 1e-9);
     assert_true(fabs(st.phase_margin_deg - 51.83) < 0.005); /* the table's 51.83 deg */
     tu_close(st.delay_margin_s, pm * TU_PI / 180 / wc, 1e-9);
-    assert_false(st.has_gain_margin); /* the phase tends to -180 but never reaches it */
+    /* the phase tends to -180 but never reaches it: no critical gain either way */
+    assert_false(st.has_gain_margin_up);
+    assert_false(st.has_gain_margin_down);
     /* closed loop wn^2/(s^2 + 2 zeta wn s + wn^2): poles -zeta wn +- j wn sqrt(1 - zeta^2) */
     assert_true(st.has_poles);
     assert_int_equal(st.cl_finite, 2);
@@ -176,7 +178,7 @@ static void test_stability_two_pole_closed_form(void **state)
     assert_int_equal(st.unity_count, 1);
     tu_close(st.unity[0].hz, fc, 1e-9);
     tu_close(st.phase_margin_deg, pm, 1e-9);
-    assert_false(st.has_gain_margin);
+    assert_false(st.has_gain_margin_up || st.has_gain_margin_down);
     double wn = 2 * TU_PI * sqrt(f1 * f2 * (1 + T0));
     tu_close(st.fn_hz, wn / (2 * TU_PI), 1e-9);
     tu_close(st.zeta, 2 * TU_PI * (f1 + f2) / (2 * wn), 1e-9);
@@ -198,7 +200,9 @@ static void test_stability_three_pole_closed_form(void **state)
         double T0 = T0s[i], wc = p * sqrt(pow(T0, 2.0 / 3.0) - 1), r = cbrt(T0);
         assert_int_equal(st.phase_count, 1);
         tu_close(st.phase[0].hz, sqrt(3.0) * p / (2 * TU_PI), 1e-9);
-        tu_close(st.gain_margin_db, -20 * log10(T0 / 8), 1e-9);
+        /* GM = 8/T0: T0 = 2 may rise by 12.04 dB; T0 = 10 (unstable) is 1.94 dB above the boundary */
+        assert_true(st.has_gain_margin_up == (i == 0) && st.has_gain_margin_down == (i == 1));
+        tu_close(i == 0 ? st.gain_margin_up_db : st.gain_margin_down_db, fabs(20 * log10(T0 / 8)), 1e-9);
         tu_close(st.unity[0].hz, wc / (2 * TU_PI), 1e-9);
         tu_close(st.phase_margin_deg, 180 - 3 * atan(wc / p) * 180 / TU_PI, 1e-9);
         assert_int_equal(st.cl_finite, 3);
@@ -245,6 +249,52 @@ static void test_stability_narrow_resonance_refined(void **state)
     tu_close(creal(st.poles[0]), -sigma, 1e-9);
 }
 
+/* references.md check 4c again, T = 2/(1 + s/p)^3 with p = 2 pi 1 kHz, swept on ranges that
+ * leave out one crossing or the other: the search beyond the sweep still finds the -180
+ * crossing at sqrt(3) p (the loop gain may rise by 20 log10(8/T0)) and the unity crossing at
+ * p sqrt(T0^(2/3) - 1) (PM 180 - 3 atan(wc/p)), each flagged on its side of the sweep, and the
+ * thresholds judge them. T(0) < 0 (positive feedback, -0.4/(1 + s/p)): DC itself is the
+ * critical point, the gain may rise by -20 log10 0.4 (our algebra: 1 + K T(0) = 0). */
+static void test_stability_margins_beyond_sweep(void **state)
+{
+    (void)state;
+    static const char three[] = "three poles\nVS in 0 AC 1\nG1 0 a in out 2m\nRa a 0 1k\n"
+                                "Ca a 0 1.5915494309189534e-07\nG2 0 b a 0 1m\nRb b 0 1k\n"
+                                "Cb b 0 1.5915494309189534e-07\nG3 0 c b 0 1m\nRc c 0 1k\n"
+                                "Cc c 0 1.5915494309189534e-07\nEO out 0 c 0 1\n.loop G1\n";
+    double p = 2 * TU_PI * 1e3, T0 = 2, wc = p * sqrt(pow(T0, 2.0 / 3.0) - 1);
+    char text[1024];
+    snprintf(text, sizeof text, "%s.ac dec 20 1 1k\n", three); /* f180 = 1.732 kHz lies above */
+    tb_options opt;
+    tb_options_init(&opt);
+    opt.gm_min_db = 13;
+    tb_stability st = stability_of(text, &opt);
+    assert_true(st.margins_determined);
+    assert_int_equal(st.phase_count, 1);
+    assert_int_equal(st.phase[0].sweep, TB_SWEEP_ABOVE);
+    tu_close(st.phase[0].hz, sqrt(3.0) * p / (2 * TU_PI), 1e-9);
+    assert_true(st.has_gain_margin_up && !st.has_gain_margin_down);
+    tu_close(st.gain_margin_up_db, 20 * log10(8 / T0), 1e-9);
+    assert_false(st.gm_ok); /* 12.04 dB < 13 dB, although the sweep never reaches it */
+    assert_true(st.notes & (1u << TB_SNOTE_OUTSIDE_SWEEP));
+    snprintf(text, sizeof text, "%s.ac dec 20 2k 1meg\n", three); /* fc = 766 Hz lies below */
+    st = stability_of(text, NULL);
+    assert_int_equal(st.unity_count, 1);
+    assert_int_equal(st.unity[0].sweep, TB_SWEEP_BELOW);
+    tu_close(st.phase_margin_hz, wc / (2 * TU_PI), 1e-9);
+    tu_close(st.phase_margin_deg, 180 - 3 * atan(wc / p) * 180 / TU_PI, 1e-9);
+    tu_close(st.delay_margin_s, st.phase_margin_deg / 360 / st.phase_margin_hz, 1e-12);
+    st = stability_of("positive feedback at DC\nVS in 0 AC 1\nG1 0 a out in 0.4m\nRa a 0 1k\n"
+                      "Ca a 0 1.5915494309189535e-07\nEO out 0 a 0 1\n.loop G1\n.ac dec 20 10 1meg\n",
+                      NULL);
+    assert_int_equal(st.unity_count, 0);
+    assert_int_equal(st.phase_count, 1);
+    assert_true(st.phase[0].hz == 0 && st.phase[0].direction == 0);
+    tu_close(st.gain_margin_up_db, -20 * log10(0.4), 1e-12);
+    assert_true(st.gain_margin_up_hz == 0);
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+}
+
 /* Thresholds are the user's; the pole limit turns the pencil off and says so. */
 static void test_stability_thresholds_and_limit(void **state)
 {
@@ -284,6 +334,7 @@ int main(void)
         cmocka_unit_test(test_stability_two_pole_closed_form),
         cmocka_unit_test(test_stability_three_pole_closed_form),
         cmocka_unit_test(test_stability_narrow_resonance_refined),
+        cmocka_unit_test(test_stability_margins_beyond_sweep),
         cmocka_unit_test(test_stability_thresholds_and_limit),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
