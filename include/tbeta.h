@@ -321,7 +321,7 @@ TB_API tb_status tb_closed_loop_get(const tb_result *res, tb_closed_loop *out);
 
 /* Thresholds and limits of the stability analysis (part of tb_options). */
 #define TB_MAX_CROSSINGS 16  /* crossings kept per kind and loop (more: truncated, said so) */
-#define TB_MAX_POLES 16      /* closed-loop poles kept per loop, least damped first */
+#define TB_MAX_POLES 16      /* closed-loop poles kept per loop, largest real part first */
 
 /* Where a crossing lies against the .ac range: the search follows T from DC to far
  * above the sweep, so margins outside the range are found and checked too. */
@@ -349,13 +349,34 @@ typedef struct {
     tb_sweep_side sweep;  /* inside, below or above the .ac range */
 } tb_crossing;
 
+/* Verdicts from better to worse (stable < marginal < unstable): when the pole count
+ * and the Nyquist count disagree, the worse of the two is taken and
+ * tb_stability.counts_disagree says so. */
 typedef enum {
     TB_VERDICT_UNKNOWN = 0,  /* neither poles nor Nyquist could decide */
     TB_VERDICT_STABLE,
-    TB_VERDICT_MARGINAL,     /* closed-loop poles on the j-omega axis (within tolerance) */
-    TB_VERDICT_UNSTABLE,
-    TB_VERDICT_DISAGREE      /* the pole count and the Nyquist count disagree */
+    TB_VERDICT_MARGINAL,     /* closed-loop poles on the j-omega axis, none to its right */
+    TB_VERDICT_UNSTABLE      /* a closed-loop pole in the right half-plane (or N + P > 0) */
 } tb_verdict;
+
+/* Where a pole lies: left of the j-omega axis, on it (within what the circuit's
+ * numbers can resolve, docs/stability.md), or right of it. */
+typedef enum {
+    TB_POLE_LEFT = 0,
+    TB_POLE_AXIS,
+    TB_POLE_RIGHT
+} tb_pole_place;
+
+/* Whether the closed loop has a dominant complex pair, and if not, why. */
+typedef enum {
+    TB_DOMINANT_PAIR = 0,    /* a dominant pair (tb_stability.dominant) */
+    TB_DOMINANT_NO_WEIGHTS,  /* poles or their residues not available */
+    TB_DOMINANT_NOT_STABLE,  /* the loop is not stable: no second-order picture */
+    TB_DOMINANT_NO_PAIR,     /* no complex closed-loop pair carries any weight */
+    TB_DOMINANT_OUTWEIGHED,  /* another pole weighs more than every pair */
+    TB_DOMINANT_CROWDED,     /* another pole of comparable weight lies too close */
+    TB_DOMINANT_COUNT
+} tb_dominance;
 
 /* Why the stability figures are as they are (bits 1u << tb_stab_note). */
 typedef enum {
@@ -382,13 +403,19 @@ typedef enum {
     TB_SNOTE_OUTSIDE_SWEEP,         /* a crossing lies outside the .ac range (found beyond it) */
     TB_SNOTE_NO_GAIN_UP,            /* no -180 crossing where |T| < 1: no critical gain above */
     TB_SNOTE_NO_GAIN_DOWN,          /* no -180 crossing where |T| > 1: no critical gain below */
+    TB_SNOTE_COUNTS_DISAGREE,       /* pole count and Nyquist count disagree: the worse verdict taken */
+    TB_SNOTE_PAIR_DISAGREES,        /* the dominant pair's predictions miss the computed figures by > 2x */
     TB_SNOTE_COUNT
 } tb_stab_note;
 
 /* A short English sentence for a stability note; never NULL. */
 TB_API const char *tb_stab_note_str(tb_stab_note note);
-/* "stable", "marginal", "unstable", "undecided", "poles and Nyquist disagree". */
+/* "stable", "marginal", "unstable", "undecided". */
 TB_API const char *tb_verdict_str(tb_verdict verdict);
+/* "left", "axis", "right". */
+TB_API const char *tb_pole_place_str(tb_pole_place place);
+/* Why there is no dominant pair (a sentence; "dominant" for TB_DOMINANT_PAIR). */
+TB_API const char *tb_dominance_str(tb_dominance dominance);
 
 /* Margins, poles and verdict of one loop. has_* false means absent (notes say why). */
 typedef struct {
@@ -436,18 +463,37 @@ typedef struct {
     size_t pole_limit;
     size_t cl_finite;         /* finite closed-loop poles */
     size_t cl_rhp;            /* of them in the right half-plane */
-    size_t cl_axis;           /* on the j-omega axis (within tolerance) */
+    size_t cl_axis;           /* on the j-omega axis (docs/stability.md: how that is decided) */
+    size_t cl_checked;        /* of them placed by a check on the circuit, not by QZ alone */
     size_t ol_rhp;            /* open-loop right-half-plane poles (P of Nyquist) */
     size_t ol_axis;
+    size_t ol_checked;
     double fastest_rad_s;     /* largest |s| of the finite closed-loop poles */
-    size_t pole_count;        /* entries of poles[] */
+    size_t pole_count;        /* entries of poles[] and the arrays beside it */
     double complex poles[TB_MAX_POLES]; /* closed-loop poles, largest real part first */
+    tb_pole_place pole_place[TB_MAX_POLES];
+    bool pole_checked[TB_MAX_POLES];    /* placed (and s refined) by the check on the circuit */
+    bool has_weights;         /* residues of the closed-loop transfer for every pole */
+    bool weights_of_a;        /* that transfer is A (.io), else this loop's T/(1+T) */
+    double complex pole_residue[TB_MAX_POLES];
+    double pole_weight[TB_MAX_POLES];   /* |residue| / |Re s| (0 on the axis): the pole's
+                                         * peak contribution to |H(jw)| */
     /* Nyquist: N = clockwise encirclements of -1 by T(jw), w from -inf to inf */
     bool has_nyquist;
     long nyquist_n;
-    /* dominant closed-loop pair (least damped complex pair, or the slowest real pole) */
+    bool counts_disagree;     /* poles and Nyquist give different right-half-plane counts
+                               * (Z != N + P); the verdict is the worse of the two */
+    tb_verdict pole_verdict;  /* what the poles alone say (when has_poles) */
+    /* dominant closed-loop pair: the heaviest complex pair, when no other pole weighs
+     * as much and every pole of comparable weight lies far enough left (docs/stability.md) */
     bool has_dominant;
+    tb_dominance dominance;   /* TB_DOMINANT_PAIR, or why there is none */
     double complex dominant;  /* upper member of the pair (Im >= 0) */
+    double dominant_weight;   /* its weight |residue|/|Re s| */
+    bool has_weight_ratio;    /* another pole carries weight */
+    double weight_ratio;      /* the pair's weight over the next heaviest pole's */
+    bool has_separation;      /* another pole of comparable weight (> 1/10 of the pair's) exists */
+    double separation;        /* |Re s| of the nearest such pole over the pair's |Re s| */
     double zeta;
     double q;
     double fn_hz;
@@ -457,6 +503,14 @@ typedef struct {
     bool has_overshoot;
     double overshoot_pct;     /* second-order estimate exp(-pi zeta/sqrt(1-zeta^2)) */
     double settling_s;        /* 2 % settling estimate 4/(zeta wn) */
+    /* the pair's predictions against what was computed (tb_stability_vs_step) */
+    bool has_cl_peaking;      /* with .io and A(0) != 0 */
+    double cl_peaking_db;     /* 20 log10 (max |A| / |A(0)|) over the sweep, 0 when |A| never rises */
+    double cl_peaking_hz;
+    bool pair_checked;        /* predictions compared with the step response and cl_peaking */
+    bool has_step_overshoot;
+    double step_overshoot_pct; /* the computed step response's overshoot */
+    bool pair_disagrees;      /* a prediction misses by more than 2x (note TB_SNOTE_PAIR_DISAGREES) */
     tb_verdict verdict;
     double pm_min_deg;        /* thresholds applied */
     double gm_min_db;

@@ -95,7 +95,7 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
     if (!st && opt->stability)
         st = tb_stability_run(probe, &limits, res);
     if (!st && pa->census)
-        st = tb_census_judge(pa->census, &limits, res);
+        st = tb_census_judge(pa->census, probe, &limits, res);
     if (!st)
         st = tb_feedback_run(ckt, probe, res);
     if (!st)
@@ -107,6 +107,9 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
     if (!st && opt->stability)
         st = tb_step_run(probe, res);
     res->stats.step_factorizations = tb_sweep_counts(sw).numeric - before;
+    /* the dominant pair's second-order predictions against the computed step response */
+    for (size_t l = 0; !st && res->stab && l < res->nloops; l++)
+        tb_stability_vs_step(&res->step, &res->stab[l]);
     if (!st)
         st = tb_measure_run(res);
     if (!st && pa->ports)

@@ -277,7 +277,7 @@ tb_status tb_census_end(tb_census *cs, tb_probe *probe, tb_result *res)
 /* Right-half-plane poles of the circuit with loop lv's gain and source s's gain at zero
  * (s's stamp k u v' taken out of G at its positions); SIZE_MAX when QZ fails. */
 static size_t rhp_without(const tb_mna *mna, const tb_loopvec *lv, const source *s, double *Gx,
-                          double complex *eig, tb_status *st)
+                          tb_pole_check *check, tb_pole_found *eig, tb_status *st)
 {
     memcpy(Gx, mna->Gx, mna->nnz * sizeof(double));
     tb_loopvec lv0 = *lv; /* its own entries hold G without lv's stamp: take s's out there too */
@@ -295,12 +295,12 @@ static size_t rhp_without(const tb_mna *mna, const tb_loopvec *lv, const source 
     both.Gx = Gx;
     size_t count = 0;
     double scale = 0;
-    *st = tb_poles_compute(&both, &lv0, eig, &count, &scale);
+    *st = tb_poles_find(&both, &lv0, check, NULL, 0, eig, NULL, &count, &scale);
     if (*st)
         return SIZE_MAX;
     size_t rhp = 0;
     for (size_t i = 0; i < count; i++)
-        rhp += creal(eig[i]) > 0 && !tb_poles_on_axis(eig[i], scale);
+        rhp += eig[i].place == TB_POLE_RIGHT;
     return rhp;
 }
 
@@ -322,7 +322,7 @@ static const source *source_of(const census *cs, const tb_census_entry *e)
 
 /* Which flagged local cells are unstable on their own, for one marked loop with P > 0. */
 static tb_status cells_of_loop(const census *cs, size_t l, const tb_stability *stab, tb_result *res,
-                               double *Gx, double complex *eig)
+                               double *Gx, tb_pole_check *check, tb_pole_found *eig)
 {
     for (size_t i = 0; i < res->census_count; i++) {
         tb_census_entry *e = &res->census[i];
@@ -331,7 +331,7 @@ static tb_status cells_of_loop(const census *cs, size_t l, const tb_stability *s
         if (e->marked || !e->in_loop || !own_loop || e->unstable_alone || !s)
             continue;
         tb_status st = TB_OK;
-        size_t rhp = rhp_without(cs->mna, &cs->mna->loops[l], s, Gx, eig, &st);
+        size_t rhp = rhp_without(cs->mna, &cs->mna->loops[l], s, Gx, check, eig, &st);
         if (st == TB_ERR_NOMEM)
             return st;
         if (rhp != SIZE_MAX && rhp < stab->ol_rhp) {
@@ -343,7 +343,7 @@ static tb_status cells_of_loop(const census *cs, size_t l, const tb_stability *s
     return TB_OK;
 }
 
-tb_status tb_census_judge(const tb_census *cs, const tb_options *limits, tb_result *res)
+tb_status tb_census_judge(const tb_census *cs, tb_probe *probe, const tb_options *limits, tb_result *res)
 {
     for (size_t i = 0; i < res->census_count; i++) {
         tb_census_entry *e = &res->census[i];
@@ -356,11 +356,12 @@ tb_status tb_census_judge(const tb_census *cs, const tb_options *limits, tb_resu
         return TB_OK;
     size_t n = cs->mna->n;
     double *Gx = tb_malloc(cs->mna->nnz ? cs->mna->nnz : 1, sizeof(double));
-    double complex *eig = tb_malloc(n ? n : 1, sizeof(double complex));
+    tb_pole_found *eig = tb_malloc(n ? n : 1, sizeof(tb_pole_found));
+    tb_pole_check check = {tb_probe_take_solver(probe), probe->Mx, 0};
     tb_status st = Gx && eig ? TB_OK : TB_ERR_NOMEM;
     for (size_t l = 0; !st && l < res->nloops; l++)
         if (res->stab[l].has_poles && res->stab[l].ol_rhp > 0)
-            st = cells_of_loop(cs, l, &res->stab[l], res, Gx, eig);
+            st = cells_of_loop(cs, l, &res->stab[l], res, Gx, &check, eig);
     tb_free(Gx);
     tb_free(eig);
     return st;

@@ -26,9 +26,9 @@ tb_status tb_census_end(tb_census *cs, tb_probe *probe, tb_result *res);
  * limits->pm_min_deg (pm_ok), and, for every marked loop whose circuit with its
  * gain at zero has right-half-plane poles (P > 0, from res->stab), which flagged
  * local cells cause them: the poles of the circuit with both gains at zero
- * (dense QZ; called only when the stability analysis computed poles, so within
- * the pole limit). Errors: TB_ERR_NOMEM. */
-tb_status tb_census_judge(const tb_census *cs, const tb_options *limits, tb_result *res);
+ * (tb_poles_find, its checks on the circuit through probe's solver; only when the
+ * stability analysis computed poles, so within the pole limit). Errors: TB_ERR_NOMEM. */
+tb_status tb_census_judge(const tb_census *cs, tb_probe *probe, const tb_options *limits, tb_result *res);
 
 void tb_census_free(tb_census *cs);
 

@@ -296,7 +296,7 @@ static const tb_figure figures[] = {
     {"ideal.limit_hz", "Hz", TB_WORSE_LOWER, false, get_ideal_limit,
      "lowest frequency where A leaves the .ideal estimate's tolerance"},
     {"verdict", "", TB_WORSE_ANY, true, get_verdict,
-     "stable, marginal, unstable, undecided or disagree"},
+     "stable, marginal, unstable or undecided"},
 };
 
 size_t tb_figure_count(void)
@@ -354,20 +354,19 @@ tb_status tb_figure_measure(const tb_result *res, size_t l, tb_figure_value *out
 static const char *const verdict_words[] = {
     [TB_VERDICT_UNKNOWN] = "undecided", [TB_VERDICT_STABLE] = "stable",
     [TB_VERDICT_MARGINAL] = "marginal",  [TB_VERDICT_UNSTABLE] = "unstable",
-    [TB_VERDICT_DISAGREE] = "disagree",
 };
-_Static_assert(sizeof verdict_words / sizeof verdict_words[0] == TB_VERDICT_DISAGREE + 1,
+_Static_assert(sizeof verdict_words / sizeof verdict_words[0] == TB_VERDICT_UNSTABLE + 1,
                "verdict_words in step with tb_verdict");
 
 const char *tb_figure_word(double x)
 {
     int v = (int)x;
-    return v >= 0 && v <= TB_VERDICT_DISAGREE ? verdict_words[v] : "?";
+    return v >= 0 && v <= TB_VERDICT_UNSTABLE ? verdict_words[v] : "?";
 }
 
 int tb_figure_word_find(const char *s, size_t len)
 {
-    for (int v = 0; v <= TB_VERDICT_DISAGREE; v++) {
+    for (int v = 0; v <= TB_VERDICT_UNSTABLE; v++) {
         const char *w = verdict_words[v];
         bool same = strlen(w) == len;
         for (size_t i = 0; same && i < len; i++)

@@ -15,7 +15,8 @@ typedef struct {
     size_t col;
     double g;
     double c;
-    size_t elem; /* the element that stamped it (SIZE_MAX: structural diagonal) */
+    size_t elem; /* the element that stamped it; SIZE_MAX for the structural diagonal
+                  * and a VCVS's branch incidence, which is not its gain (own_entries) */
 } triplet;
 
 typedef struct {
@@ -99,6 +100,17 @@ static tb_status stamp_branch(stamper *s, size_t j, int p, int n)
     return TB_OK;
 }
 
+/* stamp_branch tagged as no source's gain, so that own_entries keeps it in G0 when
+ * a VCVS reads one of its own nodes (the follower E out 0 in out k). */
+static tb_status stamp_incidence(stamper *s, size_t j, int p, int n)
+{
+    size_t elem = s->elem;
+    s->elem = SIZE_MAX;
+    tb_status st = stamp_branch(s, j, p, n);
+    s->elem = elem;
+    return st;
+}
+
 static tb_status stamp_element(stamper *s, const tb_circuit *ckt, const tb_element *e)
 {
     const int *nd = e->node;
@@ -121,7 +133,7 @@ static tb_status stamp_element(stamper *s, const tb_circuit *ckt, const tb_eleme
         return stamp_branch(s, branch_unknown(s, e), nd[0], nd[1]);
     case TB_EL_E: {
         size_t j = branch_unknown(s, e);
-        if (stamp_branch(s, j, nd[0], nd[1]) || add(s, j, node_unknown(nd[2]), -e->value, 0) ||
+        if (stamp_incidence(s, j, nd[0], nd[1]) || add(s, j, node_unknown(nd[2]), -e->value, 0) ||
             add(s, j, node_unknown(nd[3]), e->value, 0))
             return TB_ERR_NOMEM;
         return TB_OK;

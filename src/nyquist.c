@@ -15,21 +15,33 @@ bool tb_nyquist_count(const tb_nyquist_path *path, long *n)
     return true;
 }
 
+/* The verdict of the poles alone: a right-half-plane pole outranks everything. */
+static tb_verdict pole_verdict(const tb_stability *st)
+{
+    return st->cl_rhp > 0 ? TB_VERDICT_UNSTABLE : st->cl_axis > 0 ? TB_VERDICT_MARGINAL : TB_VERDICT_STABLE;
+}
+
 /* Z = N + P (H. Nyquist, "Regeneration theory", Bell Syst. Tech. J. 11, 1932; the
- * return-difference form det M = det M0 (1 + T) of H. W. Bode, 1945). */
+ * return-difference form det M = det M0 (1 + T) of H. W. Bode, 1945). When the two
+ * counts disagree, the worse verdict stands: N + P > 0 says unstable whatever the
+ * poles say; N + P < 0 is no count at all (the poles' verdict stands). */
 void tb_nyquist_verdict(tb_stability *st, bool ol_axis_away)
 {
     if (st->has_poles) {
-        st->verdict = st->cl_rhp > 0 ? TB_VERDICT_UNSTABLE
-                      : st->cl_axis > 0 ? TB_VERDICT_MARGINAL
-                                        : TB_VERDICT_STABLE;
+        st->pole_verdict = pole_verdict(st);
+        st->verdict = st->pole_verdict;
         if (st->cl_axis > 0 || ol_axis_away) {
             if (st->has_nyquist)
                 st->notes |= 1u << TB_SNOTE_NYQUIST_ON_AXIS;
             return; /* the plain contour runs through poles on the axis: no count to compare */
         }
-        if (st->has_nyquist && (long)st->cl_rhp != st->nyquist_n + (long)st->ol_rhp)
-            st->verdict = TB_VERDICT_DISAGREE;
+        long z = st->nyquist_n + (long)st->ol_rhp;
+        if (st->has_nyquist && z != (long)st->cl_rhp) {
+            st->counts_disagree = true;
+            st->notes |= 1u << TB_SNOTE_COUNTS_DISAGREE;
+            if (z > 0)
+                st->verdict = TB_VERDICT_UNSTABLE;
+        }
         return;
     }
     if (!st->has_nyquist) {

@@ -11,9 +11,11 @@
 bool tb_nyquist_count(const tb_nyquist_path *path, long *n);
 
 /* The verdict of *st from its pole counts and Nyquist count (fields has_poles,
- * cl_rhp, cl_axis, ol_rhp, has_nyquist, nyquist_n), with notes. ol_axis_away
- * tells that the open loop has poles on the axis other than s = 0 (the path's
- * small arc goes round s = 0 only). */
+ * cl_rhp, cl_axis, ol_rhp, has_nyquist, nyquist_n), with notes: the poles' own
+ * verdict in pole_verdict; when Z = cl_rhp differs from N + P, counts_disagree
+ * and the worse of the two verdicts. ol_axis_away tells that the open loop has
+ * poles on the axis other than s = 0 (the path's small arc goes round s = 0
+ * only): then, as with closed-loop poles on the axis, the counts are not compared. */
 void tb_nyquist_verdict(tb_stability *st, bool ol_axis_away);
 
 #endif

@@ -1056,7 +1056,7 @@ static bool expect_bound(parser *p, tb_expect *x)
         if (best)
             return error(p, &p->tok, "unknown verdict '%s' (did you mean '%s'?)", text, best);
         if (w < 0)
-            return expected(p, "stable, marginal, unstable, undecided, disagree or none");
+            return expected(p, "stable, marginal, unstable, undecided or none");
         x->value = w;
         advance(p);
         return true;

@@ -41,10 +41,14 @@ const char *tb_report_output(const tb_io_spec *io, char *buf, size_t size)
     return buf;
 }
 
-/* "s = -1.2e+03 +- j4.5e+05 rad/s" for the first closed-loop pole (least damped). */
-static const char *first_pole(const tb_stability *st, char *buf, size_t size)
+/* "s = -1.2e+03 +- j4.5e+05 rad/s": the first kept closed-loop pole placed at
+ * place (the first pole when none of those kept is). */
+static const char *first_pole(const tb_stability *st, tb_pole_place place, char *buf, size_t size)
 {
-    double complex s = st->pole_count ? st->poles[0] : 0;
+    size_t i = 0;
+    while (i < st->pole_count && st->pole_place[i] != place)
+        i++;
+    double complex s = i < st->pole_count ? st->poles[i] : st->pole_count ? st->poles[0] : 0;
     if (fabs(cimag(s)) > 0)
         snprintf(buf, size, "s = %.4g +- j%.4g rad/s", creal(s), fabs(cimag(s)));
     else
@@ -64,35 +68,53 @@ static const char *nyquist_words(const tb_stability *st, char *buf, size_t size)
     return buf;
 }
 
+/* The clause saying that the pole count and the Nyquist count disagree. */
+static const char *disagree_words(const tb_stability *st, char *buf, size_t size)
+{
+    long z = st->nyquist_n + (long)st->ol_rhp;
+    buf[0] = '\0';
+    if (!st->counts_disagree)
+        return buf;
+    if (z > 0)
+        snprintf(buf, size, "; the poles say %s, but N + P = %ld says %ld in the right half-plane: the counts "
+                 "disagree and the worse verdict is taken", tb_verdict_str(st->pole_verdict), z, z);
+    else
+        snprintf(buf, size, "; N + P = %ld is no count of right-half-plane poles: the counts disagree and the "
+                 "poles decide", z);
+    return buf;
+}
+
+/* The sentence for a verdict reached with the poles. */
+static void pole_reason(const tb_stability *st, const char *nyq, const char *dis, char *buf, size_t size)
+{
+    char pole[96], checked[64] = "";
+    if (st->cl_checked > 0)
+        snprintf(checked, sizeof checked, " (%zu placed by a check on the circuit)", st->cl_checked);
+    if (st->verdict == TB_VERDICT_UNSTABLE && st->cl_rhp > 0)
+        snprintf(buf, size, "%zu closed-loop poles in the right half-plane%s, the first at %s%s%s", st->cl_rhp,
+                 checked, first_pole(st, TB_POLE_RIGHT, pole, sizeof pole), nyq, dis);
+    else if (st->verdict == TB_VERDICT_UNSTABLE)
+        snprintf(buf, size, "no closed-loop pole in the right half-plane%s%s%s", checked, nyq, dis);
+    else if (st->verdict == TB_VERDICT_MARGINAL)
+        snprintf(buf, size, "%zu closed-loop poles on the j-omega axis and none to its right%s, the first at %s",
+                 st->cl_axis, checked, first_pole(st, TB_POLE_AXIS, pole, sizeof pole));
+    else
+        snprintf(buf, size, "all %zu finite closed-loop poles in the left half-plane%s%s%s", st->cl_finite,
+                 checked, nyq, dis);
+}
+
 const char *tb_report_reason(const tb_stability *st, char *buf, size_t size)
 {
-    char pole[96], nyq[128];
+    char nyq[128], dis[256];
     nyquist_words(st, nyq, sizeof nyq);
-    switch (st->verdict) {
-    case TB_VERDICT_STABLE:
-        if (st->has_poles)
-            snprintf(buf, size, "all %zu finite closed-loop poles in the left half-plane%s",
-                     st->cl_finite, nyq);
-        else
-            snprintf(buf, size, "Nyquist: N = 0 encirclements of -1, open loop assumed stable");
-        break;
-    case TB_VERDICT_UNSTABLE:
-        if (st->has_poles)
-            snprintf(buf, size, "%zu closed-loop poles in the right half-plane, the first at %s%s",
-                     st->cl_rhp, first_pole(st, pole, sizeof pole), nyq);
-        else
-            snprintf(buf, size, "Nyquist: N = %ld clockwise encirclements of -1", st->nyquist_n);
-        break;
-    case TB_VERDICT_MARGINAL:
-        snprintf(buf, size, "%zu closed-loop poles on the j-omega axis, the first at %s",
-                 st->cl_axis, first_pole(st, pole, sizeof pole));
-        break;
-    case TB_VERDICT_DISAGREE:
-        snprintf(buf, size, "the poles give %zu in the right half-plane%s: not decided", st->cl_rhp, nyq);
-        break;
-    case TB_VERDICT_UNKNOWN:
+    disagree_words(st, dis, sizeof dis);
+    if (st->has_poles && st->verdict != TB_VERDICT_UNKNOWN)
+        pole_reason(st, nyq, dis, buf, size);
+    else if (st->verdict == TB_VERDICT_STABLE)
+        snprintf(buf, size, "Nyquist: N = 0 encirclements of -1, open loop assumed stable");
+    else if (st->verdict == TB_VERDICT_UNSTABLE)
+        snprintf(buf, size, "Nyquist: N = %ld clockwise encirclements of -1", st->nyquist_n);
+    else
         snprintf(buf, size, "neither the poles nor a Nyquist count are available");
-        break;
-    }
     return buf;
 }

@@ -135,14 +135,31 @@ static json_t *crossings_object(builder *b, const tb_stability *st)
     return o;
 }
 
-static json_t *pole_value(builder *b, double complex s)
+static json_t *complex_value(builder *b, double complex z)
 {
     json_t *o = obj(b);
     if (!o)
         return NULL;
+    set(b, o, "re", num(creal(z)));
+    set(b, o, "im", num(cimag(z)));
+    return o;
+}
+
+/* Closed-loop pole i: where it lies, whether the circuit was asked, its residue and weight. */
+static json_t *pole_value(builder *b, const tb_stability *st, size_t i)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    double complex s = st->poles[i];
+    bool weighed = st->has_weights && st->pole_place[i] != TB_POLE_AXIS;
     set(b, o, "re", num(creal(s)));
     set(b, o, "im", num(cimag(s)));
     set(b, o, "hz", num(cabs(s) / TB_TWO_PI));
+    set(b, o, "place", json_string(tb_pole_place_str(st->pole_place[i])));
+    set(b, o, "checked_on_circuit", json_boolean(st->pole_checked[i]));
+    set(b, o, "residue", st->has_weights ? complex_value(b, st->pole_residue[i]) : json_null());
+    set(b, o, "weight", weighed ? num(st->pole_weight[i]) : json_null());
     return o;
 }
 
@@ -159,15 +176,18 @@ static json_t *poles_object(builder *b, const tb_stability *st)
     set(b, o, "closed_loop_finite", json_integer((json_int_t)st->cl_finite));
     set(b, o, "closed_loop_rhp", json_integer((json_int_t)st->cl_rhp));
     set(b, o, "closed_loop_axis", json_integer((json_int_t)st->cl_axis));
+    set(b, o, "closed_loop_checked", json_integer((json_int_t)st->cl_checked));
     set(b, o, "open_loop_rhp", json_integer((json_int_t)st->ol_rhp));
     set(b, o, "open_loop_axis", json_integer((json_int_t)st->ol_axis));
+    set(b, o, "open_loop_checked", json_integer((json_int_t)st->ol_checked));
+    set(b, o, "weights_of", st->has_weights ? json_string(st->weights_of_a ? "A" : "T/(1+T)") : json_null());
     json_t *list = json_array();
     if (!list)
         b->ok = false;
     for (size_t i = 0; list && i < st->pole_count; i++)
-        if (json_array_append_new(list, pole_value(b, st->poles[i])))
+        if (json_array_append_new(list, pole_value(b, st, i)))
             b->ok = false;
-    set(b, o, "least_damped", list);
+    set(b, o, "closed_loop_rightmost_first", list);
     return o;
 }
 
@@ -183,10 +203,15 @@ static json_t *dominant_object(builder *b, const tb_stability *st)
     set(b, o, "fn_hz", num(st->fn_hz));
     set(b, o, "zeta", num(st->zeta));
     set(b, o, "q", num(st->q));
+    set(b, o, "weight", num(st->dominant_weight));
+    set(b, o, "weight_ratio", st->has_weight_ratio ? num(st->weight_ratio) : json_null());
+    set(b, o, "separation", st->has_separation ? num(st->separation) : json_null());
     set(b, o, "peaking_db", st->has_peaking ? num(st->peaking_db) : json_null());
     set(b, o, "peaking_hz", st->has_peaking ? num(st->peaking_hz) : json_null());
     set(b, o, "overshoot_pct", st->has_overshoot ? num(st->overshoot_pct) : json_null());
     set(b, o, "settling_s", num(st->settling_s));
+    set(b, o, "step_overshoot_pct", st->has_step_overshoot ? num(st->step_overshoot_pct) : json_null());
+    set(b, o, "predictions_agree", st->pair_checked ? json_boolean(!st->pair_disagrees) : json_null());
     return o;
 }
 
@@ -222,7 +247,12 @@ static void stability_keys(builder *b, json_t *lp, const tb_stability *st)
     set(b, lp, "poles", poles_object(b, st));
     set(b, lp, "nyquist_encirclements", st->has_nyquist ? json_integer(st->nyquist_n) : json_null());
     set(b, lp, "dominant_pair", dominant_object(b, st));
+    set(b, lp, "dominance", json_string(tb_dominance_str(st->dominance)));
+    set(b, lp, "closed_loop_peaking_db", st->has_cl_peaking ? num(st->cl_peaking_db) : json_null());
+    set(b, lp, "closed_loop_peaking_hz", st->has_cl_peaking ? num(st->cl_peaking_hz) : json_null());
     set(b, lp, "verdict", json_string(tb_verdict_str(st->verdict)));
+    set(b, lp, "pole_verdict", st->has_poles ? json_string(tb_verdict_str(st->pole_verdict)) : json_null());
+    set(b, lp, "counts_disagree", json_boolean(st->counts_disagree));
     set(b, lp, "verdict_reason", json_string(tb_report_reason(st, reason, sizeof reason)));
     set(b, lp, "thresholds", thresholds_object(b, st));
     set(b, lp, "refinement_solves", json_integer((json_int_t)st->evaluations));

@@ -135,38 +135,87 @@ static void crossing_lines(FILE *out, const tb_stability *st)
 
 static void pole_lines(FILE *out, const tb_stability *st)
 {
-    char f[64];
+    char f[64], checked[64] = "", weight[48] = "";
     if (!st->has_poles) {
         if (st->notes & (1u << TB_SNOTE_POLES_TOO_BIG))
             fprintf(out, "    poles not computed (%zu unknowns > limit %zu; --pole-limit N)\n", st->unknowns,
                     st->pole_limit);
         return;
     }
+    if (st->cl_checked + st->ol_checked > 0)
+        snprintf(checked, sizeof checked, " (%zu closed-loop, %zu open-loop placed by a check on the circuit)",
+                 st->cl_checked, st->ol_checked);
     fprintf(out, "    closed-loop poles: %zu finite, %zu in the right half-plane, %zu on the axis; "
-                 "open loop: %zu in the right half-plane\n",
-            st->cl_finite, st->cl_rhp, st->cl_axis, st->ol_rhp);
+                 "open loop: %zu in the right half-plane%s\n",
+            st->cl_finite, st->cl_rhp, st->cl_axis, st->ol_rhp, checked);
+    if (st->has_weights)
+        fprintf(out, "      (weight: |residue|/|Re s| in %s)\n", st->weights_of_a ? "A" : "T/(1+T)");
     for (size_t i = 0; i < st->pole_count && i < 6; i++) {
         double complex s = st->poles[i];
         if (cimag(s) < 0)
             continue;
-        fprintf(out, "      s = %.6g %s j%.6g rad/s  (%s)\n", creal(s), cimag(s) > 0 ? "+-" : "+",
-                fabs(cimag(s)), fmt_hz(cabs(s) / TB_TWO_PI, f, sizeof f));
+        if (st->has_weights && st->pole_place[i] != TB_POLE_AXIS)
+            snprintf(weight, sizeof weight, ", weight %.4g", st->pole_weight[i]);
+        else
+            weight[0] = '\0';
+        fprintf(out, "      s = %.6g %s j%.6g rad/s  (%s)  %s%s%s\n", creal(s), cimag(s) > 0 ? "+-" : "+",
+                fabs(cimag(s)), fmt_hz(cabs(s) / TB_TWO_PI, f, sizeof f), tb_pole_place_str(st->pole_place[i]),
+                st->pole_checked[i] ? ", checked" : "", weight);
     }
+}
+
+/* The pair's weight against the other poles'. */
+static void dominance_line(FILE *out, const tb_stability *st)
+{
+    char sep[96] = "no other pole of comparable weight";
+    if (!st->has_weight_ratio) {
+        fprintf(out, "      no other pole carries weight\n");
+        return;
+    }
+    if (st->has_separation)
+        snprintf(sep, sizeof sep, "the nearest pole of comparable weight %.3g times farther left", st->separation);
+    fprintf(out, "      weight %.3g times the next pole's; %s\n", st->weight_ratio, sep);
+}
+
+/* The pair's second-order predictions next to what was computed. */
+static void prediction_lines(FILE *out, const tb_stability *st)
+{
+    char f[64], g[64], got[96] = "no step response";
+    if (st->has_step_overshoot)
+        snprintf(got, sizeof got, "step response %.4g %%", st->step_overshoot_pct);
+    fprintf(out, "      overshoot: second-order %.3g %%, %s\n", st->overshoot_pct, got);
+    if (st->has_peaking)
+        snprintf(g, sizeof g, "%.3f dB at %s", st->peaking_db, fmt_hz(st->peaking_hz, f, sizeof f));
+    else
+        snprintf(g, sizeof g, "none (zeta >= 0.707)");
+    if (st->has_cl_peaking)
+        snprintf(got, sizeof got, "closed loop %.3f dB at %s", st->cl_peaking_db,
+                 fmt_hz(st->cl_peaking_hz, f, sizeof f));
+    else
+        snprintf(got, sizeof got, "no closed-loop figure (no .io, or A(0) = 0)");
+    fprintf(out, "      peaking: second-order %s, %s\n", g, got);
+    fprintf(out, "      2 %% settling (second-order): %.4g s\n", st->settling_s);
+    if (st->pair_disagrees)
+        fprintf(out, "      WARNING: a prediction misses the computed figure by more than 2x: "
+                     "the pair does not describe this loop alone\n");
 }
 
 static void dominant_lines(FILE *out, const tb_stability *st)
 {
-    char f[64], g[64];
-    if (!st->has_dominant)
+    char f[64];
+    if (!st->has_poles)
         return;
+    if (!st->has_dominant) {
+        fprintf(out, "    dominant pair: none (%s)\n", tb_dominance_str(st->dominance));
+        if (st->has_cl_peaking)
+            fprintf(out, "      closed-loop peaking %.3f dB at %s\n", st->cl_peaking_db,
+                    fmt_hz(st->cl_peaking_hz, f, sizeof f));
+        return;
+    }
     fprintf(out, "    dominant pair: fn %s, zeta %.4f, Q %.4f\n", fmt_hz(st->fn_hz, f, sizeof f), st->zeta,
             st->q);
-    if (st->has_peaking)
-        fprintf(out, "      peaking %.3f dB at %s\n", st->peaking_db, fmt_hz(st->peaking_hz, g, sizeof g));
-    else
-        fprintf(out, "      no peaking (zeta >= 0.707)\n");
-    fprintf(out, "      step (second-order estimate): overshoot %.3g %%, 2 %% settling %.4g s\n",
-            st->overshoot_pct, st->settling_s);
+    dominance_line(out, st);
+    prediction_lines(out, st);
 }
 
 static void phase_margin_line(FILE *out, const tb_stability *st)

@@ -2,96 +2,180 @@
 #include "stability.h"
 
 #include <math.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "alloc.h"
+#include "crossing.h"
 #include "margin.h"
 #include "nyquist.h"
 #include "poles.h"
+#include "units.h"
 
 static const double PI = 3.14159265358979323846264338327950288;
 
+/* Dominance (docs/stability.md): a pole whose weight is at most this fraction of
+ * the pair's is negligible; one of larger weight must lie at least this many
+ * times farther left (|Re s|) than the pair. */
+#define DOMINANT_NEGLIGIBLE 0.1
+#define DOMINANT_SEPARATION 5.0
+/* The pair's predictions disagree with the computed figures when the larger is
+ * more than this many times the smaller and they differ by more than the floor. */
+#define PAIR_FACTOR 2.0
+#define PAIR_FLOOR_PCT 1.0
+#define PAIR_FLOOR_DB 0.5
+
 /* Closed-loop or open-loop poles and how many lie right of / on the axis. */
 typedef struct {
-    double complex *eig; /* n entries */
+    tb_pole_found *p;       /* n entries */
+    double complex *res;    /* n * ntf residues (closed loop), or NULL */
+    size_t ntf;
     size_t count;
     double scale;
     size_t rhp;
     size_t axis;
-    size_t axis_away;    /* on the axis, away from s = 0 */
+    size_t axis_away;       /* on the axis, away from s = 0 */
+    size_t checked;
 } pole_set;
 
-static tb_status pole_set_fill(const tb_mna *mna, const tb_loopvec *lv, pole_set *ps)
+/* One closed-loop pole with the residue of the transfer a loop looks at. */
+typedef struct {
+    double complex s;
+    tb_pole_place place;
+    bool checked;
+    bool has_residue;
+    double complex residue;
+    double weight;          /* |residue| / |Re s|, 0 on the axis */
+} kept_pole;
+
+static tb_status pole_set_fill(const tb_mna *mna, const tb_loopvec *lv, tb_pole_check *check,
+                               const tb_pole_transfer *tf, pole_set *ps)
 {
-    tb_status st = tb_poles_compute(mna, lv, ps->eig, &ps->count, &ps->scale);
+    tb_status st = tb_poles_find(mna, lv, check, tf, ps->ntf, ps->p, ps->res, &ps->count, &ps->scale);
     if (st)
         return st;
-    ps->rhp = ps->axis = ps->axis_away = 0;
+    ps->rhp = ps->axis = ps->axis_away = ps->checked = 0;
     for (size_t i = 0; i < ps->count; i++) {
-        if (tb_poles_on_axis(ps->eig[i], ps->scale)) {
-            ps->axis++;
-            if (cabs(ps->eig[i]) > 1e-11 * ps->scale)
-                ps->axis_away++;
-        } else if (creal(ps->eig[i]) > 0) {
-            ps->rhp++;
-        }
+        const tb_pole_found *p = &ps->p[i];
+        ps->checked += p->checked;
+        ps->rhp += p->place == TB_POLE_RIGHT;
+        ps->axis += p->place == TB_POLE_AXIS;
+        ps->axis_away += p->place == TB_POLE_AXIS && cimag(p->s) != 0;
     }
     return TB_OK;
 }
 
-/* Largest real part first (least damped first), then upper half-plane first. */
+/* Largest real part first, then upper half-plane first. */
 static int by_real_desc(const void *pa, const void *pb)
 {
-    double complex a = *(const double complex *)pa, b = *(const double complex *)pb;
+    double complex a = ((const kept_pole *)pa)->s, b = ((const kept_pole *)pb)->s;
     if (creal(a) != creal(b))
         return creal(a) > creal(b) ? -1 : 1;
     return cimag(a) > cimag(b) ? -1 : cimag(a) < cimag(b);
 }
 
-/* The least damped complex pair: zeta, Q, peaking and step estimates of a
- * second-order system (references: Franklin, Powell, Emami-Naeini; Ogata). */
-static void dominant_pair(const pole_set *cl, tb_stability *st)
+/* The closed-loop poles with residue column col (SIZE_MAX: none), sorted into kp. */
+static bool sort_poles(const pole_set *cl, size_t col, kept_pole *kp)
 {
-    double best = INFINITY;
+    bool weights = col != SIZE_MAX;
     for (size_t i = 0; i < cl->count; i++) {
-        double complex s = cl->eig[i];
-        if (cimag(s) <= 1e-9 * cabs(s) || creal(s) >= 0)
-            continue;
-        double zeta = -creal(s) / cabs(s);
-        if (zeta < best) {
-            best = zeta;
-            st->dominant = s;
-        }
+        const tb_pole_found *p = &cl->p[i];
+        double complex r = col != SIZE_MAX ? cl->res[i * cl->ntf + col] : 0;
+        kp[i] = (kept_pole){.s = p->s, .place = p->place, .checked = p->checked,
+                            .has_residue = col != SIZE_MAX && p->has_residue, .residue = r};
+        kp[i].weight = p->place != TB_POLE_AXIS && creal(p->s) != 0 ? cabs(r) / fabs(creal(p->s)) : 0;
+        weights = weights && kp[i].has_residue;
     }
-    if (!isfinite(best))
-        return;
-    double wn = cabs(st->dominant);
-    st->has_dominant = true;
-    st->zeta = best;
-    st->q = 1.0 / (2.0 * best);
-    st->fn_hz = wn / (2.0 * PI);
-    st->has_overshoot = true;
-    st->overshoot_pct = 100.0 * exp(-PI * best / sqrt(1.0 - best * best));
-    st->settling_s = 4.0 / (best * wn);
-    if (best < sqrt(0.5)) {
-        st->has_peaking = true;
-        st->peaking_db = -20.0 * log10(2.0 * best * sqrt(1.0 - best * best));
-        st->peaking_hz = st->fn_hz * sqrt(1.0 - 2.0 * best * best);
-    }
+    qsort(kp, cl->count, sizeof(kept_pole), by_real_desc);
+    return weights;
 }
 
-static void keep_poles(pole_set *cl, tb_stability *st)
+static void keep_poles(const pole_set *cl, const kept_pole *kp, bool weights, tb_stability *st)
 {
-    qsort(cl->eig, cl->count, sizeof(double complex), by_real_desc);
     st->cl_finite = cl->count;
     st->cl_rhp = cl->rhp;
     st->cl_axis = cl->axis;
+    st->cl_checked = cl->checked;
+    st->has_weights = weights;
     for (size_t i = 0; i < cl->count; i++)
-        st->fastest_rad_s = fmax(st->fastest_rad_s, cabs(cl->eig[i]));
+        st->fastest_rad_s = fmax(st->fastest_rad_s, cabs(kp[i].s));
     st->pole_count = cl->count < TB_MAX_POLES ? cl->count : TB_MAX_POLES;
-    memcpy(st->poles, cl->eig, st->pole_count * sizeof(double complex));
-    dominant_pair(cl, st);
+    for (size_t i = 0; i < st->pole_count; i++) {
+        st->poles[i] = kp[i].s;
+        st->pole_place[i] = kp[i].place;
+        st->pole_checked[i] = kp[i].checked;
+        st->pole_residue[i] = weights ? kp[i].residue : 0;
+        st->pole_weight[i] = weights ? kp[i].weight : 0;
+    }
+}
+
+/* Second-order figures of the pair s = -zeta wn + j wn sqrt(1 - zeta^2): Q, peaking
+ * of wn^2/(s^2 + 2 zeta wn s + wn^2), overshoot and 2 % settling of its step
+ * (standard control texts: Franklin, Powell, Emami-Naeini; Ogata; from memory). */
+static void second_order(double complex s, tb_stability *st)
+{
+    double wn = cabs(s), zeta = -creal(s) / wn;
+    st->dominant = s;
+    st->zeta = zeta;
+    st->q = 1.0 / (2.0 * zeta);
+    st->fn_hz = wn / (2.0 * PI);
+    st->has_overshoot = true;
+    st->overshoot_pct = 100.0 * exp(-PI * zeta / sqrt(1.0 - zeta * zeta));
+    st->settling_s = 4.0 / (zeta * wn);
+    if (zeta < sqrt(0.5)) {
+        st->has_peaking = true;
+        st->peaking_db = -20.0 * log10(2.0 * zeta * sqrt(1.0 - zeta * zeta));
+        st->peaking_hz = st->fn_hz * sqrt(1.0 - 2.0 * zeta * zeta);
+    }
+}
+
+/* The heaviest complex pair (upper member) in kp, or SIZE_MAX. */
+static size_t heaviest_pair(const kept_pole *kp, size_t count)
+{
+    size_t best = SIZE_MAX;
+    for (size_t i = 0; i < count; i++)
+        if (cimag(kp[i].s) > 0 && kp[i].weight > 0 && (best == SIZE_MAX || kp[i].weight > kp[best].weight))
+            best = i;
+    return best;
+}
+
+/* The dominant pair (docs/stability.md): the heaviest complex pair by weight |R|/|Re s|
+ * (the pole's peak contribution to |H(jw)|: the dominance measure of the dominant-pole
+ * algorithms of N. Martins and of J. Rommes, from memory), when no other pole weighs as
+ * much and every other pole of more than DOMINANT_NEGLIGIBLE of its weight lies at least
+ * DOMINANT_SEPARATION times farther left (Ogata's rule of thumb, from memory). */
+static void dominant_pair(const kept_pole *kp, size_t count, bool weights, tb_stability *st)
+{
+    st->dominance = !weights ? TB_DOMINANT_NO_WEIGHTS
+                    : st->verdict != TB_VERDICT_STABLE ? TB_DOMINANT_NOT_STABLE
+                                                       : TB_DOMINANT_NO_PAIR;
+    size_t p = weights && st->verdict == TB_VERDICT_STABLE ? heaviest_pair(kp, count) : SIZE_MAX;
+    if (p == SIZE_MAX)
+        return;
+    double wp = kp[p].weight, re_p = fabs(creal(kp[p].s)), runner = 0, nearest = INFINITY;
+    for (size_t i = 0; i < count; i++) {
+        if (i == p || cimag(kp[i].s) < 0)
+            continue; /* each pair once, by its upper member */
+        runner = fmax(runner, kp[i].weight);
+        if (kp[i].weight > DOMINANT_NEGLIGIBLE * wp)
+            nearest = fmin(nearest, fabs(creal(kp[i].s)) / re_p);
+    }
+    st->dominant_weight = wp;
+    st->has_weight_ratio = runner > 0;
+    st->weight_ratio = runner > 0 ? wp / runner : 0;
+    st->has_separation = isfinite(nearest);
+    st->separation = isfinite(nearest) ? nearest : 0;
+    st->dominant = kp[p].s;
+    if (runner >= wp)
+        st->dominance = TB_DOMINANT_OUTWEIGHED;
+    else if (isfinite(nearest) && nearest < DOMINANT_SEPARATION)
+        st->dominance = TB_DOMINANT_CROWDED;
+    else
+        st->dominance = TB_DOMINANT_PAIR;
+    st->has_dominant = st->dominance == TB_DOMINANT_PAIR;
+    if (st->has_dominant)
+        second_order(kp[p].s, st);
 }
 
 /* The headline margins once the verdict is known, and the user's thresholds:
@@ -104,68 +188,222 @@ static void thresholds(const tb_options *opt, tb_stability *st)
     tb_margin_judge(st, opt->pm_min_deg, opt->gm_min_db);
 }
 
-/* One loop: margins by the scan, open-loop poles, Nyquist count, verdict. */
-static tb_status one_loop(tb_probe *probe, const tb_options *opt, tb_result *res, size_t l,
-                          const pole_set *cl, tb_stab_note no_poles, pole_set *ol,
-                          tb_stability *st)
+/* Everything the loops share, allocated once. */
+typedef struct {
+    tb_probe *probe;
+    const tb_options *opt;
+    bool poles;               /* the closed-loop poles exist */
+    tb_stab_note why_none;    /* why not */
+    pole_set cl;
+    pole_set ol;
+    kept_pole *kept;          /* n */
+    tb_pole_transfer *tf;     /* cl.ntf */
+    tb_pole_check check;
+    bool has_peaking;         /* closed-loop peaking of A (the same for every loop) */
+    double peaking_db;
+    double peaking_hz;
+} stab_work;
+
+static void work_free(stab_work *w)
+{
+    tb_free(w->cl.p);
+    tb_free(w->cl.res);
+    tb_free(w->ol.p);
+    tb_free(w->kept);
+    tb_free(w->tf);
+    tb_free(w->check.Mx);
+}
+
+/* The pole sets and their workspace (only up to the pole limit). The residues are
+ * those of A = c'(G + sC)^-1 b with .io, else of each loop's T/(1 + T) = k v'(G + sC)^-1 u. */
+static tb_status work_alloc(stab_work *w, const tb_result *res)
+{
+    const tb_mna *mna = w->probe->mna;
+    size_t n = mna->n ? mna->n : 1;
+    if (mna->n > w->opt->pole_limit)
+        return TB_OK;
+    w->cl.ntf = mna->has_io ? 1 : res->nloops;
+    w->cl.p = tb_malloc(n, sizeof(tb_pole_found));
+    w->cl.res = tb_malloc(n, (w->cl.ntf ? w->cl.ntf : 1) * sizeof(double complex));
+    w->ol.p = tb_malloc(n, sizeof(tb_pole_found));
+    w->kept = tb_malloc(n, sizeof(kept_pole));
+    w->tf = tb_malloc(w->cl.ntf ? w->cl.ntf : 1, sizeof(tb_pole_transfer));
+    w->check.Mx = tb_malloc(mna->nnz ? mna->nnz : 1, 2 * sizeof(double));
+    if (!w->cl.p || !w->cl.res || !w->ol.p || !w->kept || !w->tf || !w->check.Mx)
+        return TB_ERR_NOMEM;
+    for (size_t t = 0; t < w->cl.ntf; t++) {
+        const tb_loopvec *lv = &mna->loops[t];
+        w->tf[t] = mna->has_io ? (tb_pole_transfer){&mna->b, &mna->c, 1.0}
+                               : (tb_pole_transfer){&lv->u, &lv->v, lv->k};
+    }
+    return TB_OK;
+}
+
+/* After checks on the circuit the solver holds a nearly singular factorization whose
+ * tiny pivots would become the yardstick of later refactorizations (tb_solver_refactor
+ * compares against the last pivoted one): factor afresh, with pivoting, at the lowest
+ * sweep frequency, which the sweep has factored before. */
+static tb_status reanchor(stab_work *w, const tb_result *res, size_t before)
+{
+    size_t culprit = 0;
+    if (w->check.factorizations == before || res->npoints == 0)
+        return TB_OK;
+    tb_status s = tb_probe_factor(w->probe, res->freqs[0], true, &culprit);
+    return s == TB_ERR_NOMEM ? s : TB_OK;
+}
+
+static tb_status closed_loop_poles(stab_work *w, const tb_result *res)
+{
+    const tb_mna *mna = w->probe->mna;
+    w->why_none = mna->n <= w->opt->pole_limit ? TB_SNOTE_POLES_FAILED : TB_SNOTE_POLES_TOO_BIG;
+    if (mna->n > w->opt->pole_limit)
+        return TB_OK;
+    w->check.solver = tb_probe_take_solver(w->probe);
+    tb_status s = pole_set_fill(mna, NULL, &w->check, w->tf, &w->cl);
+    if (s == TB_ERR_NOMEM)
+        return s;
+    w->poles = s == TB_OK;
+    return reanchor(w, res, 0);
+}
+
+/* -|A| at f = e^x on a fresh solve (ctx: the probe). */
+static tb_status minus_abs_a(void *ctx, double x, double *y)
+{
+    tb_probe *probe = ctx;
+    size_t culprit = 0;
+    tb_status st = tb_probe_eval(probe, exp(x), &culprit);
+    if (st)
+        return st;
+    *y = -cabs(probe->row[0].A);
+    return TB_OK;
+}
+
+/* Closed-loop peaking: the largest |A| over the sweep against |A(0)| (DC, or the
+ * lowest sweep point), refined by golden-section search on fresh solves between
+ * the best grid point's neighbours; 0 dB when |A| never rises above |A(0)|. */
+static tb_status closed_loop_peaking(stab_work *w, const tb_result *res)
+{
+    double f0 = 0;
+    if (!res->has_io || res->nloops == 0 || res->npoints == 0)
+        return TB_OK;
+    tb_point ref = tb_result_dc_or_first(res, 0, &f0);
+    double a0 = cabs(ref.A);
+    if (!(a0 > 0) || !isfinite(a0) || (ref.flags & TB_PT_NO_IO))
+        return TB_OK;
+    size_t best = 0;
+    for (size_t i = 1; i < res->npoints; i++)
+        if (cabs(res->pts[i].A) > cabs(res->pts[best].A))
+            best = i;
+    double peak = cabs(res->pts[best].A), at = res->freqs[best];
+    if (best > 0 && best + 1 < res->npoints) {
+        double x = 0, y = 0;
+        tb_status s = tb_golden_min(minus_abs_a, w->probe, log(res->freqs[best - 1]), log(res->freqs[best + 1]),
+                                    1e-9, 80, &x, &y);
+        if (s == TB_ERR_NOMEM)
+            return s;
+        if (s == TB_OK && -y > peak && isfinite(y)) {
+            peak = -y;
+            at = exp(x);
+        }
+    }
+    w->has_peaking = isfinite(peak);
+    w->peaking_db = peak > a0 ? 20.0 * log10(peak / a0) : 0;
+    w->peaking_hz = peak > a0 ? at : f0;
+    return TB_OK;
+}
+
+/* The open-loop poles of loop l (P of Nyquist) and the closed-loop poles as this
+ * loop sees them (residues of its transfer); *ol_axis_away for the verdict. */
+static tb_status loop_poles(stab_work *w, const tb_result *res, size_t l, tb_stability *st, bool *weights,
+                            bool *ol_axis_away)
+{
+    const tb_mna *mna = w->probe->mna;
+    size_t before = w->check.factorizations;
+    w->check.solver = tb_probe_take_solver(w->probe);
+    tb_status s = pole_set_fill(mna, &mna->loops[l], &w->check, NULL, &w->ol);
+    if (s == TB_ERR_NOMEM || (s == TB_OK && (s = reanchor(w, res, before))))
+        return s;
+    st->has_poles = s == TB_OK;
+    if (s)
+        st->notes |= 1u << TB_SNOTE_POLES_FAILED;
+    if (!st->has_poles)
+        return TB_OK;
+    st->ol_rhp = w->ol.rhp;
+    st->ol_axis = w->ol.axis;
+    st->ol_checked = w->ol.checked;
+    *ol_axis_away = w->ol.axis_away > 0;
+    size_t col = w->cl.ntf == 0 ? SIZE_MAX : mna->has_io ? 0 : l;
+    *weights = sort_poles(&w->cl, col, w->kept);
+    st->weights_of_a = mna->has_io;
+    keep_poles(&w->cl, w->kept, *weights, st);
+    return TB_OK;
+}
+
+/* One loop: margins by the scan, open-loop poles, Nyquist count, verdict, dominant pair. */
+static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *st)
 {
     tb_nyquist_path path;
-    tb_status s = tb_margin_scan(probe, res, l, st, &path);
+    tb_status s = tb_margin_scan(w->probe, res, l, st, &path);
     if (s)
         return s;
     st->computed = true;
-    st->unknowns = probe->mna->n;
-    st->pole_limit = opt->pole_limit;
-    bool ol_axis_away = false;
-    if (cl) {
-        s = pole_set_fill(probe->mna, &probe->mna->loops[l], ol);
-        if (s == TB_ERR_NOMEM)
-            return s;
-        st->has_poles = s == TB_OK;
-        if (s)
-            st->notes |= 1u << TB_SNOTE_POLES_FAILED;
-        st->ol_rhp = ol->rhp;
-        st->ol_axis = ol->axis;
-        ol_axis_away = ol->axis_away > 0;
-        memcpy(ol->eig, cl->eig, cl->count * sizeof(double complex)); /* sorted closed loop */
-        pole_set sorted = *cl;
-        sorted.eig = ol->eig;
-        if (st->has_poles)
-            keep_poles(&sorted, st);
-    } else {
-        st->notes |= 1u << no_poles;
-    }
+    st->unknowns = w->probe->mna->n;
+    st->pole_limit = w->opt->pole_limit;
+    bool ol_axis_away = false, weights = false;
+    if (w->poles)
+        s = loop_poles(w, res, l, st, &weights, &ol_axis_away);
+    else
+        st->notes |= 1u << w->why_none;
+    if (s)
+        return s;
     st->has_nyquist = tb_nyquist_count(&path, &st->nyquist_n);
     tb_nyquist_verdict(st, ol_axis_away);
-    thresholds(opt, st);
+    st->dominance = TB_DOMINANT_NO_WEIGHTS;
+    if (st->has_poles)
+        dominant_pair(w->kept, w->cl.count, weights, st);
+    st->has_cl_peaking = w->has_peaking && st->verdict == TB_VERDICT_STABLE; /* a measurable response */
+    st->cl_peaking_db = w->peaking_db;
+    st->cl_peaking_hz = w->peaking_hz;
+    thresholds(w->opt, st);
     return TB_OK;
 }
 
 tb_status tb_stability_run(tb_probe *probe, const tb_options *opt, tb_result *res)
 {
-    size_t n = probe->mna->n;
-    bool poles = n <= opt->pole_limit;
+    stab_work w = {.probe = probe, .opt = opt};
     res->stab = tb_calloc(res->nloops, sizeof(tb_stability));
-    pole_set cl = {0}, ol = {0};
-    tb_status s = TB_ERR_NOMEM;
-    if (!res->stab)
-        return s;
-    if (poles) {
-        cl.eig = tb_malloc(n ? n : 1, sizeof(double complex));
-        ol.eig = tb_malloc(n ? n : 1, sizeof(double complex));
-        if (!cl.eig || !ol.eig)
-            goto done;
-        s = pole_set_fill(probe->mna, NULL, &cl);
-        if (s == TB_ERR_NOMEM)
-            goto done;
-        poles = s == TB_OK;
-    }
-    tb_stab_note why = poles || n <= opt->pole_limit ? TB_SNOTE_POLES_FAILED : TB_SNOTE_POLES_TOO_BIG;
-    s = TB_OK;
+    tb_status s = res->stab ? work_alloc(&w, res) : TB_ERR_NOMEM;
+    if (!s)
+        s = closed_loop_poles(&w, res);
+    if (!s)
+        s = closed_loop_peaking(&w, res);
     for (size_t l = 0; l < res->nloops && !s; l++)
-        s = one_loop(probe, opt, res, l, poles ? &cl : NULL, why, &ol, &res->stab[l]);
-done:
-    tb_free(cl.eig);
-    tb_free(ol.eig);
+        s = one_loop(&w, res, l, &res->stab[l]);
+    probe->factorizations += w.check.factorizations;
+    work_free(&w);
     return s;
+}
+
+/* true when predicted and computed differ by more than PAIR_FACTOR (and the floor). */
+static bool pair_misses(double predicted, double computed, double floor)
+{
+    double lo = fmin(predicted, computed), hi = fmax(predicted, computed);
+    return hi - lo > floor && hi > PAIR_FACTOR * lo;
+}
+
+void tb_stability_vs_step(const tb_step_figures *step, tb_stability *st)
+{
+    st->pair_checked = false;
+    st->pair_disagrees = false;
+    st->has_step_overshoot = step && step->computed && step->has_overshoot;
+    st->step_overshoot_pct = st->has_step_overshoot ? step->overshoot_pct : 0;
+    if (!st->computed || !st->has_dominant)
+        return;
+    bool off = st->has_step_overshoot && pair_misses(st->overshoot_pct, step->overshoot_pct, PAIR_FLOOR_PCT);
+    if (st->has_cl_peaking)
+        off = off || pair_misses(st->has_peaking ? st->peaking_db : 0, st->cl_peaking_db, PAIR_FLOOR_DB);
+    st->pair_checked = st->has_step_overshoot || st->has_cl_peaking;
+    st->pair_disagrees = off;
+    if (off)
+        st->notes |= 1u << TB_SNOTE_PAIR_DISAGREES;
 }

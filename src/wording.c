@@ -36,6 +36,8 @@ static const char *const snote_text[TB_SNOTE_COUNT] = {
     [TB_SNOTE_OUTSIDE_SWEEP] = "a crossing lies outside the .ac range (found by following T beyond it)",
     [TB_SNOTE_NO_GAIN_UP] = "the phase never reaches -180 degrees (mod 360) where |T| < 1: no critical gain above the present one",
     [TB_SNOTE_NO_GAIN_DOWN] = "the phase never reaches -180 degrees (mod 360) where |T| > 1: no critical gain below the present one",
+    [TB_SNOTE_COUNTS_DISAGREE] = "the poles and the Nyquist count give different numbers of right-half-plane poles: the worse verdict is taken",
+    [TB_SNOTE_PAIR_DISAGREES] = "the dominant pair's second-order predictions miss the computed step response or closed-loop peaking by more than 2x",
 };
 _Static_assert(sizeof(snote_text) / sizeof(snote_text[0]) == TB_SNOTE_COUNT, "snote_text in step");
 
@@ -53,12 +55,32 @@ const char *tb_verdict_str(tb_verdict verdict)
         return "marginal";
     case TB_VERDICT_UNSTABLE:
         return "unstable";
-    case TB_VERDICT_DISAGREE:
-        return "poles and Nyquist disagree";
     case TB_VERDICT_UNKNOWN:
         break;
     }
     return "undecided";
+}
+
+const char *tb_pole_place_str(tb_pole_place place)
+{
+    static const char *const place_text[] = {[TB_POLE_LEFT] = "left", [TB_POLE_AXIS] = "axis",
+                                             [TB_POLE_RIGHT] = "right"};
+    return (unsigned)place <= TB_POLE_RIGHT ? place_text[place] : "unknown";
+}
+
+static const char *const dominance_text[TB_DOMINANT_COUNT] = {
+    [TB_DOMINANT_PAIR] = "dominant",
+    [TB_DOMINANT_NO_WEIGHTS] = "the poles or their residues are not available",
+    [TB_DOMINANT_NOT_STABLE] = "the closed loop is not stable",
+    [TB_DOMINANT_NO_PAIR] = "no complex closed-loop pair shows in the closed-loop response",
+    [TB_DOMINANT_OUTWEIGHED] = "another pole weighs at least as much as every complex pair",
+    [TB_DOMINANT_CROWDED] = "another pole of comparable weight lies less than 5 times farther left",
+};
+_Static_assert(sizeof(dominance_text) / sizeof(dominance_text[0]) == TB_DOMINANT_COUNT, "dominance_text in step");
+
+const char *tb_dominance_str(tb_dominance dominance)
+{
+    return (unsigned)dominance < TB_DOMINANT_COUNT ? dominance_text[dominance] : "unknown";
 }
 
 static const char *const part_text[TB_PART_COUNT] = {

@@ -109,6 +109,27 @@ static void test_loop_positive_feedback_at_dc(void **state)
     tb_circuit_free(ckt);
 }
 
+/* A VCVS that reads its own output node, the usual unity follower E out 0 p out k:
+ * with the source's output k*x_c replaced by k*1, out = k and the returned x_c =
+ * V(p) - V(out) = -k, so T = k (Bode's return ratio, design.md "The algebra"), and
+ * A0 = 0 (nothing reaches out with the gain at zero). The branch incidence of E is
+ * not part of its gain, so M0 keeps it. */
+static void test_loop_follower_reads_own_output(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = NULL;
+    tb_result *res = analyse("follower\nVs in 0 AC 1\nR1 in p 1k\nE1 out 0 p out 2e5\nRL out 0 10k\n"
+                             ".ac dec 5 1 1k\n.loop E1\n.io Vs v(out)\n",
+                             &ckt);
+    tb_point dc;
+    assert_true(tb_result_dc(res, 0, &dc));
+    tu_close(dc.T, 2e5, 1e-12);
+    tu_close(dc.A, 2e5 / (1 + 2e5), 1e-12);
+    assert_true(cabs(dc.A0) <= 1e-12);
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+}
+
 /* references.md check 4b: two real poles, T = T0/((1+s/p1)(1+s/p2)), T0 = 1e4,
  * f1 = 100 Hz, f2 = 1 MHz. Exact crossover u = fc^2 =
  * [-(f1^2+f2^2) + sqrt((f1^2+f2^2)^2 + 4 f1^2 f2^2 (T0^2-1))]/2,
@@ -148,6 +169,7 @@ int main(void)
         cmocka_unit_test(test_loop_not_in_a_loop),
         cmocka_unit_test(test_loop_positive_feedback_at_dc),
         cmocka_unit_test(test_loop_two_pole_margin),
+        cmocka_unit_test(test_loop_follower_reads_own_output),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

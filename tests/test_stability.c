@@ -3,6 +3,7 @@
 #include "testutil.h"
 
 #include "crossing.h"
+#include "stability.h"
 
 static tb_status cube_minus_two(void *ctx, double x, double *y)
 {
@@ -323,6 +324,134 @@ static void test_stability_thresholds_and_limit(void **state)
     tb_circuit_free(ckt);
 }
 
+/* The three verdicts a tolerance tied to max|G|/max|C| got wrong (tests/stab headers):
+ * a slow servo around a 1e6 gain (poles of (1 + 2s)(Gy + 1u s) + 10/(1e6 + 1), quadratic
+ * formula), a follower behind a 2.2M/4.7p filter (-1/(RF CF)), and positive feedback
+ * through a 1e6 buffer (s = 2.2 k/(k + 1) - 1.5 with k = 1e6: first-order RC algebra). */
+static void test_stability_verdict_is_scale_free(void **state)
+{
+    (void)state;
+    tb_stability st = stability_of_file("tests/stab/stab_slow_servo.net");
+    double gy = 1 / 100e3 + 1 / (1e6 + 1), a = 2e-6, b = 2 * gy + 1e-6, c = gy + 10 / (1e6 + 1);
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    assert_int_equal(st.cl_axis, 0);
+    tu_close(st.poles[0], (-b + sqrt(b * b - 4 * a * c)) / (2 * a), 1e-10);
+    tu_close(st.poles[1], (-b - sqrt(b * b - 4 * a * c)) / (2 * a), 1e-10);
+    assert_int_equal(st.pole_place[0], TB_POLE_LEFT);
+    st = stability_of_file("tests/stab/stab_follower_input_rc.net");
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    assert_int_equal(st.cl_finite, 1);
+    tu_close(st.poles[0], -1 / (2.2e6 * 4.7e-12), 1e-10);
+    st = stability_of_file("tests/stab/stab_positive_feedback_rhp.net");
+    assert_int_equal(st.verdict, TB_VERDICT_UNSTABLE);
+    assert_int_equal(st.cl_rhp, 1);
+    assert_int_equal(st.pole_place[0], TB_POLE_RIGHT);
+    tu_close(st.poles[0], 2.2 * 1e6 / (1e6 + 1) - 1.5, 1e-10);
+    assert_true(st.has_nyquist); /* its own Nyquist count agrees: N = 1, P = 0 */
+    assert_int_equal(st.nyquist_n, 1);
+    assert_false(st.counts_disagree);
+}
+
+/* Residue weight |R|/|Re s| of pole s of A = num(s)/P(s), P(s) = (prod (1 + s/p_i) + n0)
+ * prod (1 + s/q_j): R = num(s)/P'(s) at a simple root (partial fractions, from memory);
+ * p: the loop's poles (T = n0/prod), q: poles outside the loop. */
+static double weight_of(double complex s, double complex num, double n0, const double *p, int np, const double *q,
+                        int nq)
+{
+    double complex f = 1, df = 0, g = 1, dg = 0;
+    for (int i = 0; i < np; i++) {
+        df = df * (1 + s / p[i]) + f / p[i];
+        f *= 1 + s / p[i];
+    }
+    f += n0;
+    for (int j = 0; j < nq; j++) {
+        dg = dg * (1 + s / q[j]) + g / q[j];
+        g *= 1 + s / q[j];
+    }
+    return cabs(num / (df * g + f * dg)) / fabs(creal(s));
+}
+
+/* tests/stab/stab_pair_dominant.net: T = 1000/((1 + s/p1)(1 + s/p2)(1 + s/p3)): the pair
+ * weighs 62500 times the far real pole; stab_pair_filtered.net: the 3 kHz output filter's
+ * real pole outweighs the pair (T = 1e4/((1 + s/p1)(1 + s/p2)), A = T/(1 + T)/(1 + s/pF)). */
+static void test_stability_dominant_pair_by_weight(void **state)
+{
+    (void)state;
+    double p3[3] = {2 * TU_PI * 100, 2 * TU_PI * 80e3, 2 * TU_PI * 20e6};
+    tb_stability st = stability_of_file("tests/stab/stab_pair_dominant.net");
+    assert_true(st.has_weights && st.weights_of_a);
+    assert_int_equal(st.cl_finite, 3);
+    for (size_t i = 0; i < st.pole_count; i++) {
+        double complex s = st.poles[i];
+        double complex f = (1 + s / p3[0]) * (1 + s / p3[1]) * (1 + s / p3[2]);
+        assert_true(cabs(f + 1000) <= 1e-9 * cabs(f)); /* a root of prod + T0 = 0 */
+        tu_close(st.pole_weight[i], weight_of(s, 1000, 1000, p3, 3, NULL, 0), 1e-7);
+    }
+    assert_true(st.has_dominant);
+    assert_int_equal(st.dominance, TB_DOMINANT_PAIR);
+    tu_close(st.weight_ratio, st.pole_weight[0] / st.pole_weight[2], 1e-12);
+    assert_true(st.weight_ratio > 6e4 && st.weight_ratio < 6.5e4); /* the header's 1/60000 */
+    assert_false(st.has_separation);   /* no other pole above a tenth of its weight */
+    tu_close(st.zeta, -creal(st.poles[0]) / cabs(st.poles[0]), 1e-12);
+
+    double p2[2] = {2 * TU_PI * 10, 2 * TU_PI * 36e3}, qf[1] = {2 * TU_PI * 3e3};
+    st = stability_of_file("tests/stab/stab_pair_filtered.net");
+    assert_false(st.has_dominant);
+    assert_int_equal(st.dominance, TB_DOMINANT_OUTWEIGHED);
+    for (size_t i = 0; i < st.pole_count; i++)
+        tu_close(st.pole_weight[i], weight_of(st.poles[i], 1e4, 1e4, p2, 2, qf, 1), 1e-7);
+    tu_close(st.poles[0], -qf[0], 1e-12); /* the filter's pole, nearest the axis */
+    assert_true(st.pole_weight[0] > 10 * st.pole_weight[1]);
+}
+
+/* The pair's second-order predictions next to the computed figures: the two-pole follower
+ * (references.md section 4, check 4b) agrees; stab_pair_zero.net (a zero at -p2 next to the
+ * pair, A = 1000 (1 + s/p2)/((1 + s/p1)(1 + s/p2) + 4e4)) does not: 44.4 % predicted against
+ * 125 % (scipy.signal.step, its header), 6.3 dB against 13.0 dB. */
+static void test_stability_pair_against_step(void **state)
+{
+    (void)state;
+    tb_stability st = stability_of_file("tests/stab/stab_twopole.net");
+    assert_true(st.has_dominant && st.pair_checked && st.has_step_overshoot && st.has_cl_peaking);
+    assert_false(st.pair_disagrees);
+    tu_close(st.step_overshoot_pct, st.overshoot_pct, 1e-3);
+    tu_close(st.cl_peaking_db, st.peaking_db, 1e-6); /* T/(1 + T) is exactly second order */
+    double p2[2] = {2 * TU_PI * 10, 2 * TU_PI * 1e5};
+    st = stability_of_file("tests/stab/stab_pair_zero.net");
+    assert_true(st.has_dominant && st.pair_checked);
+    tu_close(st.pole_weight[0], weight_of(st.poles[0], 1000 * (1 + st.poles[0] / p2[1]), 4e4, p2, 2, NULL, 0), 1e-7);
+    assert_true(st.pair_disagrees);
+    assert_true(st.notes & (1u << TB_SNOTE_PAIR_DISAGREES));
+    assert_true(st.step_overshoot_pct > 2 * st.overshoot_pct);
+    assert_true(st.cl_peaking_db > 2 * st.peaking_db);
+}
+
+/* The 2x rule with its floors (our choice, docs/stability.md): 1 percentage point of
+ * overshoot, 0.5 dB of peaking. */
+static void test_stability_pair_rule(void **state)
+{
+    (void)state;
+    struct {
+        double os_pred, os_step, pk_pred, pk_cl;
+        bool off;
+    } cases[] = {
+        {10, 19, 1.0, 1.9, false}, {10, 21, 1.0, 1.0, true}, {0.5, 0, 0, 0, false},
+        {5, 2, 0, 0, true},        {2, 2, 1.0, 2.6, true},   {2, 2, 0.2, 0.6, false},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        tb_stability st = {.computed = true, .has_dominant = true, .has_overshoot = true,
+                           .overshoot_pct = cases[i].os_pred, .has_peaking = cases[i].pk_pred > 0,
+                           .peaking_db = cases[i].pk_pred, .has_cl_peaking = true, .cl_peaking_db = cases[i].pk_cl};
+        tb_step_figures fig = {.computed = true, .has_overshoot = true, .overshoot_pct = cases[i].os_step};
+        tb_stability_vs_step(&fig, &st);
+        assert_true(st.pair_checked);
+        assert_int_equal(st.pair_disagrees, cases[i].off);
+    }
+    tb_stability none = {.computed = true};
+    tb_stability_vs_step(NULL, &none);
+    assert_false(none.pair_checked);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -336,6 +465,10 @@ int main(void)
         cmocka_unit_test(test_stability_narrow_resonance_refined),
         cmocka_unit_test(test_stability_margins_beyond_sweep),
         cmocka_unit_test(test_stability_thresholds_and_limit),
+        cmocka_unit_test(test_stability_verdict_is_scale_free),
+        cmocka_unit_test(test_stability_dominant_pair_by_weight),
+        cmocka_unit_test(test_stability_pair_against_step),
+        cmocka_unit_test(test_stability_pair_rule),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
