@@ -89,6 +89,11 @@ TB_API tb_status tb_circuit_find_loop(const tb_circuit *ckt, const char *name, s
 TB_API bool tb_circuit_states_margins(const tb_circuit *ckt);
 /* true when the netlist has an .io directive (A, A_inf, A0 and a exist). */
 TB_API bool tb_circuit_has_io(const tb_circuit *ckt);
+/* The unit of the gains A, A_inf, A0 and a that .io defines: "" (V/V or A/A), "ohm" (a
+ * current source in, a voltage out: a transimpedance) or "S" (a voltage in, a current out);
+ * beta has the inverse unit (tb_circuit_beta_unit). "" without .io. Never NULL. */
+TB_API const char *tb_circuit_gain_unit(const tb_circuit *ckt);
+TB_API const char *tb_circuit_beta_unit(const tb_circuit *ckt);
 /* Node count including ground, and the number of MNA unknowns. */
 TB_API size_t tb_circuit_node_count(const tb_circuit *ckt);
 TB_API size_t tb_circuit_unknowns(const tb_circuit *ckt);
@@ -227,6 +232,14 @@ typedef struct {
     tb_point mid;
     double mid_hz;
     tb_dc_figures mid_fig;  /* derived from mid as fig is from dc */
+    bool stability_shown;   /* false when the stability analysis ran and did not show the loop
+                             * stable: the closed-loop figures that assume a stable loop (the
+                             * -3 dB point, peaking, desensitivity, the step response) describe
+                             * a response the circuit will not settle to */
+    bool has_oscillation;   /* unstable with a complex right-half-plane pole pair */
+    double oscillation_hz;  /* |Im s|/2 pi of the rightmost such pair: where it will oscillate */
+    bool runaway;           /* unstable through a real right-half-plane pole: no oscillation,
+                             * the output runs away (latches) */
     bool has_max_sensitivity; /* the stability analysis found the vector margin */
     double max_sensitivity_db; /* largest |1/(1+T)| = 1/vector margin, in dB */
     double max_sensitivity_hz;

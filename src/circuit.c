@@ -764,6 +764,29 @@ bool tb_circuit_has_io(const tb_circuit *ckt)
     return ckt && ckt->io.given;
 }
 
+/* .io's input is a current source and its output a voltage (transimpedance), or the other
+ * way round (transconductance); otherwise the gain is a ratio of like quantities. */
+static int io_dimension(const tb_circuit *ckt)
+{
+    if (!ckt || !ckt->io.given)
+        return 0;
+    bool current_in = ckt->elems[ckt->io.source_elem].kind == TB_EL_I;
+    bool current_out = ckt->io.out_kind == TB_OUT_I;
+    return current_in == current_out ? 0 : current_in ? 1 : -1;
+}
+
+const char *tb_circuit_gain_unit(const tb_circuit *ckt)
+{
+    int d = io_dimension(ckt);
+    return d > 0 ? "ohm" : d < 0 ? "S" : "";
+}
+
+const char *tb_circuit_beta_unit(const tb_circuit *ckt)
+{
+    int d = io_dimension(ckt);
+    return d > 0 ? "S" : d < 0 ? "ohm" : "";
+}
+
 size_t tb_circuit_node_count(const tb_circuit *ckt)
 {
     return ckt ? ckt->node_count : 0;

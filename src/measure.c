@@ -127,6 +127,27 @@ static void measure_f3db(const tb_result *res, tb_measures *m)
         m->notes |= 1u << TB_NOTE_NO_F3DB;
 }
 
+/* Whether the loop was shown stable, and for an unstable one what it will do: oscillate
+ * near the rightmost right-half-plane pair's frequency, or run away on a real pole. */
+static void measure_instability(const tb_result *res, size_t l, tb_measures *m)
+{
+    const tb_stability *st = res->stab ? &res->stab[l] : NULL;
+    m->stability_shown = !st || !st->computed || st->verdict == TB_VERDICT_STABLE;
+    if (!st || !st->computed || st->verdict != TB_VERDICT_UNSTABLE || !st->has_poles)
+        return;
+    for (size_t i = 0; i < st->pole_count; i++) { /* largest real part first */
+        if (st->pole_place[i] != TB_POLE_RIGHT)
+            continue;
+        if (cimag(st->poles[i]) != 0) {
+            m->has_oscillation = true;
+            m->oscillation_hz = fabs(cimag(st->poles[i])) / TB_TWO_PI;
+        } else {
+            m->runaway = true;
+        }
+        return;
+    }
+}
+
 /* The largest sensitivity |1/(1+T)|, 1/(vector margin). */
 static void measure_sensitivity(const tb_result *res, size_t l, tb_measures *m)
 {
@@ -201,6 +222,7 @@ tb_status tb_measure_run(tb_result *res)
         measure_unity(res, l, m);
         measure_f3db(res, m);
         measure_sensitivity(res, l, m);
+        measure_instability(res, l, m);
         if (res->mid) {
             m->has_mid = true;
             m->mid = res->mid[l];

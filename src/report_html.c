@@ -53,7 +53,7 @@ static const char *fmt_hz(bool present, double f, char *buf, size_t size)
     return buf;
 }
 
-static void verdict_box(FILE *out, const tb_stability *st)
+static void verdict_box(FILE *out, const tb_stability *st, const tb_measures *m)
 {
     char reason[512];
     const char *kind = st->verdict == TB_VERDICT_STABLE ? "stable" : st->verdict == TB_VERDICT_UNSTABLE ? "unstable" : "other";
@@ -61,14 +61,29 @@ static void verdict_box(FILE *out, const tb_stability *st)
     text(out, tb_verdict_str(st->verdict));
     fputs("</strong> &#8212; ", out);
     text(out, tb_report_reason(st, reason, sizeof reason));
+    char f[64];
+    if (m->has_oscillation)
+        fprintf(out, " <strong>It will oscillate near %s.</strong>", fmt_hz(true, m->oscillation_hz, f, sizeof f));
+    else if (m->runaway)
+        fputs(" <strong>A real right-half-plane pole: the output runs away rather than oscillates.</strong>", out);
+    if (!m->stability_shown)
+        fputs(" The closed-loop figures below (-3 dB point, peaking, desensitivity, step response) assume a stable"
+              " loop and do not describe this circuit.", out);
     if (st->computed && (!st->pm_ok || !st->gm_ok))
         fputs(" <span class=\"fails\">A margin threshold is missed.</span>", out);
     fputs("</div>\n", out);
 }
 
-static void dc_table(FILE *out, const tb_measures *m)
+/* value, then " ohm" or " S" when .io makes the quantity dimensioned. */
+static const char *with_unit(const char *value, const char *unit, char *buf, size_t size)
 {
-    char v[128];
+    snprintf(buf, size, "%s%s%s", value, unit[0] && strcmp(value, "--") != 0 ? " " : "", strcmp(value, "--") ? unit : "");
+    return buf;
+}
+
+static void dc_table(FILE *out, const tb_measures *m, const char *gu, const char *bu)
+{
+    char v[128], u[160];
     const tb_dc_figures *fig = &m->fig;
     fputs("<h3>", out);
     if (m->dc_hz == 0.0)
@@ -77,11 +92,12 @@ static void dc_table(FILE *out, const tb_measures *m)
         fprintf(out, "At the lowest sweep point, %s (DC is singular)", fmt_hz(true, m->dc_hz, v, sizeof v));
     fputs("</h3>\n<table>\n", out);
     cell_text(out, "loop gain T (return ratio)", fig->has_T ? fmt_complex(true, m->dc.T, v, sizeof v) : "infinite");
-    cell_text(out, "open-loop gain a = A_inf T", fmt_complex(fig->has_a, m->dc.a, v, sizeof v));
-    cell_text(out, "loaded feedback factor beta = 1/A_inf", fmt_complex(fig->has_beta, fig->beta, v, sizeof v));
-    cell_text(out, "ideal gain A_inf", fmt_complex(fig->has_A_inf, m->dc.A_inf, v, sizeof v));
-    cell_text(out, "feedthrough A0", fmt_complex(fig->has_A0, m->dc.A0, v, sizeof v));
-    cell_text(out, "closed-loop gain A", fmt_complex(fig->has_A, m->dc.A, v, sizeof v));
+    cell_text(out, "open-loop gain a = A_inf T", with_unit(fmt_complex(fig->has_a, m->dc.a, v, sizeof v), gu, u, sizeof u));
+    cell_text(out, "loaded feedback factor beta = 1/A_inf",
+              with_unit(fmt_complex(fig->has_beta, fig->beta, v, sizeof v), bu, u, sizeof u));
+    cell_text(out, "ideal gain A_inf", with_unit(fmt_complex(fig->has_A_inf, m->dc.A_inf, v, sizeof v), gu, u, sizeof u));
+    cell_text(out, "feedthrough A0", with_unit(fmt_complex(fig->has_A0, m->dc.A0, v, sizeof v), gu, u, sizeof u));
+    cell_text(out, "closed-loop gain A", with_unit(fmt_complex(fig->has_A, m->dc.A, v, sizeof v), gu, u, sizeof u));
     if (fig->has_gain_error)
         snprintf(v, sizeof v, "%+.4g %%", creal(fig->gain_error_pct));
     cell_text(out, "gain error (A - A_inf)/A_inf", fig->has_gain_error ? v : "--");
@@ -167,8 +183,8 @@ static tb_status loop_section(FILE *out, const tb_circuit *ckt, const tb_result 
     text(out, tb_circuit_loop_name(ckt, l));
     fputs("</h2>\n", out);
     if (st.computed)
-        verdict_box(out, &st);
-    dc_table(out, &m);
+        verdict_box(out, &st, &m);
+    dc_table(out, &m, tb_circuit_gain_unit(ckt), tb_circuit_beta_unit(ckt));
     frequency_table(out, res, &m, &st);
     breakdown_table(out, &fs);
     if ((s = figure(out, ckt, res, TB_PIC_BODE, l, 0, "Loop gain T: magnitude with |A|, |A_inf| and the estimate; phase. Markers: crossings with their margins.")))

@@ -475,6 +475,9 @@ static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *r
         stability_keys(b, lp, &st);
     set(b, lp, "f3db_closed_hz", m.has_f3db ? num(m.f3db_closed_hz) : json_null());
     set(b, lp, "midband", midband_object(b, &m));
+    set(b, lp, "stability_shown", json_boolean(m.stability_shown));
+    set(b, lp, "oscillation_hz", m.has_oscillation ? num(m.oscillation_hz) : json_null());
+    set(b, lp, "runaway", json_boolean(m.runaway));
     set(b, lp, "max_sensitivity_db", m.has_max_sensitivity ? num(m.max_sensitivity_db) : json_null());
     set(b, lp, "max_sensitivity_hz", m.has_max_sensitivity ? num(m.max_sensitivity_hz) : json_null());
     set(b, lp, "feedback", feedback_object(b, ckt, res, l));
@@ -638,6 +641,8 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
         if (!lp || json_array_append_new(loops, lp))
             b->ok = false;
     }
+    set(b, root, "gain_unit", json_string(tb_circuit_gain_unit(ckt)));
+    set(b, root, "beta_unit", json_string(tb_circuit_beta_unit(ckt)));
     set(b, root, "loops", loops);
     set(b, root, "closed_loop", closed_loop_object(b, res));
     if (tb_result_has_stability(res))

@@ -34,36 +34,48 @@ static void line(FILE *out, const char *label, bool present, const char *value, 
     fprintf(out, "    %-30s %s%s\n", label, present ? value : "--", present ? extra : "");
 }
 
-/* The loop's gains at one point (DC, or midband) with the figures derived from them. */
-static void gain_lines(FILE *out, const tb_point *p, const tb_dc_figures *fig)
+/* " ohm" or " S" after a gain or beta whose .io makes it dimensioned, "" otherwise. */
+static const char *unit_suffix(const char *unit, char *buf, size_t size)
 {
-    char v[96], extra[96];
+    snprintf(buf, size, "%s%s", unit[0] ? " " : "", unit);
+    return buf;
+}
+
+/* The loop's gains at one point (DC, or midband) with the figures derived from them;
+ * gain and beta units from .io. */
+static void gain_lines(FILE *out, const tb_point *p, const tb_dc_figures *fig, const char *gain_unit,
+                       const char *beta_unit)
+{
+    char v[96], extra[96], gu[16], bu[16];
+    unit_suffix(gain_unit, gu, sizeof gu);
+    unit_suffix(beta_unit, bu, sizeof bu);
     snprintf(extra, sizeof extra, "   (%+.2f dB)", fig->T_db);
     line(out, "loop gain T (return ratio)", true, fig->has_T ? fmt_value(p->T, v, sizeof v) : "infinite",
          fig->has_T_db ? extra : "");
-    line(out, "open-loop gain a = A_inf*T", fig->has_a, fmt_value(p->a, v, sizeof v), "");
-    line(out, "loaded feedback beta = 1/A_inf", fig->has_beta, fmt_value(fig->beta, v, sizeof v), "");
-    line(out, "ideal gain A_inf", fig->has_A_inf, fmt_value(p->A_inf, v, sizeof v), "");
+    line(out, "open-loop gain a = A_inf*T", fig->has_a, fmt_value(p->a, v, sizeof v), gu);
+    line(out, "loaded feedback beta = 1/A_inf", fig->has_beta, fmt_value(fig->beta, v, sizeof v), bu);
+    line(out, "ideal gain A_inf", fig->has_A_inf, fmt_value(p->A_inf, v, sizeof v), gu);
     double scale = fmax(cabs(p->A), cabs(p->A_inf));
-    line(out, "feedthrough A0", fig->has_A0, fmt_value(denoise(p->A0, scale), v, sizeof v), "");
-    line(out, "closed-loop gain A", fig->has_A, fmt_value(p->A, v, sizeof v), "");
+    line(out, "feedthrough A0", fig->has_A0, fmt_value(denoise(p->A0, scale), v, sizeof v), gu);
+    line(out, "closed-loop gain A", fig->has_A, fmt_value(p->A, v, sizeof v), gu);
     snprintf(v, sizeof v, "%+.4g %%", creal(fig->gain_error_pct));
     line(out, "gain error (A - A_inf)/A_inf", fig->has_gain_error, v, "");
 }
 
-static void dc_block(FILE *out, const tb_measures *m)
+static void dc_block(FILE *out, const tb_measures *m, const tb_circuit *ckt)
 {
+    const char *gu = tb_circuit_gain_unit(ckt), *bu = tb_circuit_beta_unit(ckt);
     char v[96];
     if (m->dc_hz == 0.0)
         fprintf(out, "  at DC (f = 0)\n");
     else
         fprintf(out, "  at the lowest sweep point (f = %s; DC is singular)\n",
                 fmt_hz(m->dc_hz, v, sizeof v));
-    gain_lines(out, &m->dc, &m->fig);
+    gain_lines(out, &m->dc, &m->fig, gu, bu);
     if (m->has_mid) {
         fprintf(out, "  at midband (f = %s, where |A| is largest; A(0) = 0: AC-coupled)\n",
                 fmt_hz(m->mid_hz, v, sizeof v));
-        gain_lines(out, &m->mid, &m->mid_fig);
+        gain_lines(out, &m->mid, &m->mid_fig, gu, bu);
     }
 }
 
@@ -80,7 +92,7 @@ static void closed_loop_lines(FILE *out, const tb_result *res, const tb_measures
         fprintf(out, "      (the -3 dB edge lies outside the sweep; found by searching beyond it)\n");
     if (cl.computed && !cl.ac_coupled) {
         snprintf(v, sizeof v, "%+.3f dB at %s", cl.peak_db, fmt_hz(cl.peak_hz, f, sizeof f));
-        line(out, "peaking of |A| over A(0)", cl.has_peak, v, "");
+        line(out, "peaking of |A| over A(0)", cl.has_peak, v, m->stability_shown ? "" : "   [assumes a stable loop]");
     }
     snprintf(v, sizeof v, "%+.2f dB at %s", m->max_sensitivity_db, fmt_hz(m->max_sensitivity_hz, f, sizeof f));
     line(out, "largest |1/(1+T)| = 1/min|1+T|", m->has_max_sensitivity, v, "");
@@ -97,7 +109,27 @@ static void crossing_block(FILE *out, const tb_measures *m, const tb_stability *
     line(out, "unity loop gain |T| = 1 at", m->has_unity, fmt_hz(m->unity_hz, v, sizeof v), extra);
     snprintf(v, sizeof v, "%.2f deg", m->phase_margin_deg);
     line(out, "phase margin", m->has_phase_margin, v, "");
-    line(out, "closed-loop -3 dB at", m->has_f3db, fmt_hz(m->f3db_closed_hz, v, sizeof v), "");
+    line(out, "closed-loop -3 dB at", m->has_f3db, fmt_hz(m->f3db_closed_hz, v, sizeof v),
+         m->stability_shown ? "" : "   [assumes a stable loop]");
+}
+
+/* First in a loop's report: whether it is stable and, when it is not, what it will do. */
+static void verdict_first(FILE *out, const tb_measures *m, const tb_stability *st)
+{
+    char f[64];
+    if (!st->computed)
+        return;
+    if (st->verdict == TB_VERDICT_STABLE) {
+        fprintf(out, "  verdict: stable\n");
+        return;
+    }
+    fprintf(out, "  verdict: %s", st->verdict == TB_VERDICT_UNSTABLE ? "UNSTABLE" : tb_verdict_str(st->verdict));
+    if (m->has_oscillation)
+        fprintf(out, ": it will oscillate near %s", fmt_hz(m->oscillation_hz, f, sizeof f));
+    else if (m->runaway)
+        fprintf(out, ": a real right-half-plane pole, the output runs away (latches) rather than oscillates");
+    fprintf(out, "\n    the closed-loop figures below (-3 dB point, peaking, desensitivity, step response) assume a\n"
+                 "    stable loop and do not describe this circuit\n");
 }
 
 /* "", " [below the sweep]" or " [above the sweep]". */
@@ -492,9 +524,10 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
         return st;
     const tb_element *e = &ckt->elems[ckt->loops[l].elem];
     fprintf(out, "\nloop at %s (%s, gain %.6g)\n", e->name, tb_elem_kind_word(e->kind), e->value);
-    dc_block(out, &m);
     tb_stability stab;
     tb_stability_loop(res, l, &stab);
+    verdict_first(out, &m, &stab);
+    dc_block(out, &m, ckt);
     crossing_block(out, &m, &stab);
     closed_loop_lines(out, res, &m);
     feedback_block(out, ckt, res, l);
