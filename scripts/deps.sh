@@ -2,7 +2,7 @@
 # scripts/deps.sh: installs the Debian packages tbeta's build and tests need, when missing.
 # Usage: sh scripts/deps.sh [extra-package...]
 set -u
-pkgs="libsuitesparse-dev libcmocka-dev liblapack-dev libopenblas-dev libjansson-dev python3-numpy python3-scipy libxml2-utils pkgconf groff-base $*"
+pkgs="libsuitesparse-dev libcmocka-dev liblapack-dev libopenblas-dev libjansson-dev python3-numpy python3-scipy libxml2-utils pkgconf groff-base chromium fonts-dejavu-core $*"
 missing=""
 for p in $pkgs; do
     if ! dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed"; then

@@ -4,6 +4,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "tbeta.h"
 #include "checkrun.h" /* the regression runner (tbeta check) */
@@ -19,6 +20,7 @@ static const char usage_main[] =
     "       tbeta sweep NETLIST [--csv] [--loop NAME]\n"
     "                                     one CSV row per sweep frequency\n"
     "       tbeta step NETLIST [--csv]       closed-loop step response, one CSV row per sample\n"
+    "       tbeta plot NETLIST --svg DIR      the pictures (Bode, Nyquist, step, ports, breakdown) as SVG\n"
     "       tbeta check PATH... [options]     run every netlist's .expect cards (tbeta check --help)\n"
     "       tbeta --help | --version\n"
     "\n"
@@ -31,8 +33,8 @@ static const char usage_main[] =
     "unreadable or malformed netlist, or a circuit that cannot be solved.\n";
 
 static const char usage_report[] =
-    "usage: tbeta report NETLIST [--json] [--pm-min DEG] [--gm-min DB] [--strict]\n"
-    "                            [--pole-limit N] [--no-stability] [--all-sources]\n"
+    "usage: tbeta report NETLIST [--json] [--html FILE] [--pm-min DEG] [--gm-min DB] [--strict]\n"
+    "                            [--pole-limit N] [--no-stability] [--all-sources] [--sensitivities]\n"
     "  Prints, for every .loop: T, a, beta = 1/A_inf, A_inf, A0 and A at DC, the gain\n"
     "  error (A - A_inf)/A_inf, the unity-loop-gain frequency, the phase margin and\n"
     "  the closed-loop -3 dB frequency; then the stability figures: every crossing of\n"
@@ -40,6 +42,8 @@ static const char usage_report[] =
     "  solves, phase, gain, delay and vector margins, closed-loop poles, the Nyquist\n"
     "  count, the dominant pole pair and a verdict (stable, marginal, unstable).\n"
     "  --json            one JSON document instead of text (full precision, null when absent)\n"
+    "  --html FILE       also write one self-contained HTML page (verdicts, tables, pictures)\n"
+    "                    for a design review\n"
     "  --pm-min DEG      phase-margin threshold (default: the netlist's .margins pm=,\n"
     "                    else 45, common practice); implies --strict\n"
     "  --gm-min DB       gain-margin threshold (default: the netlist's .margins gm=,\n"
@@ -50,7 +54,16 @@ static const char usage_report[] =
     "                    dense QZ: about 1.5 s at 500, 18 s at 1000)\n"
     "  --no-stability    skip the stability analysis (foundation figures only)\n"
     "  --all-sources     loop census: the return ratio of every controlled source, ranked,\n"
-    "                    flagging unmarked local loops whose |T| reaches 1\n";
+    "                    flagging unmarked local loops whose |T| reaches 1\n"
+    "  --sensitivities   how every loop's figures move with each element's value (adjoint\n"
+    "                    method), ranked by their effect on the phase margin\n";
+
+static const char usage_plot[] =
+    "usage: tbeta plot NETLIST --svg DIR [--pole-limit N] [--all-sources]\n"
+    "  Writes the pictures of every loop as SVG files into DIR (created when missing):\n"
+    "  LOOP-bode.svg, LOOP-nyquist.svg, LOOP-breakdown.svg (with .ideal), LOOP-impedance-PORT.svg\n"
+    "  (each .zport) and step.svg (the closed-loop step response); prints the files written.\n"
+    "  --svg DIR   the folder to write to\n";
 
 static const char usage_sweep[] =
     "usage: tbeta sweep NETLIST [--csv] [--loop NAME]\n"
@@ -78,6 +91,8 @@ typedef struct {
     bool strict;
     tb_options opt;
     const char *table; /* sweep --table: a feedback table instead of the loop table */
+    const char *html;  /* report --html FILE */
+    const char *svg;   /* plot --svg DIR */
 } args;
 
 static int usage_error(const char *msg, const char *arg, const char *usage)
@@ -90,7 +105,7 @@ static bool is_stability_option(const char *s)
 {
     return strcmp(s, "--pm-min") == 0 || strcmp(s, "--gm-min") == 0 || strcmp(s, "--strict") == 0 ||
            strcmp(s, "--pole-limit") == 0 || strcmp(s, "--no-stability") == 0 ||
-           strcmp(s, "--all-sources") == 0;
+           strcmp(s, "--all-sources") == 0 || strcmp(s, "--sensitivities") == 0;
 }
 
 /* A finite number (or, with whole, a non-negative integer) from text; false when malformed. */
@@ -123,6 +138,10 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
         a->opt.census = true;
         return -1;
     }
+    if (strcmp(s, "--sensitivities") == 0) {
+        a->opt.sensitivity = true;
+        return -1;
+    }
     if (*i + 1 >= argc)
         return usage_error(s, "needs a value", usage);
     const char *text = argv[++*i];
@@ -144,7 +163,9 @@ static int parse_args(int argc, char **argv, int first, args *a)
 {
     const char *usage = strcmp(a->command, "sweep") == 0  ? usage_sweep
                         : strcmp(a->command, "step") == 0 ? usage_step
+                        : strcmp(a->command, "plot") == 0 ? usage_plot
                                                           : usage_report;
+    bool report_like = strcmp(a->command, "report") == 0 || strcmp(a->command, "plot") == 0;
     for (int i = first; i < argc; i++) {
         const char *s = argv[i];
         if (strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0) {
@@ -152,7 +173,15 @@ static int parse_args(int argc, char **argv, int first, args *a)
             return EXIT_DONE;
         } else if (strcmp(s, "--json") == 0 && strcmp(a->command, "report") == 0) {
             a->json = true;
-        } else if (strcmp(a->command, "report") == 0 && is_stability_option(s)) {
+        } else if (strcmp(s, "--html") == 0 && strcmp(a->command, "report") == 0) {
+            if (i + 1 >= argc)
+                return usage_error("--html needs a file name", NULL, usage);
+            a->html = argv[++i];
+        } else if (strcmp(s, "--svg") == 0 && strcmp(a->command, "plot") == 0) {
+            if (i + 1 >= argc)
+                return usage_error("--svg needs a folder", NULL, usage);
+            a->svg = argv[++i];
+        } else if (report_like && is_stability_option(s)) {
             int rc = stability_option(argc, argv, &i, a, usage);
             if (rc >= 0)
                 return rc;
@@ -176,6 +205,8 @@ static int parse_args(int argc, char **argv, int first, args *a)
     }
     if (!a->netlist)
         return usage_error("no netlist given", NULL, usage);
+    if (strcmp(a->command, "plot") == 0 && !a->svg)
+        return usage_error("plot needs --svg DIR", NULL, usage);
     return -1;
 }
 
@@ -190,10 +221,93 @@ static void print_diags(const tb_diag *diag)
     }
 }
 
+/* Writes one picture to DIR/NAME.svg through a temporary file renamed into place, so a
+ * failed write leaves no half picture; TB_ERR_NOT_FOUND (nothing written) when the
+ * picture has nothing to show. */
+static tb_status write_picture(const args *a, const tb_circuit *ckt, const tb_result *res, tb_picture_kind kind,
+                               size_t l, size_t port, const char *name)
+{
+    char path[4096], tmp[4200];
+    snprintf(path, sizeof path, "%s/%s.svg", a->svg, name);
+    snprintf(tmp, sizeof tmp, "%s.part", path);
+    FILE *out = fopen(tmp, "w");
+    if (!out) {
+        fprintf(stderr, "tbeta: cannot write %s: %s\n", tmp, strerror(errno));
+        return TB_ERR_IO;
+    }
+    tb_status st = tb_report_svg(ckt, res, kind, l, port, out);
+    if (fclose(out) != 0 && st == TB_OK)
+        st = TB_ERR_IO;
+    if (st == TB_OK && rename(tmp, path) != 0)
+        st = TB_ERR_IO;
+    if (st != TB_OK)
+        remove(tmp);
+    if (st == TB_OK)
+        printf("%s\n", path);
+    else if (st != TB_ERR_NOT_FOUND)
+        fprintf(stderr, "tbeta: cannot write %s: %s\n", path, tb_status_str(st));
+    return st;
+}
+
+static tb_status write_pictures(const args *a, const tb_circuit *ckt, const tb_result *res)
+{
+    if (mkdir(a->svg, 0777) != 0 && errno != EEXIST) {
+        fprintf(stderr, "tbeta: cannot create %s: %s\n", a->svg, strerror(errno));
+        return TB_ERR_IO;
+    }
+    char name[512];
+    tb_status st = TB_OK;
+    for (size_t l = 0; l < tb_result_loops(res) && (st == TB_OK || st == TB_ERR_NOT_FOUND); l++) {
+        const char *loop = tb_circuit_loop_name(ckt, l);
+        static const tb_picture_kind kinds[] = {TB_PIC_BODE, TB_PIC_NYQUIST, TB_PIC_BREAKDOWN};
+        for (size_t k = 0; k < 3 && (st == TB_OK || st == TB_ERR_NOT_FOUND); k++) {
+            snprintf(name, sizeof name, "%s-%s", loop, tb_picture_name(kinds[k]));
+            st = write_picture(a, ckt, res, kinds[k], l, 0, name);
+        }
+        for (size_t p = 0; p < tb_zport_count(res) && (st == TB_OK || st == TB_ERR_NOT_FOUND); p++) {
+            tb_zport_summary zs;
+            tb_zport_loop(res, p, l, &zs, NULL);
+            snprintf(name, sizeof name, "%s-impedance-%s", loop, zs.name);
+            st = write_picture(a, ckt, res, TB_PIC_IMPEDANCE, l, p, name);
+        }
+    }
+    if (st == TB_OK || st == TB_ERR_NOT_FOUND)
+        st = write_picture(a, ckt, res, TB_PIC_STEP, 0, 0, "step");
+    return st == TB_ERR_NOT_FOUND ? TB_OK : st;
+}
+
+/* report --html FILE: the review page, written through a temporary file renamed into place. */
+static tb_status write_html(const args *a, const tb_circuit *ckt, const tb_result *res)
+{
+    char tmp[4200];
+    snprintf(tmp, sizeof tmp, "%s.part", a->html);
+    FILE *out = fopen(tmp, "w");
+    if (!out) {
+        fprintf(stderr, "tbeta: cannot write %s: %s\n", a->html, strerror(errno));
+        return TB_ERR_IO;
+    }
+    tb_status st = tb_report_html(ckt, res, out);
+    if (fclose(out) != 0 && st == TB_OK)
+        st = TB_ERR_IO;
+    if (st == TB_OK && rename(tmp, a->html) != 0)
+        st = TB_ERR_IO;
+    if (st != TB_OK) {
+        remove(tmp);
+        fprintf(stderr, "tbeta: cannot write %s: %s\n", a->html, tb_status_str(st));
+    }
+    return st;
+}
+
 static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_result *res)
 {
-    if (strcmp(a->command, "report") == 0)
+    if (strcmp(a->command, "plot") == 0)
+        return write_pictures(a, ckt, res);
+    if (strcmp(a->command, "report") == 0) {
+        tb_status st = a->html ? write_html(a, ckt, res) : TB_OK;
+        if (st)
+            return st;
         return a->json ? tb_report_json(ckt, res, stdout) : tb_report_text(ckt, res, stdout);
+    }
     if (strcmp(a->command, "step") == 0) {
         tb_step_figures fig;
         tb_step_figures_get(res, &fig);
@@ -506,12 +620,12 @@ int main(int argc, char **argv)
         printf("tbeta %s\n", TB_VERSION);
         return EXIT_DONE;
     }
-    args a = {"report", NULL, NULL, false, false, {0}, NULL};
+    args a = {"report", NULL, NULL, false, false, {0}, NULL, NULL, NULL};
     tb_options_init(&a.opt);
     a.opt.stability = strcmp(argv[1], "sweep") != 0; /* the sweep table needs none of it */
     int first = 1;
     if (strcmp(argv[1], "report") == 0 || strcmp(argv[1], "sweep") == 0 ||
-        strcmp(argv[1], "step") == 0) {
+        strcmp(argv[1], "step") == 0 || strcmp(argv[1], "plot") == 0) {
         a.command = argv[1];
         first = 2;
     }

@@ -16,6 +16,8 @@ if sh tests/check.sh "$build" "$wrap"; then passed=$((passed + 1)); else
     failed=$((failed + 1)); echo "FAILED: tests/check.sh"; fi
 if sh tests/install.sh "$build" "$wrap"; then passed=$((passed + 1)); else
     failed=$((failed + 1)); echo "FAILED: tests/install.sh"; fi
+if sh tests/browser.sh "$build"; then passed=$((passed + 1)); else
+    failed=$((failed + 1)); echo "FAILED: tests/browser.sh"; fi
 for s in tests/ref/*.py; do
     [ -f "$s" ] || continue
     if /usr/bin/python3 "$s" "$build/tbeta" netlists/*.net tests/ref/*.net; then
