@@ -126,8 +126,9 @@ typedef struct {
     double refactor_rcond_drop; /* a refactor whose min/max |U_ii| falls below this times the
                                  * last pivoted one's factors again with pivoting (default 1e-6) */
     bool stability;       /* exact crossings, margins, poles, Nyquist, verdict (default true) */
-    size_t pole_limit;    /* poles (and the step response) only up to this many unknowns
-                           * (default 500: dense QZ costs O(n^3), 18 s at 1000) */
+    size_t pole_limit;    /* poles (and the step response as a sum over the modes) only up to
+                           * this many unknowns (default 500: dense QZ costs O(n^3), 18 s at
+                           * 1000); above it the step response comes from time stepping */
     double pm_min_deg;    /* phase-margin threshold; negative (the default): the netlist's
                            * .margins pm=, else 45 degrees (common practice) */
     double gm_min_db;     /* gain-margin threshold; negative (the default): the netlist's
@@ -172,7 +173,8 @@ typedef struct {
     size_t grid_pivoted;         /* of them, with pivoting */
     size_t grid_solve_columns;   /* right-hand sides solved in the point loop */
     size_t probe_factorizations; /* numeric factorizations at new frequencies and changed gains */
-    size_t step_factorizations;  /* real factorizations of the time-step matrix */
+    size_t step_factorizations;  /* spent by the step response: fresh M(jw) that check the sum
+                                  * over the modes, or real time-step matrices G + aC */
 } tb_stats;
 
 /* The counts of res. Errors: TB_ERR_USAGE (NULL). */
@@ -580,13 +582,19 @@ TB_API tb_status tb_census_get(const tb_result *res, const tb_census_entry **ent
 /* ---- closed-loop step response -------------------------------------- */
 
 /* The response of the .io output to a unit step of the .io input, from
- * G x + C dx/dt = b u(t), x(0) = 0, by the trapezoidal rule (one backward-Euler
- * step first, so that the jump at t = 0 does not ring); step size and span from
- * the closed-loop poles. Absent figures have has_* false. */
+ * G x + C dx/dt = b u(t), x(0-) = 0 (docs/stability.md): up to the pole limit an
+ * exact sum over the closed-loop modes, y(t) = A(0) + sum_k (r_k/s_k) e^(s_k t),
+ * checked against fresh solves of H(jw); otherwise (or when that check fails)
+ * variable-step TR-BDF2 with local error control. Samples at t >= 0 (y(0) is the
+ * value just after the jump at t = 0+), spaced to resolve every mode that still
+ * matters. computed false: no trustworthy waveform (why_absent says why); a
+ * computed waveform may still lack figures (why_no_figures says why). */
 typedef struct {
     bool computed;
+    const char *method;     /* how the samples were computed, a static string */
+    double error_estimate;  /* estimated largest error of the samples, relative to the
+                             * larger of |A(0)| and |y(0+)| */
     size_t points;          /* samples, t = 0 included */
-    double dt_s;
     double t_end_s;
     double final_value;     /* A(0), the DC gain the output settles to */
     bool has_peak;
@@ -595,9 +603,10 @@ typedef struct {
     bool has_overshoot;
     double overshoot_pct;   /* (peak - final)/final, 0 when it never passes the final value */
     bool has_rise;
-    double rise_s;          /* 10 % to 90 % of the final value */
+    double rise_s;          /* first reaching 10 % to first reaching 90 % of the final value */
     bool has_settling;
     double settling_s;      /* last entry into the 2 % band around the final value */
+    const char *why_no_figures; /* computed but without figures: the reason, a static string */
     const char *why_absent; /* when !computed: the reason, a static string */
 } tb_step_figures;
 

@@ -76,12 +76,13 @@ static const char usage_sweep[] =
     "                zport:NAME (a .zport) or break (needs .break)\n";
 
 static const char usage_step[] =
-    "usage: tbeta step NETLIST [--csv]\n"
+    "usage: tbeta step NETLIST [--csv] [--pole-limit N]\n"
     "  Prints the response of the .io output to a unit step of the .io input,\n"
-    "  computed in the time domain from G x + C dx/dt = b u(t) by the trapezoidal\n"
-    "  rule (step size and span from the closed-loop poles), as CSV: t_s,y\n"
-    "  Overshoot, rise and settling time are in 'tbeta report'.\n"
-    "  --csv   CSV output (the default and only format)\n";
+    "  G x + C dx/dt = b u(t), as CSV: t_s,y. Up to the pole limit it is the exact\n"
+    "  sum over the closed-loop modes; above it, time stepping with error control\n"
+    "  (docs/stability.md). Overshoot, rise and settling time are in 'tbeta report'.\n"
+    "  --csv           CSV output (the default and only format)\n"
+    "  --pole-limit N  the sum over the modes only up to N unknowns (default 500)\n";
 
 typedef struct {
     const char *command; /* "report", "sweep" or "step" */
@@ -181,7 +182,8 @@ static int parse_args(int argc, char **argv, int first, args *a)
             if (i + 1 >= argc)
                 return usage_error("--svg needs a folder", NULL, usage);
             a->svg = argv[++i];
-        } else if (report_like && is_stability_option(s)) {
+        } else if ((report_like && is_stability_option(s)) ||
+                   (strcmp(a->command, "step") == 0 && strcmp(s, "--pole-limit") == 0)) {
             int rc = stability_option(argc, argv, &i, a, usage);
             if (rc >= 0)
                 return rc;
@@ -426,8 +428,9 @@ static const char usage_check[] =
     "  --json FILE     write the full results as JSON\n"
     "  --junit FILE    write JUnit XML, one testcase per expectation\n"
     "  --merge         the PATHs are --json files of shards: merge them\n"
-    "  --pole-limit N  poles and step response only up to N unknowns (default 500;\n"
-    "                  their cost grows as N^3: lower it for large netlists)\n"
+    "  --pole-limit N  poles only up to N unknowns (default 500; their cost grows\n"
+    "                  as N^3: lower it for large netlists; the step response then\n"
+    "                  comes from time stepping)\n"
     "  --no-stability  foundation figures only (no margins, poles or verdict)\n"
     "  The .expect grammar and the figures an expectation may name: docs/check.md.\n"
     "  exit codes: 0 all pass; 1 an expectation failed or a figure drifted;\n"

@@ -552,8 +552,9 @@ static json_t *step_object(builder *b, const tb_result *res)
         set(b, o, "note", json_string(fig.why_absent ? fig.why_absent : "not computed"));
         return o;
     }
+    set(b, o, "method", json_string(fig.method));
+    set(b, o, "error_estimate", num(fig.error_estimate));
     set(b, o, "points", json_integer((json_int_t)fig.points));
-    set(b, o, "dt_s", num(fig.dt_s));
     set(b, o, "t_end_s", num(fig.t_end_s));
     set(b, o, "final_value", num(fig.final_value));
     set(b, o, "peak_value", opt_num(fig.has_peak, fig.peak_value));
@@ -561,8 +562,8 @@ static json_t *step_object(builder *b, const tb_result *res)
     set(b, o, "overshoot_pct", opt_num(fig.has_overshoot, fig.overshoot_pct));
     set(b, o, "rise_s", opt_num(fig.has_rise, fig.rise_s));
     set(b, o, "settling_s", opt_num(fig.has_settling, fig.settling_s));
-    if (!fig.has_overshoot)
-        set(b, o, "note", json_string("figures only for a stable closed loop with a non-zero DC gain"));
+    if (fig.why_no_figures)
+        set(b, o, "note", json_string(fig.why_no_figures));
     return o;
 }
 

@@ -560,8 +560,8 @@ static void step_block(FILE *out, const tb_result *res)
         fprintf(out, "\nclosed-loop step response: -- (%s)\n", fig.why_absent ? fig.why_absent : "not computed");
         return;
     }
-    fprintf(out, "\nclosed-loop step response (trapezoidal rule, %zu points to %.4g s)\n", fig.points,
-            fig.t_end_s);
+    fprintf(out, "\nclosed-loop step response (%s; %zu points to %.4g s, error estimate %.1g)\n", fig.method,
+            fig.points, fig.t_end_s, fig.error_estimate);
     snprintf(v, sizeof v, "%.6g", fig.final_value);
     line(out, "final value A(0)", true, v, "");
     snprintf(v, sizeof v, "%.4g %% (peak %.6g at %.4g s)", fig.overshoot_pct, fig.peak_value, fig.peak_s);
@@ -570,6 +570,8 @@ static void step_block(FILE *out, const tb_result *res)
     line(out, "rise time 10-90 %", fig.has_rise, v, "");
     snprintf(v, sizeof v, "%.4g s", fig.settling_s);
     line(out, "settling time (2 %)", fig.has_settling, v, "");
+    if (fig.why_no_figures)
+        fprintf(out, "    (%s)\n", fig.why_no_figures);
 }
 
 static void census_block(FILE *out, const tb_result *res)

@@ -12,6 +12,7 @@ struct tb_solver {
     klu_common common;
     klu_symbolic *symbolic;
     klu_numeric *numeric;
+    klu_numeric *real_numeric; /* a real matrix factored beside M (tb_solver_factor_real) */
     double rcond;         /* min/max |U_ii| of the last pivoted factorization */
     tb_solver_counts counts;
 };
@@ -40,6 +41,8 @@ void tb_solver_free(tb_solver *solver)
         return;
     if (solver->numeric)
         klu_z_free_numeric(&solver->numeric, &solver->common);
+    if (solver->real_numeric)
+        klu_free_numeric(&solver->real_numeric, &solver->common);
     if (solver->symbolic)
         klu_free_symbolic(&solver->symbolic, &solver->common);
     tb_free(solver);
@@ -106,6 +109,39 @@ tb_status tb_solver_solve(tb_solver *s, double complex *B, size_t nrhs)
     s->counts.solves++;
     s->counts.columns += nrhs;
     if (!klu_z_solve(s->symbolic, s->numeric, (int)s->mna->n, (int)nrhs, Bx, &s->common))
+        return TB_ERR_NUMERIC;
+    return TB_OK;
+}
+
+tb_status tb_solver_factor_real(tb_solver *s, const double *Ax, size_t *culprit)
+{
+    if (s->real_numeric)
+        klu_free_numeric(&s->real_numeric, &s->common);
+    double *A = (double *)(uintptr_t)Ax; /* not modified, as above */
+    s->counts.numeric++;
+    s->real_numeric = klu_factor(s->mna->Ap, s->mna->Ai, A, s->symbolic, &s->common);
+    if (!s->real_numeric) {
+        if (s->common.status == KLU_OUT_OF_MEMORY)
+            return TB_ERR_NOMEM;
+        return s->common.status == KLU_SINGULAR ? singular(s, culprit) : TB_ERR_NUMERIC;
+    }
+    if (s->common.status == KLU_SINGULAR) {
+        klu_free_numeric(&s->real_numeric, &s->common);
+        return singular(s, culprit);
+    }
+    s->counts.pivoted++;
+    return TB_OK;
+}
+
+tb_status tb_solver_solve_real(tb_solver *s, double *B, size_t nrhs)
+{
+    if (nrhs == 0)
+        return TB_OK;
+    if (!s->real_numeric || nrhs > (size_t)INT_MAX || s->mna->n > (size_t)INT_MAX)
+        return TB_ERR_NUMERIC;
+    s->counts.solves++;
+    s->counts.columns += nrhs;
+    if (!klu_solve(s->symbolic, s->real_numeric, (int)s->mna->n, (int)nrhs, B, &s->common))
         return TB_ERR_NUMERIC;
     return TB_OK;
 }

@@ -34,6 +34,16 @@ tb_status tb_solver_solve(tb_solver *solver, double complex *B, size_t nrhs);
  * the adjoint systems of sensitivity analysis. Errors: TB_ERR_NUMERIC. */
 tb_status tb_solver_solve_transposed(tb_solver *solver, double complex *B, size_t nrhs);
 
+/* Factors the real matrix Ax (nnz values on mna's pattern, the same symbolic
+ * analysis) with pivoting, beside the complex factorization of M, which it leaves
+ * alone; for real work such as the time-step matrices G + aC. Errors as
+ * tb_solver_factor. */
+tb_status tb_solver_factor_real(tb_solver *solver, const double *Ax, size_t *culprit);
+
+/* Solves with the last real factorization, in place (nrhs real vectors of n values
+ * one after the other). Errors: TB_ERR_NUMERIC (also when none is held). */
+tb_status tb_solver_solve_real(tb_solver *solver, double *B, size_t nrhs);
+
 /* Number of pivoted factorizations so far (first one included). */
 size_t tb_solver_factor_count(const tb_solver *solver);
 

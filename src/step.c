@@ -1,202 +1,550 @@
-/* src/step.c: closed-loop step response in the time domain by the trapezoidal rule */
+/* src/step.c: closed-loop step response: exact sum over the modes, else TR-BDF2 with error control; its figures */
 #include "step.h"
 
 #include <math.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "alloc.h"
-#include "solve.h"
+#include "crossing.h"
+#include "modal.h"
+#include "transient.h"
+#include "units.h"
 
-/* Workspace of one step response, allocated before the time loop. */
+/* Sampling of the modal sum: at most KAPPA / |s_k| between samples while mode k still
+ * matters (about 60 samples per period of an oscillating mode), at most RHO t otherwise
+ * (about 46 per decade of time); a mode matters while |r_k / s_k| e^(Re s_k t) exceeds
+ * ALIVE times the waveform's scale; the waveform ends when the sum of those envelopes
+ * falls below TAIL times |A(0)|. */
+static const double KAPPA = 0.1;
+static const double RHO = 0.05;
+static const double ALIVE = 1e-7;
+static const double TAIL = 1e-5;
+
+/* The sampled waveform: between samples y comes from the modes (exact) or from the cubic
+ * through the neighbouring samples and slopes. */
 typedef struct {
-    const tb_mna *mna;
-    tb_solver *solver;
-    double *Mx;
-    double complex *x;
-    double complex *r;
-} stepper;
+    size_t count;
+    size_t cap[3];
+    double *t;
+    double *y;
+    double *dy;
+    const tb_modal *modal; /* exact evaluation when not NULL */
+    double final;          /* A(0) */
+    double scale;          /* max(|A(0)|, |y(0+)|): the unit of error */
+    double error;          /* estimated largest error of the samples, in units of scale */
+    bool settled;          /* the samples reach the final value and stay there */
+    const char *method;
+} wave;
 
-static void stepper_free(stepper *s)
+static void wave_free(wave *w)
 {
-    tb_free(s->Mx);
-    tb_free(s->x);
-    tb_free(s->r);
+    tb_free(w->t);
+    tb_free(w->y);
+    tb_free(w->dy);
+    w->t = w->y = w->dy = NULL;
+    w->count = 0;
 }
 
-/* Span of the response: 10 time constants of the slowest decaying closed-loop
- * pole (or 10/|s| of the first pole when none decays); 0 when there is none. */
-static double span(const tb_result *res)
+static tb_status wave_add(wave *w, double t, double y, double dy)
 {
-    const tb_stability *st = res->stab;
-    if (!st || res->nloops == 0)
-        return 0;
-    if (st->has_poles) {
-        for (size_t i = 0; i < st->pole_count; i++)
-            if (creal(st->poles[i]) < 0)
-                return 10.0 / -creal(st->poles[i]);
-        if (st->pole_count > 0 && cabs(st->poles[0]) > 0)
-            return 10.0 / cabs(st->poles[0]);
-    }
-    return 0;
-}
-
-/* Mx = G + alpha C, real (zero imaginary parts), factored afresh. */
-static tb_status factor_real(stepper *s, double alpha)
-{
-    for (size_t k = 0; k < s->mna->nnz; k++) {
-        s->Mx[2 * k] = s->mna->Gx[k] + alpha * s->mna->Cx[k];
-        s->Mx[2 * k + 1] = 0;
-    }
-    size_t culprit = 0;
-    return tb_solver_factor(s->solver, s->Mx, &culprit);
-}
-
-/* r = beta C x - G x + gain b. */
-static void right_side(const stepper *s, double beta, double gain)
-{
-    const tb_mna *mna = s->mna;
-    memset(s->r, 0, mna->n * sizeof(double complex));
-    for (size_t j = 0; j < mna->n; j++) {
-        double complex xj = s->x[j];
-        if (xj == 0)
-            continue;
-        for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++)
-            s->r[mna->Ai[k]] += (beta * mna->Cx[k] - mna->Gx[k]) * xj;
-    }
-    tb_svec_axpy(&mna->b, gain, s->r);
-}
-
-/* One trapezoidal step of size h from s->x (matrix G + 2C/h factored). */
-static tb_status trapezoid(stepper *s, double h)
-{
-    right_side(s, 2.0 / h, 2.0);
-    if (tb_solver_solve(s->solver, s->r, 1))
-        return TB_ERR_NUMERIC;
-    memcpy(s->x, s->r, s->mna->n * sizeof(double complex));
+    size_t need = w->count + 1;
+    if (tb_grow(&w->t, &w->cap[0], need, sizeof(double), TB_STEP_MAX_SAMPLES) ||
+        tb_grow(&w->y, &w->cap[1], need, sizeof(double), TB_STEP_MAX_SAMPLES) ||
+        tb_grow(&w->dy, &w->cap[2], need, sizeof(double), TB_STEP_MAX_SAMPLES))
+        return TB_ERR_NOMEM;
+    w->t[w->count] = t;
+    w->y[w->count] = y;
+    w->dy[w->count++] = dy;
     return TB_OK;
 }
 
-/* The time loop. The first interval is split in TB_STEP_START substeps: one
- * backward-Euler substep (G + C/d) x = b takes the jump of the algebraic unknowns
- * at t = 0 without the trapezoidal rule's ringing, the trapezoidal rule
- * (G + 2C/d) x' = (2C/d - G) x + 2b does the rest; then steps of h. */
-static tb_status integrate(stepper *s, double h, double *y, size_t steps)
+/* y at t: exact from the modes, or the cubic Hermite through the samples around t
+ * (a straight line in the first interval, whose left slope is not known). */
+static double wave_at(const wave *w, double t)
 {
-    size_t n = s->mna->n;
-    double d = h / TB_STEP_START;
-    memset(s->x, 0, n * sizeof(double complex));
-    y[0] = 0;
-    tb_status st = factor_real(s, 1.0 / d);
-    if (st)
-        return st;
-    right_side(s, 1.0 / d, 1.0);
-    if (tb_solver_solve(s->solver, s->r, 1))
-        return TB_ERR_NUMERIC;
-    memcpy(s->x, s->r, n * sizeof(double complex));
-    if ((st = factor_real(s, 2.0 / d)))
-        return st;
-    for (int k = 1; k < TB_STEP_START && !st; k++)
-        st = trapezoid(s, d);
-    if (st || (st = factor_real(s, 2.0 / h)))
-        return st;
-    y[1] = creal(tb_svec_dot(&s->mna->c, s->x));
-    for (size_t k = 2; k <= steps && !st; k++) {
-        st = trapezoid(s, h);
-        y[k] = creal(tb_svec_dot(&s->mna->c, s->x));
+    if (w->modal) {
+        double y = 0, dy = 0;
+        tb_modal_step(w->modal, w->final, t, &y, &dy);
+        return y;
+    }
+    size_t lo = 0, hi = w->count - 1;
+    if (t <= w->t[0] || hi == 0)
+        return w->y[0];
+    if (t >= w->t[hi])
+        return w->y[hi];
+    while (hi - lo > 1) {
+        size_t mid = lo + (hi - lo) / 2;
+        *(w->t[mid] <= t ? &lo : &hi) = mid;
+    }
+    double h = w->t[hi] - w->t[lo], u = (t - w->t[lo]) / h;
+    if (lo == 0)
+        return w->y[lo] + u * (w->y[hi] - w->y[lo]);
+    double v = 1 - u;
+    return (1 + 2 * u) * v * v * w->y[lo] + u * v * v * h * w->dy[lo] + u * u * (3 - 2 * u) * w->y[hi] -
+           u * u * v * h * w->dy[hi];
+}
+
+/* ---- the exact route: a sum over the closed-loop modes ---------------- */
+
+static const char METHOD_MODES[] = "sum over the closed-loop modes";
+static const char METHOD_LIMIT[] =
+    "TR-BDF2 with error control (no poles: more unknowns than the pole limit)";
+static const char METHOD_CHECK[] =
+    "TR-BDF2 with error control (the sum over the modes failed its check against H(jw))";
+static const char METHOD_DEFECT[] =
+    "TR-BDF2 with error control (a defective closed-loop pole: no sum over the modes)";
+static const char METHOD_NODC[] =
+    "TR-BDF2 with error control (G is singular: no sum over the modes)";
+static const char NO_DYNAMICS[] =
+    "no finite closed-loop poles: the output follows the input at once, there is no time scale";
+static const char TOO_MANY[] = "the waveform needs more samples than the limit (a very lightly damped mode)";
+
+/* |r_k / s_k| e^(Re s_k t): how much mode k still moves the output at t. */
+static double envelope(const tb_modal *m, size_t k, double t)
+{
+    return cabs(m->r[k] / m->s[k]) * exp(creal(m->s[k]) * t);
+}
+
+/* Largest |s_k| of the modes that still matter at t (0 when none). */
+static double fastest_alive(const tb_modal *m, double t, double floor)
+{
+    double top = 0;
+    for (size_t k = 0; k < m->count; k++)
+        if (creal(m->s[k]) >= 0 || envelope(m, k, t) > floor)
+            top = fmax(top, cabs(m->s[k]));
+    return top;
+}
+
+static double tail(const tb_modal *m, double t)
+{
+    double sum = 0;
+    for (size_t k = 0; k < m->count; k++)
+        if (creal(m->s[k]) < 0)
+            sum += envelope(m, k, t);
+    return sum;
+}
+
+/* End of the waveform: where the decaying modes' envelopes sum to thr (doubling, then
+ * bisection), and at least 20/|s| of every mode that does not decay. */
+static double horizon(const tb_modal *m, double thr)
+{
+    double fast = 0, t_grow = 0;
+    for (size_t k = 0; k < m->count; k++) {
+        fast = fmax(fast, cabs(m->s[k]));
+        if (creal(m->s[k]) >= 0)
+            t_grow = fmax(t_grow, 20.0 / cabs(m->s[k]));
+    }
+    double lo = 0, hi = 1.0 / fast;
+    for (int i = 0; i < 400 && tail(m, hi) > thr; i++) {
+        lo = hi;
+        hi *= 2;
+    }
+    for (int i = 0; i < 60; i++) {
+        double mid = 0.5 * (lo + hi);
+        *(tail(m, mid) > thr ? &lo : &hi) = mid;
+    }
+    return fmax(hi, t_grow);
+}
+
+static tb_status add_exact(wave *w, double t)
+{
+    double y = 0, dy = 0;
+    tb_modal_step(w->modal, w->final, t, &y, &dy);
+    return wave_add(w, t, y, dy);
+}
+
+/* Samples from t = 0 to the horizon, spaced to resolve every mode while it matters. */
+static tb_status modal_samples(wave *w, const char **why)
+{
+    const tb_modal *m = w->modal;
+    double floor = ALIVE * w->scale;
+    double t_end = horizon(m, TAIL * (w->final != 0 ? fabs(w->final) : w->scale));
+    double f0 = fastest_alive(m, 0, floor);
+    double h_first = f0 > 0 ? KAPPA / f0 : t_end / 100;
+    double t = 0;
+    tb_status st = add_exact(w, 0);
+    while (!st && t < t_end) {
+        if (w->count >= TB_STEP_MAX_SAMPLES) {
+            *why = TOO_MANY;
+            return TB_OK;
+        }
+        double f = fastest_alive(m, t, floor);
+        double h = fmax(RHO * t, h_first);
+        if (f > 0)
+            h = fmin(h, KAPPA / f);
+        t = fmin(t + h, t_end);
+        st = add_exact(w, t);
     }
     return st;
 }
 
-/* First time z (normalised response) reaches level, interpolated; -1 if never. */
-static double first_reach(const double *t, const double *z, size_t count, double level)
+static int by_value(const void *pa, const void *pb)
 {
-    for (size_t k = 1; k < count; k++)
-        if (z[k] >= level && z[k - 1] < level)
-            return t[k - 1] + (t[k] - t[k - 1]) * (level - z[k - 1]) / (z[k] - z[k - 1]);
-    return -1;
+    double a = *(const double *)pa, b = *(const double *)pb;
+    return (a > b) - (a < b);
 }
 
-/* Peak, overshoot, 10-90 % rise and 2 % settling of the samples. */
-static void figures(tb_step_figures *fig, const double *t, double *z, size_t count)
+/* Angular frequencies at which the sum is checked: |s_k| of every pole (and |Im s_k|
+ * of an oscillating one), and two per decade from 1/100 of the slowest to 100 times
+ * the fastest; sorted. *count of them into w (2 m->count + 64 entries). */
+static void check_omegas(const tb_modal *m, double *w, size_t *count)
 {
-    double final = fig->final_value;
-    size_t peak = 0;
-    for (size_t k = 0; k < count; k++) {
-        z[k] /= final; /* normalised in place (y is rewritten below) */
-        if (z[k] > z[peak])
-            peak = k;
+    size_t n = 0;
+    double lo = INFINITY, hi = 0;
+    for (size_t k = 0; k < m->count; k++) {
+        double mag = cabs(m->s[k]);
+        if (cimag(m->s[k]) < 0 || mag == 0)
+            continue;
+        lo = fmin(lo, mag);
+        hi = fmax(hi, mag);
+        w[n++] = mag;
+        if (cimag(m->s[k]) > fabs(creal(m->s[k])))
+            w[n++] = cimag(m->s[k]);
     }
-    fig->has_peak = true;
-    fig->peak_value = z[peak] * final;
-    fig->peak_s = t[peak];
-    fig->has_overshoot = true;
-    fig->overshoot_pct = z[peak] > 1 ? 100.0 * (z[peak] - 1) : 0;
-    double t10 = first_reach(t, z, count, 0.1), t90 = first_reach(t, z, count, 0.9);
-    fig->has_rise = t10 >= 0 && t90 >= t10;
-    fig->rise_s = fig->has_rise ? t90 - t10 : 0;
-    size_t last_out = 0;
-    for (size_t k = 0; k < count; k++)
-        if (fabs(z[k] - 1) > 0.02)
-            last_out = k;
-    fig->has_settling = last_out + 1 < count;
-    if (fig->has_settling && last_out > 0) { /* where |z - 1| meets 0.02 on the last exit */
-        double a = fabs(z[last_out] - 1), b = fabs(z[last_out + 1] - 1);
-        double frac = a > b ? (a - 0.02) / (a - b) : 1.0;
-        fig->settling_s = t[last_out] + frac * (t[last_out + 1] - t[last_out]);
-    } else {
-        fig->settling_s = fig->has_settling ? t[last_out + 1] : 0;
-    }
-    for (size_t k = 0; k < count; k++)
-        z[k] *= final;
+    for (double x = lo / 100; hi > 0 && x <= hi * 100 && n < 2 * m->count + 64; x *= sqrt(10.0))
+        w[n++] = x;
+    qsort(w, n, sizeof(double), by_value);
+    *count = n;
 }
 
-tb_status tb_step_run(tb_probe *probe, tb_result *res)
+/* Largest |H(jw) - sum| / max(scale, |H(jw)|) over the check frequencies, H from a fresh
+ * factorization of M(jw) by the probe (a frequency where M is singular, a pole on the
+ * axis, is skipped); scale is the size of the step response. x: n complex workspace. */
+static tb_status modal_check(tb_probe *probe, const tb_modal *m, double d0, double scale,
+                             double complex *x, double *worst)
 {
     const tb_mna *mna = probe->mna;
-    tb_step_figures *fig = &res->step;
-    *fig = (tb_step_figures){.why_absent = "no .io directive: no input to step"};
-    if (!mna->has_io)
-        return TB_OK;
-    fig->why_absent = "no closed-loop poles to choose the time step from (more unknowns than the pole limit?)";
-    if (!res->stab || !res->stab->has_poles)
-        return TB_OK;
-    double t_end = span(res);
-    if (!(t_end > 0) || !isfinite(t_end))
-        return TB_OK;
-    double want = ceil(2.0 * t_end * res->stab->fastest_rad_s);
-    size_t steps = want > TB_STEP_MAX_STEPS ? TB_STEP_MAX_STEPS
-                   : want > TB_STEP_STEPS  ? (size_t)want
-                                           : TB_STEP_STEPS;
-    double h = t_end / (double)steps;
-    stepper s = {.mna = mna, .solver = tb_probe_take_solver(probe)};
+    double *omegas = tb_malloc(2 * m->count + 64, sizeof(double));
+    if (!omegas)
+        return TB_ERR_NOMEM;
+    size_t count = 0;
+    check_omegas(m, omegas, &count);
     tb_status st = TB_OK;
-    {
-        s.Mx = tb_malloc(2 * mna->nnz, sizeof(double));
-        s.x = tb_malloc(mna->n, sizeof(double complex));
-        s.r = tb_malloc(mna->n, sizeof(double complex));
-        res->step_t = tb_malloc(steps + 1, sizeof(double));
-        res->step_y = tb_malloc(steps + 1, sizeof(double));
-        st = s.Mx && s.x && s.r && res->step_t && res->step_y ? TB_OK : TB_ERR_NOMEM;
+    *worst = 0;
+    for (size_t i = 0; i < count && !st; i++) {
+        if (i > 0 && omegas[i] <= omegas[i - 1] * (1 + 1e-3))
+            continue;
+        size_t culprit = 0;
+        st = tb_probe_factor(probe, omegas[i] / TB_TWO_PI, false, &culprit);
+        if (st == TB_ERR_SINGULAR) {
+            st = TB_OK;
+            continue;
+        }
+        memset(x, 0, mna->n * sizeof(double complex));
+        tb_svec_axpy(&mna->b, 1.0, x);
+        if (st || (st = tb_solver_solve(probe->solver, x, 1) ? TB_ERR_NUMERIC : TB_OK))
+            break;
+        double complex H = tb_svec_dot(&mna->c, x);
+        double complex sum = tb_modal_transfer(m, d0, CMPLX(0, omegas[i]));
+        double size = fmax(scale, cabs(H));
+        *worst = fmax(*worst, size > 0 ? cabs(H - sum) / size : cabs(H - sum));
     }
-    if (st == TB_OK)
-        st = integrate(&s, h, res->step_y, steps);
-    stepper_free(&s);
+    tb_free(omegas);
+    return st;
+}
+
+/* The exact route. On return *why is NULL when w holds the waveform; otherwise the
+ * method the caller falls back to, or a reason the response is absent. */
+static tb_status modal_route(tb_probe *probe, double final, tb_modal *m, wave *w, const char **why)
+{
+    tb_status st = tb_modal_compute(probe->mna, m);
+    *why = st == TB_ERR_NUMERIC ? METHOD_DEFECT : NULL;
+    if (st)
+        return st == TB_ERR_NUMERIC ? TB_OK : st;
+    if (m->count == 0) {
+        *why = NO_DYNAMICS;
+        return TB_OK;
+    }
+    double d0 = final, terms = 0; /* y(0+) = A(0) + sum r_k/s_k */
+    for (size_t k = 0; k < m->count; k++) {
+        d0 += creal(m->r[k] / m->s[k]);
+        terms += cabs(m->r[k] / m->s[k]);
+    }
+    w->scale = fmax(fabs(final), fabs(d0));
+    if (w->scale <= 1e-9 * terms) /* no DC gain and no jump (d0 only rounding): a band-pass response */
+        w->scale = terms;
+    double complex *x = tb_malloc(probe->mna->n, sizeof(double complex));
+    double err = 0;
+    st = x ? modal_check(probe, m, d0, w->scale, x, &err) : TB_ERR_NOMEM;
+    tb_free(x);
+    if (st == TB_ERR_NOMEM)
+        return st;
+    err += 1e-15 * terms / w->scale; /* rounding in the sum of the modes */
+    if (st || !(err <= TB_STEP_TOL)) {
+        *why = METHOD_CHECK;
+        return TB_OK;
+    }
+    *w = (wave){.modal = m, .final = final, .scale = w->scale, .error = err, .method = METHOD_MODES};
+    w->settled = true;
+    for (size_t k = 0; k < m->count; k++)
+        w->settled = w->settled && creal(m->s[k]) < 0;
+    return modal_samples(w, why);
+}
+
+/* ---- the time-stepping route --------------------------------------------- */
+
+/* Accumulated output error (relative to the scale) that time stepping may have. */
+static const double TRANSIENT_TOL = 5e-4;
+/* Local error tolerance per step, relative to each unknown's size. */
+static const double LOCAL_TOL = 1e-5;
+
+/* Drops the flat tail after the output settled: keeps samples up to twice the time
+ * of the last sample farther than TAIL of the scale from the final value. */
+static void trim(wave *w)
+{
+    size_t last = 0;
+    for (size_t k = 0; k < w->count; k++)
+        if (fabs(w->y[k] - w->final) > TAIL * w->scale)
+            last = k;
+    if (last + 1 >= w->count)
+        return;
+    double keep = 2 * w->t[last + 1];
+    size_t k = last + 1;
+    while (k + 1 < w->count && w->t[k] < keep)
+        k++;
+    w->count = k + 1;
+}
+
+/* One TR-BDF2 run (transient.c) into w, its error estimate relative to the scale. */
+static tb_status transient_once(tb_probe *probe, const tb_transient_limits *lim, bool has_final, double final,
+                                wave *w)
+{
+    tb_transient tr = {0};
+    tb_status st = tb_transient_run(probe->mna, tb_probe_take_solver(probe), lim, &tr);
+    if (st)
+        return st;
+    *w = (wave){.count = tr.count, .cap = {tr.count, tr.count, tr.count}, .t = tr.t, .y = tr.y,
+                .dy = tr.dy, .final = has_final ? final : 0, .settled = tr.settled && has_final};
+    double top = 0;
+    for (size_t k = 0; k < w->count; k++)
+        top = fmax(top, fabs(w->y[k]));
+    w->scale = fmax(fabs(w->final), top);
+    if (w->scale == 0)
+        w->scale = 1;
+    w->error = tr.y_error / w->scale;
+    return TB_OK;
+}
+
+/* TR-BDF2 on the probe's solver: first step from the top of the sweep, at most
+ * 1e4 / (2 pi f_lo) long; when the summed error estimate exceeds TRANSIENT_TOL, again
+ * with a local tolerance 10 times tighter (twice at most, and not after a run that used
+ * up its steps). *why as modal_route. */
+static tb_status transient_route(tb_probe *probe, const tb_result *res, bool has_final, double final,
+                                 wave *w, const char **why)
+{
+    double f_lo = res->freqs[0], f_hi = res->freqs[res->npoints - 1];
+    tb_transient_limits lim = {.h_first = 1e-3 / (TB_TWO_PI * f_hi),
+                               .t_cap = 1e4 / (TB_TWO_PI * f_lo),
+                               .tol = LOCAL_TOL,
+                               .max_steps = TB_STEP_MAX_STEPS};
+    tb_status st = TB_OK;
+    *why = NULL;
+    for (int attempt = 0; attempt < 3 && !st; attempt++, lim.tol /= 10) {
+        wave_free(w);
+        st = transient_once(probe, &lim, has_final, final, w);
+        if (!st && (w->error <= TRANSIENT_TOL || w->count > lim.max_steps))
+            break; /* good enough, or out of steps: a tighter run would not get further */
+    }
     if (st == TB_ERR_SINGULAR || st == TB_ERR_NUMERIC) {
-        fig->why_absent = "the time-step matrix G + 2C/h is singular";
+        *why = "time stepping failed: the step size fell below the resolution of the time axis";
         return TB_OK;
     }
     if (st)
         return st;
-    for (size_t k = 0; k <= steps; k++)
-        res->step_t[k] = h * (double)k;
-    fig->computed = true;
-    fig->why_absent = NULL;
-    fig->points = steps + 1;
-    fig->dt_s = h;
-    fig->t_end_s = t_end;
-    fig->final_value = res->has_dc ? creal(res->dc[0].A) : res->step_y[steps];
-    bool stable = res->stab && res->stab[0].verdict == TB_VERDICT_STABLE;
-    if (stable && fig->final_value != 0 && isfinite(fig->final_value))
-        figures(fig, res->step_t, res->step_y, steps + 1);
+    if (!(w->error <= TRANSIENT_TOL)) {
+        *why = "the time-stepping error estimate exceeds the tolerance: the waveform is not trustworthy";
+        return TB_OK;
+    }
+    if (w->settled)
+        trim(w);
     return TB_OK;
+}
+
+/* ---- figures ------------------------------------------------------------- */
+
+/* z(t) = y(t)/A(0) - level, or |z(t) - 1| - level (band). */
+typedef struct {
+    const wave *w;
+    double level;
+    bool band;
+} level_fn;
+
+static tb_status level_at(void *ctx, double t, double *out)
+{
+    const level_fn *f = ctx;
+    double z = wave_at(f->w, t) / f->w->final;
+    *out = f->band ? fabs(z - 1) - f->level : z - f->level;
+    return TB_OK;
+}
+
+static tb_status minus_z(void *ctx, double t, double *out)
+{
+    const wave *w = ctx;
+    *out = -wave_at(w, t) / w->final;
+    return TB_OK;
+}
+
+/* z of sample k. */
+static double z_at(const wave *w, size_t k)
+{
+    return w->y[k] / w->final;
+}
+
+/* First time z reaches level (0 when it starts there), refined between the samples that
+ * bracket it; false when it never does. */
+static bool first_reach(const wave *w, double level, double *at)
+{
+    for (size_t k = 0; k < w->count; k++) {
+        if (z_at(w, k) < level)
+            continue;
+        *at = 0;
+        if (k == 0)
+            return true;
+        level_fn f = {w, level, false};
+        double a = w->t[k - 1], b = w->t[k];
+        if (tb_brent_root(level_at, &f, a, b, z_at(w, k - 1) - level, z_at(w, k) - level, 1e-14 * b, 200, at))
+            *at = b;
+        return true;
+    }
+    return false;
+}
+
+/* Peak: the largest sample, refined by golden section between its neighbours. */
+static void peak(const wave *w, tb_step_figures *fig)
+{
+    size_t best = 0;
+    for (size_t k = 1; k < w->count; k++)
+        if (z_at(w, k) > z_at(w, best))
+            best = k;
+    double t = w->t[best], z = z_at(w, best);
+    if (best > 0 && best + 1 < w->count) {
+        double tm = t, mz = -z;
+        if (!tb_golden_min(minus_z, (void *)w, w->t[best - 1], w->t[best + 1], 1e-13 * t, 200, &tm, &mz) &&
+            -mz > z) {
+            t = tm;
+            z = -mz;
+        }
+    }
+    fig->has_peak = true;
+    fig->peak_value = z * w->final;
+    fig->peak_s = t;
+    fig->has_overshoot = true;
+    fig->overshoot_pct = z > 1 ? 100.0 * (z - 1) : 0;
+}
+
+/* 2 % settling: where |z - 1| last falls to 0.02, refined between the samples. */
+static void settling(const wave *w, tb_step_figures *fig)
+{
+    size_t last = 0;
+    bool out = false;
+    for (size_t k = 0; k < w->count; k++)
+        if (fabs(z_at(w, k) - 1) > 0.02) {
+            last = k;
+            out = true;
+        }
+    fig->has_settling = w->settled && last + 1 < w->count;
+    fig->settling_s = 0;
+    if (!fig->has_settling || !out)
+        return;
+    level_fn f = {w, 0.02, true};
+    double a = w->t[last], b = w->t[last + 1];
+    if (tb_brent_root(level_at, &f, a, b, fabs(z_at(w, last) - 1) - 0.02, fabs(z_at(w, last + 1) - 1) - 0.02,
+                      1e-14 * b, 200, &fig->settling_s))
+        fig->settling_s = b;
+}
+
+static void figures(const wave *w, tb_step_figures *fig)
+{
+    peak(w, fig);
+    double t10 = 0, t90 = 0;
+    fig->has_rise = first_reach(w, 0.1, &t10) && first_reach(w, 0.9, &t90);
+    fig->rise_s = fig->has_rise ? t90 - t10 : 0;
+    settling(w, fig);
+}
+
+/* ---- the run --------------------------------------------------------------- */
+
+/* Why a computed waveform has no figures (NULL: it has them). */
+static const char *no_figures(const tb_result *res, bool has_final, const wave *w)
+{
+    if (res->stab[0].verdict != TB_VERDICT_STABLE)
+        return "figures only for a stable closed loop";
+    if (!has_final)
+        return "no DC solution (a closed-loop pole at s = 0): no final value";
+    if (w->final == 0)
+        return "the DC gain is zero: no final value to measure against";
+    if (!w->settled)
+        return "the response had not settled at the end of the run";
+    return NULL;
+}
+
+/* The samples and figures of w into res (the samples change owner). */
+static void keep(tb_result *res, bool has_final, wave *w)
+{
+    tb_step_figures *fig = &res->step;
+    *fig = (tb_step_figures){.computed = true, .method = w->method, .error_estimate = w->error,
+                             .points = w->count, .t_end_s = w->t[w->count - 1]};
+    fig->final_value = has_final ? w->final : w->y[w->count - 1];
+    fig->why_no_figures = no_figures(res, has_final, w);
+    if (!fig->why_no_figures)
+        figures(w, fig);
+    res->step_t = w->t;
+    res->step_y = w->y;
+    w->t = w->y = NULL;
+}
+
+static bool has_capacitance(const tb_mna *mna)
+{
+    for (size_t k = 0; k < mna->nnz; k++)
+        if (mna->Cx[k] != 0)
+            return true;
+    return false;
+}
+
+/* The route: the sum over the modes when the poles are known, else (or when it fails
+ * its check) time stepping. *why: NULL when w holds a waveform, else the reason. */
+static tb_status compute(tb_probe *probe, const tb_result *res, bool has_final, double final, tb_modal *m,
+                         wave *w, const char **why)
+{
+    const char *method = res->stab[0].has_poles ? METHOD_NODC : METHOD_LIMIT;
+    tb_status st = TB_OK;
+    if (!has_capacitance(probe->mna)) {
+        *why = NO_DYNAMICS;
+        return TB_OK;
+    }
+    if (res->stab[0].has_poles && has_final) {
+        st = modal_route(probe, final, m, w, why);
+        if (st || !*why || *why == NO_DYNAMICS || *why == TOO_MANY)
+            return st;
+        wave_free(w);
+        method = *why;
+    }
+    st = transient_route(probe, res, has_final, final, w, why);
+    w->method = method;
+    return st;
+}
+
+tb_status tb_step_run(tb_probe *probe, tb_result *res)
+{
+    tb_step_figures *fig = &res->step;
+    *fig = (tb_step_figures){.why_absent = "no .io directive: no input to step"};
+    if (!probe->mna->has_io)
+        return TB_OK;
+    fig->why_absent = "the stability analysis did not run";
+    if (!res->stab || res->nloops == 0)
+        return TB_OK;
+    bool has_final = res->has_dc;
+    double final = has_final ? creal(res->dc[0].A) : 0;
+    tb_modal m = {0};
+    wave w = {0};
+    const char *why = NULL;
+    tb_status st = compute(probe, res, has_final, final, &m, &w, &why);
+    if (!st && !why && w.count > 0)
+        keep(res, has_final, &w);
+    else if (!st)
+        fig->why_absent = why ? why : "no samples";
+    wave_free(&w);
+    tb_modal_free(&m);
+    return st;
 }

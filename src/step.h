@@ -1,23 +1,31 @@
-/* src/step.h: closed-loop step response in the time domain by the trapezoidal rule */
+/* src/step.h: closed-loop step response: exact over the modes, else TR-BDF2 with error control; its figures */
 #ifndef TB_STEP_H
 #define TB_STEP_H
 
 #include "probe.h"
 #include "result.h"
 
-/* Intervals of the step response: at least TB_STEP_STEPS, more so that h |s| <= 1/2
- * for the fastest closed-loop pole, at most TB_STEP_MAX_STEPS. */
-#define TB_STEP_STEPS 4000
-#define TB_STEP_MAX_STEPS 40000
-/* Substeps of the first interval (see step.c). */
-#define TB_STEP_START 64
+/* Largest error estimate (relative to the larger of |A(0)| and |y(0+)|) of a
+ * waveform whose figures are given; the modal sum must also pass its check
+ * against fresh solves of H(jw) to this tolerance. */
+#define TB_STEP_TOL 1e-6
+/* Samples at most (beyond: absent, with the reason). */
+#define TB_STEP_MAX_SAMPLES 200000
+/* Accepted TR-BDF2 steps at most. */
+#define TB_STEP_MAX_STEPS 100000
 
 /* Fills res->step, res->step_t and res->step_y: the response of c'x to a unit
- * step of b, G x + C dx/dt = b u(t), on a real factorization of G + (2/h) C
- * (KLU with zero imaginary parts) by the probe's solver (the same symbolic analysis). The span is 10 time constants of
- * the slowest closed-loop pole (res->stab[0].poles); absent (with the reason)
- * when the poles were not computed. Errors: TB_ERR_NOMEM, TB_ERR_NUMERIC; a singular
- * matrix leaves the response absent with the reason. */
+ * step of b, G x + C dx/dt = b u(t), x(0-) = 0. With closed-loop poles
+ * (res->stab[0].has_poles) and a DC solution, the exact sum over the modes of
+ * the pencil (modal.c), accepted only when it reproduces H(jw) from fresh
+ * factorizations by the probe at every pole and over the poles' span;
+ * otherwise TR-BDF2 with error control (transient.c) on real factorizations of
+ * G + aC by the probe's solver (the same symbolic analysis). Figures (peak,
+ * overshoot, rise, settling) are refined on the exact function or on the
+ * cubic through the samples and their slopes; they are given only for a
+ * trustworthy, settled waveform of a stable loop with non-zero DC gain.
+ * Errors: TB_ERR_NOMEM; a singular or failed computation leaves the response
+ * absent with the reason. */
 tb_status tb_step_run(tb_probe *probe, tb_result *res);
 
 #endif

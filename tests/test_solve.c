@@ -1,6 +1,7 @@
 /* tests/test_solve.c: the KLU wrapper: refactor reuses the pivot order, a degraded
- * refactor falls back to a pivoting factorization, singular matrices name the column.
- * Expected solutions by Cramer's rule on 2x2 systems (exact closed form). */
+ * refactor falls back to a pivoting factorization, singular matrices name the column, a real
+ * factorization lives beside the complex one. Expected solutions by Cramer's rule on 2x2
+ * systems (exact closed form). */
 #include "testutil.h"
 
 #include "mna.h"
@@ -90,12 +91,40 @@ static void test_solve_singular_names_column(void **state)
     tb_solver_free(s);
 }
 
+/* A real factorization beside the complex one: each solves its own matrix (Cramer's rule);
+ * a singular real matrix names its column; solving before any real factorization is refused. */
+static void test_solve_real_beside_complex(void **state)
+{
+    (void)state;
+    tb_mna m = two_by_two();
+    tb_solver *s = NULL;
+    double Mx[8];
+    size_t culprit = 99;
+    assert_int_equal(tb_solver_new(&m, &s), TB_OK);
+    double B[2] = {1, 2};
+    assert_int_equal(tb_solver_solve_real(s, B, 1), TB_ERR_NUMERIC);
+    values(4, 1, 1, 3, Mx);
+    assert_int_equal(tb_solver_factor(s, Mx, &culprit), TB_OK);
+    double Ax[4] = {2, 5, 7, 1}; /* [[2, 7], [5, 1]] in CSC order */
+    assert_int_equal(tb_solver_factor_real(s, Ax, &culprit), TB_OK);
+    assert_int_equal(tb_solver_solve_real(s, B, 1), TB_OK);
+    double det = 2 * 1 - 7 * 5;
+    tu_close(B[0], (1 * 1 - 7 * 2) / det, 1e-12);
+    tu_close(B[1], (2 * 2 - 5 * 1) / det, 1e-12);
+    check_solution(s, 4, 1, 1, 3); /* the complex factorization is untouched */
+    double singular_Ax[4] = {1, 2, 0, 0}; /* column 1 is zero */
+    assert_int_equal(tb_solver_factor_real(s, singular_Ax, &culprit), TB_ERR_SINGULAR);
+    assert_int_equal(culprit, 1);
+    tb_solver_free(s);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_solve_refactor_keeps_pivots),
         cmocka_unit_test(test_solve_degraded_refactor_pivots_again),
         cmocka_unit_test(test_solve_singular_names_column),
+        cmocka_unit_test(test_solve_real_beside_complex),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
