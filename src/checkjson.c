@@ -9,12 +9,19 @@
 #include "alloc.h"
 #include "checkrun.h"
 #include "expect.h"
+#include "report.h"
 
 /* Format tag of the documents written here (docs/check.md). */
 #define FORMAT_NAME "tbeta-check"
 #define FORMAT_VERSION 1
 
 static const char *const status_word[] = {"pass", "fail", "error"};
+
+/* Text from a netlist or the file system, its odd bytes read as every writer reads them. */
+static json_t *text(const char *s)
+{
+    return tb_report_json_text(s);
+}
 
 /* ---- building ---------------------------------------------------------------- */
 
@@ -41,11 +48,11 @@ static json_t *loop_json(const tb_check_loop *lp, bool reasons)
     json_t *loop = json_object();
     json_t *figs = json_object();
     json_t *absent = json_object();
-    bool ok = loop && figs && absent && put(loop, "name", json_string(lp->name));
+    bool ok = loop && figs && absent && put(loop, "name", text(lp->name));
     for (size_t f = 0; ok && f < tb_figure_count(); f++) {
         const tb_check_figure *fig = &lp->figures[f];
         ok = put(figs, tb_figure_at(f)->name, figure_value(fig->figure, fig->present, fig->value)) &&
-             (fig->present || !reasons || put(absent, tb_figure_at(f)->name, json_string(fig->why)));
+             (fig->present || !reasons || put(absent, tb_figure_at(f)->name, text(fig->why)));
     }
     ok = ok && put(loop, "figures", json_incref(figs)) &&
          (!reasons || put(loop, "absent", json_incref(absent)));
@@ -73,9 +80,9 @@ static json_t *loops_json(const tb_check_entry *e, bool reasons)
 static json_t *expect_json(const tb_check_expect *x)
 {
     json_t *o = json_object();
-    if (o && put(o, "target", json_string(x->target)) && put(o, "line", json_integer(x->line)) &&
+    if (o && put(o, "target", text(x->target)) && put(o, "line", json_integer(x->line)) &&
         put(o, "pass", json_boolean(x->pass)) && put(o, "value", figure_value(x->figure, x->present, x->value)) &&
-        put(o, "measured", json_string(x->measured)) && put(o, "bound", json_string(x->bound)))
+        put(o, "measured", text(x->measured)) && put(o, "bound", text(x->bound)))
         return o;
     json_decref(o);
     return NULL;
@@ -84,8 +91,8 @@ static json_t *expect_json(const tb_check_expect *x)
 static json_t *drift_json(const tb_check_drift *d)
 {
     json_t *o = json_object();
-    if (o && put(o, "target", json_string(d->target)) && put(o, "was", json_string(d->was)) &&
-        put(o, "now", json_string(d->now)))
+    if (o && put(o, "target", text(d->target)) && put(o, "was", text(d->was)) &&
+        put(o, "now", text(d->now)))
         return o;
     json_decref(o);
     return NULL;
@@ -95,11 +102,11 @@ static json_t *drift_json(const tb_check_drift *d)
 static json_t *entry_json(const tb_check_entry *e, bool full)
 {
     json_t *o = json_object();
-    bool ok = o && put(o, "path", json_string(e->path)) && put(o, "rel", json_string(e->rel));
+    bool ok = o && put(o, "path", text(e->path)) && put(o, "rel", text(e->rel));
     if (ok && full) {
         ok = put(o, "status", json_string(status_word[e->status])) &&
-             put(o, "errors", e->errors ? json_string(e->errors) : json_null()) &&
-             put(o, "warnings", e->warnings ? json_string(e->warnings) : json_null());
+             put(o, "errors", e->errors ? text(e->errors) : json_null()) &&
+             put(o, "warnings", e->warnings ? text(e->warnings) : json_null());
         json_t *xs = json_array();
         json_t *ds = json_array();
         ok = ok && xs && ds;
@@ -187,6 +194,21 @@ static json_t *load_doc(const char *path, char *why, size_t why_size, tb_status 
     return root;
 }
 
+/* true when raw, its odd bytes read as the writers read them (tb_report_char), is the
+ * saved text: a name with stray bytes matches its own record. */
+static bool same_text(const char *raw, const char *saved)
+{
+    uint32_t cp = 0;
+    for (size_t n; (n = tb_report_char(raw, &cp)) != 0; raw += n) {
+        char enc[4];
+        size_t len = tb_report_utf8(cp, enc);
+        if (strncmp(saved, enc, len) != 0)
+            return false;
+        saved += len;
+    }
+    return *saved == '\0';
+}
+
 /* The record whose key ("path" or "rel") is value in a loaded document; NULL
  * when none or, for "rel", when several share it. */
 static json_t *find_by(json_t *root, const char *key, const char *value)
@@ -197,7 +219,7 @@ static json_t *find_by(json_t *root, const char *key, const char *value)
     json_array_foreach(json_object_get(root, "netlists"), i, n)
     {
         const char *p = json_string_value(json_object_get(n, key));
-        if (p && strcmp(p, value) == 0) {
+        if (p && same_text(value, p)) {
             if (found)
                 return NULL;
             found = n;
@@ -221,7 +243,7 @@ static json_t *find_loop(json_t *netlist, const char *name)
     json_array_foreach(json_object_get(netlist, "loops"), i, lp)
     {
         const char *n = json_string_value(json_object_get(lp, "name"));
-        if (n && strcmp(n, name) == 0)
+        if (n && same_text(name, n))
             return lp;
     }
     return NULL;

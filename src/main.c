@@ -1,12 +1,14 @@
 /* src/main.c: the tbeta command line: subcommands, options, diagnostics on stderr, exit codes */
 #include <errno.h>
 #include <math.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "tbeta.h"
 #include "checkrun.h" /* the regression runner (tbeta check) */
+#include "report.h"   /* tb_report_escape and how odd bytes read */
 
 /* Exit codes, one table: 0 done; 1 done but an expectation or threshold
  * failed (used by later subcommands); 2 usage error, unreadable or malformed
@@ -80,9 +82,38 @@ typedef struct {
     const char *table; /* sweep --table: a feedback table instead of the loop table */
 } args;
 
+/* Text on stderr with every control character written \xHH (tb_report_escape), except, with
+ * lines, newline and tab: diagnostics keep their lines and their carets' alignment. */
+static void put_text(const char *s, bool lines)
+{
+    uint32_t cp = 0;
+    for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n) {
+        char enc[4];
+        if (tb_report_is_control(cp) && !(lines && (cp == '\n' || cp == '\t')))
+            fprintf(stderr, "\\x%02x", (unsigned)cp);
+        else
+            fwrite(enc, 1, tb_report_utf8(cp, enc), stderr);
+    }
+}
+
+/* One message on stderr, "tbeta: " first: a file name or a netlist's name in it cannot break
+ * the line or drive the terminal. */
+__attribute__((format(printf, 1, 2))) static void complain(const char *fmt, ...)
+{
+    char msg[4096];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    fputs("tbeta: ", stderr);
+    put_text(msg, false);
+    fputc('\n', stderr);
+}
+
 static int usage_error(const char *msg, const char *arg, const char *usage)
 {
-    fprintf(stderr, "tbeta: %s%s%s\n%s", msg, arg ? " " : "", arg ? arg : "", usage);
+    complain("%s%s%s", msg, arg ? " " : "", arg ? arg : "");
+    fputs(usage, stderr);
     return EXIT_BAD_INPUT;
 }
 
@@ -184,7 +215,7 @@ static void print_diags(const tb_diag *diag)
     char buf[4096];
     for (size_t i = 0; i < tb_diag_count(diag); i++) {
         size_t need = tb_diag_format(diag, i, buf, sizeof buf);
-        fputs(buf, stderr);
+        put_text(buf, true);
         if (need >= sizeof buf)
             fputs("...\n", stderr);
     }
@@ -198,23 +229,28 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
         tb_step_figures fig;
         tb_step_figures_get(res, &fig);
         if (!fig.computed) {
-            fprintf(stderr, "tbeta: %s: no step response: %s\n", a->netlist,
-                    fig.why_absent ? fig.why_absent : "not computed");
+            complain("%s: no step response: %s", a->netlist, fig.why_absent ? fig.why_absent : "not computed");
             return TB_ERR_NOT_FOUND;
         }
         return tb_report_step_csv(res, stdout);
     }
     size_t l = 0;
     if (a->loop && tb_circuit_find_loop(ckt, a->loop, &l) != TB_OK) {
-        fprintf(stderr, "tbeta: no .loop at '%s' in %s; the loops are:", a->loop, a->netlist);
-        for (size_t i = 0; i < tb_circuit_loop_count(ckt); i++)
-            fprintf(stderr, " %s", tb_circuit_loop_name(ckt, i));
+        fputs("tbeta: no .loop at '", stderr);
+        put_text(a->loop, false);
+        fputs("' in ", stderr);
+        put_text(a->netlist, false);
+        fputs("; the loops are:", stderr);
+        for (size_t i = 0; i < tb_circuit_loop_count(ckt); i++) {
+            fputc(' ', stderr);
+            put_text(tb_circuit_loop_name(ckt, i), false);
+        }
         fputc('\n', stderr);
         return TB_ERR_NOT_FOUND;
     }
     if (a->table && tb_report_feedback_csv(ckt, res, l, a->table, stdout) == TB_ERR_NOT_FOUND) {
-        fprintf(stderr, "tbeta: %s has no table '%s' (breakdown needs .ideal and .io, zport:NAME a .zport, "
-                        "break a .break)\n", a->netlist, a->table);
+        complain("%s has no table '%s' (breakdown needs .ideal and .io, zport:NAME a .zport, break a .break)",
+                 a->netlist, a->table);
         return TB_ERR_NOT_FOUND;
     }
     if (a->table)
@@ -232,13 +268,13 @@ static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const ch
             continue;
         const char *name = tb_circuit_loop_name(ckt, l);
         if (st.verdict != TB_VERDICT_STABLE)
-            fprintf(stderr, "tbeta: %s: loop %s: verdict %s\n", netlist, name, tb_verdict_str(st.verdict));
+            complain("%s: loop %s: verdict %s", netlist, name, tb_verdict_str(st.verdict));
         if (!st.pm_ok)
-            fprintf(stderr, "tbeta: %s: loop %s: phase margin %.3f deg is below %g deg\n", netlist, name,
-                    st.phase_margin_deg, st.pm_min_deg);
+            complain("%s: loop %s: phase margin %.3f deg is below %g deg", netlist, name, st.phase_margin_deg,
+                     st.pm_min_deg);
         if (!st.gm_ok)
-            fprintf(stderr, "tbeta: %s: loop %s: gain margin %+.3f dB is within %g dB of 0 dB\n", netlist,
-                    name, st.gain_margin_db, st.gm_min_db);
+            complain("%s: loop %s: gain margin %+.3f dB is within %g dB of 0 dB", netlist, name,
+                     st.gain_margin_db, st.gm_min_db);
         ok = ok && st.pm_ok && st.gm_ok && st.verdict == TB_VERDICT_STABLE;
     }
     const tb_census_entry *e = NULL;
@@ -247,8 +283,8 @@ static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const ch
     for (size_t i = 0; i < count; i++) {
         if (e[i].pm_ok)
             continue;
-        fprintf(stderr, "tbeta: %s: local loop at %s: phase margin %.3f deg is below the threshold\n", netlist,
-                e[i].source, e[i].phase_margin_deg);
+        complain("%s: local loop at %s: phase margin %.3f deg is below the threshold", netlist, e[i].source,
+                 e[i].phase_margin_deg);
         ok = false;
     }
     return ok;
@@ -260,7 +296,7 @@ static int run(const args *a)
     tb_circuit *ckt = NULL;
     tb_result *res = NULL;
     if (!diag) {
-        fputs("tbeta: out of memory\n", stderr);
+        complain("out of memory");
         return EXIT_BAD_INPUT;
     }
     tb_status st = tb_circuit_read(a->netlist, diag, &ckt);
@@ -271,9 +307,9 @@ static int run(const args *a)
         st = write_output(a, ckt, res);
     /* write_output has said what is missing (TB_ERR_NOT_FOUND); diagnostics say the rest */
     if (st != TB_OK && st != TB_ERR_INPUT && st != TB_ERR_NOT_FOUND && tb_diag_errors(diag) == 0)
-        fprintf(stderr, "tbeta: %s: %s\n", a->netlist, tb_status_str(st));
+        complain("%s: %s", a->netlist, tb_status_str(st));
     if (fflush(stdout) != 0 && st == TB_OK) {
-        fprintf(stderr, "tbeta: writing the output failed\n");
+        complain("writing the output failed");
         st = TB_ERR_IO;
     }
     bool strict = a->strict || (ckt && tb_circuit_states_margins(ckt));
@@ -422,12 +458,12 @@ static bool write_file(const char *path, const tb_check_run *run,
 {
     FILE *f = fopen(path, "w");
     if (!f) {
-        fprintf(stderr, "tbeta: cannot write '%s': %s\n", path, strerror(errno));
+        complain("cannot write '%s': %s", path, strerror(errno));
         return false;
     }
     tb_status st = writer(run, f);
     if (fclose(f) != 0 || st != TB_OK) {
-        fprintf(stderr, "tbeta: writing '%s' failed\n", path);
+        complain("writing '%s' failed", path);
         return false;
     }
     return true;
@@ -440,19 +476,19 @@ static int check_fill(const check_args *a, tb_check_run **run)
     tb_status st = tb_check_collect(a->merge ? NULL : a->paths, a->merge ? 0 : a->count, &a->opt, run);
     for (size_t i = 0; st == TB_OK && a->merge && i < a->count; i++)
         if ((st = tb_check_merge(*run, a->paths[i], why, sizeof why)) != TB_OK)
-            fprintf(stderr, "tbeta: %s\n", why);
+            complain("%s", why);
     if (st == TB_OK && a->merge)
         tb_check_sort(*run);
     if (st == TB_OK && !a->merge && tb_check_count(*run) == 0 && a->opt.shard_count == 1) {
-        fprintf(stderr, "tbeta: no netlist matches '%s' under the paths given\n", a->opt.glob);
+        complain("no netlist matches '%s' under the paths given", a->opt.glob);
         return EXIT_BAD_INPUT;
     }
     if (st == TB_OK && !a->merge)
         st = tb_check_execute(*run);
     if (st == TB_OK && a->against && (st = tb_check_against(*run, a->against, why, sizeof why)) != TB_OK)
-        fprintf(stderr, "tbeta: %s\n", why);
-    if (st == TB_ERR_NOMEM)
-        fputs("tbeta: out of memory\n", stderr);
+        complain("%s", why);
+    else if (st == TB_ERR_NOMEM)
+        complain("out of memory");
     return st == TB_OK ? -1 : EXIT_BAD_INPUT;
 }
 
@@ -462,7 +498,7 @@ static int check_command(int argc, char **argv)
     tb_check_options_init(&a.opt);
     a.paths = calloc((size_t)argc, sizeof(char *));
     if (!a.paths) {
-        fputs("tbeta: out of memory\n", stderr);
+        complain("out of memory");
         return EXIT_BAD_INPUT;
     }
     tb_check_run *run = NULL;
@@ -472,7 +508,7 @@ static int check_command(int argc, char **argv)
     if (rc < 0) {
         for (size_t i = 0; i < tb_check_count(run); i++)
             if (tb_check_get(run, i)->errors)
-                fputs(tb_check_get(run, i)->errors, stderr);
+                put_text(tb_check_get(run, i)->errors, true);
         bool ok = tb_check_write_text(run, stdout) == TB_OK;
         ok = (!a.save || write_file(a.save, run, tb_check_write_save)) && ok;
         ok = (!a.json || write_file(a.json, run, tb_check_write_json)) && ok;

@@ -149,5 +149,52 @@ if xmllint --noout "$tmp/m.xml"; then ok; else bad "merge: junit"; fi
 expect merge-save 2 $tb check --merge "$tmp/base.json"
 has merge-save err "a --save file has no results"
 
+# ---- hostile and unlucky input (issue 12) -------------------------------------------------
+
+# lacks NAME FILE TEXT: FILE (out or err) does not contain TEXT.
+lacks() {
+    if grep -qF -- "$3" "$tmp/$2"; then bad "$1: '$3' in std$2"; sed 's/^/  | /' "$tmp/$2" | head -5; else ok; fi
+}
+
+# same NAME A B: files A and B are byte for byte the same.
+same() {
+    if cmp -s "$2" "$3"; then ok; else bad "$1: $2 and $3 differ"; fi
+}
+
+# 3. bytes that are not UTF-8 in a file name, a node and a source name: every writer takes
+# them (each such byte is the character of its value, U+0080..U+00FF), the baseline finds
+# its record again, and merge takes the JSON
+mkdir -p "$tmp/latin1"
+cp tests/cli/odd_bytes.net "$tmp/latin1/verst$(printf '\344')rker.net"
+expect odd-bytes 0 $tb check "$tmp/latin1" --json "$tmp/o.json" --junit "$tmp/o.xml" --save "$tmp/o-base.json"
+if $py - "$tmp/o.json" "$tmp/o-base.json" <<'PY'; then ok; else bad "odd-bytes: JSON"; fi
+import json, sys
+for f in sys.argv[1:]:
+    d = json.load(open(f, encoding="utf-8"))
+    n = d["netlists"][0]
+    assert n["path"].endswith("/verst\u00e4rker.net"), n["path"]
+    assert n["loops"][0]["name"] == "G\u00e41", n["loops"][0]["name"]
+PY
+if xmllint --noout "$tmp/o.xml" 2>"$tmp/err"; then ok; else bad "odd-bytes: xmllint"; head -3 "$tmp/err"; fi
+expect odd-bytes-against 0 $tb check "$tmp/latin1" --against "$tmp/o-base.json"
+lacks odd-bytes-against out "not in the baseline"
+expect odd-bytes-merge 0 $tb check --merge "$tmp/o.json" --json "$tmp/o2.json"
+same odd-bytes-merge "$tmp/o.json" "$tmp/o2.json"
+
+# 13. a file name holding a newline cannot forge a line, an escape sequence in a card does not
+# reach the terminal (stdout or stderr)
+mkdir -p "$tmp/forge"
+cp tests/check/regressed/twopole_opamp_follower.net "$tmp/forge/x
+pass   forged.net"
+printf 'escape in a loop name\nV1 in 0 AC 1\nE1 out 0 in 0 2\nR1 out 0 1k\n.loop E1\n.ac dec 10 1 1k\n.expect E1\033[2J.dc.T = 1 +-1%%\n.end\n' >"$tmp/forge/esc.net"
+expect forge 2 $tb check "$tmp/forge" --junit "$tmp/forge.xml"
+if grep -q '^pass ' "$tmp/out"; then bad "forge: a forged pass line"; else ok; fi
+has forge out 'x\x0apass   forged.net:55: G1.unity_hz is 707581 Hz'
+esc=$(printf '\033')
+lacks forge out "$esc"
+lacks forge err "$esc"
+has forge err '\x1b[2J'
+if xmllint --noout "$tmp/forge.xml" 2>"$tmp/err"; then ok; else bad "forge: xmllint"; head -3 "$tmp/err"; fi
+
 echo "check: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]

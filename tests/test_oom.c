@@ -1,11 +1,11 @@
 /* tests/test_oom.c: allocation-failure sweep. Fails the k-th allocation (k = 0, 1, 2, ...) of one
  * pass and requires the pass to end in TB_ERR_NOMEM (or succeed when k passes the last
  * allocation) without crashing; ASan and valgrind check that nothing leaks. The passes: read ->
- * parse -> stamp -> solve -> measure -> every writer (text, JSON, sweep, step and feedback CSV)
- * -> .expect evaluation; and the regression runner: run, baseline save, load against it, JSON,
- * JUnit and text writers, merge. The library's and the runner's calls to malloc/calloc/realloc
- * are redirected here by linking with -Wl,--wrap=... (Makefile); jansson's, which the runner's
- * JSON goes through, by json_set_alloc_funcs. */
+ * parse -> stamp -> solve -> measure -> every writer (text, JSON, sweep, step and feedback CSV;
+ * names with bytes that are not UTF-8 too) -> .expect evaluation; and the regression runner:
+ * run, baseline save, load against it, JSON, JUnit and text writers, merge. The library's and the
+ * runner's calls to malloc/calloc/realloc are redirected here by linking with -Wl,--wrap=...
+ * (Makefile); jansson's, which the runner's JSON goes through, by json_set_alloc_funcs. */
 #include <stdlib.h>
 #include <unistd.h>
 
@@ -210,6 +210,8 @@ static void test_oom_demo_netlists(void **state)
         /* .ideal breakdown, Blackman ports and a wire break in one netlist; a wire break alone */
         {"tests/fb/noninverting_x20.net", false},
         {"tests/fb/transistor_wirebreak.net", false},
+        /* names with bytes that are not UTF-8, a title with an escape sequence */
+        {"tests/cli/odd_bytes.net", true},
     };
     for (size_t i = 0; i < sizeof passes / sizeof passes[0]; i++)
         sweep(passes[i].path, netlist_once, &passes[i]);
@@ -234,24 +236,32 @@ static tb_status json_once(const void *ctx)
     return st;
 }
 
-static void test_oom_json_writer(void **state)
+static void json_sweep(const char *path)
 {
-    (void)state;
     tb_diag *diag = tb_diag_new();
     tb_circuit *ckt = NULL;
     tb_result *res = NULL;
     tb_options opt;
     tb_options_init(&opt);
     opt.census = true;
-    assert_int_equal(tb_circuit_read("tests/fb/noninverting_x20.net", diag, &ckt), TB_OK);
+    assert_int_equal(tb_circuit_read(path, diag, &ckt), TB_OK);
     assert_int_equal(tb_analyse(ckt, &opt, diag, &res), TB_OK);
     json_pass jp = {ckt, res};
+    char what[128];
+    snprintf(what, sizeof what, "%s, JSON", path);
     count_json = true;
-    sweep("tests/fb/noninverting_x20.net, JSON", json_once, &jp);
+    sweep(what, json_once, &jp);
     count_json = false;
     tb_result_free(res);
     tb_circuit_free(ckt);
     tb_diag_free(diag);
+}
+
+static void test_oom_json_writer(void **state)
+{
+    (void)state;
+    json_sweep("tests/fb/noninverting_x20.net");
+    json_sweep("tests/cli/odd_bytes.net"); /* names made UTF-8 (tb_report_json_text) */
 }
 
 static void test_oom_malformed_netlist(void **state)
