@@ -181,6 +181,25 @@ lacks odd-bytes-against out "not in the baseline"
 expect odd-bytes-merge 0 $tb check --merge "$tmp/o.json" --json "$tmp/o2.json"
 same odd-bytes-merge "$tmp/o.json" "$tmp/o2.json"
 
+# 8. symbolic links: a link to the folder itself, to its parent, and to a file of the library
+# make no netlist checked twice, and a file reached directly and through a link is checked
+# under its direct path (a cycle used to be searched 64 levels deep, without end)
+mkdir -p "$tmp/links/sub"
+cp netlists/ota_gain_of_2.net "$tmp/links/a.net"
+cp netlists/twostage_gain_of_5.net "$tmp/links/sub/b.net"
+ln -s . "$tmp/links/self"
+ln -s .. "$tmp/links/sub/up"
+ln -s ../a.net "$tmp/links/sub/0-link.net"
+ln -s sub "$tmp/links/0-sub"
+ln -s nowhere "$tmp/links/README"
+expect links 0 timeout 60 $tb check "$tmp/links" "$tmp/links/a.net" "$tmp/links/sub"
+has links out "2 netlists: 2 passed"
+has links out "pass   $tmp/links/a.net"
+has links out "pass   $tmp/links/sub/b.net"
+# the same file named twice is checked once
+expect file-twice 0 $tb check netlists/ota_gain_of_2.net ./netlists/ota_gain_of_2.net
+has file-twice out "1 netlist: 1 passed"
+
 # 13. a file name holding a newline cannot forge a line, an escape sequence in a card does not
 # reach the terminal (stdout or stderr)
 mkdir -p "$tmp/forge"
