@@ -23,6 +23,13 @@ typedef struct {
 void tb_check_options_init(tb_check_options *opt);
 
 typedef enum { TB_CHECK_PASS, TB_CHECK_FAIL, TB_CHECK_ERROR } tb_check_status;
+/* "pass", "fail", "error": the words of --json files. */
+const char *tb_check_status_str(tb_check_status st);
+
+/* The documents of --save and --json (docs/check.md): their format tag, and the version
+ * written and read (a reader refuses a later one). */
+#define TB_CHECK_FORMAT "tbeta-check"
+#define TB_CHECK_FORMAT_VERSION 1
 
 /* One figure of one loop as measured (or absent, with why). */
 typedef struct {
@@ -84,11 +91,14 @@ tb_status tb_check_collect(const char *const *paths, size_t count, const tb_chec
  * be read or analysed becomes an ERROR entry with its diagnostics. Errors: TB_ERR_USAGE,
  * TB_ERR_NOMEM (the run is incomplete then: free it). */
 tb_status tb_check_execute(tb_check_run *run);
-/* Compares every entry with a saved run (a --save or --json file); figures that
- * moved the worse way by more than drift_pct become drifts and fail the entry.
- * Errors: TB_ERR_IO (unreadable, with *why), TB_ERR_INPUT (not a saved run), TB_ERR_NOMEM. */
+/* Compares every entry with a saved run (a --save or --json file, checked whole first:
+ * src/checkload.c); figures that moved the worse way by more than drift_pct become drifts
+ * and fail the entry. Errors: TB_ERR_IO (unreadable, with *why), TB_ERR_INPUT (not a saved
+ * run, or one with a wrong type, version or status, or a netlist twice: *why says where),
+ * TB_ERR_NOMEM. */
 tb_status tb_check_against(tb_check_run *run, const char *path, char *why, size_t why_size);
-/* Adds the entries of a --json file written by another shard. */
+/* Adds the entries of a --json file written by another shard, checked as above; a netlist
+ * already in the run (the same shard's file merged twice) is refused (TB_ERR_INPUT). */
 tb_status tb_check_merge(tb_check_run *run, const char *path, char *why, size_t why_size);
 /* Sorts entries by path (after merging). */
 void tb_check_sort(tb_check_run *run);

@@ -181,6 +181,58 @@ lacks odd-bytes-against out "not in the baseline"
 expect odd-bytes-merge 0 $tb check --merge "$tmp/o.json" --json "$tmp/o2.json"
 same odd-bytes-merge "$tmp/o.json" "$tmp/o2.json"
 
+# 4. baselines and shard results are checked whole before use: a figure given as a string, a
+# netlist recorded twice, a later format version, a made-up status, a status that its
+# results contradict; the same shard merged twice. Each hid a real drift or counted twice.
+$py - "$tmp" <<'PY'
+import json, sys, copy
+t = sys.argv[1]
+base = json.load(open(t + "/base.json"))
+full = json.load(open(t + "/s1.json"))
+def save(name, d):
+    json.dump(d, open(t + "/" + name, "w"))
+def twopole(d):
+    return [n for n in d["netlists"] if n["path"].endswith("/twopole_opamp_follower.net")][0]
+d = copy.deepcopy(base)
+figs = twopole(d)["loops"][0]["figures"]
+figs["peaking_db"] = str(figs["peaking_db"])
+figs["overshoot_pct"] = str(figs["overshoot_pct"])
+save("t-string.json", d)
+d = copy.deepcopy(base)
+d["netlists"].append(copy.deepcopy(twopole(d)))
+save("t-twice.json", d)
+d = copy.deepcopy(base)
+d["version"] = 2
+save("t-version.json", d)
+d = copy.deepcopy(base)
+twopole(d)["loops"][0]["figures"]["verdict"] = "fine"
+save("t-word.json", d)
+d = copy.deepcopy(full)
+d["netlists"][0]["status"] = "skipped"
+save("t-status.json", d)
+d = copy.deepcopy(full)
+d["netlists"][0]["expectations"][0]["pass"] = False
+save("t-liar.json", d)
+PY
+expect baseline-string 2 $tb check tests/check/drift --against "$tmp/t-string.json"
+has baseline-string err "t-string.json: netlist 'netlists/twopole_opamp_follower.net': loop 'G1': figure 'peaking_db' is a string, not a number or null"
+expect baseline-twice 2 $tb check tests/check/drift --against "$tmp/t-twice.json"
+has baseline-twice err "t-twice.json: netlist 'netlists/twopole_opamp_follower.net' has two records: a file holds one run"
+expect baseline-version 2 $tb check tests/check/drift --against "$tmp/t-version.json"
+has baseline-version err "t-version.json: written in format version 2 by a newer tbeta; this one reads version 1"
+expect baseline-word 2 $tb check tests/check/drift --against "$tmp/t-word.json"
+has baseline-word err "figure 'verdict' is 'fine', not a word of that figure"
+expect merge-status 2 $tb check --merge "$tmp/t-status.json"
+has merge-status err "unknown status 'skipped' (pass, fail or error)"
+expect merge-liar 2 $tb check --merge "$tmp/t-liar.json"
+has merge-liar err "status 'pass' with a failed expectation or a drift"
+expect merge-twice 2 $tb check --merge "$tmp/s1.json" "$tmp/s2.json" "$tmp/s1.json"
+has merge-twice err "s1.json: netlist '"
+has merge-twice err "' is already in an earlier merged file (each shard's file once)"
+printf '[1, 2]\n' >"$tmp/t-array.json"
+expect baseline-array 2 $tb check tests/check/drift --against "$tmp/t-array.json"
+has baseline-array err "t-array.json: not a 'tbeta check' --save or --json file"
+
 # 8. symbolic links: a link to the folder itself, to its parent, and to a file of the library
 # make no netlist checked twice, and a file reached directly and through a link is checked
 # under its direct path (a cycle used to be searched 64 levels deep, without end)
