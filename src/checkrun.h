@@ -129,6 +129,17 @@ tb_status tb_check_write_json(const tb_check_run *run, FILE *out);
 /* JUnit XML: one testsuite per netlist, one testcase per expectation. */
 tb_status tb_check_write_junit(const tb_check_run *run, FILE *out);
 
+/* A writer above, as tb_checkfile_write takes it. */
+typedef tb_status (*tb_check_writer)(const tb_check_run *run, FILE *out);
+/* Writes the file at path with writer, whole or not at all (src/checkfile.c): into a new file
+ * beside it, flushed and synced, then renamed over it, so that a reader sees the old file or
+ * the new one, never part of one, and a failure leaves the old file as it was. A symbolic
+ * link is kept (the file it names is replaced); a path that is not a regular file (a terminal,
+ * /dev/null, a pipe) is written directly. Errors: TB_ERR_IO (why says what failed), TB_ERR_NOMEM,
+ * TB_ERR_USAGE. */
+tb_status tb_checkfile_write(const char *path, const tb_check_run *run, tb_check_writer writer, char *why,
+                             size_t why_size);
+
 /* Exit status of the run: 2 when a netlist could not be read or analysed,
  * else 1 when an expectation failed or a figure drifted, else 0. */
 int tb_check_exit_code(const tb_check_run *run);

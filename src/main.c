@@ -1,6 +1,7 @@
 /* src/main.c: the tbeta command line: subcommands, options, diagnostics on stderr, exit codes */
 #include <errno.h>
 #include <math.h>
+#include <signal.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -161,6 +162,11 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
     bool whole = strcmp(s, "--pole-limit") == 0;
     if (!number_arg(text, whole, &x))
         return usage_error(whole ? "not a non-negative whole number:" : "not a number:", text, usage);
+    if (!whole && x < 0) { /* a margin below zero is no margin to ask for */
+        complain("%s needs 0 or more %s, got %s", s, strcmp(s, "--pm-min") == 0 ? "degrees" : "dB", text);
+        fputs(usage, stderr);
+        return EXIT_BAD_INPUT;
+    }
     if (whole) {
         a->opt.pole_limit = (size_t)x;
     } else {
@@ -305,13 +311,13 @@ static int run(const args *a)
     print_diags(diag);
     if (st == TB_OK)
         st = write_output(a, ckt, res);
-    /* write_output has said what is missing (TB_ERR_NOT_FOUND); diagnostics say the rest */
-    if (st != TB_OK && st != TB_ERR_INPUT && st != TB_ERR_NOT_FOUND && tb_diag_errors(diag) == 0)
+    /* write_output has said what is missing (TB_ERR_NOT_FOUND); diagnostics say the rest; a
+     * failed write to stdout is said once the output is flushed (finish) */
+    if (st != TB_OK && st != TB_ERR_INPUT && st != TB_ERR_NOT_FOUND && tb_diag_errors(diag) == 0 &&
+        !(st == TB_ERR_IO && ferror(stdout)))
         complain("%s: %s", a->netlist, tb_status_str(st));
-    if (fflush(stdout) != 0 && st == TB_OK) {
-        complain("writing the output failed");
-        st = TB_ERR_IO;
-    }
+    if (st == TB_OK && (fflush(stdout) != 0 || ferror(stdout)))
+        st = TB_ERR_IO; /* said by finish */
     bool strict = a->strict || (ckt && tb_circuit_states_margins(ckt));
     bool failed = st == TB_OK && strict && !thresholds_met(ckt, res, a->netlist);
     tb_result_free(res);
@@ -452,21 +458,14 @@ static int parse_check_args(int argc, char **argv, check_args *a)
     return -1;
 }
 
-/* Writes one output file with writer; false (said on stderr) when it fails. */
-static bool write_file(const char *path, const tb_check_run *run,
-                       tb_status (*writer)(const tb_check_run *, FILE *))
+/* Writes one output file with writer, whole or not at all; false (said on stderr) when it fails. */
+static bool write_file(const char *path, const tb_check_run *run, tb_check_writer writer)
 {
-    FILE *f = fopen(path, "w");
-    if (!f) {
-        complain("cannot write '%s': %s", path, strerror(errno));
-        return false;
-    }
-    tb_status st = writer(run, f);
-    if (fclose(f) != 0 || st != TB_OK) {
-        complain("writing '%s' failed", path);
-        return false;
-    }
-    return true;
+    char why[1024];
+    tb_status st = tb_checkfile_write(path, run, writer, why, sizeof why);
+    if (st != TB_OK)
+        complain("%s", st == TB_ERR_NOMEM ? "out of memory" : why);
+    return st == TB_OK;
 }
 
 /* Fills the run: the netlists checked here, or the shards' results merged. */
@@ -509,11 +508,10 @@ static int check_command(int argc, char **argv)
         for (size_t i = 0; i < tb_check_count(run); i++)
             if (tb_check_get(run, i)->errors)
                 put_text(tb_check_get(run, i)->errors, true);
-        bool ok = tb_check_write_text(run, stdout) == TB_OK;
+        bool ok = tb_check_write_text(run, stdout) == TB_OK; /* a failure is said by finish */
         ok = (!a.save || write_file(a.save, run, tb_check_write_save)) && ok;
         ok = (!a.json || write_file(a.json, run, tb_check_write_json)) && ok;
         ok = (!a.junit || write_file(a.junit, run, tb_check_write_junit)) && ok;
-        ok = fflush(stdout) == 0 && ok;
         rc = ok ? tb_check_exit_code(run) : EXIT_BAD_INPUT;
     }
     tb_check_free(run);
@@ -521,7 +519,18 @@ static int check_command(int argc, char **argv)
     return rc;
 }
 
-int main(int argc, char **argv)
+/* Every command ends here: what it wrote to stdout must have got there, or it fails (exit 2)
+ * saying so. */
+static int finish(int rc)
+{
+    errno = 0;
+    if (fflush(stdout) == 0 && !ferror(stdout))
+        return rc;
+    complain("cannot write the output: %s", errno ? strerror(errno) : "a write to standard output failed");
+    return EXIT_BAD_INPUT;
+}
+
+static int command(int argc, char **argv)
 {
     if (argc < 2)
         return usage_error("no netlist given", NULL, usage_main);
@@ -547,4 +556,12 @@ int main(int argc, char **argv)
     }
     int rc = parse_args(argc, argv, first, &a);
     return rc >= 0 ? rc : run(&a);
+}
+
+int main(int argc, char **argv)
+{
+    /* a file-size limit makes a write fail (EFBIG) rather than end the program, so that a
+     * file being written is dropped whole and the old one kept (src/checkfile.c) */
+    signal(SIGXFSZ, SIG_IGN);
+    return finish(command(argc, argv));
 }

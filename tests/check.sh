@@ -161,6 +161,50 @@ same() {
     if cmp -s "$2" "$3"; then ok; else bad "$1: $2 and $3 differ"; fi
 }
 
+# 1. a --save (or --json, --junit) that fails midway leaves the old file byte-identical: a
+# file-size limit of 1 block (512 bytes) stops the write; the old files are larger
+cp "$tmp/base.json" "$tmp/base.orig"
+cp "$tmp/r.json" "$tmp/r.orig"
+cp "$tmp/j.xml" "$tmp/j.orig"
+expect save-limit 2 sh -c "ulimit -f 1; exec $tb check netlists --save '$tmp/base.json' --json '$tmp/r.json' --junit '$tmp/j.xml' >/dev/null"
+has save-limit err "tbeta: cannot write '$tmp/base.json': a write failed: File too large (the previous file is left as it was)"
+same save-limit "$tmp/base.json" "$tmp/base.orig"
+same save-limit "$tmp/r.json" "$tmp/r.orig"
+same save-limit "$tmp/j.xml" "$tmp/j.orig"
+if ls -A "$tmp" | grep -q '\.tmp$'; then bad "save-limit: a temporary file stayed behind"; else ok; fi
+# ... and a folder that cannot be written (as root, permissions do not stop a write: skipped)
+if [ "$(id -u)" -ne 0 ]; then
+    mkdir "$tmp/ro" && cp "$tmp/base.orig" "$tmp/ro/base.json" && chmod a-w "$tmp/ro"
+    expect save-readonly 2 $tb check netlists --save "$tmp/ro/base.json"
+    has save-readonly err "cannot create a file beside it"
+    same save-readonly "$tmp/ro/base.json" "$tmp/base.orig"
+    chmod u+w "$tmp/ro"
+fi
+# a path that is not a regular file is written as it is; a symbolic link stays a link
+expect save-devnull 0 $tb check netlists/ota_gain_of_2.net --save /dev/null
+ln -s base.json "$tmp/base.link"
+expect save-link 0 $tb check netlists --save "$tmp/base.link"
+if [ -L "$tmp/base.link" ]; then ok; else bad "save-link: the link was replaced by a file"; fi
+same save-link "$tmp/base.json" "$tmp/base.orig"
+
+# 2. a save replaces the file, it does not rewrite it: a reader holding the old file (here a
+# hard link to it) keeps the old content whole while the new one appears under the name
+expect save-small 0 $tb check netlists/ota_gain_of_2.net --save "$tmp/swap.json"
+cp "$tmp/swap.json" "$tmp/swap.small"
+ln "$tmp/swap.json" "$tmp/swap.held"
+expect save-over 0 $tb check netlists --save "$tmp/swap.json"
+same save-over "$tmp/swap.held" "$tmp/swap.small"
+same save-over "$tmp/swap.json" "$tmp/base.orig"
+# two runs saving to one file while a third compares with it: the reader never sees part of one
+( for i in 1 2 3; do $tb check netlists/ota_gain_of_2.net --save "$tmp/swap.json" >/dev/null; done ) &
+( for i in 1 2 3; do $tb check netlists --save "$tmp/swap.json" --jobs 1 >/dev/null; done ) &
+torn=0
+for i in 1 2 3 4 5 6; do
+    $tb check netlists/ota_gain_of_2.net --against "$tmp/swap.json" >/dev/null 2>"$tmp/err" || torn=1
+done
+wait
+if [ "$torn" -eq 0 ]; then ok; else bad "save-concurrent: a reader failed"; cat "$tmp/err"; fi
+
 # 3. bytes that are not UTF-8 in a file name, a node and a source name: every writer takes
 # them (each such byte is the character of its value, U+0080..U+00FF), the baseline finds
 # its record again, and merge takes the JSON
@@ -266,6 +310,10 @@ lacks forge out "$esc"
 lacks forge err "$esc"
 has forge err '\x1b[2J'
 if xmllint --noout "$tmp/forge.xml" 2>"$tmp/err"; then ok; else bad "forge: xmllint"; head -3 "$tmp/err"; fi
+
+# 14. a standard output that cannot be written: exit 2 and a message
+expect stdout-full 2 sh -c "exec $tb check netlists/ota_gain_of_2.net >/dev/full"
+has stdout-full err "tbeta: cannot write the output: No space left on device"
 
 echo "check: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]

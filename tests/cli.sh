@@ -104,6 +104,28 @@ fi
 
 # ---- hostile and unlucky input (issue 12) -------------------------------------------------
 
+# full NAME COMMAND...: COMMAND with its stdout on /dev/full fails, exit 2, saying so
+full() {
+    name=$1
+    shift
+    expect "$name" 2 sh -c 'exec "$@" >/dev/full' sh "$@"
+    has "$name" err "tbeta: cannot write the output: "
+}
+full full-help $tb --help
+full full-version $tb --version
+full full-check-help $tb check --help
+full full-report $tb report netlists/ota_gain_of_2.net
+full full-json $tb report netlists/ota_gain_of_2.net --json
+full full-sweep $tb sweep netlists/ota_gain_of_2.net
+full full-step $tb step netlists/ota_gain_of_2.net
+
+# a threshold below zero is refused, not replaced by the default
+expect pm-negative 2 $tb report netlists/ota_gain_of_2.net --pm-min -5
+has pm-negative err "tbeta: --pm-min needs 0 or more degrees, got -5"
+expect gm-negative 2 $tb report netlists/ota_gain_of_2.net --gm-min -0.5
+has gm-negative err "tbeta: --gm-min needs 0 or more dB, got -0.5"
+expect pm-zero 0 $tb report netlists/ota_gain_of_2.net --pm-min 0 --gm-min 0
+
 # bytes that are not UTF-8 in the title and in node and source names (tests/cli/odd_bytes.net):
 # the JSON report holds them as the characters of their values, the text report escapes only
 # control characters (the title's escape sequence), so nothing reaches the terminal raw
