@@ -1,9 +1,11 @@
 /* src/checkreport.c: 'tbeta check' for people (one line per netlist, a summary) and as JUnit XML */
+#include <stdarg.h>
 #include <stdio.h>
 #include <string.h>
 
 #include "checkrun.h"
 #include "expect.h"
+#include "report.h"
 
 /* Counts over a run, for the summary and the JUnit header. */
 typedef struct {
@@ -38,7 +40,27 @@ static int first_line_len(const char *s)
     return n > 1000 ? 1000 : (int)n;
 }
 
-/* ---- text -------------------------------------------------------------------- */
+/* ---- text ----------------------------------------------------------------------- */
+
+/* Longest line written (a longer one is cut, ending in "..."). */
+#define LINE_MAX_BYTES 8192
+
+/* One line for people: formatted, then written with every control character escaped (a
+ * name holding a newline or an escape sequence cannot start a line of its own or drive the
+ * terminal: tb_report_escape), then the newline. */
+__attribute__((format(printf, 2, 3))) static void say(FILE *out, const char *fmt, ...)
+{
+    char raw[LINE_MAX_BYTES];
+    char safe[LINE_MAX_BYTES];
+    va_list ap;
+    va_start(ap, fmt);
+    int n = vsnprintf(raw, sizeof raw, fmt, ap);
+    va_end(ap);
+    if (n >= (int)sizeof raw)
+        memcpy(raw + sizeof raw - 4, "...", 4);
+    fputs(tb_report_escape(raw, safe, sizeof safe), out);
+    fputc('\n', out);
+}
 
 /* The failures of e: the first on the netlist's own line, the rest indented below. */
 static void failures(FILE *out, const tb_check_entry *e)
@@ -48,14 +70,14 @@ static void failures(FILE *out, const tb_check_entry *e)
         const tb_check_expect *x = &e->expects[k];
         if (x->pass)
             continue;
-        fprintf(out, "%s%s:%d: %s is %s, expected %s\n", first ? "FAIL   " : "         ", e->path,
-                x->line, x->target, x->measured, x->bound);
+        say(out, "%s%s:%d: %s is %s, expected %s", first ? "FAIL   " : "         ", e->path, x->line, x->target,
+            x->measured, x->bound);
         first = false;
     }
     for (size_t k = 0; k < e->drift_count; k++) {
         const tb_check_drift *d = &e->drifts[k];
-        fprintf(out, "%s%s: %s drifted: %s, now %s\n", first ? "DRIFT  " : "         ", e->path,
-                d->target, d->was, d->now);
+        say(out, "%s%s: %s drifted: %s, now %s", first ? "DRIFT  " : "         ", e->path, d->target, d->was,
+            d->now);
         first = false;
     }
 }
@@ -68,16 +90,18 @@ tb_status tb_check_write_text(const tb_check_run *run, FILE *out)
     for (size_t i = 0; i < tb_check_count(run); i++) {
         const tb_check_entry *e = tb_check_get(run, i);
         if (e->status == TB_CHECK_ERROR) {
+            /* the first line of the diagnostics, which start with the path when they are located
+             * (a path may hold a newline: it is skipped as a whole) */
             const char *msg = e->errors ? e->errors : "cannot be checked";
-            bool located = strncmp(msg, e->path, strlen(e->path)) == 0;
-            fprintf(out, "ERROR  %s%s%.*s\n", located ? "" : e->path, located ? "" : ": ",
-                    first_line_len(msg), msg);
+            size_t path_len = strlen(e->path);
+            bool located = strncmp(msg, e->path, path_len) == 0;
+            const char *rest = located ? msg + path_len : msg;
+            say(out, "ERROR  %s%s%.*s", e->path, located ? "" : ": ", first_line_len(rest), rest);
         } else if (e->status == TB_CHECK_FAIL) {
             failures(out, e);
         } else {
-            fprintf(out, "pass   %s (%zu expectation%s)%s\n", e->path, e->expect_count,
-                    e->expect_count == 1 ? "" : "s",
-                    against && !e->in_baseline ? " (not in the baseline)" : "");
+            say(out, "pass   %s (%zu expectation%s)%s", e->path, e->expect_count, e->expect_count == 1 ? "" : "s",
+                against && !e->in_baseline ? " (not in the baseline)" : "");
         }
     }
     tally t = count_all(run);
@@ -92,40 +116,27 @@ tb_status tb_check_write_text(const tb_check_run *run, FILE *out)
 
 /* ---- JUnit XML ----------------------------------------------------------------- */
 
-/* Length of the valid UTF-8 sequence at s (0 when it is not one). */
-static size_t utf8_len(const unsigned char *s)
-{
-    size_t n = s[0] < 0x80 ? 1 : (s[0] & 0xE0) == 0xC0 ? 2 : (s[0] & 0xF0) == 0xE0 ? 3
-                                : (s[0] & 0xF8) == 0xF0 ? 4 : 0;
-    if (n == 2 && s[0] < 0xC2)
-        return 0;
-    for (size_t i = 1; i < n; i++)
-        if ((s[i] & 0xC0) != 0x80)
-            return 0;
-    return n;
-}
-
-/* s as XML character data or attribute text: & < > " ' escaped; control
- * characters XML 1.0 does not allow and bytes that are not UTF-8 become '?'. */
+/* s as XML character data or attribute text: & < > " ' escaped; odd bytes read as every
+ * writer reads them (tb_report_char); the characters XML 1.0 does not allow (control
+ * characters other than tab, newline and carriage return, U+FFFE and U+FFFF) and the C1
+ * controls written as text, \xHH or \uHHHH, as in the text output. */
 static void xml(FILE *out, const char *s)
 {
-    const unsigned char *p = (const unsigned char *)s;
-    while (*p) {
-        size_t n = utf8_len(p);
-        if (n == 0 || (*p < 0x20 && *p != '\t' && *p != '\n' && *p != '\r')) {
-            fputc('?', out);
-            p += n ? n : 1;
+    uint32_t cp = 0;
+    for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n) {
+        char enc[4];
+        if ((tb_report_is_control(cp) && cp != '\t' && cp != '\n' && cp != '\r') || cp == 0xFFFE || cp == 0xFFFF) {
+            fprintf(out, cp > 0xFF ? "\\u%04x" : "\\x%02x", (unsigned)cp);
             continue;
         }
-        switch (*p) {
+        switch (cp) {
         case '&': fputs("&amp;", out); break;
         case '<': fputs("&lt;", out); break;
         case '>': fputs("&gt;", out); break;
         case '"': fputs("&quot;", out); break;
         case '\'': fputs("&apos;", out); break;
-        default: fwrite(p, 1, n, out); break;
+        default: fwrite(enc, 1, tb_report_utf8(cp, enc), out); break;
         }
-        p += n;
     }
 }
 

@@ -18,7 +18,8 @@
 #include "circuit.h"
 #include "expect.h"
 
-/* Deepest directory nesting searched (symbolic-link cycles stop here). */
+/* Deepest directory nesting searched (a deeper folder is an ERROR entry; link cycles end
+ * earlier, each folder being searched once). */
 #define MAX_DIR_DEPTH 64
 /* Most netlists in one run. */
 #define MAX_ENTRIES ((size_t)10000000)
@@ -138,42 +139,187 @@ static tb_status add_unreadable(tb_check_run *run, const char *path, int err)
     return e->errors ? TB_OK : TB_ERR_NOMEM;
 }
 
-static tb_status walk(tb_check_run *run, const char *dir, size_t root_len, int depth);
+/* ---- each directory and file once ---------------------------------------------- */
 
-/* One directory entry name inside dir. */
-static tb_status visit(tb_check_run *run, const char *dir, const char *name, size_t root_len,
-                       int depth)
+/* The (device, inode) pairs met while collecting, in an open-addressing table: a file or
+ * folder reached again (a second argument, a symbolic link, a link cycle) is skipped. */
+typedef struct {
+    dev_t dev;
+    ino_t ino;
+    bool used;
+} seen_slot;
+
+typedef struct {
+    seen_slot *slots;
+    size_t cap; /* a power of two, or 0 */
+    size_t count;
+} seen_set;
+
+static size_t seen_slot_of(const seen_slot *slots, size_t cap, dev_t dev, ino_t ino)
 {
-    if (name[0] == '.')
-        return TB_OK; /* ".", "..", hidden files and folders */
+    uint64_t h = ((uint64_t)dev * 0x9E3779B97F4A7C15u) ^ (uint64_t)ino;
+    h = (h ^ (h >> 31)) * 0xBF58476D1CE4E5B9u;
+    size_t i = (size_t)(h ^ (h >> 29)) & (cap - 1);
+    while (slots[i].used && !(slots[i].dev == dev && slots[i].ino == ino))
+        i = (i + 1) & (cap - 1);
+    return i;
+}
+
+/* Doubles the table (at least 64 slots). */
+static tb_status seen_grow(seen_set *set)
+{
+    size_t cap = set->cap ? 2 * set->cap : 64;
+    if (cap > 4 * MAX_ENTRIES)
+        return TB_ERR_NOMEM;
+    seen_slot *slots = tb_calloc(cap, sizeof(seen_slot));
+    if (!slots)
+        return TB_ERR_NOMEM;
+    for (size_t i = 0; i < set->cap; i++)
+        if (set->slots[i].used)
+            slots[seen_slot_of(slots, cap, set->slots[i].dev, set->slots[i].ino)] = set->slots[i];
+    tb_free(set->slots);
+    set->slots = slots;
+    set->cap = cap;
+    return TB_OK;
+}
+
+/* Records the file or folder of sb; *first is false when it was met before. */
+static tb_status seen_add(seen_set *set, const struct stat *sb, bool *first)
+{
+    if (2 * (set->count + 1) > set->cap && seen_grow(set) != TB_OK)
+        return TB_ERR_NOMEM;
+    seen_slot *slot = &set->slots[seen_slot_of(set->slots, set->cap, sb->st_dev, sb->st_ino)];
+    *first = !slot->used;
+    if (*first) {
+        slot->dev = sb->st_dev;
+        slot->ino = sb->st_ino;
+        slot->used = true;
+        set->count++;
+    }
+    return TB_OK;
+}
+
+/* ---- walking folders ------------------------------------------------------------ */
+
+/* A symbolic link met in a folder, followed once the real entries are all in. */
+typedef struct {
+    char *path;
+    int depth;
+} link_later;
+
+/* One search: the run it fills, what it has met, where relative names start, and the links
+ * still to follow. */
+typedef struct {
+    tb_check_run *run;
+    seen_set seen;
+    size_t root_len;
+    link_later *links;
+    size_t link_count;
+    size_t link_cap;
+} walker;
+
+static tb_status walk(walker *w, const char *dir, int depth);
+
+/* The file or folder at path (stat sb), reached by name in a folder at depth. */
+static tb_status take(walker *w, const char *path, const char *name, const struct stat *sb, int depth)
+{
+    bool first = false;
+    tb_status st = TB_OK;
+    if (S_ISDIR(sb->st_mode) && (st = seen_add(&w->seen, sb, &first)) == TB_OK && first)
+        st = walk(w, path, depth + 1);
+    else if (S_ISREG(sb->st_mode) && fnmatch(w->run->opt.glob, name, 0) == 0 &&
+             (st = seen_add(&w->seen, sb, &first)) == TB_OK && first)
+        st = add_entry(w->run, path, path + w->root_len);
+    return st;
+}
+
+/* One directory entry name inside dir; a symbolic link is kept for later. */
+static tb_status visit(walker *w, const char *dir, const char *name, int depth)
+{
     char *path = tb_check_format("%s/%s", dir, name);
     if (!path)
         return TB_ERR_NOMEM;
     struct stat sb;
     tb_status st = TB_OK;
-    if (stat(path, &sb) != 0)
-        st = add_unreadable(run, path, errno);
-    else if (S_ISDIR(sb.st_mode))
-        st = walk(run, path, root_len, depth + 1);
-    else if (S_ISREG(sb.st_mode) && fnmatch(run->opt.glob, name, 0) == 0)
-        st = add_entry(run, path, path + root_len);
+    if (lstat(path, &sb) != 0) {
+        st = add_unreadable(w->run, path, errno);
+    } else if (S_ISLNK(sb.st_mode)) {
+        st = tb_grow(&w->links, &w->link_cap, w->link_count + 1, sizeof(link_later), MAX_ENTRIES);
+        if (st == TB_OK) {
+            w->links[w->link_count++] = (link_later){path, depth};
+            return TB_OK;
+        }
+    } else {
+        st = take(w, path, name, &sb, depth);
+    }
     tb_free(path);
     return st;
 }
 
-/* Adds the matching files under dir; rel names start at dir[root_len]. */
-static tb_status walk(tb_check_run *run, const char *dir, size_t root_len, int depth)
+/* Follows the links met so far, in the order met (following one may add more), each after
+ * every real entry of the search: a file reached both directly and through a link is checked
+ * under its direct path. */
+static tb_status follow_links(walker *w)
+{
+    tb_status st = TB_OK;
+    for (size_t i = 0; st == TB_OK && i < w->link_count; i++) {
+        const char *path = w->links[i].path;
+        const char *slash = strrchr(path, '/');
+        const char *name = slash ? slash + 1 : path;
+        struct stat sb;
+        if (stat(path, &sb) == 0)
+            st = take(w, path, name, &sb, w->links[i].depth);
+        else if (fnmatch(w->run->opt.glob, name, 0) == 0) /* a broken link to a netlist */
+            st = add_unreadable(w->run, path, errno);
+    }
+    for (size_t i = 0; i < w->link_count; i++)
+        tb_free(w->links[i].path);
+    w->link_count = 0;
+    return st;
+}
+
+static int by_name(const void *a, const void *b)
+{
+    return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+/* The names in d that are not hidden ("." and ".." included), sorted bytewise, so that the
+ * search (and which of two paths to one file is kept) does not depend on the file system. */
+static tb_status list_dir(DIR *d, char ***names, size_t *count)
+{
+    size_t cap = 0;
+    struct dirent *de;
+    while ((de = readdir(d)) != NULL) {
+        if (de->d_name[0] == '.')
+            continue;
+        if (tb_grow(names, &cap, *count + 1, sizeof(char *), MAX_ENTRIES) != TB_OK)
+            return TB_ERR_NOMEM;
+        if (!((*names)[*count] = tb_check_strdup(de->d_name)))
+            return TB_ERR_NOMEM;
+        ++*count;
+    }
+    if (*count > 1)
+        qsort(*names, *count, sizeof(char *), by_name);
+    return TB_OK;
+}
+
+/* Adds the matching files under dir, in name order; rel names start at dir[w->root_len]. */
+static tb_status walk(walker *w, const char *dir, int depth)
 {
     if (depth > MAX_DIR_DEPTH)
-        return add_unreadable(run, dir, ELOOP);
+        return add_unreadable(w->run, dir, ELOOP);
     DIR *d = opendir(dir);
     if (!d)
-        return add_unreadable(run, dir, errno);
-    tb_status st = TB_OK;
-    struct dirent *de;
-    while (st == TB_OK && (de = readdir(d)) != NULL)
-        st = visit(run, dir, de->d_name, root_len, depth);
+        return add_unreadable(w->run, dir, errno);
+    char **names = NULL;
+    size_t count = 0;
+    tb_status st = list_dir(d, &names, &count);
     closedir(d);
+    for (size_t i = 0; st == TB_OK && i < count; i++)
+        st = visit(w, dir, names[i], depth);
+    for (size_t i = 0; i < count; i++)
+        tb_free(names[i]);
+    tb_free(names);
     return st;
 }
 
@@ -199,22 +345,31 @@ static void keep_shard(tb_check_run *run)
     run->count = kept;
 }
 
-/* One argument: a file as it is, or a directory searched recursively. */
-static tb_status collect_one(tb_check_run *run, const char *arg)
+/* One argument: a file as it is, or a directory searched recursively; either is skipped
+ * when an earlier argument reached it already. */
+static tb_status collect_one(walker *w, const char *arg)
 {
     struct stat sb;
+    bool first = false;
     if (stat(arg, &sb) != 0)
-        return add_unreadable(run, arg, errno);
+        return add_unreadable(w->run, arg, errno);
+    tb_status st = seen_add(&w->seen, &sb, &first);
+    if (st != TB_OK || !first)
+        return st;
     if (!S_ISDIR(sb.st_mode))
-        return add_entry(run, arg, arg);
+        return add_entry(w->run, arg, arg);
     size_t len = strlen(arg);
     while (len > 1 && arg[len - 1] == '/')
         len--;
     char *root = tb_strndup(arg, len);
     if (!root)
         return TB_ERR_NOMEM;
-    tb_status st = walk(run, root, len + (root[len - 1] == '/' ? 0 : 1), 0);
+    w->root_len = len + (root[len - 1] == '/' ? 0 : 1);
+    st = walk(w, root, 0);
+    tb_status followed = follow_links(w); /* frees the list whatever st is */
     tb_free(root);
+    if (st == TB_OK)
+        st = followed;
     return st;
 }
 
@@ -230,9 +385,12 @@ tb_status tb_check_collect(const char *const *paths, size_t count, const tb_chec
     run->opt = *opt;
     atomic_init(&run->next, 0);
     atomic_init(&run->out_of_memory, false);
+    walker w = {run, {NULL, 0, 0}, 0, NULL, 0, 0};
     tb_status st = TB_OK;
     for (size_t i = 0; i < count && st == TB_OK; i++)
-        st = collect_one(run, paths[i]);
+        st = collect_one(&w, paths[i]);
+    tb_free(w.seen.slots);
+    tb_free(w.links);
     if (st != TB_OK) {
         tb_check_free(run);
         return st;

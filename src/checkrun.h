@@ -23,6 +23,13 @@ typedef struct {
 void tb_check_options_init(tb_check_options *opt);
 
 typedef enum { TB_CHECK_PASS, TB_CHECK_FAIL, TB_CHECK_ERROR } tb_check_status;
+/* "pass", "fail", "error": the words of --json files. */
+const char *tb_check_status_str(tb_check_status st);
+
+/* The documents of --save and --json (docs/check.md): their format tag, and the version
+ * written and read (a reader refuses a later one). */
+#define TB_CHECK_FORMAT "tbeta-check"
+#define TB_CHECK_FORMAT_VERSION 1
 
 /* One figure of one loop as measured (or absent, with why). */
 typedef struct {
@@ -84,11 +91,14 @@ tb_status tb_check_collect(const char *const *paths, size_t count, const tb_chec
  * be read or analysed becomes an ERROR entry with its diagnostics. Errors: TB_ERR_USAGE,
  * TB_ERR_NOMEM (the run is incomplete then: free it). */
 tb_status tb_check_execute(tb_check_run *run);
-/* Compares every entry with a saved run (a --save or --json file); figures that
- * moved the worse way by more than drift_pct become drifts and fail the entry.
- * Errors: TB_ERR_IO (unreadable, with *why), TB_ERR_INPUT (not a saved run), TB_ERR_NOMEM. */
+/* Compares every entry with a saved run (a --save or --json file, checked whole first:
+ * src/checkload.c); figures that moved the worse way by more than drift_pct become drifts
+ * and fail the entry. Errors: TB_ERR_IO (unreadable, with *why), TB_ERR_INPUT (not a saved
+ * run, or one with a wrong type, version or status, or a netlist twice: *why says where),
+ * TB_ERR_NOMEM. */
 tb_status tb_check_against(tb_check_run *run, const char *path, char *why, size_t why_size);
-/* Adds the entries of a --json file written by another shard. */
+/* Adds the entries of a --json file written by another shard, checked as above; a netlist
+ * already in the run (the same shard's file merged twice) is refused (TB_ERR_INPUT). */
 tb_status tb_check_merge(tb_check_run *run, const char *path, char *why, size_t why_size);
 /* Sorts entries by path (after merging). */
 void tb_check_sort(tb_check_run *run);
@@ -118,6 +128,17 @@ tb_status tb_check_write_save(const tb_check_run *run, FILE *out);
 tb_status tb_check_write_json(const tb_check_run *run, FILE *out);
 /* JUnit XML: one testsuite per netlist, one testcase per expectation. */
 tb_status tb_check_write_junit(const tb_check_run *run, FILE *out);
+
+/* A writer above, as tb_checkfile_write takes it. */
+typedef tb_status (*tb_check_writer)(const tb_check_run *run, FILE *out);
+/* Writes the file at path with writer, whole or not at all (src/checkfile.c): into a new file
+ * beside it, flushed and synced, then renamed over it, so that a reader sees the old file or
+ * the new one, never part of one, and a failure leaves the old file as it was. A symbolic
+ * link is kept (the file it names is replaced); a path that is not a regular file (a terminal,
+ * /dev/null, a pipe) is written directly. Errors: TB_ERR_IO (why says what failed), TB_ERR_NOMEM,
+ * TB_ERR_USAGE. */
+tb_status tb_checkfile_write(const char *path, const tb_check_run *run, tb_check_writer writer, char *why,
+                             size_t why_size);
 
 /* Exit status of the run: 2 when a netlist could not be read or analysed,
  * else 1 when an expectation failed or a figure drifted, else 0. */

@@ -1,6 +1,8 @@
 /* src/main.c: the tbeta command line: subcommands, options, diagnostics on stderr, exit codes */
 #include <errno.h>
 #include <math.h>
+#include <signal.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -8,6 +10,7 @@
 
 #include "tbeta.h"
 #include "checkrun.h" /* the regression runner (tbeta check) */
+#include "report.h"   /* tb_report_escape and how odd bytes read */
 
 /* Exit codes, one table: 0 done; 1 done but an expectation or threshold
  * failed (used by later subcommands); 2 usage error, unreadable or malformed
@@ -96,9 +99,38 @@ typedef struct {
     const char *svg;   /* plot --svg DIR */
 } args;
 
+/* Text on stderr with every control character written \xHH (tb_report_escape), except, with
+ * lines, newline and tab: diagnostics keep their lines and their carets' alignment. */
+static void put_text(const char *s, bool lines)
+{
+    uint32_t cp = 0;
+    for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n) {
+        char enc[4];
+        if (tb_report_is_control(cp) && !(lines && (cp == '\n' || cp == '\t')))
+            fprintf(stderr, "\\x%02x", (unsigned)cp);
+        else
+            fwrite(enc, 1, tb_report_utf8(cp, enc), stderr);
+    }
+}
+
+/* One message on stderr, "tbeta: " first: a file name or a netlist's name in it cannot break
+ * the line or drive the terminal. */
+__attribute__((format(printf, 1, 2))) static void complain(const char *fmt, ...)
+{
+    char msg[4096];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    fputs("tbeta: ", stderr);
+    put_text(msg, false);
+    fputc('\n', stderr);
+}
+
 static int usage_error(const char *msg, const char *arg, const char *usage)
 {
-    fprintf(stderr, "tbeta: %s%s%s\n%s", msg, arg ? " " : "", arg ? arg : "", usage);
+    complain("%s%s%s", msg, arg ? " " : "", arg ? arg : "");
+    fputs(usage, stderr);
     return EXIT_BAD_INPUT;
 }
 
@@ -150,6 +182,11 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
     bool whole = strcmp(s, "--pole-limit") == 0;
     if (!number_arg(text, whole, &x))
         return usage_error(whole ? "not a non-negative whole number:" : "not a number:", text, usage);
+    if (!whole && x < 0) { /* a margin below zero is no margin to ask for */
+        complain("%s needs 0 or more %s, got %s", s, strcmp(s, "--pm-min") == 0 ? "degrees" : "dB", text);
+        fputs(usage, stderr);
+        return EXIT_BAD_INPUT;
+    }
     if (whole) {
         a->opt.pole_limit = (size_t)x;
     } else {
@@ -217,7 +254,7 @@ static void print_diags(const tb_diag *diag)
     char buf[4096];
     for (size_t i = 0; i < tb_diag_count(diag); i++) {
         size_t need = tb_diag_format(diag, i, buf, sizeof buf);
-        fputs(buf, stderr);
+        put_text(buf, true);
         if (need >= sizeof buf)
             fputs("...\n", stderr);
     }
@@ -234,7 +271,7 @@ static tb_status write_picture(const args *a, const tb_circuit *ckt, const tb_re
     snprintf(tmp, sizeof tmp, "%s.part", path);
     FILE *out = fopen(tmp, "w");
     if (!out) {
-        fprintf(stderr, "tbeta: cannot write %s: %s\n", tmp, strerror(errno));
+        complain("cannot write %s: %s", tmp, strerror(errno));
         return TB_ERR_IO;
     }
     tb_status st = tb_report_svg(ckt, res, kind, l, port, out);
@@ -247,14 +284,14 @@ static tb_status write_picture(const args *a, const tb_circuit *ckt, const tb_re
     if (st == TB_OK)
         printf("%s\n", path);
     else if (st != TB_ERR_NOT_FOUND)
-        fprintf(stderr, "tbeta: cannot write %s: %s\n", path, tb_status_str(st));
+        complain("cannot write %s: %s", path, tb_status_str(st));
     return st;
 }
 
 static tb_status write_pictures(const args *a, const tb_circuit *ckt, const tb_result *res)
 {
     if (mkdir(a->svg, 0777) != 0 && errno != EEXIST) {
-        fprintf(stderr, "tbeta: cannot create %s: %s\n", a->svg, strerror(errno));
+        complain("cannot create %s: %s", a->svg, strerror(errno));
         return TB_ERR_IO;
     }
     char name[512];
@@ -285,7 +322,7 @@ static tb_status write_html(const args *a, const tb_circuit *ckt, const tb_resul
     snprintf(tmp, sizeof tmp, "%s.part", a->html);
     FILE *out = fopen(tmp, "w");
     if (!out) {
-        fprintf(stderr, "tbeta: cannot write %s: %s\n", a->html, strerror(errno));
+        complain("cannot write %s: %s", a->html, strerror(errno));
         return TB_ERR_IO;
     }
     tb_status st = tb_report_html(ckt, res, out);
@@ -295,7 +332,7 @@ static tb_status write_html(const args *a, const tb_circuit *ckt, const tb_resul
         st = TB_ERR_IO;
     if (st != TB_OK) {
         remove(tmp);
-        fprintf(stderr, "tbeta: cannot write %s: %s\n", a->html, tb_status_str(st));
+        complain("cannot write %s: %s", a->html, tb_status_str(st));
     }
     return st;
 }
@@ -314,23 +351,28 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
         tb_step_figures fig;
         tb_step_figures_get(res, &fig);
         if (!fig.computed) {
-            fprintf(stderr, "tbeta: %s: no step response: %s\n", a->netlist,
-                    fig.why_absent ? fig.why_absent : "not computed");
+            complain("%s: no step response: %s", a->netlist, fig.why_absent ? fig.why_absent : "not computed");
             return TB_ERR_NOT_FOUND;
         }
         return tb_report_step_csv(res, stdout);
     }
     size_t l = 0;
     if (a->loop && tb_circuit_find_loop(ckt, a->loop, &l) != TB_OK) {
-        fprintf(stderr, "tbeta: no .loop at '%s' in %s; the loops are:", a->loop, a->netlist);
-        for (size_t i = 0; i < tb_circuit_loop_count(ckt); i++)
-            fprintf(stderr, " %s", tb_circuit_loop_name(ckt, i));
+        fputs("tbeta: no .loop at '", stderr);
+        put_text(a->loop, false);
+        fputs("' in ", stderr);
+        put_text(a->netlist, false);
+        fputs("; the loops are:", stderr);
+        for (size_t i = 0; i < tb_circuit_loop_count(ckt); i++) {
+            fputc(' ', stderr);
+            put_text(tb_circuit_loop_name(ckt, i), false);
+        }
         fputc('\n', stderr);
         return TB_ERR_NOT_FOUND;
     }
     if (a->table && tb_report_feedback_csv(ckt, res, l, a->table, stdout) == TB_ERR_NOT_FOUND) {
-        fprintf(stderr, "tbeta: %s has no table '%s' (breakdown needs .ideal and .io, zport:NAME a .zport, "
-                        "break a .break)\n", a->netlist, a->table);
+        complain("%s has no table '%s' (breakdown needs .ideal and .io, zport:NAME a .zport, break a .break)",
+                 a->netlist, a->table);
         return TB_ERR_NOT_FOUND;
     }
     if (a->table)
@@ -348,19 +390,18 @@ static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const ch
             continue;
         const char *name = tb_circuit_loop_name(ckt, l);
         if (st.verdict != TB_VERDICT_STABLE)
-            fprintf(stderr, "tbeta: %s: loop %s: verdict %s\n", netlist, name, tb_verdict_str(st.verdict));
+            complain("%s: loop %s: verdict %s", netlist, name, tb_verdict_str(st.verdict));
         if (!st.margins_determined)
-            fprintf(stderr, "tbeta: %s: loop %s: the margins could not be determined (see the notes)\n",
-                    netlist, name);
+            complain("%s: loop %s: the margins could not be determined (see the notes)", netlist, name);
         else if (!st.pm_ok)
-            fprintf(stderr, "tbeta: %s: loop %s: phase margin %.3f deg is below %g deg\n", netlist, name,
-                    st.phase_margin_deg, st.pm_min_deg);
+            complain("%s: loop %s: phase margin %.3f deg is below %g deg", netlist, name, st.phase_margin_deg,
+                     st.pm_min_deg);
         if (st.margins_determined && !st.gm_ok && st.has_gain_margin_up && st.gain_margin_up_db < st.gm_min_db)
-            fprintf(stderr, "tbeta: %s: loop %s: the loop gain may rise by only %.3f dB (needs %g dB)\n",
-                    netlist, name, st.gain_margin_up_db, st.gm_min_db);
+            complain("%s: loop %s: the loop gain may rise by only %.3f dB (needs %g dB)", netlist, name,
+                     st.gain_margin_up_db, st.gm_min_db);
         if (st.margins_determined && !st.gm_ok && st.has_gain_margin_down && st.gain_margin_down_db < st.gm_min_db)
-            fprintf(stderr, "tbeta: %s: loop %s: the loop gain may fall by only %.3f dB (needs %g dB)\n",
-                    netlist, name, st.gain_margin_down_db, st.gm_min_db);
+            complain("%s: loop %s: the loop gain may fall by only %.3f dB (needs %g dB)", netlist, name,
+                     st.gain_margin_down_db, st.gm_min_db);
         ok = ok && st.pm_ok && st.gm_ok && st.verdict == TB_VERDICT_STABLE;
     }
     const tb_census_entry *e = NULL;
@@ -369,8 +410,8 @@ static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const ch
     for (size_t i = 0; i < count; i++) {
         if (e[i].pm_ok)
             continue;
-        fprintf(stderr, "tbeta: %s: local loop at %s: phase margin %.3f deg is below the threshold\n", netlist,
-                e[i].source, e[i].phase_margin_deg);
+        complain("%s: local loop at %s: phase margin %.3f deg is below the threshold", netlist, e[i].source,
+                 e[i].phase_margin_deg);
         ok = false;
     }
     return ok;
@@ -382,7 +423,7 @@ static int run(const args *a)
     tb_circuit *ckt = NULL;
     tb_result *res = NULL;
     if (!diag) {
-        fputs("tbeta: out of memory\n", stderr);
+        complain("out of memory");
         return EXIT_BAD_INPUT;
     }
     tb_status st = tb_circuit_read(a->netlist, diag, &ckt);
@@ -391,13 +432,13 @@ static int run(const args *a)
     print_diags(diag);
     if (st == TB_OK)
         st = write_output(a, ckt, res);
-    /* write_output has said what is missing (TB_ERR_NOT_FOUND); diagnostics say the rest */
-    if (st != TB_OK && st != TB_ERR_INPUT && st != TB_ERR_NOT_FOUND && tb_diag_errors(diag) == 0)
-        fprintf(stderr, "tbeta: %s: %s\n", a->netlist, tb_status_str(st));
-    if (fflush(stdout) != 0 && st == TB_OK) {
-        fprintf(stderr, "tbeta: writing the output failed\n");
-        st = TB_ERR_IO;
-    }
+    /* write_output has said what is missing (TB_ERR_NOT_FOUND); diagnostics say the rest; a
+     * failed write to stdout is said once the output is flushed (finish) */
+    if (st != TB_OK && st != TB_ERR_INPUT && st != TB_ERR_NOT_FOUND && tb_diag_errors(diag) == 0 &&
+        !(st == TB_ERR_IO && ferror(stdout)))
+        complain("%s: %s", a->netlist, tb_status_str(st));
+    if (st == TB_OK && (fflush(stdout) != 0 || ferror(stdout)))
+        st = TB_ERR_IO; /* said by finish */
     bool strict = a->strict || (ckt && tb_circuit_states_margins(ckt));
     bool failed = st == TB_OK && strict && !thresholds_met(ckt, res, a->netlist);
     tb_result_free(res);
@@ -539,21 +580,14 @@ static int parse_check_args(int argc, char **argv, check_args *a)
     return -1;
 }
 
-/* Writes one output file with writer; false (said on stderr) when it fails. */
-static bool write_file(const char *path, const tb_check_run *run,
-                       tb_status (*writer)(const tb_check_run *, FILE *))
+/* Writes one output file with writer, whole or not at all; false (said on stderr) when it fails. */
+static bool write_file(const char *path, const tb_check_run *run, tb_check_writer writer)
 {
-    FILE *f = fopen(path, "w");
-    if (!f) {
-        fprintf(stderr, "tbeta: cannot write '%s': %s\n", path, strerror(errno));
-        return false;
-    }
-    tb_status st = writer(run, f);
-    if (fclose(f) != 0 || st != TB_OK) {
-        fprintf(stderr, "tbeta: writing '%s' failed\n", path);
-        return false;
-    }
-    return true;
+    char why[1024];
+    tb_status st = tb_checkfile_write(path, run, writer, why, sizeof why);
+    if (st != TB_OK)
+        complain("%s", st == TB_ERR_NOMEM ? "out of memory" : why);
+    return st == TB_OK;
 }
 
 /* Fills the run: the netlists checked here, or the shards' results merged. */
@@ -563,19 +597,19 @@ static int check_fill(const check_args *a, tb_check_run **run)
     tb_status st = tb_check_collect(a->merge ? NULL : a->paths, a->merge ? 0 : a->count, &a->opt, run);
     for (size_t i = 0; st == TB_OK && a->merge && i < a->count; i++)
         if ((st = tb_check_merge(*run, a->paths[i], why, sizeof why)) != TB_OK)
-            fprintf(stderr, "tbeta: %s\n", why);
+            complain("%s", why);
     if (st == TB_OK && a->merge)
         tb_check_sort(*run);
     if (st == TB_OK && !a->merge && tb_check_count(*run) == 0 && a->opt.shard_count == 1) {
-        fprintf(stderr, "tbeta: no netlist matches '%s' under the paths given\n", a->opt.glob);
+        complain("no netlist matches '%s' under the paths given", a->opt.glob);
         return EXIT_BAD_INPUT;
     }
     if (st == TB_OK && !a->merge)
         st = tb_check_execute(*run);
     if (st == TB_OK && a->against && (st = tb_check_against(*run, a->against, why, sizeof why)) != TB_OK)
-        fprintf(stderr, "tbeta: %s\n", why);
-    if (st == TB_ERR_NOMEM)
-        fputs("tbeta: out of memory\n", stderr);
+        complain("%s", why);
+    else if (st == TB_ERR_NOMEM)
+        complain("out of memory");
     return st == TB_OK ? -1 : EXIT_BAD_INPUT;
 }
 
@@ -585,7 +619,7 @@ static int check_command(int argc, char **argv)
     tb_check_options_init(&a.opt);
     a.paths = calloc((size_t)argc, sizeof(char *));
     if (!a.paths) {
-        fputs("tbeta: out of memory\n", stderr);
+        complain("out of memory");
         return EXIT_BAD_INPUT;
     }
     tb_check_run *run = NULL;
@@ -595,12 +629,11 @@ static int check_command(int argc, char **argv)
     if (rc < 0) {
         for (size_t i = 0; i < tb_check_count(run); i++)
             if (tb_check_get(run, i)->errors)
-                fputs(tb_check_get(run, i)->errors, stderr);
-        bool ok = tb_check_write_text(run, stdout) == TB_OK;
+                put_text(tb_check_get(run, i)->errors, true);
+        bool ok = tb_check_write_text(run, stdout) == TB_OK; /* a failure is said by finish */
         ok = (!a.save || write_file(a.save, run, tb_check_write_save)) && ok;
         ok = (!a.json || write_file(a.json, run, tb_check_write_json)) && ok;
         ok = (!a.junit || write_file(a.junit, run, tb_check_write_junit)) && ok;
-        ok = fflush(stdout) == 0 && ok;
         rc = ok ? tb_check_exit_code(run) : EXIT_BAD_INPUT;
     }
     tb_check_free(run);
@@ -608,7 +641,18 @@ static int check_command(int argc, char **argv)
     return rc;
 }
 
-int main(int argc, char **argv)
+/* Every command ends here: what it wrote to stdout must have got there, or it fails (exit 2)
+ * saying so. */
+static int finish(int rc)
+{
+    errno = 0;
+    if (fflush(stdout) == 0 && !ferror(stdout))
+        return rc;
+    complain("cannot write the output: %s", errno ? strerror(errno) : "a write to standard output failed");
+    return EXIT_BAD_INPUT;
+}
+
+static int command(int argc, char **argv)
 {
     if (argc < 2)
         return usage_error("no netlist given", NULL, usage_main);
@@ -634,4 +678,12 @@ int main(int argc, char **argv)
     }
     int rc = parse_args(argc, argv, first, &a);
     return rc >= 0 ? rc : run(&a);
+}
+
+int main(int argc, char **argv)
+{
+    /* a file-size limit makes a write fail (EFBIG) rather than end the program, so that a
+     * file being written is dropped whole and the old one kept (src/checkfile.c) */
+    signal(SIGXFSZ, SIG_IGN);
+    return finish(command(argc, argv));
 }

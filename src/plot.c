@@ -2,7 +2,10 @@
 #include "plot.h"
 
 #include <math.h>
+#include <stdint.h>
 #include <string.h>
+
+#include "report.h"
 
 static const struct {
     const char *color;
@@ -26,40 +29,23 @@ static void stroke(FILE *out, tb_style s)
         fprintf(out, " stroke-dasharray=\"%s\"", styles[s].dash);
 }
 
-/* One UTF-8 sequence at s of length len: its length when valid, 0 when not. */
-static size_t utf8_len(const unsigned char *s, size_t left)
-{
-    size_t need = s[0] < 0x80 ? 1 : (s[0] & 0xe0) == 0xc0 ? 2 : (s[0] & 0xf0) == 0xe0 ? 3 : (s[0] & 0xf8) == 0xf0 ? 4 : 0;
-    if (need == 0 || need > left || (need == 2 && s[0] < 0xc2))
-        return 0;
-    for (size_t i = 1; i < need; i++)
-        if ((s[i] & 0xc0) != 0x80)
-            return 0;
-    return need;
-}
-
 void tb_plot_escape(FILE *out, const char *s)
 {
-    const unsigned char *p = (const unsigned char *)s;
-    size_t left = strlen(s);
-    while (left > 0) {
-        size_t len = utf8_len(p, left);
-        if (len == 0 || (len == 1 && (*p < 0x20 || *p == 0x7f))) {
-            fputs("\xef\xbf\xbd", out); /* U+FFFD for a control character or a broken byte */
-            len = 1;
-        } else if (*p == '<') {
+    uint32_t cp = 0;
+    for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n) {
+        char utf8[4];
+        if (cp < 0x20 || cp == 0x7f)
+            fputs("\xef\xbf\xbd", out); /* U+FFFD for a control character */
+        else if (cp == '<')
             fputs("&lt;", out);
-        } else if (*p == '>') {
+        else if (cp == '>')
             fputs("&gt;", out);
-        } else if (*p == '&') {
+        else if (cp == '&')
             fputs("&amp;", out);
-        } else if (*p == '"') {
+        else if (cp == '"')
             fputs("&quot;", out);
-        } else {
-            fwrite(p, 1, len, out);
-        }
-        p += len;
-        left -= len;
+        else
+            fwrite(utf8, 1, tb_report_utf8(cp, utf8), out); /* a stray byte: its Latin-1 character */
     }
 }
 

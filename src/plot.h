@@ -61,8 +61,9 @@ void tb_plot_text(tb_picture *pic, double x, double y, const char *text);
 /* A value with an SI prefix and unit for tick labels: "100k", "1.5M" ("" unit for none). */
 const char *tb_plot_eng(double v, const char *unit, char *buf, size_t size);
 
-/* Writes s with XML's special characters escaped and control characters and invalid
- * UTF-8 replaced by U+FFFD, so any name from a netlist is safe inside SVG or HTML. */
+/* Writes s with XML's special characters escaped, control characters replaced by U+FFFD
+ * and each byte that is not UTF-8 read as its Latin-1 character (as every writer reads it,
+ * tb_report_char), so any name from a netlist is safe inside SVG or HTML. */
 void tb_plot_escape(FILE *out, const char *s);
 
 #endif

@@ -1,8 +1,9 @@
-/* src/report_common.c: words shared by the text and JSON writers */
+/* src/report_common.c: words shared by the text and JSON writers, and how they read odd bytes */
 #include "report.h"
 
 #include <math.h>
 #include <stdio.h>
+#include <string.h>
 
 const char *const tb_report_caution =
     "tbeta is a small-signal, linear analysis of the netlist as written: its figures do not "
@@ -116,5 +117,108 @@ const char *tb_report_reason(const tb_stability *st, char *buf, size_t size)
         snprintf(buf, size, "Nyquist: N = %ld clockwise encirclements of -1", st->nyquist_n);
     else
         snprintf(buf, size, "neither the poles nor a Nyquist count are available");
+    return buf;
+}
+
+/* ---- odd bytes in names and comments ---------------------------------------------- */
+
+/* Length of the valid UTF-8 sequence at p and its character; 0 when p starts no valid
+ * sequence (a stray continuation byte, an overlong form, a surrogate, beyond U+10FFFF). */
+static size_t utf8_seq(const unsigned char *p, uint32_t *cp)
+{
+    static const uint32_t least[5] = {0, 0, 0x80, 0x800, 0x10000};
+    size_t n = p[0] < 0x80 ? 1 : p[0] >= 0xC2 && p[0] <= 0xDF ? 2 : (p[0] & 0xF0) == 0xE0 ? 3
+                             : p[0] >= 0xF0 && p[0] <= 0xF4 ? 4 : 0;
+    if (n == 0)
+        return 0;
+    uint32_t c = n == 1 ? p[0] : p[0] & (0x7Fu >> n);
+    for (size_t i = 1; i < n; i++) {
+        if ((p[i] & 0xC0) != 0x80)
+            return 0;
+        c = c << 6 | (p[i] & 0x3Fu);
+    }
+    if (c < least[n] || c > 0x10FFFF || (c >= 0xD800 && c <= 0xDFFF))
+        return 0;
+    *cp = c;
+    return n;
+}
+
+size_t tb_report_char(const char *s, uint32_t *cp)
+{
+    const unsigned char *p = (const unsigned char *)s;
+    if (*p == 0) {
+        *cp = 0;
+        return 0;
+    }
+    size_t n = utf8_seq(p, cp);
+    if (n)
+        return n;
+    *cp = *p; /* a stray byte: the Latin-1 character of its value */
+    return 1;
+}
+
+size_t tb_report_utf8(uint32_t cp, char out[4])
+{
+    if (cp < 0x80) {
+        out[0] = (char)cp;
+        return 1;
+    }
+    if (cp < 0x800) {
+        out[0] = (char)(0xC0 | cp >> 6);
+        out[1] = (char)(0x80 | (cp & 0x3F));
+        return 2;
+    }
+    if (cp < 0x10000) {
+        out[0] = (char)(0xE0 | cp >> 12);
+        out[1] = (char)(0x80 | (cp >> 6 & 0x3F));
+        out[2] = (char)(0x80 | (cp & 0x3F));
+        return 3;
+    }
+    out[0] = (char)(0xF0 | cp >> 18);
+    out[1] = (char)(0x80 | (cp >> 12 & 0x3F));
+    out[2] = (char)(0x80 | (cp >> 6 & 0x3F));
+    out[3] = (char)(0x80 | (cp & 0x3F));
+    return 4;
+}
+
+bool tb_report_is_control(uint32_t cp)
+{
+    return cp < 0x20 || (cp >= 0x7F && cp <= 0x9F);
+}
+
+/* true when s is valid UTF-8 without control characters: written as it is. */
+static bool plain(const char *s)
+{
+    uint32_t cp = 0;
+    for (const unsigned char *p = (const unsigned char *)s; *p;) {
+        size_t n = utf8_seq(p, &cp);
+        if (n == 0 || tb_report_is_control(cp))
+            return false;
+        p += n;
+    }
+    return true;
+}
+
+const char *tb_report_escape(const char *s, char *buf, size_t size)
+{
+    if (plain(s))
+        return s;
+    if (size < 4)
+        return "...";
+    size_t used = 0;
+    uint32_t cp = 0;
+    for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n) {
+        char piece[8];
+        size_t len = tb_report_is_control(cp) ? (size_t)snprintf(piece, sizeof piece, "\\x%02x", (unsigned)cp)
+                                              : tb_report_utf8(cp, piece);
+        if (used + len + 4 > size) { /* room for "..." and the NUL */
+            memcpy(buf + used, "...", 3);
+            used += 3;
+            break;
+        }
+        memcpy(buf + used, piece, len);
+        used += len;
+    }
+    buf[used] = '\0';
     return buf;
 }

@@ -1,7 +1,9 @@
 /* src/report_json.c: the loop report as one JSON document (jansson), full precision, null when absent */
 #include <jansson.h>
 #include <math.h>
+#include <string.h>
 
+#include "alloc.h"
 #include "units.h"
 #include "report.h"
 
@@ -9,6 +11,25 @@
 typedef struct {
     bool ok;
 } builder;
+
+json_t *tb_report_json_text(const char *s)
+{
+    json_t *str = json_string(s);
+    if (str || !s)
+        return str;
+    /* not UTF-8 (or out of memory): each odd byte becomes the character of its value */
+    size_t len = strlen(s);
+    char *clean = tb_malloc(len + 1, 2); /* a stray byte takes two bytes in UTF-8 */
+    if (!clean)
+        return NULL;
+    size_t used = 0;
+    uint32_t cp = 0;
+    for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n)
+        used += tb_report_utf8(cp, clean + used);
+    str = json_stringn(clean, used);
+    tb_free(clean);
+    return str;
+}
 
 static json_t *num(double x)
 {
@@ -327,10 +348,10 @@ static json_t *ports_object(builder *b, const tb_result *res, size_t l)
             b->ok = false;
             continue;
         }
-        set(b, po, "name", json_string(s.name));
-        set(b, po, "seen_by_source", s.at_source ? json_string(s.node_a) : json_null());
-        set(b, po, "node_a", s.at_source ? json_null() : json_string(s.node_a));
-        set(b, po, "node_b", s.at_source ? json_null() : json_string(s.node_b ? s.node_b : "0"));
+        set(b, po, "name", tb_report_json_text(s.name));
+        set(b, po, "seen_by_source", s.at_source ? tb_report_json_text(s.node_a) : json_null());
+        set(b, po, "node_a", s.at_source ? json_null() : tb_report_json_text(s.node_a));
+        set(b, po, "node_b", s.at_source ? json_null() : tb_report_json_text(s.node_b ? s.node_b : "0"));
         set(b, po, "dc_hz", num(s.dc_hz));
         set(b, po, "dc", zpoint_object(b, &s.dc));
         set(b, po, "side", json_string(tb_side_str(s.side)));
@@ -357,9 +378,9 @@ static json_t *break_object(builder *b, const tb_result *res)
     json_t *o = obj(b);
     if (!o)
         return NULL;
-    set(b, o, "source", json_string(s.source));
-    set(b, o, "node_x", json_string(s.node_x));
-    set(b, o, "node_y", json_string(s.node_y));
+    set(b, o, "source", tb_report_json_text(s.source));
+    set(b, o, "node_x", tb_report_json_text(s.node_x));
+    set(b, o, "node_y", tb_report_json_text(s.node_y));
     set(b, o, "dc_hz", num(s.dc_hz));
     set(b, o, "Tv", cnum(s.dc.has_Tv, s.dc.Tv));
     set(b, o, "Ti", cnum(s.dc.has_Ti, s.dc.Ti));
@@ -432,7 +453,7 @@ static json_t *sensitivity_object(builder *b, const tb_result *res, size_t l)
         json_t *x = obj(b);
         if (!x)
             break;
-        set(b, x, "element", json_string(e->element));
+        set(b, x, "element", tb_report_json_text(e->element));
         set(b, x, "value", num(e->value));
         set(b, x, "T_mag", e->has_T ? num(e->T_mag) : json_null());
         set(b, x, "T_phase_deg_per_pct", e->has_T ? num(e->T_phase_deg) : json_null());
@@ -461,7 +482,7 @@ static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *r
         return NULL;
     }
     const tb_element *e = &ckt->elems[ckt->loops[l].elem];
-    set(b, lp, "source", json_string(e->name));
+    set(b, lp, "source", tb_report_json_text(e->name));
     set(b, lp, "kind", json_string(tb_elem_kind_word(e->kind)));
     set(b, lp, "gain", num(e->value));
     set(b, lp, "dc_hz", num(m.dc_hz));
@@ -586,7 +607,7 @@ static json_t *census_entry(builder *b, const tb_census_entry *e)
         json_decref(unity);
         return NULL;
     }
-    set(b, o, "source", json_string(e->source));
+    set(b, o, "source", tb_report_json_text(e->source));
     set(b, o, "marked", json_boolean(e->marked));
     set(b, o, "in_loop", json_boolean(e->in_loop));
     set(b, o, "max_T_db", e->in_loop ? num(e->max_T_db) : json_null());
@@ -595,11 +616,11 @@ static json_t *census_entry(builder *b, const tb_census_entry *e)
     set(b, o, "unity", unity);
     set(b, o, "phase_margin_deg", e->has_phase_margin ? num(e->phase_margin_deg) : json_null());
     set(b, o, "T_dc", cnum(e->has_T_dc, e->T_dc));
-    set(b, o, "same_loop_as", e->same_loop_as ? json_string(e->same_loop_as) : json_null());
+    set(b, o, "same_loop_as", e->same_loop_as ? tb_report_json_text(e->same_loop_as) : json_null());
     set(b, o, "flagged", json_boolean(e->flagged));
     set(b, o, "phase_margin_ok", json_boolean(e->pm_ok));
     set(b, o, "unstable_alone", json_boolean(e->unstable_alone));
-    set(b, o, "relies_on", e->relies_on ? json_string(e->relies_on) : json_null());
+    set(b, o, "relies_on", e->relies_on ? tb_report_json_text(e->relies_on) : json_null());
     return o;
 }
 
@@ -629,13 +650,13 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
     }
     set(b, root, "tool", json_string("tbeta"));
     set(b, root, "version", json_string(TB_VERSION));
-    set(b, root, "netlist", json_string(ckt->file));
-    set(b, root, "title", json_string(tb_circuit_title(ckt)));
+    set(b, root, "netlist", tb_report_json_text(ckt->file));
+    set(b, root, "title", tb_report_json_text(tb_circuit_title(ckt)));
     set(b, root, "sweep", sweep_object(b, ckt, res));
     if (ckt->io.given) {
         char buf[512];
-        set(b, root, "input", json_string(ckt->io.source));
-        set(b, root, "output", json_string(tb_report_output(&ckt->io, buf, sizeof buf)));
+        set(b, root, "input", tb_report_json_text(ckt->io.source));
+        set(b, root, "output", tb_report_json_text(tb_report_output(&ckt->io, buf, sizeof buf)));
     }
     for (size_t l = 0; l < tb_result_loops(res); l++) {
         json_t *lp = loop_object(b, ckt, res, l);

@@ -29,6 +29,16 @@ static double complex denoise(double complex z, double scale)
     return cabs(z) < 1e-13 * scale ? 0 : z;
 }
 
+/* Names and comments escaped for the terminal (tb_report_escape); one buffer per name printed. */
+typedef struct {
+    char buf[3][256];
+} names;
+
+static const char *esc(names *nm, int i, const char *s)
+{
+    return tb_report_escape(s, nm->buf[i], sizeof nm->buf[i]);
+}
+
 static void line(FILE *out, const char *label, bool present, const char *value, const char *extra)
 {
     fprintf(out, "    %-30s %s%s\n", label, present ? value : "--", present ? extra : "");
@@ -400,12 +410,13 @@ static void impedance_lines(FILE *out, const tb_result *res, size_t l)
         tb_zport_summary s;
         if (tb_zport_loop(res, p, l, &s, NULL) != TB_OK)
             continue;
+        names nm;
         if (s.at_source)
-            fprintf(out, "    port %s = the circuit as %s sees it%s\n", s.name, s.node_a,
+            fprintf(out, "    port %s = the circuit as %s sees it%s\n", esc(&nm, 0, s.name), esc(&nm, 1, s.node_a),
                     s.dc_hz > 0 ? ", at the lowest sweep point" : ", at DC");
         else
-            fprintf(out, "    port %s = v(%s%s%s)%s\n", s.name, s.node_a, s.node_b ? "," : "", s.node_b ? s.node_b : "",
-                    s.dc_hz > 0 ? " at the lowest sweep point" : " at DC");
+            fprintf(out, "    port %s = v(%s%s%s)%s\n", esc(&nm, 0, s.name), esc(&nm, 1, s.node_a), s.node_b ? "," : "",
+                    s.node_b ? esc(&nm, 2, s.node_b) : "", s.dc_hz > 0 ? " at the lowest sweep point" : " at DC");
         line(out, "  Z0 (source gain at zero)", s.dc.has_Z0, fmt_value(s.dc.Z0, v, sizeof v), " ohm");
         line(out, "  T_sc (port shorted)", s.dc.has_T_sc, fmt_value(denoise(s.dc.T_sc, cabs(s.dc.T_oc)), v, sizeof v), "");
         line(out, "  T_oc (port open)", s.dc.has_T_oc, fmt_value(denoise(s.dc.T_oc, cabs(s.dc.T_sc)), v, sizeof v), "");
@@ -437,8 +448,9 @@ static void break_lines(FILE *out, const tb_result *res, size_t l)
     tb_break_summary s;
     if (tb_break_get(res, &s, NULL) != TB_OK || !s.computed)
         return;
-    fprintf(out, "  loop gain at the wire break %s (signal from %s to %s)%s\n", s.source, s.node_x, s.node_y,
-            s.dc_hz > 0 ? " at the lowest sweep point" : " at DC");
+    names nm;
+    fprintf(out, "  loop gain at the wire break %s (signal from %s to %s)%s\n", esc(&nm, 0, s.source),
+            esc(&nm, 1, s.node_x), esc(&nm, 2, s.node_y), s.dc_hz > 0 ? " at the lowest sweep point" : " at DC");
     line(out, "voltage injection Tv", s.dc.has_Tv, fmt_value(s.dc.Tv, v, sizeof v), "");
     if (!s.dc.has_Tv)
         fprintf(out, "      (Tv is infinite: v_y = 0)\n");
@@ -523,7 +535,8 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
     if (st)
         return st;
     const tb_element *e = &ckt->elems[ckt->loops[l].elem];
-    fprintf(out, "\nloop at %s (%s, gain %.6g)\n", e->name, tb_elem_kind_word(e->kind), e->value);
+    names nm;
+    fprintf(out, "\nloop at %s (%s, gain %.6g)\n", esc(&nm, 0, e->name), tb_elem_kind_word(e->kind), e->value);
     tb_stability stab;
     tb_stability_loop(res, l, &stab);
     verdict_first(out, &m, &stab);
@@ -584,6 +597,7 @@ static void census_block(FILE *out, const tb_result *res)
     fprintf(out, "    %-12s %-7s %-12s %-22s %-9s %-12s %s\n", "source", "marked", "T(0)", "max |T|", "|T| = 1",
             "worst PM", "flag");
     for (size_t i = 0; i < count; i++) {
+        names nm;
         char peak[128];
         if (e[i].in_loop)
             snprintf(peak, sizeof peak, "%+.1f dB at %s", e[i].max_T_db,
@@ -602,11 +616,11 @@ static void census_block(FILE *out, const tb_result *res)
                      e[i].has_T_dc && creal(e[i].T_dc) < 0 ? "; positive feedback at DC" : "",
                      e[i].pm_ok ? "" : "; phase margin FAILS",
                      e[i].unstable_alone ? "; unstable on its own, relies on " : "",
-                     e[i].unstable_alone ? e[i].relies_on : "");
+                     e[i].unstable_alone ? esc(&nm, 1, e[i].relies_on) : "");
         else
             snprintf(flag, sizeof flag, "%s%s", e[i].same_loop_as ? "same loop as " : "",
-                     e[i].same_loop_as ? e[i].same_loop_as : "");
-        fprintf(out, "    %-12s %-7s %-12s %-22s %-9zu %-12s %s\n", e[i].source, e[i].marked ? "yes" : "no", t0, peak,
+                     e[i].same_loop_as ? esc(&nm, 1, e[i].same_loop_as) : "");
+        fprintf(out, "    %-12s %-7s %-12s %-22s %-9zu %-12s %s\n", esc(&nm, 0, e[i].source), e[i].marked ? "yes" : "no", t0, peak,
                 e[i].unity_count, pm, flag);
     }
 }
@@ -615,16 +629,17 @@ tb_status tb_report_text(const tb_circuit *ckt, const tb_result *res, FILE *out)
 {
     if (!ckt || !res || !out)
         return TB_ERR_USAGE;
-    char f0[64], f1[64], o[512];
-    fprintf(out, "tbeta %s: feedback report for %s\n", TB_VERSION, ckt->file);
+    char f0[64], f1[64], o[512], file[1024], title[1024];
+    names nm;
+    fprintf(out, "tbeta %s: feedback report for %s\n", TB_VERSION, tb_report_escape(ckt->file, file, sizeof file));
     if (tb_circuit_title(ckt)[0])
-        fprintf(out, "  title   %s\n", tb_circuit_title(ckt));
+        fprintf(out, "  title   %s\n", tb_report_escape(tb_circuit_title(ckt), title, sizeof title));
     fprintf(out, "  sweep   %s to %s, %zu points (%s %ld)\n", fmt_hz(ckt->ac.fstart, f0, sizeof f0),
             fmt_hz(ckt->ac.fstop, f1, sizeof f1), tb_result_points(res), tb_report_grid_word(ckt->ac.kind),
             ckt->ac.points);
     if (ckt->io.given)
-        fprintf(out, "  gain    A = %s / %s\n", tb_report_output(&ckt->io, o, sizeof o),
-                ckt->io.source);
+        fprintf(out, "  gain    A = %s / %s\n", esc(&nm, 0, tb_report_output(&ckt->io, o, sizeof o)),
+                esc(&nm, 1, ckt->io.source));
     for (size_t l = 0; l < tb_result_loops(res); l++) {
         tb_status st = loop_block(out, ckt, res, l);
         if (st)

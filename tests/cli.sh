@@ -132,5 +132,57 @@ else
     passed=$((passed + 1))
 fi
 
+# ---- hostile and unlucky input (issue 12) -------------------------------------------------
+
+# full NAME COMMAND...: COMMAND with its stdout on /dev/full fails, exit 2, saying so
+full() {
+    name=$1
+    shift
+    expect "$name" 2 sh -c 'exec "$@" >/dev/full' sh "$@"
+    has "$name" err "tbeta: cannot write the output: "
+}
+full full-help $tb --help
+full full-version $tb --version
+full full-check-help $tb check --help
+full full-report $tb report netlists/ota_gain_of_2.net
+full full-json $tb report netlists/ota_gain_of_2.net --json
+full full-sweep $tb sweep netlists/ota_gain_of_2.net
+full full-step $tb step netlists/ota_gain_of_2.net
+
+# a threshold below zero is refused, not replaced by the default
+expect pm-negative 2 $tb report netlists/ota_gain_of_2.net --pm-min -5
+has pm-negative err "tbeta: --pm-min needs 0 or more degrees, got -5"
+expect gm-negative 2 $tb report netlists/ota_gain_of_2.net --gm-min -0.5
+has gm-negative err "tbeta: --gm-min needs 0 or more dB, got -0.5"
+expect pm-zero 0 $tb report netlists/ota_gain_of_2.net --pm-min 0 --gm-min 0
+
+# bytes that are not UTF-8 in the title and in node and source names (tests/cli/odd_bytes.net):
+# the JSON report holds them as the characters of their values, the text report escapes only
+# control characters (the title's escape sequence), so nothing reaches the terminal raw
+esc=$(printf '\033')
+expect odd-json 0 $tb report tests/cli/odd_bytes.net --json
+if /usr/bin/python3 - "$tmp/out" <<'PY'; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL odd-json: content"; fi
+import json, sys
+d = json.load(open(sys.argv[1], encoding="utf-8"))
+assert d["title"].startswith("Verst\u00e4rker \x1b[31mred title"), d["title"]
+assert d["loops"][0]["source"] == "G\u00e41" and d["output"] == "v(aus\u00e4)", d["output"]
+assert d["loops"][0]["feedback"]["impedances"]["ports"][0]["name"] == "p\u00e4"
+PY
+expect odd-text 0 $tb report tests/cli/odd_bytes.net
+has odd-text out 'title   Verstärker \x1b[31mred title\x1b[0m'
+has odd-text out 'loop at Gä1'
+if grep -qF "$esc" "$tmp/out"; then failed=$((failed + 1)); echo "FAIL odd-text: an escape byte in stdout"
+else passed=$((passed + 1)); fi
+# an escape sequence in a rejected card and in a file name is escaped on stderr
+mkdir -p "$tmp/odd"
+printf 'escape in a card\nV1 in 0 AC 1\nE1 out 0 in 0 2\nR1 out 0 1k\n.loop E1\n.ac dec 10 1 1k\n.io V1 v(out)\nX\033]0;title\007 a b\n.end\n' \
+    >"$tmp/odd/card$esc[7m.net"
+expect odd-card 2 $tb report "$tmp/odd/card$esc[7m.net"
+has odd-card err 'card\x1b[7m.net:8:'
+if grep -qF "$esc" "$tmp/err"; then failed=$((failed + 1)); echo "FAIL odd-card: an escape byte in stderr"
+else passed=$((passed + 1)); fi
+expect odd-loop 2 $tb sweep netlists/ota_gain_of_2.net --loop "G$esc[2J"
+has odd-loop err "no .loop at 'G\x1b[2J'"
+
 echo "cli: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]

@@ -1,12 +1,14 @@
 /* tests/test_oom.c: allocation-failure sweep. Fails the k-th allocation (k = 0, 1, 2, ...) of one
  * pass and requires the pass to end in TB_ERR_NOMEM (or succeed when k passes the last
  * allocation) without crashing; ASan and valgrind check that nothing leaks. The passes: read ->
- * parse -> stamp -> solve -> measure -> every writer (text, JSON, sweep, step and feedback CSV)
- * -> .expect evaluation; and the regression runner: run, baseline save, load against it, JSON,
- * JUnit and text writers, merge. The library's and the runner's calls to malloc/calloc/realloc
- * are redirected here by linking with -Wl,--wrap=... (Makefile); jansson's, which the runner's
- * JSON goes through, by json_set_alloc_funcs. */
+ * parse -> stamp -> solve -> measure -> every writer (text, JSON, sweep, step and feedback CSV;
+ * names with bytes that are not UTF-8 too) -> .expect evaluation; and the regression runner:
+ * run (each folder and file once, odd names), baseline save and JSON written whole, load
+ * against it (checked whole), JSON, JUnit and text writers, merge. The library's and the
+ * runner's calls to malloc/calloc/realloc are redirected here by linking with -Wl,--wrap=...
+ * (Makefile); jansson's, which the runner's JSON goes through, by json_set_alloc_funcs. */
 #include <stdlib.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include <jansson.h>
@@ -211,6 +213,8 @@ static void test_oom_demo_netlists(void **state)
         /* .ideal breakdown, Blackman ports and a wire break in one netlist; a wire break alone */
         {"tests/fb/noninverting_x20.net", false},
         {"tests/fb/transistor_wirebreak.net", false},
+        /* names with bytes that are not UTF-8, a title with an escape sequence */
+        {"tests/cli/odd_bytes.net", true},
     };
     for (size_t i = 0; i < sizeof passes / sizeof passes[0]; i++)
         sweep(passes[i].path, netlist_once, &passes[i]);
@@ -235,24 +239,32 @@ static tb_status json_once(const void *ctx)
     return st;
 }
 
-static void test_oom_json_writer(void **state)
+static void json_sweep(const char *path)
 {
-    (void)state;
     tb_diag *diag = tb_diag_new();
     tb_circuit *ckt = NULL;
     tb_result *res = NULL;
     tb_options opt;
     tb_options_init(&opt);
     opt.census = true;
-    assert_int_equal(tb_circuit_read("tests/fb/noninverting_x20.net", diag, &ckt), TB_OK);
+    assert_int_equal(tb_circuit_read(path, diag, &ckt), TB_OK);
     assert_int_equal(tb_analyse(ckt, &opt, diag, &res), TB_OK);
     json_pass jp = {ckt, res};
+    char what[128];
+    snprintf(what, sizeof what, "%s, JSON", path);
     count_json = true;
-    sweep("tests/fb/noninverting_x20.net, JSON", json_once, &jp);
+    sweep(what, json_once, &jp);
     count_json = false;
     tb_result_free(res);
     tb_circuit_free(ckt);
     tb_diag_free(diag);
+}
+
+static void test_oom_json_writer(void **state)
+{
+    (void)state;
+    json_sweep("tests/fb/noninverting_x20.net");
+    json_sweep("tests/cli/odd_bytes.net"); /* names made UTF-8 (tb_report_json_text) */
 }
 
 static void test_oom_malformed_netlist(void **state)
@@ -280,6 +292,11 @@ static void test_oom_malformed_netlist(void **state)
  * every allocation of the writers. */
 typedef struct {
     char dir[64];
+    char lib[96];      /* a folder of run A: a netlist with an odd name, links to it and to itself */
+    char odd[128];     /* that netlist */
+    char link_file[128];
+    char link_self[128];
+    const char *paths[5]; /* run A */
     char base[128];    /* --save of run A: the baseline */
     char a_json[128];  /* --json of run A */
     char b0_json[128]; /* --json of run B before it is compared */
@@ -289,19 +306,21 @@ typedef struct {
 } runner_state;
 
 /* Run A: a library that fails an expectation (regressed), one that cannot be read (an
- * unknown loop), one that passes with .ideal and .zport, a folder that does not exist. */
+ * unknown loop), one that passes with .ideal and .zport, a folder that does not exist, and
+ * the folder made in runner_setup (an odd name, a link cycle, a second path to one file). */
 static const char *const run_a[] = {"tests/check/regressed", "tests/check/broken", "netlists/photodiode_tia.net",
                                     "tests/check/no_such_folder"};
+#define RUN_A_COUNT 5
 /* Run B: the same netlist as regressed/, slightly changed: it drifts against A's baseline. */
 static const char *const run_b[] = {"tests/check/drift"};
 
-static tb_status write_to(const char *path, const tb_check_run *run,
-                          tb_status (*writer)(const tb_check_run *, FILE *))
+/* A file written as 'tbeta check' writes it: whole or not at all (tb_checkfile_write). */
+static tb_status write_to(const char *path, const tb_check_run *run, tb_check_writer writer)
 {
-    FILE *f = fopen(path, "w");
-    assert_non_null(f);
-    tb_status st = writer(run, f);
-    assert_int_equal(fclose(f), 0);
+    char why[256];
+    tb_status st = tb_checkfile_write(path, run, writer, why, sizeof why);
+    if (st == TB_ERR_NOMEM)
+        assert_string_equal(why, "out of memory");
     return st;
 }
 
@@ -350,10 +369,10 @@ static tb_status merged(const char *const *paths, size_t count, tb_check_run **r
 /* Run A: collect the files, read, analyse and evaluate each. */
 static tb_status runner_execute_once(const void *ctx)
 {
-    (void)ctx;
+    const runner_state *rs = ctx;
     tb_check_run *run = NULL;
     armed = true;
-    tb_status st = execute(run_a, sizeof run_a / sizeof run_a[0], &run);
+    tb_status st = execute(rs->paths, RUN_A_COUNT, &run);
     tb_check_free(run);
     armed = false;
     return st;
@@ -403,10 +422,34 @@ static tb_status runner_merge_once(const void *ctx)
     return st;
 }
 
+static void copy_file(const char *from, const char *to)
+{
+    char buf[4096];
+    FILE *in = fopen(from, "rb");
+    FILE *out = fopen(to, "wb");
+    assert_non_null(in);
+    assert_non_null(out);
+    for (size_t n; (n = fread(buf, 1, sizeof buf, in)) > 0;)
+        assert_int_equal(fwrite(buf, 1, n, out), n);
+    fclose(in);
+    assert_int_equal(fclose(out), 0);
+}
+
 static void runner_setup(runner_state *rs)
 {
     snprintf(rs->dir, sizeof rs->dir, "/tmp/tbeta-oom-XXXXXX");
     assert_non_null(mkdtemp(rs->dir));
+    snprintf(rs->lib, sizeof rs->lib, "%s/lib", rs->dir);
+    snprintf(rs->odd, sizeof rs->odd, "%s/verst\344rker.net", rs->lib);
+    snprintf(rs->link_file, sizeof rs->link_file, "%s/again.net", rs->lib);
+    snprintf(rs->link_self, sizeof rs->link_self, "%s/self", rs->lib);
+    assert_int_equal(mkdir(rs->lib, 0777), 0);
+    copy_file("tests/cli/odd_bytes.net", rs->odd);
+    assert_int_equal(symlink("verst\344rker.net", rs->link_file), 0);
+    assert_int_equal(symlink(".", rs->link_self), 0);
+    for (size_t i = 0; i < RUN_A_COUNT - 1; i++)
+        rs->paths[i] = run_a[i];
+    rs->paths[RUN_A_COUNT - 1] = rs->lib;
     snprintf(rs->base, sizeof rs->base, "%s/base.json", rs->dir);
     snprintf(rs->a_json, sizeof rs->a_json, "%s/a.json", rs->dir);
     snprintf(rs->b0_json, sizeof rs->b0_json, "%s/b0.json", rs->dir);
@@ -415,8 +458,8 @@ static void runner_setup(runner_state *rs)
     tb_check_run *b = NULL;
     char why[256];
     rs->a = NULL;
-    assert_int_equal(execute(run_a, sizeof run_a / sizeof run_a[0], &rs->a), TB_OK);
-    assert_int_equal(tb_check_count(rs->a), 4);
+    assert_int_equal(execute(rs->paths, RUN_A_COUNT, &rs->a), TB_OK);
+    assert_int_equal(tb_check_count(rs->a), 5); /* the odd netlist once */
     assert_int_equal(write_run(rs->a, rs->base, rs->a_json), TB_OK);
     assert_int_equal(execute(run_b, 1, &b), TB_OK);
     assert_int_equal(write_run(b, NULL, rs->b0_json), TB_OK);
@@ -428,10 +471,12 @@ static void runner_setup(runner_state *rs)
 
 static void runner_teardown(runner_state *rs)
 {
-    const char *files[] = {rs->base, rs->a_json, rs->b0_json, rs->b_json, rs->scratch};
+    const char *files[] = {rs->base, rs->a_json, rs->b0_json, rs->b_json, rs->scratch,
+                           rs->odd, rs->link_file, rs->link_self};
     for (size_t i = 0; i < sizeof files / sizeof files[0]; i++)
         unlink(files[i]);
-    assert_int_equal(rmdir(rs->dir), 0);
+    assert_int_equal(rmdir(rs->lib), 0);
+    assert_int_equal(rmdir(rs->dir), 0); /* no temporary file stayed behind */
     tb_check_free(rs->a);
 }
 
