@@ -28,7 +28,7 @@
  * defined through other parameters. */
 #define MAX_INCLUDE_DEPTH 64
 #define MAX_INSTANCE_DEPTH 100
-#define MAX_PARAM_CHAIN 32
+#define MAX_PARAM_CHAIN 32 /* others a parameter may lean on: 33 parameters in a chain */
 /* Most subcircuit instances, and elements made by expanding them, per circuit. */
 #define MAX_INSTANCES ((size_t)200000)
 #define MAX_EXPANDED ((size_t)5000000)
@@ -136,7 +136,7 @@ typedef struct {
     size_t def_cap;
     frame *frames;    /* MAX_INSTANCE_DEPTH of them, allocated on first use */
     size_t depth;
-    const param *chain[MAX_PARAM_CHAIN]; /* parameters being evaluated */
+    const param *chain[MAX_PARAM_CHAIN + 1]; /* parameters being evaluated */
     size_t chain_len;
     name_set instances;
     size_t expanded;  /* elements made inside instances */
@@ -172,21 +172,21 @@ static const char *line_at(const src_text *s, const char *at, size_t *len)
     return tb_lex_line(&lx, at, len);
 }
 
-/* Appends "  included from F:L" for each file around source src, then
- * "  in instance PATH (F:L)" for each instance being expanded. */
-static void add_context(const parser *p, size_t src, char *msg, size_t size)
+/* Adds "included from F:L" for each file around source src, then
+ * "in instance PATH (F:L)" for each instance being expanded, under the
+ * diagnostic just recorded. */
+static tb_status add_context(const parser *p, size_t src)
 {
-    size_t n = strlen(msg);
-    for (size_t s = src; s < p->src_count && p->srcs[s].parent != SIZE_MAX; s = p->srcs[s].parent)
-        if (n < size)
-            n += (size_t)snprintf(msg + n, size - n, "\n  included from %s:%d",
-                                  p->srcs[p->srcs[s].parent].file, p->srcs[s].line);
-    for (size_t d = p->depth; d-- > 0;) {
+    tb_status st = TB_OK;
+    for (size_t s = src; s < p->src_count && p->srcs[s].parent != SIZE_MAX && !st; s = p->srcs[s].parent)
+        st = tb_diag_add_context(p->diag, "included from %s:%d", p->srcs[p->srcs[s].parent].file,
+                                 p->srcs[s].line);
+    for (size_t d = p->depth; d-- > 0 && !st;) {
         const frame *f = &p->frames[d];
-        if (n < size)
-            n += (size_t)snprintf(msg + n, size - n, "\n  in instance %s (%s:%d)", f->path,
-                                  p->srcs[f->src].file, f->at.line);
+        st = tb_diag_add_context(p->diag, "in instance %s (%s:%d)", f->path, p->srcs[f->src].file,
+                                 f->at.line);
     }
+    return st;
 }
 
 static void vreport_in(parser *p, tb_severity sev, size_t src, const tb_token *at,
@@ -194,10 +194,10 @@ static void vreport_in(parser *p, tb_severity sev, size_t src, const tb_token *a
 {
     char msg[MESSAGE_SIZE];
     vsnprintf(msg, sizeof msg, fmt, ap);
-    add_context(p, src, msg, sizeof msg);
     size_t line_len = 0;
     const char *line = line_at(&p->srcs[src], at->ptr, &line_len);
-    if (tb_diag_add(p->diag, sev, p->srcs[src].file, at->line, at->col, line, line_len, "%s", msg)) {
+    if (tb_diag_add(p->diag, sev, p->srcs[src].file, at->line, at->col, line, line_len, "%s", msg) ||
+        add_context(p, src)) {
         p->status = TB_ERR_NOMEM;
     } else if (sev == TB_SEV_ERROR) {
         p->errors++;
@@ -253,10 +253,11 @@ static bool stopped(const parser *p)
     return p->status == TB_ERR_NOMEM || p->errors >= TB_DIAG_MAX_ERRORS || tb_diag_full(p->diag);
 }
 
+/* The current token is TB_TOK_BAD: a control character or an odd space, named. */
 static bool bad_char(parser *p)
 {
-    return error(p, &p->tok, "invalid control character 0x%02X",
-                 (unsigned)(unsigned char)p->tok.ptr[0]);
+    char text[128];
+    return error(p, &p->tok, "%s", tb_lex_bad_text(&p->tok, text, sizeof text));
 }
 
 /* The empty position just after token t, where something missing was due. */
@@ -489,7 +490,7 @@ static tb_status param_value(const eval_ctx *cx, param *prm, size_t depth, size_
         error_in(p, cx->src, &at, "circular parameter definition %s", chain);
         return TB_ERR_INPUT;
     }
-    if (p->chain_len >= MAX_PARAM_CHAIN) {
+    if (p->chain_len > MAX_PARAM_CHAIN) {
         error_in(p, cx->src, &at, "parameters defined through too many others (limit is %d)",
                  MAX_PARAM_CHAIN);
         return TB_ERR_INPUT;

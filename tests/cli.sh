@@ -73,6 +73,12 @@ for f in tests/bad/*.net; do
         failed=$((failed + 1)); echo "FAIL bad $f: first line '$got', expected '$want'"; fi
 done
 
+# a control code in a rejected card is escaped in the quoted line: nothing reaches the terminal raw
+expect "escaped line" 2 $tb tests/bad/control_char.net
+has "escaped line" err 'Rg fb 0 \x1B[1m1k'
+if LC_ALL=C grep -q "$(printf '\033')" "$tmp/err"; then
+    failed=$((failed + 1)); echo "FAIL escaped line: an ESC byte reached stderr"; else passed=$((passed + 1)); fi
+
 # every example of docs/netlist.md runs (subcircuits, parameters, includes, K) and its JSON parses
 for f in docs/examples/*.net; do
     [ -f "$f" ] || continue

@@ -5,6 +5,7 @@
 #include "testutil.h"
 
 #include "circuit.h"
+#include "diag.h"
 
 /* Parses text from a buffer of exactly its length (no NUL after it, freed
  * before returning, so the circuit must own everything it keeps). */
@@ -337,6 +338,18 @@ static const struct {
     {"t\nR1 a 0 1k\x7f\n", "t.net:2:10: error: invalid control character 0x7F"},
     {"t\n\x02R1\n", "t.net:2:1: error: invalid control character 0x02"},
     {"t\nV1 a 0 \x1b[1m\n", "t.net:2:8: error: invalid control character 0x1B"},
+    /* characters that look like blanks are named */
+    {"t\nR1\xC2\xA0" "a 0 1k\n",
+     "t.net:2:3: error: no-break space (U+00A0) between fields: separate them with plain spaces or tabs"},
+    {"t\nR1 a 0\xE2\x80\x89" "1k\n",
+     "t.net:2:7: error: thin space (U+2009) between fields: separate them with plain spaces or tabs"},
+    {"t\n.param a=1\xC2\xA0" "b=2\n",
+     "t.net:2:11: error: no-break space (U+00A0) between fields: separate them with plain spaces or tabs"},
+    {"t\nR1 a 0 {2*\xC2\xA0" "3}\n",
+     "t.net:2:11: error: expected a number, a name or '(' in the expression, got a no-break space "
+     "(U+00A0): write plain spaces"},
+    {"t\nR1 a 0 {2*\xCE\xA9}\n",
+     "t.net:2:11: error: expected a number, a name or '(' in the expression, got '\xCE\xA9'"},
     /* the start of a card */
     {"t\n(R1 a 0 1)\n", "t.net:2:1: error: expected an element or a directive, got '('"},
     {"t\n=\n", "t.net:2:1: error: expected an element or a directive, got '='"},
@@ -481,6 +494,20 @@ static void test_parse_error_caret(void **state)
          "t.net:3:4: error: expected a value for R1 after 'b'\n"
          "  + b ; nothing\n"
          "     ^\n"},
+        /* control codes in the quoted line are escaped, never sent to the terminal, and
+         * the caret counts them as shown; a UTF-8 character takes one column */
+        {"t\nR1 \xCE\xA9 \x1b[2J 1k\n",
+         "t.net:2:7: error: invalid control character 0x1B\n"
+         "  R1 \xCE\xA9 \\x1B[2J 1k\n"
+         "       ^\n"},
+        {"t\nR1 \x1b[2J\x07 0 x\n",
+         "t.net:2:4: error: invalid control character 0x1B\n"
+         "  R1 \\x1B[2J\\x07 0 x\n"
+         "     ^\n"},
+        {"t\nR1 a\x9b" "b \xff\xfe x\n",
+         "t.net:2:11: error: expected a value for R1, got 'x'\n"
+         "  R1 a\\x9Bb \\xFF\\xFE x\n"
+         "                     ^\n"},
     };
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
         tb_diag *diag = tb_diag_new();
@@ -490,6 +517,45 @@ static void test_parse_error_caret(void **state)
         assert_string_equal(formatted(diag, 0), cases[i].want);
         tb_diag_free(diag);
     }
+}
+
+/* No text from the netlist or its name reaches a terminal as control codes: file
+ * names and messages are kept escaped, like the quoted line. */
+static void test_parse_escapes_user_text(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *text;
+        const char *want;
+    } cases[] = {
+        /* a C1 control (CSI) and a direction override inside a quoted word */
+        {"t\nR1 a 0 x\xC2\x9B" "2J\n", "expected a value for R1, got 'x\\u009B2J'"},
+        {"t\nR1 a 0 x\xE2\x80\xAE" "k1\n", "expected a value for R1, got 'x\\u202Ek1'"},
+        /* bytes that are not UTF-8, and an overlong form of '/' */
+        {"t\nR1 a 0 \xFF\xC0\xAF\n", "expected a value for R1, got '\\xFF\\xC0\\xAF'"},
+        /* valid UTF-8 stays as it is */
+        {"t\nR1 a 0 \xCE\xA9\n", "expected a value for R1, got '\xCE\xA9'"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        tb_diag *diag = tb_diag_new();
+        tb_circuit *ckt = NULL;
+        assert_int_equal(parse_exact(cases[i].text, strlen(cases[i].text), diag, &ckt), TB_ERR_INPUT);
+        assert_string_equal(tb_diag_get(diag, 0)->message, cases[i].want);
+        tb_diag_free(diag);
+    }
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    const char *text = "t\nR1 a 0 x\n";
+    assert_int_equal(tb_circuit_parse(text, strlen(text), "lib\n\x1B[2Jpass.net", diag, &ckt), TB_ERR_INPUT);
+    assert_string_equal(formatted(diag, 0), "lib\\x0A\\x1B[2Jpass.net:2:8: error: expected a value for R1, got 'x'\n"
+                                            "  R1 a 0 x\n"
+                                            "         ^\n");
+    tb_diag_free(diag);
+    char buf[16];
+    assert_int_equal(tb_diag_escape("a\tb\x7F", 4, buf, sizeof buf), 10);
+    assert_string_equal(buf, "a\\x09b\\x7F");
+    assert_int_equal(tb_diag_escape("\x1B[1m", 4, buf, 4), 7); /* cut short, still NUL-terminated */
+    assert_string_equal(buf, "\\x1");
 }
 
 /* Bad cards are reported one by one, in order, and good ones go on being read. */
@@ -714,6 +780,7 @@ int main(void)
         cmocka_unit_test(test_parse_default_ac),
         cmocka_unit_test(test_parse_errors),
         cmocka_unit_test(test_parse_error_caret),
+        cmocka_unit_test(test_parse_escapes_user_text),
         cmocka_unit_test(test_parse_goes_on_after_errors),
         cmocka_unit_test(test_parse_stops_after_20_errors),
         cmocka_unit_test(test_parse_margins),
