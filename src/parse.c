@@ -15,6 +15,7 @@
 #include "diag.h"
 #include "expect.h"
 #include "expr.h"
+#include "grid.h"
 #include "lex.h"
 #include "suggest.h"
 #include "tbeta.h"
@@ -656,6 +657,48 @@ static bool value(parser *p, const char *what, double *out)
     }
     return false;
 }
+/* ---- value ranges ------------------------------------------------------- */
+
+/* The values a quantity may take (docs/netlist.md, "Value ranges"): zero when `zero`
+ * allows it, otherwise a magnitude from lo to hi, either sign. Wide enough for every
+ * realistic circuit, narrow enough that nothing the analysis forms from them leaves the
+ * range of a double: conductances 1/R, jwC and jwL up to 1e15 Hz, their products in the
+ * LU factors, natural frequencies 1/(RC) and R/L, a gain error in percent. */
+typedef struct {
+    double lo;
+    double hi;
+    bool zero;
+    const char *text; /* the range in words, for the message */
+} range;
+
+static const range R_RANGE = {1e-12, 1e18, false, "from 1e-12 to 1e18 ohms in magnitude"};
+static const range C_RANGE = {1e-21, 1e12, false, "from 1e-21 to 1e12 farads in magnitude"};
+static const range L_RANGE = {1e-21, 1e12, false, "from 1e-21 to 1e12 henries in magnitude"};
+/* gains of E, G, F, H and DC and AC values of V, I; .ideal gain and beta */
+static const range GAIN_RANGE = {1e-15, 1e15, true, "0 or from 1e-15 to 1e15 in magnitude"};
+static const range ESTIMATE_RANGE = {1e-15, 1e15, false, "from 1e-15 to 1e15 in magnitude"};
+/* .ac (positive, checked first): the period of the lowest is 32 years, the highest is light */
+static const range FREQ_RANGE = {1e-9, 1e15, false, "from 1e-9 to 1e15 Hz"};
+
+static bool in_range(const range *r, double x)
+{
+    double m = fabs(x);
+    return (r->zero && x == 0) || (m >= r->lo && m <= r->hi);
+}
+
+/* The value just read (p->prev) is `quantity` of `of` and must lie in r; a value of zero
+ * that r refuses is "must be non-zero". */
+static bool check_range(parser *p, const range *r, double x, const char *quantity, const char *of)
+{
+    char text[QUOTE_SIZE];
+    if (in_range(r, x))
+        return true;
+    if (x == 0 && !r->zero)
+        return error(p, &p->prev, "%s of %s must be non-zero", quantity, of);
+    return error(p, &p->prev, "%s of %s must be %s, got '%s'", quantity, of, r->text,
+                 quote(&p->prev, text));
+}
+
 /* ---- element cards ------------------------------------------------------ */
 
 /* Starts element e of the given kind at the name token (the current one). */
@@ -696,11 +739,10 @@ static const char *const quantity[TB_EL_COUNT] = {
 static bool passive(parser *p, tb_elem_kind kind)
 {
     tb_element e;
+    const range *r = kind == TB_EL_R ? &R_RANGE : kind == TB_EL_C ? &C_RANGE : &L_RANGE;
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]) ||
-        !value(p, "a value", &e.value))
+        !value(p, "a value", &e.value) || !check_range(p, r, e.value, quantity[kind], p->name))
         return false;
-    if (e.value == 0.0)
-        return error(p, &p->prev, "%s of %s must be non-zero", quantity[kind], p->name);
     return element_end(p, &e, "the value");
 }
 
@@ -712,12 +754,13 @@ static bool source(parser *p, tb_elem_kind kind)
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]))
         return false;
     if (accept_keyword(p, "dc") || looks_numeric(p)) {
-        if (!value(p, "a DC value", &e.dc))
+        if (!value(p, "a DC value", &e.dc) || !check_range(p, &GAIN_RANGE, e.dc, "DC value", p->name))
             return false;
         part = "the DC value";
     }
     if (accept_keyword(p, "ac")) {
-        if (!value(p, "an AC magnitude", &e.ac_mag))
+        if (!value(p, "an AC magnitude", &e.ac_mag) ||
+            !check_range(p, &GAIN_RANGE, e.ac_mag, "AC magnitude", p->name))
             return false;
         part = "the AC magnitude";
         if (looks_numeric(p)) {
@@ -736,7 +779,8 @@ static bool vcontrolled(parser *p, tb_elem_kind kind)
 {
     tb_element e;
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]) ||
-        !node(p, &e.node[2]) || !node(p, &e.node[3]) || !value(p, "a gain", &e.value))
+        !node(p, &e.node[2]) || !node(p, &e.node[3]) || !value(p, "a gain", &e.value) ||
+        !check_range(p, &GAIN_RANGE, e.value, "gain", p->name))
         return false;
     return element_end(p, &e, "the gain");
 }
@@ -752,7 +796,7 @@ static bool icontrolled(parser *p, tb_elem_kind kind)
     if (!e.ctrl_name)
         return false;
     advance(p);
-    if (!value(p, "a gain", &e.value))
+    if (!value(p, "a gain", &e.value) || !check_range(p, &GAIN_RANGE, e.value, "gain", p->name))
         return false;
     return element_end(p, &e, "the gain");
 }
@@ -878,14 +922,20 @@ static bool ac_card(parser *p)
     if (!(ac.fstart > 0))
         return error(p, &start, "start frequency of .ac must be positive, got '%s'",
                      quote(&start, text));
-    if (!value(p, "a stop frequency", &ac.fstop))
+    if (!check_range(p, &FREQ_RANGE, ac.fstart, "start frequency", ".ac") ||
+        !value(p, "a stop frequency", &ac.fstop))
         return false;
     if (ac.fstop < ac.fstart)
         return error(p, &p->prev,
                      "stop frequency of .ac ('%s') must not be below its start frequency ('%s')",
                      quote(&p->prev, text), quote(&start, other));
-    if (!end_of_card(p, "the stop frequency of .ac", NULL))
+    if (!check_range(p, &FREQ_RANGE, ac.fstop, "stop frequency", ".ac") ||
+        !end_of_card(p, "the stop frequency of .ac", NULL))
         return false;
+    double total = tb_grid_total(&ac);
+    if (total > (double)TB_GRID_MAX_POINTS)
+        return error(p, &p->first, "the .ac grid has %.0f frequencies in all (limit is %zu)", total,
+                     TB_GRID_MAX_POINTS);
     p->ckt->ac = ac;
     return true;
 }
@@ -1023,10 +1073,12 @@ static bool ideal_card(parser *p)
         double x = 0;
         if (!expect(p, TB_TOK_EQUALS, "'='") || !value(p, k < 2 ? "a value" : "a percentage", &x))
             return false;
-        if ((k < 2 && x == 0) || (k == 2 && !(x > 0)) || (k == 3 && !(x > 0 && x < 100)))
+        if ((k < 2 && x == 0) || (k == 2 && !(x > 0 && x <= 1e6)) || (k == 3 && !(x > 0 && x < 100)))
             return error(p, &p->prev, "%s of .ideal must be %s, got '%s'", keys[k],
-                         k < 2 ? "non-zero" : k == 2 ? "a positive percentage" : "a percentage above 0 and below 100",
+                         k < 2 ? "non-zero" : k == 2 ? "a positive percentage up to 1e6" : "a percentage above 0 and below 100",
                          quote(&p->prev, text));
+        if (k < 2 && !check_range(p, &ESTIMATE_RANGE, x, keys[k], ".ideal"))
+            return false;
         seen[k] = true;
         if (k < 2) {
             id.as_beta = k == 1;
@@ -1040,6 +1092,15 @@ static bool ideal_card(parser *p)
         return error(p, &card_tok, ".ideal needs the estimate: gain=VALUE or beta=VALUE");
     p->ckt->ideal = id;
     return true;
+}
+
+/* Largest number an .expect bound may reach (value, tolerance, either end): far beyond
+ * any figure, small enough that the bound's ends stay finite. */
+#define EXPECT_MAX 1e100
+
+static bool fig_is_word(const tb_expect *x)
+{
+    return tb_figure_at((size_t)x->figure)->word;
 }
 
 /* The bound of an .expect card after its operator: op = EQ, GE, LE or IN (docs/check.md). */
@@ -1152,6 +1213,10 @@ static bool expect_card(parser *p)
     }
     if (!expect_bound(p, &x) || !end_of_card(p, "the bound of .expect", NULL))
         return false;
+    if (x.op != TB_XOP_NONE && !fig_is_word(&x) &&
+        !(fabs(x.lo) <= EXPECT_MAX && fabs(x.hi) <= EXPECT_MAX && fabs(x.tol) <= EXPECT_MAX))
+        return error(p, &p->prev, "the bound of .expect %s must stay within ±1e100: write a smaller "
+                     "value or tolerance", x.target);
     return tb_expect_add(p->ckt, &x) == TB_OK || nomem(p);
 }
 

@@ -373,6 +373,31 @@ static const struct {
     {"t\nc7 a 0 0.0p\n", "t.net:2:8: error: capacitance of c7 must be non-zero"},
     {"t\nLx a 0 -0\n", "t.net:2:8: error: inductance of Lx must be non-zero"},
     {"t\nR1 a 0 1e-400\n", "t.net:2:8: error: resistance of R1 must be non-zero"},
+    /* value ranges: a denormal, and values whose conductance, jwC or pole leaves a double */
+    {"t\nR1 a 0 1e-320\n",
+     "t.net:2:8: error: resistance of R1 must be from 1e-12 to 1e18 ohms in magnitude, got '1e-320'"},
+    {"t\nR1 a 0 -0.999e-12\n",
+     "t.net:2:8: error: resistance of R1 must be from 1e-12 to 1e18 ohms in magnitude, got '-0.999e-12'"},
+    {"t\nR1 a 0 1.001e18\n",
+     "t.net:2:8: error: resistance of R1 must be from 1e-12 to 1e18 ohms in magnitude, got '1.001e18'"},
+    {"t\nC1 a 0 1e300\n",
+     "t.net:2:8: error: capacitance of C1 must be from 1e-21 to 1e12 farads in magnitude, got '1e300'"},
+    {"t\nC1 a 0 1e-22\n",
+     "t.net:2:8: error: capacitance of C1 must be from 1e-21 to 1e12 farads in magnitude, got '1e-22'"},
+    {"t\nL1 a 0 {-1e13}\n",
+     "t.net:2:8: error: inductance of L1 must be from 1e-21 to 1e12 henries in magnitude, got '{-1e13}'"},
+    {"t\nE1 a 0 b 0 1e-320\n",
+     "t.net:2:12: error: gain of E1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e-320'"},
+    {"t\nG1 a 0 b 0 -2e15\n",
+     "t.net:2:12: error: gain of G1 must be 0 or from 1e-15 to 1e15 in magnitude, got '-2e15'"},
+    {"t\nF1 a 0 V1 1e16\n",
+     "t.net:2:11: error: gain of F1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e16'"},
+    {"t\nH1 a 0 V1 1e-16\n",
+     "t.net:2:11: error: gain of H1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e-16'"},
+    {"t\nV1 a 0 AC 1e-320\n",
+     "t.net:2:11: error: AC magnitude of V1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e-320'"},
+    {"t\nI1 a 0 1e300 AC 1\n",
+     "t.net:2:8: error: DC value of I1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e300'"},
     {"t\nR1 a 0 1k foo\n", "t.net:2:11: error: unexpected 'foo' after the value of R1"},
     {"t\nR1 a 0 1k\n+ 2k\n", "t.net:3:3: error: unexpected '2k' after the value of R1"},
     {"t\nR1 a 0 1k=2\n", "t.net:2:10: error: unexpected '=' after the value of R1"},
@@ -422,6 +447,15 @@ static const struct {
     {"t\n.ac dec 10 1k 100\n",
      "t.net:2:15: error: stop frequency of .ac ('100') must not be below its start frequency ('1k')"},
     {"t\n.ac dec 10 1 1k 5\n", "t.net:2:17: error: unexpected '5' after the stop frequency of .ac"},
+    {"t\n.ac lin 10 1e-300 1.7e308\n",
+     "t.net:2:12: error: start frequency of .ac must be from 1e-9 to 1e15 Hz, got '1e-300'"},
+    {"t\n.ac lin 10 1 1.1e15\n",
+     "t.net:2:14: error: stop frequency of .ac must be from 1e-9 to 1e15 Hz, got '1.1e15'"},
+    /* each number in range, the grid too large in all: located at the card */
+    {"t\n.ac dec 1e7 1e-9 1e15\n",
+     "t.net:2:1: error: the .ac grid has 240000001 frequencies in all (limit is 10000000)"},
+    {"t\n.ac oct 5meg 1 4\n",
+     "t.net:2:1: error: the .ac grid has 10000001 frequencies in all (limit is 10000000)"},
     {"t\n.ac dec 10 1 1k\n.ac lin 5 1 2\n",
      "t.net:3:1: error: second .ac directive (the first is on line 2)"},
     /* .loop */
@@ -472,6 +506,25 @@ static void test_parse_errors(void **state)
         assert_ptr_equal(ckt, (tb_circuit *)&diag);
         tb_diag_free(diag);
     }
+}
+
+/* The ends of every value range are accepted, and the grid at its limit too. */
+static void test_parse_value_range_ends(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = parse_ok("ends\nV1 a 0 0 AC 1e15\nI1 a 0 -1e-15 AC 0\nR1 a b 1e-12\nR2 b 0 -1e18\n"
+                               "C1 b 0 1e-21\nC2 b 0 -1e12\nL1 b c 1e12\nL2 c 0 1e-21\nE1 d 0 a 0 0\n"
+                               "G1 d 0 a 0 1e15\nRd d 0 1\nF1 d 0 V1 -1e-15\n.loop E1\n.io V1 v(d)\n"
+                               ".ideal gain=1e15 tol=1e6\n.ac oct 5meg 1 2\n");
+    assert_true(elem_of(ckt, "R1")->value == 1e-12);
+    assert_true(elem_of(ckt, "R2")->value == -1e18);
+    assert_true(elem_of(ckt, "C1")->value == 1e-21);
+    assert_true(elem_of(ckt, "G1")->value == 1e15);
+    assert_int_equal(ckt->ac.points, 5000000);
+    tb_circuit_free(ckt);
+    ckt = parse_ok("ends\nV1 a 0 AC 1\nE1 b 0 a 0 2\n.loop E1\n.ac lin 1e7 1e-9 1e15\n");
+    assert_true(ckt->ac.fstart == 1e-9 && ckt->ac.fstop == 1e15);
+    tb_circuit_free(ckt);
 }
 
 /* The source line is quoted and the caret lands under the column (tabs kept). */
@@ -779,6 +832,7 @@ int main(void)
         cmocka_unit_test(test_parse_unknown_directive_warns),
         cmocka_unit_test(test_parse_default_ac),
         cmocka_unit_test(test_parse_errors),
+        cmocka_unit_test(test_parse_value_range_ends),
         cmocka_unit_test(test_parse_error_caret),
         cmocka_unit_test(test_parse_escapes_user_text),
         cmocka_unit_test(test_parse_goes_on_after_errors),
