@@ -49,11 +49,19 @@ typedef struct {
     param_state state;
 } param;
 
+/* Parameters in definition order; looked up by name through index once there are more
+ * than SMALL_LIST of them (an instance's copy of its definition's list has no index of
+ * its own: it is looked up through the definition's, whose positions it shares). */
 typedef struct {
     param *items;
     size_t count;
     size_t cap;
+    tb_name_index index;
 } param_list;
+
+/* Lists up to this long are searched in order: no index (most subcircuits have a few
+ * parameters, and a library may define a hundred thousand subcircuits). */
+#define SMALL_LIST 8
 
 /* A .subckt definition; its body is re-read for every instance. */
 typedef struct {
@@ -63,6 +71,7 @@ typedef struct {
     const char **pins;      /* interned */
     size_t pin_count;
     size_t pin_cap;
+    tb_name_index pin_index; /* once there are more than SMALL_LIST pins */
     param_list params;      /* defaults (the first default_count), then .param cards of the body */
     size_t default_count;
     size_t body_pos;        /* the body: text[body_pos..body_end) from line body_line */
@@ -106,12 +115,17 @@ typedef struct {
     char *canon; /* canonical path (malloc'd by realpath), NULL when unknown */
 } open_file;
 
-/* Names already taken by instances: open addressing, name and line. */
+/* Names already taken by instances, with the line of each. */
 typedef struct {
-    const char **names;
-    int *lines;
+    const char *name; /* interned hierarchical name */
+    int line;
+} taken_name;
+
+typedef struct {
+    taken_name *items;
     size_t cap;
     size_t count;
+    tb_name_index index;
 } name_set;
 
 typedef struct {
@@ -135,6 +149,7 @@ typedef struct {
     subckt *defs;
     size_t def_count;
     size_t def_cap;
+    tb_name_index def_index;
     frame *frames;    /* MAX_INSTANCE_DEPTH of them, allocated on first use */
     size_t depth;
     const param *chain[MAX_PARAM_CHAIN + 1]; /* parameters being evaluated */
@@ -449,13 +464,66 @@ static tb_token expr_pos(const tb_token *tok, size_t offset)
     return at;
 }
 
-static param *find_param(param_list *list, const char *name, size_t len)
+static const char *param_name_of(const void *owner, size_t i)
 {
-    tb_token t = {TB_TOK_WORD, name, len, 0, 0};
+    return ((const param_list *)owner)->items[i].name;
+}
+
+/* The parameter called name[0..len) in list, found through index (the list's own, or
+ * that of the list it is a copy of); NULL when there is none. */
+static param *find_param_in(param_list *list, const tb_name_index *index, const char *name, size_t len)
+{
+    size_t found = 0;
+    if (index->cap)
+        return tb_names_find(index, param_name_of, list, name, len, &found) ? &list->items[found] : NULL;
     for (size_t i = 0; i < list->count; i++)
-        if (name_is(list->items[i].name, &t))
+        if (tb_name_eq_n(list->items[i].name, name, len))
             return &list->items[i];
     return NULL;
+}
+
+static param *find_param(param_list *list, const char *name, size_t len)
+{
+    return find_param_in(list, &list->index, name, len);
+}
+
+/* Indexes the last of count entries of owner, once count is past SMALL_LIST (all of
+ * them the first time). On failure the index is dropped: the entries stay searchable
+ * in order. */
+static tb_status index_tail(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t count)
+{
+    size_t ignored = 0;
+    if (count <= SMALL_LIST)
+        return TB_OK;
+    for (size_t i = idx->cap ? count - 1 : 0; i < count; i++) {
+        if (tb_names_add(idx, name_of, owner, i, &ignored)) {
+            tb_names_free(idx);
+            return TB_ERR_NOMEM;
+        }
+    }
+    return TB_OK;
+}
+
+/* Appends prm to list (its name is new there). */
+static tb_status add_param(param_list *list, const param *prm)
+{
+    if (tb_grow(&list->items, &list->cap, list->count + 1, sizeof(param), TB_MAX_ELEMENTS))
+        return TB_ERR_NOMEM;
+    list->items[list->count++] = *prm;
+    return index_tail(&list->index, param_name_of, list, list->count);
+}
+
+static void free_params(param_list *list)
+{
+    tb_free(list->items);
+    tb_names_free(&list->index);
+}
+
+static void free_subckt(subckt *def)
+{
+    tb_free(def->pins);
+    tb_names_free(&def->pin_index);
+    free_params(&def->params);
 }
 
 /* "a -> b -> c": the chain from index `from`, then last. */
@@ -515,7 +583,8 @@ static tb_status lookup(void *ctx, const char *name, size_t len, size_t offset, 
     const eval_ctx *cx = ctx;
     parser *p = cx->p;
     for (size_t d = cx->depth; d > 0; d--) {
-        param *prm = find_param(&p->frames[d - 1].params, name, len);
+        const frame *f = &p->frames[d - 1];
+        param *prm = find_param_in((param_list *)&f->params, &f->def->params.index, name, len);
         if (prm)
             return param_value(cx, prm, d, offset, out);
     }
@@ -585,17 +654,35 @@ static bool param_def(parser *p, param_list *list, const char *what)
         return false;
     if (p->tok.kind != TB_TOK_WORD && p->tok.kind != TB_TOK_EXPR)
         return expected(p, "a value or {expression}");
-    if (tb_grow(&list->items, &list->cap, list->count + 1, sizeof(param), TB_MAX_ELEMENTS))
-        return nomem(p);
     param prm = {intern_n(p, name.ptr, name.len), p->tok, p->src, 0, PARAM_UNSET};
     if (!prm.name)
         return false;
-    list->items[list->count++] = prm;
+    if (add_param(list, &prm))
+        return nomem(p);
     advance(p);
     return true;
 }
 
 /* ---- operands ----------------------------------------------------------- */
+
+static const char *pin_name_of(const void *owner, size_t i)
+{
+    return ((const subckt *)owner)->pins[i];
+}
+
+/* The pin of def called name[0..len): true and its position in *found. */
+static bool find_pin(const subckt *def, const char *name, size_t len, size_t *found)
+{
+    if (def->pin_index.cap)
+        return tb_names_find(&def->pin_index, pin_name_of, def, name, len, found);
+    for (size_t i = 0; i < def->pin_count; i++) {
+        if (tb_name_eq_n(def->pins[i], name, len)) {
+            *found = i;
+            return true;
+        }
+    }
+    return false;
+}
 
 /* The node called t here: in an instance a pin stands for the caller's node,
  * ground stays ground, and any other name becomes PATH.name. */
@@ -606,11 +693,10 @@ static bool resolve_node(parser *p, const tb_token *t, int *index)
         *index = 0;
         return true;
     }
-    for (size_t i = 0; f && i < f->def->pin_count; i++) {
-        if (name_is(f->def->pins[i], t)) {
-            *index = f->pins[i];
-            return true;
-        }
+    size_t pin = 0;
+    if (f && find_pin(f->def, t->ptr, t->len, &pin)) {
+        *index = f->pins[pin];
+        return true;
     }
     size_t len = 0;
     const char *name = scoped(p, t, &len);
@@ -1300,59 +1386,37 @@ static bool directive(parser *p)
 
 /* ---- subcircuit instances ------------------------------------------------ */
 
+static const char *def_name_of(const void *owner, size_t i)
+{
+    return ((const parser *)owner)->defs[i].name;
+}
+
 static const subckt *find_subckt(const parser *p, const tb_token *name)
 {
-    for (size_t i = 0; i < p->def_count; i++)
-        if (name_is(p->defs[i].name, name))
-            return &p->defs[i];
-    return NULL;
+    size_t found = 0;
+    return tb_names_find(&p->def_index, def_name_of, p, name->ptr, name->len, &found) ? &p->defs[found]
+                                                                                    : NULL;
 }
 
-static size_t hash_lower(const char *s)
+static const char *instance_name_of(const void *owner, size_t i)
 {
-    size_t h = 1469598103934665603u; /* FNV-1a */
-    for (; *s; s++) {
-        h ^= (unsigned char)tb_lex_lower(*s);
-        h *= 1099511628211u;
-    }
-    return h ^ (h >> 29);
+    return ((const name_set *)owner)->items[i].name;
 }
 
-/* Adds an instance path; false (with *line the first one's) when it is taken. */
+/* Adds an instance path; TB_ERR_INPUT (with *first_line the first one's) when it is taken. */
 static tb_status claim_instance(parser *p, const char *path, int line, int *first_line)
 {
     name_set *set = &p->instances;
-    if (2 * (set->count + 1) > set->cap) {
-        name_set bigger = {NULL, NULL, set->cap ? 2 * set->cap : 64, set->count};
-        bigger.names = tb_calloc(bigger.cap, sizeof(char *));
-        bigger.lines = tb_calloc(bigger.cap, sizeof(int));
-        if (!bigger.names || !bigger.lines) {
-            tb_free(bigger.names);
-            tb_free(bigger.lines);
-            return TB_ERR_NOMEM;
-        }
-        for (size_t i = 0; i < set->cap; i++) {
-            if (!set->names[i])
-                continue;
-            size_t k = hash_lower(set->names[i]) & (bigger.cap - 1);
-            while (bigger.names[k])
-                k = (k + 1) & (bigger.cap - 1);
-            bigger.names[k] = set->names[i];
-            bigger.lines[k] = set->lines[i];
-        }
-        tb_free(set->names);
-        tb_free(set->lines);
-        *set = bigger;
+    size_t found = 0;
+    if (tb_names_find(&set->index, instance_name_of, set, path, strlen(path), &found)) {
+        *first_line = set->items[found].line;
+        return TB_ERR_INPUT;
     }
-    size_t k = hash_lower(path) & (set->cap - 1);
-    for (; set->names[k]; k = (k + 1) & (set->cap - 1)) {
-        if (tb_name_eq(set->names[k], path)) {
-            *first_line = set->lines[k];
-            return TB_ERR_INPUT;
-        }
-    }
-    set->names[k] = path;
-    set->lines[k] = line;
+    if (tb_grow(&set->items, &set->cap, set->count + 1, sizeof(taken_name), MAX_INSTANCES))
+        return TB_ERR_NOMEM;
+    set->items[set->count] = (taken_name){path, line};
+    if (tb_names_add(&set->index, instance_name_of, set, set->count, &found))
+        return TB_ERR_NOMEM;
     set->count++;
     return TB_OK;
 }
@@ -1443,7 +1507,7 @@ static bool instance_params(parser *p, const subckt *def, param_list *values)
         if (!expect_word(p, "a parameter name"))
             return false;
         tb_token name = p->tok;
-        param *prm = find_param(values, name.ptr, name.len);
+        param *prm = find_param_in(values, &def->params.index, name.ptr, name.len);
         if (!prm || (size_t)(prm - values->items) >= def->default_count)
             return error(p, &name, "subcircuit '%s' has no parameter '%s'", def->name,
                          quote(&name, text));
@@ -1648,10 +1712,10 @@ static bool subckt_head(parser *p, subckt *def)
     if (!card_words(p))
         return false;
     for (size_t i = 0; i < p->word_count; i++) {
-        for (size_t k = 0; k < i; k++)
-            if (name_is(def->pins[k], &p->words[i]))
-                return error(p, &p->words[i], "pin '%s' appears twice on .subckt %s",
-                             quote(&p->words[i], text), def->name);
+        size_t first = 0;
+        if (find_pin(def, p->words[i].ptr, p->words[i].len, &first))
+            return error(p, &p->words[i], "pin '%s' appears twice on .subckt %s",
+                         quote(&p->words[i], text), def->name);
         if (is_ground(&p->words[i]))
             return error(p, &p->words[i], "ground '%s' cannot be a pin of .subckt %s",
                          quote(&p->words[i], text), def->name);
@@ -1661,6 +1725,8 @@ static bool subckt_head(parser *p, subckt *def)
         if (!def->pins[i])
             return false;
         def->pin_count = i + 1;
+        if (index_tail(&def->pin_index, pin_name_of, def, def->pin_count))
+            return nomem(p);
     }
     while (!at_end(p))
         if (!param_def(p, &def->params, "parameter"))
@@ -1724,12 +1790,15 @@ static void subckt_card(parser *p)
         if (ok)
             end_of_card(p, ".ends", NULL);
     }
+    size_t ignored = 0;
     if (ok && def->body_end > 0) {
-        p->def_count++;
-        return;
+        if (tb_names_add(&p->def_index, def_name_of, p, p->def_count, &ignored) == TB_OK) {
+            p->def_count++;
+            return;
+        }
+        nomem(p);
     }
-    tb_free(def->pins);
-    tb_free(def->params.items);
+    free_subckt(def);
 }
 
 static tb_status slurp(const char *path, int *err, char **text, size_t *len);
@@ -1902,16 +1971,16 @@ static void settle_globals(parser *p)
 static void free_parser(parser *p)
 {
     for (size_t i = 0; i < p->def_count; i++) {
-        tb_free(p->defs[i].pins);
-        tb_free(p->defs[i].params.items);
+        free_subckt(&p->defs[i]);
     }
     tb_free(p->defs);
     tb_free(p->frames);
-    tb_free(p->globals.items);
+    free_params(&p->globals);
     tb_free(p->srcs);
     tb_free(p->cards);
-    tb_free(p->instances.names);
-    tb_free(p->instances.lines);
+    tb_free(p->instances.items);
+    tb_names_free(&p->instances.index);
+    tb_names_free(&p->def_index);
     tb_free(p->words);
     tb_free(p->scratch);
 }
