@@ -78,7 +78,8 @@ void tb_circuit_free(tb_circuit *ckt)
     tb_free(ckt->elems);
     tb_free(ckt->loops);
     for (size_t i = 0; i < ckt->source_count; i++)
-        tb_free(ckt->sources[i].text);
+        if (ckt->sources[i].owned)
+            tb_free(ckt->sources[i].text);
     tb_free(ckt->sources);
     tb_free(ckt);
 }
@@ -97,7 +98,20 @@ tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, s
         tb_free(text);
         return TB_ERR_NOMEM;
     }
-    ckt->sources[ckt->source_count++] = (tb_source){name, text, len};
+    ckt->sources[ckt->source_count++] = (tb_source){name, text, len, true};
+    if (file_out)
+        *file_out = name;
+    return TB_OK;
+}
+
+tb_status tb_circuit_add_source_alias(tb_circuit *ckt, const char *file, const char *text, size_t len,
+                                      const char **file_out)
+{
+    const char *name = tb_circuit_intern(ckt, file, strlen(file));
+    if (!name || tb_grow(&ckt->sources, &ckt->source_cap, ckt->source_count + 1, sizeof(tb_source),
+                         MAX_SOURCES))
+        return TB_ERR_NOMEM;
+    ckt->sources[ckt->source_count++] = (tb_source){name, (char *)text, len, false};
     if (file_out)
         *file_out = name;
     return TB_OK;

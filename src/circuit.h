@@ -91,8 +91,9 @@ typedef struct {
  * file), kept so that any later diagnostic can quote its lines. */
 typedef struct {
     const char *file; /* interned name, as in tb_loc */
-    char *text;       /* owned by the circuit */
+    char *text;       /* owned by the circuit (by this entry when owned, else by an earlier one) */
     size_t len;
+    bool owned;
 } tb_source;
 
 /* .margins: the netlist's own stability thresholds (either may be absent). */
@@ -192,6 +193,11 @@ tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop);
  * NULL, receives the interned name used in tb_loc. */
 tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, size_t len,
                                 const char **file_out);
+/* Records that a text the circuit holds already (from tb_circuit_add_source) is
+ * also read under the name file: an included file named through another path is
+ * read once, and later messages quote it under either name. *file_out as above. */
+tb_status tb_circuit_add_source_alias(tb_circuit *ckt, const char *file, const char *text, size_t len,
+                                      const char **file_out);
 /* Physical line `line` (1-based) of the source text read as `file` (compared
  * by content; the latest source of that name wins), without its line end;
  * its length goes to *len. NULL when there is no such file or line. */

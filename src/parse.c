@@ -9,6 +9,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "alloc.h"
 #include "circuit.h"
@@ -17,6 +18,7 @@
 #include "expr.h"
 #include "grid.h"
 #include "lex.h"
+#include "netfile.h"
 #include "suggest.h"
 #include "tbeta.h"
 
@@ -28,6 +30,10 @@
 /* Deepest nesting of .include files, of subcircuit instances, of parameters
  * defined through other parameters. */
 #define MAX_INCLUDE_DEPTH 64
+/* Most files read through .include per netlist, counting each time a file is included
+ * (a shared file too): the cap on fan-out (files including others twice, each level
+ * doubling the work). */
+#define MAX_INCLUSIONS ((size_t)10000)
 #define MAX_INSTANCE_DEPTH 100
 #define MAX_PARAM_CHAIN 32 /* others a parameter may lean on: 33 parameters in a chain */
 /* Most subcircuit instances, and elements made by expanding them, per circuit. */
@@ -115,6 +121,25 @@ typedef struct {
     char *canon; /* canonical path (malloc'd by realpath), NULL when unknown */
 } open_file;
 
+/* A file read through .include, kept so that including it again shares its text
+ * (each file is read once) and a refused one is refused again without reading it. */
+typedef struct {
+    char id[48];      /* the file's identity (tb_netfile) */
+    const char *file; /* the name it was first read under (interned in the circuit); NULL when refused */
+    const char *text; /* owned by the circuit; NULL when refused */
+    size_t len;
+    tb_file_why why;  /* refused as binary: why; problem TB_FILE_OK otherwise */
+    int foreign_line; /* refused as not a netlist: the line of its first card that is not one */
+} known_file;
+
+/* How this netlist is read (tb_read_options, resolved). */
+typedef struct {
+    bool allow_include;
+    const char *include_root; /* as given, for messages; NULL: none */
+    char *root_canon;         /* its canonical path (malloc'd by realpath) */
+    size_t max_bytes;
+} read_setup;
+
 /* Names already taken by instances, with the line of each. */
 typedef struct {
     const char *name; /* interned hierarchical name */
@@ -161,6 +186,13 @@ typedef struct {
     size_t word_cap;
     char *scratch;    /* scratch: a hierarchical name */
     size_t scratch_cap;
+    const read_setup *setup;
+    size_t bytes;      /* text read, each file once */
+    size_t inclusions; /* files read through .include, each time (past the limit: it was said) */
+    known_file *known;
+    size_t known_count;
+    size_t known_cap;
+    tb_name_index known_index; /* by id */
 } parser;
 
 /* ---- messages ----------------------------------------------------------- */
@@ -1801,19 +1833,13 @@ static void subckt_card(parser *p)
     free_subckt(def);
 }
 
-static tb_status slurp(const char *path, int *err, char **text, size_t *len);
-
-/* Adds a source text (owned by the circuit from here on). */
-static bool add_source(parser *p, const char *file, char *text, size_t len, size_t parent, int line)
+/* Adds an entry to the sources (the netlist, or one inclusion of a file) whose text the
+ * circuit holds under the interned name file. */
+static bool add_src(parser *p, const char *file, const char *text, size_t len, size_t parent, int line)
 {
-    const char *name = NULL;
-    if (tb_grow(&p->srcs, &p->src_cap, p->src_count + 1, sizeof(src_text), SIZE_MAX / 64)) {
-        tb_free(text);
+    if (tb_grow(&p->srcs, &p->src_cap, p->src_count + 1, sizeof(src_text), SIZE_MAX / 64))
         return nomem(p);
-    }
-    if (tb_circuit_add_source(p->ckt, file, text, len, &name) != TB_OK)
-        return nomem(p);
-    p->srcs[p->src_count++] = (src_text){name, text, len, parent, line};
+    p->srcs[p->src_count++] = (src_text){file, text, len, parent, line};
     return true;
 }
 
@@ -1851,60 +1877,168 @@ static void include_cycle(const parser *p, const open_file *files, size_t depth,
         snprintf(buf + n, size - n, "%s", path);
 }
 
+static const char *known_id_of(const void *owner, size_t i)
+{
+    return ((const parser *)owner)->known[i].id;
+}
+
+/* Whether canon (a canonical path) lies inside the include root, when there is one. */
+static bool inside_root(const parser *p, const char *canon)
+{
+    const char *root = p->setup->root_canon;
+    if (!root)
+        return true;
+    size_t n = strlen(root);
+    return strncmp(canon, root, n) == 0 && (n > 0 && (root[n - 1] == '/' || canon[n] == '/'));
+}
+
+/* Says why the included file path was not read, at its name on the .include card; false. */
+static bool refused(parser *p, const tb_token *name, const char *path, const tb_file_why *why,
+                    int foreign_line)
+{
+    char reason[160];
+    if (foreign_line)
+        return error(p, name, "'%s' is not a netlist: line %d does not start like a card (its text is "
+                     "not shown)", path, foreign_line);
+    tb_netfile_why_text(why, reason, sizeof reason);
+    if (why->problem == TB_FILE_BINARY)
+        return error(p, name, "'%s' is not a netlist: %s", path, reason);
+    return error(p, name, "cannot read '%s': %s", path, reason);
+}
+
+/* Reads the file named path (at canon) for an .include card, or finds it read already:
+ * *out is its record (which may say it was refused). Each file is read once: its text,
+ * held by the circuit, serves every inclusion. A text that is not a netlist is freed
+ * unread by anyone: it never reaches the circuit, whose sources messages quote. */
+static bool read_included(parser *p, const tb_token *name, const char *path, const char *canon,
+                          size_t *out)
+{
+    tb_netfile f;
+    tb_file_why why;
+    if (tb_netfile_open(canon, true, &f, &why) != TB_OK)
+        return refused(p, name, path, &why, 0);
+    if (tb_names_find(&p->known_index, known_id_of, p, f.id, strlen(f.id), out)) {
+        tb_netfile_close(&f);
+        return true;
+    }
+    known_file k = {.why = {.problem = TB_FILE_OK}};
+    memcpy(k.id, f.id, sizeof k.id);
+    char *text = NULL;
+    size_t len = 0;
+    tb_status st = tb_netfile_load(&f, p->setup->max_bytes - p->bytes, &text, &len, &why);
+    tb_netfile_close(&f);
+    if (st == TB_ERR_NOMEM)
+        return nomem(p);
+    if (why.problem == TB_FILE_TOO_LARGE)
+        why.limit = p->setup->max_bytes; /* the cap is on all files together */
+    if (st != TB_OK && why.problem != TB_FILE_BINARY)
+        return refused(p, name, path, &why, 0); /* too large, or a read error: not remembered */
+    if (st != TB_OK) {
+        k.why = why;
+    } else if ((k.foreign_line = tb_netfile_foreign_line(text, len)) != 0) {
+        tb_free(text);
+    } else {
+        if (tb_circuit_add_source(p->ckt, path, text, len, &k.file) != TB_OK) /* it owns text now */
+            return nomem(p);
+        k.text = text;
+        k.len = len;
+        p->bytes += len;
+    }
+    size_t ignored = 0;
+    if (tb_grow(&p->known, &p->known_cap, p->known_count + 1, sizeof(known_file), MAX_INCLUSIONS + 1))
+        return nomem(p);
+    p->known[p->known_count] = k;
+    if (tb_names_add(&p->known_index, known_id_of, p, p->known_count, &ignored))
+        return nomem(p);
+    *out = p->known_count++;
+    return true;
+}
+
+/* The name under which an inclusion of file k through path is known to the circuit:
+ * k's own when path is the name it was first read under, else an alias of its text. */
+static const char *inclusion_name(parser *p, const known_file *k, const char *path)
+{
+    const char *name = NULL;
+    if (strcmp(k->file, path) == 0)
+        return k->file;
+    if (tb_circuit_add_source_alias(p->ckt, path, k->text, k->len, &name) != TB_OK)
+        nomem(p);
+    return name;
+}
+
+/* The checks an .include card passes before its file is looked at; false after an error. */
+static bool may_include(parser *p, const tb_token *name, size_t depth)
+{
+    if (!p->setup->allow_include)
+        return error(p, name, ".include is not allowed: this netlist is read with includes turned off");
+    if (depth >= MAX_INCLUDE_DEPTH)
+        return error(p, name, "includes nested too deeply (limit is %d files)", MAX_INCLUDE_DEPTH);
+    if (p->inclusions > MAX_INCLUSIONS)
+        return false; /* said once already */
+    if (p->inclusions == MAX_INCLUSIONS) {
+        p->inclusions++;
+        return error(p, name, "too many files read through .include (limit is %zu in all)", MAX_INCLUSIONS);
+    }
+    return true;
+}
+
+/* Where path (canonical: canon) may not be included from here: outside the include
+ * root, or a cycle. false after an error. */
+static bool may_open(parser *p, const tb_token *name, const open_file *files, size_t depth,
+                     const char *path, const char *canon)
+{
+    char cycle[MESSAGE_SIZE / 2];
+    if (!inside_root(p, canon))
+        return error(p, name, "cannot include '%s': it lies outside the include root '%s'", path,
+                     p->setup->include_root);
+    for (size_t d = 0; d < depth; d++) {
+        if (files[d].canon && strcmp(files[d].canon, canon) == 0) {
+            include_cycle(p, files, depth, canon, path, cycle, sizeof cycle);
+            return error(p, name, "'%s' includes itself: %s", path, cycle);
+        }
+    }
+    return true;
+}
+
 /* includecard -> .INCLUDE FILE; opens the file as files[*depth] */
 static bool include_card(parser *p, open_file *files, size_t *depth)
 {
     char reason[128];
-    char cycle[MESSAGE_SIZE / 2];
     advance(p);
     if (!expect_word(p, "a file name"))
         return false;
     tb_token name = p->tok;
     advance(p);
-    if (!end_of_card(p, "the file name of .include", NULL))
+    if (!end_of_card(p, "the file name of .include", NULL) || !may_include(p, &name, *depth))
         return false;
-    if (*depth >= MAX_INCLUDE_DEPTH)
-        return error(p, &name, "includes nested too deeply (limit is %d files)", MAX_INCLUDE_DEPTH);
     char *path = include_path(p->srcs[p->src].file, &name);
     if (!path)
         return nomem(p);
     char *canon = realpath(path, NULL);
-    for (size_t d = 0; canon && d < *depth; d++) {
-        if (files[d].canon && strcmp(files[d].canon, canon) == 0) {
-            include_cycle(p, files, *depth, canon, path, cycle, sizeof cycle);
-            error(p, &name, "'%s' includes itself: %s", path, cycle);
-            free(canon);
-            tb_free(path);
-            return false;
-        }
-    }
-    char *text = NULL;
-    size_t len = 0;
-    int err = 0;
-    tb_status st = slurp(path, &err, &text, &len);
-    if (st != TB_OK) {
-        free(canon);
-        if (st == TB_ERR_NOMEM) {
-            tb_free(path);
-            return nomem(p);
-        }
+    size_t k = 0;
+    bool ok = canon && may_open(p, &name, files, *depth, path, canon) &&
+              read_included(p, &name, path, canon, &k);
+    if (!canon) {
+        int err = errno;
         if (strerror_r(err, reason, sizeof reason) != 0)
             snprintf(reason, sizeof reason, "error %d", err);
         error(p, &name, "cannot read '%s': %s", path, reason);
-        tb_free(path);
-        return false;
     }
-    bool ok = add_source(p, path, text, len, p->src, name.line);
+    const known_file *kf = ok ? &p->known[k] : NULL;
+    if (ok && (kf->why.problem != TB_FILE_OK || kf->foreign_line))
+        ok = refused(p, &name, path, &kf->why, kf->foreign_line);
+    const char *file = ok ? inclusion_name(p, kf, path) : NULL;
     tb_free(path);
-    if (!ok) {
+    if (!file || !add_src(p, file, kf->text, kf->len, p->src, name.line)) {
         free(canon);
         return false;
     }
-    size_t skip = len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0 ? 3 : 0;
+    p->inclusions++;
+    size_t skip = kf->len >= 3 && memcmp(kf->text, "\xEF\xBB\xBF", 3) == 0 ? 3 : 0;
     open_file *f = &files[(*depth)++];
     f->src = p->src_count - 1;
     f->canon = canon;
-    tb_lex_init_at(&f->lx, text, len, skip, 1);
+    tb_lex_init_at(&f->lx, kf->text, kf->len, skip, 1);
     return true;
 }
 
@@ -1980,6 +2114,8 @@ static void free_parser(parser *p)
     tb_free(p->cards);
     tb_free(p->instances.items);
     tb_names_free(&p->instances.index);
+    tb_free(p->known);
+    tb_names_free(&p->known_index);
     tb_names_free(&p->def_index);
     tb_free(p->words);
     tb_free(p->scratch);
@@ -2012,18 +2148,22 @@ static tb_status netlist(parser *p, const char *canon)
     return p->status;
 }
 
-/* Parses the source text (handed to the circuit) read from file. */
+/* Parses the source text (handed to the circuit) read from file, canonical path canon
+ * (NULL when it is not a file), as setup says. */
 static tb_status parse_owned(char *text, size_t len, const char *file, const char *canon,
-                             tb_diag *diag, tb_circuit **out)
+                             const read_setup *setup, tb_diag *diag, tb_circuit **out)
 {
     tb_circuit *ckt = NULL;
+    const char *name = NULL;
     tb_status st = tb_circuit_create(file, &ckt);
     if (st != TB_OK) {
         tb_free(text);
         return st;
     }
-    parser p = {.ckt = ckt, .diag = diag, .status = TB_OK};
-    if (add_source(&p, ckt->file, text, len, SIZE_MAX, 0))
+    parser p = {.ckt = ckt, .diag = diag, .status = TB_OK, .setup = setup, .bytes = len};
+    if (tb_circuit_add_source(ckt, ckt->file, text, len, &name) != TB_OK)
+        nomem(&p);
+    else if (add_src(&p, name, text, len, SIZE_MAX, 0))
         netlist(&p, canon);
     free_parser(&p);
     /* References are checked only in a netlist without syntax errors: an
@@ -2039,81 +2179,122 @@ static tb_status parse_owned(char *text, size_t len, const char *file, const cha
     return TB_OK;
 }
 
-tb_status tb_circuit_parse(const char *text, size_t len, const char *file, tb_diag *diag,
-                           tb_circuit **out)
+void tb_read_options_init(tb_read_options *opt)
+{
+    if (opt)
+        *opt = (tb_read_options){.allow_include = true, .include_root = NULL, .max_bytes = TB_READ_MAX_BYTES};
+}
+
+/* A diagnostic about the whole of file (no line); returns st, or TB_ERR_NOMEM when it
+ * could not be recorded. */
+static tb_status whole_file(tb_diag *diag, const char *file, tb_status st, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+static tb_status whole_file(tb_diag *diag, const char *file, tb_status st, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    tb_status added = tb_diag_vadd(diag, TB_SEV_ERROR, file ? file : "<input>", 0, 0, NULL, 0, fmt, ap);
+    va_end(ap);
+    return added ? TB_ERR_NOMEM : st;
+}
+
+/* Resolves opt (NULL: the defaults) into *rs; the include root must be a folder.
+ * TB_ERR_IO (with a diagnostic about file) when it is not. */
+static tb_status setup_read(const tb_read_options *opt, const char *file, tb_diag *diag, read_setup *rs)
+{
+    tb_read_options defaults;
+    tb_read_options_init(&defaults);
+    if (!opt)
+        opt = &defaults;
+    *rs = (read_setup){opt->allow_include, opt->include_root, NULL, opt->max_bytes};
+    if (!opt->include_root)
+        return TB_OK;
+    struct stat st;
+    rs->root_canon = realpath(opt->include_root, NULL);
+    int err = rs->root_canon ? (stat(rs->root_canon, &st) != 0 ? errno : S_ISDIR(st.st_mode) ? 0 : ENOTDIR)
+                             : errno;
+    if (!err)
+        return TB_OK;
+    free(rs->root_canon);
+    rs->root_canon = NULL;
+    char reason[128];
+    if (strerror_r(err, reason, sizeof reason) != 0)
+        snprintf(reason, sizeof reason, "error %d", err);
+    return whole_file(diag, file, TB_ERR_IO, "cannot use '%s' as the include root: %s", opt->include_root,
+                      reason);
+}
+
+tb_status tb_circuit_parse_with(const char *text, size_t len, const char *file,
+                                const tb_read_options *opt, tb_diag *diag, tb_circuit **out)
 {
     if ((!text && len) || !out)
         return TB_ERR_USAGE;
-    char *copy = tb_strndup(text ? text : "", len);
-    if (!copy)
-        return TB_ERR_NOMEM;
-    return parse_owned(copy, len, file, NULL, diag, out);
+    read_setup rs;
+    tb_status st = setup_read(opt, file, diag, &rs);
+    if (st != TB_OK)
+        return st;
+    char reason[160];
+    tb_file_why why = {.problem = TB_FILE_TOO_LARGE, .limit = rs.max_bytes};
+    char *copy = len > rs.max_bytes ? NULL : tb_strndup(text ? text : "", len);
+    if (len > rs.max_bytes)
+        st = whole_file(diag, file, TB_ERR_INPUT, "%s", tb_netfile_why_text(&why, reason, sizeof reason));
+    else
+        st = copy ? parse_owned(copy, len, file, NULL, &rs, diag, out) : TB_ERR_NOMEM;
+    free(rs.root_canon);
+    return st;
+}
+
+tb_status tb_circuit_parse(const char *text, size_t len, const char *file, tb_diag *diag,
+                           tb_circuit **out)
+{
+    return tb_circuit_parse_with(text, len, file, NULL, diag, out);
 }
 
 /* ---- files -------------------------------------------------------------- */
 
-static tb_status cannot_read(const char *path, int err, tb_diag *diag)
+/* Reads the netlist file at path whole: regular, within the limit, no NUL byte. */
+static tb_status read_netlist(const char *path, size_t limit, tb_diag *diag, char **text, size_t *len)
 {
-    char reason[128];
-    if (strerror_r(err, reason, sizeof reason) != 0)
-        snprintf(reason, sizeof reason, "error %d", err);
-    if (tb_diag_add(diag, TB_SEV_ERROR, path, 0, 0, NULL, 0, "cannot read '%s': %s", path, reason))
-        return TB_ERR_NOMEM;
-    return TB_ERR_IO;
+    char reason[160];
+    tb_netfile f;
+    tb_file_why why;
+    tb_status st = tb_netfile_open(path, false, &f, &why);
+    if (st == TB_OK) {
+        st = tb_netfile_load(&f, limit, text, len, &why);
+        tb_netfile_close(&f);
+    }
+    if (st == TB_OK || st == TB_ERR_NOMEM)
+        return st;
+    tb_netfile_why_text(&why, reason, sizeof reason);
+    if (why.problem == TB_FILE_BINARY) /* located, but nothing of it quoted */
+        return tb_diag_add(diag, TB_SEV_ERROR, path, why.line, why.col, NULL, 0, "'%s' is not a netlist: %s",
+                           path, reason)
+                   ? TB_ERR_NOMEM
+                   : TB_ERR_INPUT;
+    return whole_file(diag, path, st, "cannot read '%s': %s", path, reason);
 }
 
-/* Reads the whole file at path into a new buffer *text of *len bytes;
- * TB_ERR_IO with *err the reason, or TB_ERR_NOMEM. */
-static tb_status slurp(const char *path, int *err, char **text, size_t *len)
+tb_status tb_circuit_read_with(const char *path, const tb_read_options *opt, tb_diag *diag,
+                               tb_circuit **out)
 {
-    FILE *f = fopen(path, "rb");
-    if (!f) {
-        *err = errno;
-        return TB_ERR_IO;
+    if (!path || !out)
+        return TB_ERR_USAGE;
+    read_setup rs;
+    tb_status st = setup_read(opt, path, diag, &rs);
+    char *text = NULL;
+    size_t len = 0;
+    if (st == TB_OK)
+        st = read_netlist(path, rs.max_bytes, diag, &text, &len);
+    if (st == TB_OK) {
+        char *canon = realpath(path, NULL);
+        st = parse_owned(text, len, path, canon, &rs, diag, out);
+        free(canon);
     }
-    char *buf = NULL;
-    size_t cap = 0;
-    size_t n = 0;
-    tb_status st = TB_OK;
-    for (;;) {
-        if (tb_grow(&buf, &cap, n + 65536, 1, SIZE_MAX / 2)) {
-            st = TB_ERR_NOMEM;
-            break;
-        }
-        size_t want = cap - n;
-        size_t got = fread(buf + n, 1, want, f);
-        n += got;
-        if (got < want)
-            break;
-    }
-    if (st == TB_OK && ferror(f)) {
-        *err = errno ? errno : EIO;
-        st = TB_ERR_IO;
-    }
-    fclose(f);
-    if (st != TB_OK) {
-        tb_free(buf);
-        return st;
-    }
-    *text = buf;
-    *len = n;
-    return TB_OK;
+    free(rs.root_canon);
+    return st;
 }
 
 tb_status tb_circuit_read(const char *path, tb_diag *diag, tb_circuit **out)
 {
-    if (!path || !out)
-        return TB_ERR_USAGE;
-    char *text = NULL;
-    size_t len = 0;
-    int err = 0;
-    tb_status st = slurp(path, &err, &text, &len);
-    if (st == TB_ERR_IO)
-        return cannot_read(path, err, diag);
-    if (st != TB_OK)
-        return st;
-    char *canon = realpath(path, NULL);
-    st = parse_owned(text, len, path, canon, diag, out);
-    free(canon);
-    return st;
+    return tb_circuit_read_with(path, NULL, diag, out);
 }

@@ -815,7 +815,7 @@ static void test_parse_read_errors(void **state)
                                             "'/nonexistent/amp.net': No such file or directory\n");
     assert_int_equal(tb_diag_get(diag, 0)->line, 0);
     assert_int_equal(tb_circuit_read("tests", diag, &ckt), TB_ERR_IO);
-    assert_string_equal(first_line(diag, 1), "tests: error: cannot read 'tests': Is a directory");
+    assert_string_equal(first_line(diag, 1), "tests: error: cannot read 'tests': not a regular file (a directory)");
     tb_diag_free(diag);
 }
 
