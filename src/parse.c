@@ -1914,7 +1914,7 @@ static bool read_included(parser *p, const tb_token *name, const char *path, con
                           size_t *out)
 {
     tb_netfile f;
-    tb_file_why why;
+    tb_file_why why = {.problem = TB_FILE_OK};
     if (tb_netfile_open(canon, true, &f, &why) != TB_OK)
         return refused(p, name, path, &why, 0);
     if (tb_names_find(&p->known_index, known_id_of, p, f.id, strlen(f.id), out)) {
@@ -1929,7 +1929,7 @@ static bool read_included(parser *p, const tb_token *name, const char *path, con
     tb_netfile_close(&f);
     if (st == TB_ERR_NOMEM)
         return nomem(p);
-    if (why.problem == TB_FILE_TOO_LARGE)
+    if (st != TB_OK && why.problem == TB_FILE_TOO_LARGE)
         why.limit = p->setup->max_bytes; /* the cap is on all files together */
     if (st != TB_OK && why.problem != TB_FILE_BINARY)
         return refused(p, name, path, &why, 0); /* too large, or a read error: not remembered */
@@ -2257,7 +2257,7 @@ static tb_status read_netlist(const char *path, size_t limit, tb_diag *diag, cha
 {
     char reason[160];
     tb_netfile f;
-    tb_file_why why;
+    tb_file_why why = {.problem = TB_FILE_OK};
     tb_status st = tb_netfile_open(path, false, &f, &why);
     if (st == TB_OK) {
         st = tb_netfile_load(&f, limit, text, len, &why);
