@@ -64,6 +64,23 @@ TB_API size_t tb_diag_format(const tb_diag *diag, size_t i, char *buf, size_t si
 
 typedef struct tb_circuit tb_circuit;
 
+/* How a netlist is read: what its .include cards may reach, and how much text it
+ * may bring in. A program that reads netlists from others (a library of them, a
+ * server) confines includes to a folder, or turns them off. */
+typedef struct {
+    bool allow_include;       /* false: every .include card is an error (default true) */
+    const char *include_root; /* NULL (the default): .include may name any regular file;
+                               * otherwise a folder: every included file, with symbolic links
+                               * resolved, must lie inside it (the netlist itself need not) */
+    size_t max_bytes;         /* the netlist and every file it includes, each counted once, hold
+                               * at most this many bytes in all (default TB_READ_MAX_BYTES) */
+} tb_read_options;
+
+#define TB_READ_MAX_BYTES ((size_t)1 << 30) /* 1 GiB: beyond the element limit's text */
+
+/* Sets every field of *opt to its default. */
+TB_API void tb_read_options_init(tb_read_options *opt);
+
 /* Parses a netlist held in memory (text[0..len), need not be NUL-terminated);
  * file names it in diagnostics. On success *out owns a new circuit (free with
  * tb_circuit_free). Errors: TB_ERR_INPUT (diagnostics in diag), TB_ERR_NOMEM,
@@ -71,8 +88,20 @@ typedef struct tb_circuit tb_circuit;
 TB_API tb_status tb_circuit_parse(const char *text, size_t len, const char *file,
                                   tb_diag *diag, tb_circuit **out);
 /* Reads and parses the netlist file at path; TB_ERR_IO when it cannot be read
- * (with a diagnostic), otherwise as tb_circuit_parse. */
+ * (with a diagnostic), otherwise as tb_circuit_parse. Only regular files are
+ * read (never a FIFO or a device, which would block or never end); a file with
+ * a NUL byte is not a netlist (TB_ERR_INPUT). */
 TB_API tb_status tb_circuit_read(const char *path, tb_diag *diag, tb_circuit **out);
+/* tb_circuit_parse and tb_circuit_read with reading options (opt NULL: the
+ * defaults, as tb_read_options_init sets them). An include root that cannot be
+ * used (missing, not a folder) is TB_ERR_IO with a diagnostic; whatever the
+ * options, an included file is read only when it is a regular file, holds no NUL
+ * byte and its first cards read as cards: otherwise the .include card is an
+ * error that names the file and shows none of its content. */
+TB_API tb_status tb_circuit_parse_with(const char *text, size_t len, const char *file,
+                                       const tb_read_options *opt, tb_diag *diag, tb_circuit **out);
+TB_API tb_status tb_circuit_read_with(const char *path, const tb_read_options *opt, tb_diag *diag,
+                                      tb_circuit **out);
 /* Frees a circuit and every name it owns (NULL is fine). */
 TB_API void tb_circuit_free(tb_circuit *ckt);
 

@@ -1,7 +1,6 @@
 /* src/circuit.c: node table, element list, string arena, and validation after parsing */
 #include "circuit.h"
 
-#include <ctype.h>
 #include <stdarg.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -74,12 +73,13 @@ void tb_circuit_free(tb_circuit *ckt)
     }
     tb_free(ckt->title);
     tb_free(ckt->node_names);
-    tb_free(ckt->node_index.slots);
-    tb_free(ckt->elem_index.slots);
+    tb_names_free(&ckt->node_index);
+    tb_names_free(&ckt->elem_index);
     tb_free(ckt->elems);
     tb_free(ckt->loops);
     for (size_t i = 0; i < ckt->source_count; i++)
-        tb_free(ckt->sources[i].text);
+        if (ckt->sources[i].owned)
+            tb_free(ckt->sources[i].text);
     tb_free(ckt->sources);
     tb_free(ckt);
 }
@@ -98,7 +98,20 @@ tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, s
         tb_free(text);
         return TB_ERR_NOMEM;
     }
-    ckt->sources[ckt->source_count++] = (tb_source){name, text, len};
+    ckt->sources[ckt->source_count++] = (tb_source){name, text, len, true};
+    if (file_out)
+        *file_out = name;
+    return TB_OK;
+}
+
+tb_status tb_circuit_add_source_alias(tb_circuit *ckt, const char *file, const char *text, size_t len,
+                                      const char **file_out)
+{
+    const char *name = tb_circuit_intern(ckt, file, strlen(file));
+    if (!name || tb_grow(&ckt->sources, &ckt->source_cap, ckt->source_count + 1, sizeof(tb_source),
+                         MAX_SOURCES))
+        return TB_ERR_NOMEM;
+    ckt->sources[ckt->source_count++] = (tb_source){name, (char *)text, len, false};
     if (file_out)
         *file_out = name;
     return TB_OK;
@@ -135,123 +148,19 @@ const char *tb_circuit_source_line(const tb_circuit *ckt, const char *file, int 
 
 /* ---- names ----------------------------------------------------------- */
 
-bool tb_name_eq(const char *a, const char *b)
-{
-    while (*a && tolower((unsigned char)*a) == tolower((unsigned char)*b)) {
-        a++;
-        b++;
-    }
-    return tolower((unsigned char)*a) == tolower((unsigned char)*b);
-}
-
-static bool name_eq_n(const char *a, const char *b, size_t len)
-{
-    for (size_t i = 0; i < len; i++)
-        if (tolower((unsigned char)a[i]) != tolower((unsigned char)b[i]) || a[i] == '\0')
-            return false;
-    return a[len] == '\0';
-}
-
-static size_t hash_name(const char *s, size_t len)
-{
-    size_t h = 1469598103934665603u; /* FNV-1a */
-    for (size_t i = 0; i < len; i++) {
-        h ^= (unsigned char)tolower((unsigned char)s[i]);
-        h *= 1099511628211u;
-    }
-    /* final avalanche (from splitmix64) so that the low bits used as the slot
-     * index depend on every character: names like R1..R300000 differ late */
-    h ^= h >> 33;
-    h *= 0xff51afd7ed558ccdu;
-    h ^= h >> 33;
-    return h;
-}
-
 static bool is_ground(const char *name, size_t len)
 {
-    return (len == 1 && name[0] == '0') || (len == 3 && name_eq_n("gnd", name, 3));
+    return (len == 1 && name[0] == '0') || (len == 3 && tb_name_eq_n("gnd", name, 3));
 }
 
-typedef const char *(*name_of_fn)(const tb_circuit *ckt, size_t i);
-
-static const char *node_name_of(const tb_circuit *ckt, size_t i)
+static const char *node_name_of(const void *owner, size_t i)
 {
-    return ckt->node_names[i];
+    return ((const tb_circuit *)owner)->node_names[i];
 }
 
-static const char *elem_name_of(const tb_circuit *ckt, size_t i)
+static const char *elem_name_of(const void *owner, size_t i)
 {
-    return ckt->elems[i].name;
-}
-
-/* The slot holding name (hash h), or the empty slot where it would go. */
-static tb_name_slot *find_slot(const tb_circuit *ckt, const tb_name_index *idx, name_of_fn name_of,
-                               const char *name, size_t len, size_t h)
-{
-    size_t mask = idx->cap - 1;
-    size_t i = h & mask;
-    while (idx->slots[i].index1) {
-        const tb_name_slot *slot = &idx->slots[i];
-        if (slot->hash == (uint32_t)(h >> 32) && name_eq_n(name_of(ckt, slot->index1 - 1), name, len))
-            return &idx->slots[i];
-        i = (i + 1) & mask;
-    }
-    return &idx->slots[i];
-}
-
-static bool index_find(const tb_circuit *ckt, const tb_name_index *idx, name_of_fn name_of,
-                       const char *name, size_t len, size_t *found)
-{
-    if (!idx->cap)
-        return false;
-    const tb_name_slot *slot = find_slot(ckt, idx, name_of, name, len, hash_name(name, len));
-    if (!slot->index1)
-        return false;
-    *found = slot->index1 - 1;
-    return true;
-}
-
-/* Doubles the table while it would be more than half full with `entries`. */
-static tb_status index_reserve(const tb_circuit *ckt, tb_name_index *idx, name_of_fn name_of,
-                               size_t entries)
-{
-    if (entries * 2 <= idx->cap)
-        return TB_OK;
-    tb_name_index bigger = {NULL, idx->cap ? idx->cap * 2 : 64};
-    while (entries * 2 > bigger.cap)
-        bigger.cap *= 2;
-    bigger.slots = tb_calloc(bigger.cap, sizeof(tb_name_slot));
-    if (!bigger.slots)
-        return TB_ERR_NOMEM;
-    for (size_t k = 0; k < idx->cap; k++) {
-        if (!idx->slots[k].index1)
-            continue;
-        const char *nm = name_of(ckt, idx->slots[k].index1 - 1);
-        size_t i = hash_name(nm, strlen(nm)) & (bigger.cap - 1);
-        while (bigger.slots[i].index1) /* names in the old table are distinct */
-            i = (i + 1) & (bigger.cap - 1);
-        bigger.slots[i] = idx->slots[k];
-    }
-    tb_free(idx->slots);
-    *idx = bigger;
-    return TB_OK;
-}
-
-/* Records entry i (whose name is name_of(i)). When the name is there already,
- * the first entry keeps the slot and *earlier is its index (else SIZE_MAX). */
-static tb_status index_add(const tb_circuit *ckt, tb_name_index *idx, name_of_fn name_of,
-                           size_t i, size_t *earlier)
-{
-    if (index_reserve(ckt, idx, name_of, i + 1))
-        return TB_ERR_NOMEM;
-    const char *nm = name_of(ckt, i);
-    size_t len = strlen(nm);
-    size_t h = hash_name(nm, len);
-    tb_name_slot *slot = find_slot(ckt, idx, name_of, nm, len, h);
-    *earlier = slot->index1 ? slot->index1 - 1 : SIZE_MAX;
-    if (!slot->index1)
-        *slot = (tb_name_slot){(uint32_t)(i + 1), (uint32_t)(h >> 32)};
-    return TB_OK;
+    return ((const tb_circuit *)owner)->elems[i].name;
 }
 
 bool tb_circuit_find_node(const tb_circuit *ckt, const char *name, size_t len, int *index)
@@ -261,7 +170,7 @@ bool tb_circuit_find_node(const tb_circuit *ckt, const char *name, size_t len, i
         return true;
     }
     size_t found = 0;
-    if (!index_find(ckt, &ckt->node_index, node_name_of, name, len, &found))
+    if (!tb_names_find(&ckt->node_index, node_name_of, ckt, name, len, &found))
         return false;
     *index = (int)found;
     return true;
@@ -280,7 +189,7 @@ tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *in
     size_t n = ckt->node_count;
     ckt->node_names[n] = copy;
     size_t earlier = SIZE_MAX;
-    if (n > 0 && index_add(ckt, &ckt->node_index, node_name_of, n, &earlier))
+    if (n > 0 && tb_names_add(&ckt->node_index, node_name_of, ckt, n, &earlier))
         return TB_ERR_NOMEM;
     ckt->node_count++;
     *index = (int)n;
@@ -289,7 +198,7 @@ tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *in
 
 bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *index)
 {
-    return index_find(ckt, &ckt->elem_index, elem_name_of, name, strlen(name), index);
+    return tb_names_find(&ckt->elem_index, elem_name_of, ckt, name, strlen(name), index);
 }
 
 tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem)
@@ -299,7 +208,7 @@ tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem)
         return TB_ERR_NOMEM;
     tb_element *e = &ckt->elems[ckt->elem_count];
     *e = *elem;
-    if (index_add(ckt, &ckt->elem_index, elem_name_of, ckt->elem_count, &e->first_same_name))
+    if (tb_names_add(&ckt->elem_index, elem_name_of, ckt, ckt->elem_count, &e->first_same_name))
         return TB_ERR_NOMEM;
     ckt->elem_count++;
     return TB_OK;

@@ -6,12 +6,13 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "names.h"
 #include "tbeta.h"
 
 /* Hard limits, each reported by name when passed. */
 #define TB_MAX_NODES ((size_t)50000000)
 #define TB_MAX_ELEMENTS ((size_t)50000000)
-_Static_assert(TB_MAX_NODES < UINT32_MAX && TB_MAX_ELEMENTS < UINT32_MAX, "name slots hold 32-bit indices");
+_Static_assert(TB_MAX_NODES < TB_NAMES_MAX && TB_MAX_ELEMENTS < TB_NAMES_MAX, "name slots hold 32-bit indices");
 #define TB_MAX_LOOPS ((size_t)10000)
 
 typedef enum {
@@ -86,25 +87,13 @@ typedef struct {
     tb_loc out_loc;
 } tb_io_spec;
 
-/* One slot of a name index: index + 1 (0 = empty) and the name's hash, so that
- * probes compare names only when the hashes agree. */
-typedef struct {
-    uint32_t index1; /* the node and element limits keep indices below 2^32 - 1 */
-    uint32_t hash;   /* the upper half of the 64-bit hash (the lower bits pick the slot) */
-} tb_name_slot;
-
-/* Open-addressing hash from a case-insensitive name to an index. */
-typedef struct {
-    tb_name_slot *slots;
-    size_t cap;
-} tb_name_index;
-
 /* One source text the circuit was read from (the netlist and each included
  * file), kept so that any later diagnostic can quote its lines. */
 typedef struct {
     const char *file; /* interned name, as in tb_loc */
-    char *text;       /* owned by the circuit */
+    char *text;       /* owned by the circuit (by this entry when owned, else by an earlier one) */
     size_t len;
+    bool owned;
 } tb_source;
 
 /* .margins: the netlist's own stability thresholds (either may be absent). */
@@ -204,6 +193,11 @@ tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop);
  * NULL, receives the interned name used in tb_loc. */
 tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, size_t len,
                                 const char **file_out);
+/* Records that a text the circuit holds already (from tb_circuit_add_source) is
+ * also read under the name file: an included file named through another path is
+ * read once, and later messages quote it under either name. *file_out as above. */
+tb_status tb_circuit_add_source_alias(tb_circuit *ckt, const char *file, const char *text, size_t len,
+                                      const char **file_out);
 /* Physical line `line` (1-based) of the source text read as `file` (compared
  * by content; the latest source of that name wins), without its line end;
  * its length goes to *len. NULL when there is no such file or line. */
@@ -217,7 +211,5 @@ tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag);
 bool tb_elem_is_controlled(tb_elem_kind kind);
 /* "resistor", "voltage-controlled voltage source" and the like. */
 const char *tb_elem_kind_word(tb_elem_kind kind);
-/* Case-insensitive equality of two NUL-terminated names. */
-bool tb_name_eq(const char *a, const char *b);
 
 #endif

@@ -75,6 +75,74 @@ static char *vformat(const char *fmt, va_list ap)
     return text;
 }
 
+/* ---- escaping: user text never reaches a terminal as control codes -------- */
+
+/* One character of s[0..len) as it is shown: its length in bytes (*size), and
+ * either nothing (it is shown as it is: valid UTF-8, not a control code) or its
+ * escape in esc ("\x1B" for a control or an invalid byte, "\u202E" for a
+ * direction override); returns the escape's length, 0 when shown as it is. */
+static size_t shown(const unsigned char *s, size_t len, size_t *size, char esc[12])
+{
+    unsigned c = s[0];
+    *size = 1;
+    if (c < 0x20 || c == 0x7F) {
+        snprintf(esc, 12, "\\x%02X", c);
+        return 4;
+    }
+    if (c < 0x80)
+        return 0;
+    size_t n = c >= 0xF0 ? 4 : c >= 0xE0 ? 3 : c >= 0xC0 ? 2 : 0;
+    unsigned long cp = n == 4 ? c & 0x07 : n == 3 ? c & 0x0F : c & 0x1F;
+    bool valid = n >= 2 && n <= len && c <= 0xF4;
+    for (size_t i = 1; valid && i < n; i++) {
+        valid = (s[i] & 0xC0) == 0x80;
+        cp = cp << 6 | (s[i] & 0x3F);
+    }
+    static const unsigned long least[5] = {0, 0, 0x80, 0x800, 0x10000};
+    valid = valid && cp >= least[n] && cp <= 0x10FFFF && !(cp >= 0xD800 && cp <= 0xDFFF);
+    if (!valid) {
+        snprintf(esc, 12, "\\x%02X", c);
+        return 4;
+    }
+    *size = n;
+    /* C1 controls (a terminal reads U+009B as CSI) and the direction overrides that
+     * reorder what is shown */
+    if (cp <= 0x9F || (cp >= 0x202A && cp <= 0x202E) || (cp >= 0x2066 && cp <= 0x2069)) {
+        snprintf(esc, 12, "\\u%04lX", cp);
+        return 6;
+    }
+    return 0;
+}
+
+size_t tb_diag_escape(const char *s, size_t len, char *out, size_t size)
+{
+    size_t need = 0;
+    for (size_t i = 0; i < len;) {
+        char esc[12];
+        size_t n = 0;
+        size_t k = shown((const unsigned char *)s + i, len - i, &n, esc);
+        const char *piece = k ? esc : s + i;
+        size_t piece_len = k ? k : n;
+        if (out && need + 1 < size) /* as much as fits, like snprintf */
+            memcpy(out + need, piece, piece_len < size - 1 - need ? piece_len : size - 1 - need);
+        need += piece_len;
+        i += n;
+    }
+    if (out && size)
+        out[need < size ? need : size - 1] = '\0';
+    return need;
+}
+
+/* A NUL-terminated escaped copy of s[0..len); NULL when out of memory. */
+static char *escaped_copy(const char *s, size_t len)
+{
+    size_t need = tb_diag_escape(s, len, NULL, 0);
+    char *copy = tb_malloc(need + 1, 1);
+    if (copy)
+        tb_diag_escape(s, len, copy, need + 1);
+    return copy;
+}
+
 tb_status tb_diag_vadd(tb_diag *diag, tb_severity sev, const char *file, int line, int col,
                        const char *src_line, size_t src_len, const char *fmt, va_list ap)
 {
@@ -83,8 +151,11 @@ tb_status tb_diag_vadd(tb_diag *diag, tb_severity sev, const char *file, int lin
     if (tb_grow(&diag->items, &diag->cap, diag->count + 1, sizeof(tb_diag_entry), DIAG_LIMIT))
         return TB_ERR_NOMEM;
     tb_diag_entry e = {.severity = sev, .line = line, .col = col};
-    e.file = tb_strndup(file ? file : "<input>", strlen(file ? file : "<input>"));
-    e.message = vformat(fmt, ap);
+    const char *name = file ? file : "<input>";
+    e.file = escaped_copy(name, strlen(name));
+    char *raw = vformat(fmt, ap);
+    e.message = raw ? escaped_copy(raw, strlen(raw)) : NULL;
+    tb_free(raw);
     if (src_line)
         e.source_line = tb_strndup(src_line, src_len);
     if (!e.file || !e.message || (src_line && !e.source_line)) {
@@ -107,6 +178,32 @@ tb_status tb_diag_add(tb_diag *diag, tb_severity sev, const char *file, int line
     return st;
 }
 
+tb_status tb_diag_add_context(tb_diag *diag, const char *fmt, ...)
+{
+    if (!diag || diag->count == 0)
+        return TB_OK;
+    va_list ap;
+    va_start(ap, fmt);
+    char *raw = vformat(fmt, ap);
+    va_end(ap);
+    char *line = raw ? escaped_copy(raw, strlen(raw)) : NULL;
+    tb_free(raw);
+    tb_diag_entry *e = &diag->items[diag->count - 1];
+    size_t old = strlen(e->message);
+    char *joined = line ? tb_malloc(old + strlen(line) + 4, 1) : NULL;
+    if (!joined) {
+        tb_free(line);
+        return TB_ERR_NOMEM;
+    }
+    memcpy(joined, e->message, old);
+    memcpy(joined + old, "\n  ", 3);
+    strcpy(joined + old + 3, line);
+    tb_free(line);
+    tb_free((char *)e->message);
+    e->message = joined;
+    return TB_OK;
+}
+
 /* Appends to buf like snprintf, tracking the total length needed. */
 static void put(char *buf, size_t size, size_t *len, const char *fmt, ...)
     __attribute__((format(printf, 4, 5)));
@@ -122,6 +219,39 @@ static void put(char *buf, size_t size, size_t *len, const char *fmt, ...)
         *len += (size_t)n;
 }
 
+/* As shown(), for the quoted line: a tab stays a tab (the caret line copies it). */
+static size_t shown_in_line(const char *line, size_t n, size_t i, size_t *bytes, char esc[12])
+{
+    if (line[i] == '\t') {
+        *bytes = 1;
+        return 0;
+    }
+    return shown((const unsigned char *)line + i, n - i, bytes, esc);
+}
+
+/* The quoted source line, escaped, then a caret under byte column col: each
+ * character before it takes the width it is shown with. */
+static void put_source(char *buf, size_t size, size_t *len, const char *line, int col)
+{
+    size_t n = strlen(line);
+    char esc[12];
+    size_t bytes = 0;
+    put(buf, size, len, "  ");
+    for (size_t i = 0; i < n; i += bytes) {
+        size_t k = shown_in_line(line, n, i, &bytes, esc);
+        put(buf, size, len, "%.*s", (int)(k ? k : bytes), k ? esc : line + i);
+    }
+    put(buf, size, len, "\n  ");
+    size_t stop = col > 1 ? (size_t)col - 1 : 0;
+    for (size_t i = 0; i < stop && i < n; i += bytes) {
+        size_t k = shown_in_line(line, n, i, &bytes, esc);
+        put(buf, size, len, "%*s", line[i] == '\t' ? 0 : (int)(k ? k : 1), line[i] == '\t' ? "\t" : "");
+    }
+    if (stop > n)
+        put(buf, size, len, " "); /* the position just past the line's end */
+    put(buf, size, len, "^\n");
+}
+
 size_t tb_diag_format(const tb_diag *diag, size_t i, char *buf, size_t size)
 {
     const tb_diag_entry *e = tb_diag_get(diag, i);
@@ -135,16 +265,8 @@ size_t tb_diag_format(const tb_diag *diag, size_t i, char *buf, size_t size)
         put(buf, size, &len, "%s:%d:%d: %s: %s\n", e->file, e->line, e->col, kind, e->message);
     else
         put(buf, size, &len, "%s: %s: %s\n", e->file, kind, e->message);
-    if (e->source_line && e->line > 0) {
-        put(buf, size, &len, "  %s\n  ", e->source_line);
-        for (int c = 1; c < e->col; c++) {
-            char ch = e->source_line[c - 1];
-            put(buf, size, &len, "%c", ch == '\t' ? '\t' : ' ');
-            if (ch == '\0')
-                break;
-        }
-        put(buf, size, &len, "^\n");
-    }
+    if (e->source_line && e->line > 0)
+        put_source(buf, size, &len, e->source_line, e->col);
     return len;
 }
 

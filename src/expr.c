@@ -72,9 +72,17 @@ static bool accept(evaluator *ev, char c)
 static bool unexpected(evaluator *ev, const char *what)
 {
     char c = peek(ev);
+    const char *space = NULL;
     if (c == '\0')
         return fail(ev, ev->pos, "expected %s at the end of the expression", what);
-    return fail(ev, ev->pos, "expected %s in the expression, got '%c'", what, c);
+    if (tb_lex_odd_space(ev->s + ev->pos, ev->len - ev->pos, &space))
+        return fail(ev, ev->pos, "expected %s in the expression, got a %s: write plain spaces", what,
+                    space);
+    size_t n = 1; /* the whole UTF-8 character */
+    while (ev->pos + n < ev->len && n < 4 && ((unsigned char)ev->s[ev->pos + n] & 0xC0) == 0x80 &&
+           (unsigned char)c >= 0xC0)
+        n++;
+    return fail(ev, ev->pos, "expected %s in the expression, got '%.*s'", what, (int)n, ev->s + ev->pos);
 }
 
 /* A non-finite intermediate result is an error at the operator that made it. */

@@ -32,6 +32,54 @@ static int class_at(const tb_lexer *lx, size_t i)
     return i < lx->len ? char_class[(unsigned char)lx->text[i]] : C_EOL;
 }
 
+/* Characters that look like blanks but are not (docs/netlist.md): typed by word
+ * processors and copied from web pages, they would otherwise glue two fields into
+ * one word. Each is a token of its own (TB_TOK_BAD) that messages name. */
+static const struct {
+    const char *bytes; /* its UTF-8 encoding */
+    const char *name;
+} odd_spaces[] = {
+    {"\xC2\xA0", "no-break space (U+00A0)"},
+    {"\xE2\x80\x80", "en quad (U+2000)"},
+    {"\xE2\x80\x81", "em quad (U+2001)"},
+    {"\xE2\x80\x82", "en space (U+2002)"},
+    {"\xE2\x80\x83", "em space (U+2003)"},
+    {"\xE2\x80\x84", "three-per-em space (U+2004)"},
+    {"\xE2\x80\x85", "four-per-em space (U+2005)"},
+    {"\xE2\x80\x86", "six-per-em space (U+2006)"},
+    {"\xE2\x80\x87", "figure space (U+2007)"},
+    {"\xE2\x80\x88", "punctuation space (U+2008)"},
+    {"\xE2\x80\x89", "thin space (U+2009)"},
+    {"\xE2\x80\x8A", "hair space (U+200A)"},
+    {"\xE2\x80\x8B", "zero-width space (U+200B)"},
+    {"\xE2\x80\xAF", "narrow no-break space (U+202F)"},
+    {"\xE2\x81\x9F", "medium mathematical space (U+205F)"},
+    {"\xE3\x80\x80", "ideographic space (U+3000)"},
+    {"\xEF\xBB\xBF", "zero-width no-break space (U+FEFF)"},
+};
+
+size_t tb_lex_odd_space(const char *s, size_t len, const char **name)
+{
+    unsigned char c = len ? (unsigned char)s[0] : 0;
+    if (c != 0xC2 && c != 0xE2 && c != 0xE3 && c != 0xEF)
+        return 0;
+    for (size_t k = 0; k < sizeof odd_spaces / sizeof odd_spaces[0]; k++) {
+        size_t n = strlen(odd_spaces[k].bytes);
+        if (n <= len && memcmp(s, odd_spaces[k].bytes, n) == 0) {
+            if (name)
+                *name = odd_spaces[k].name;
+            return n;
+        }
+    }
+    return 0;
+}
+
+/* Length of an odd space at byte i of the input, 0 when there is none. */
+static size_t odd_space_at(const tb_lexer *lx, size_t i)
+{
+    return i < lx->len ? tb_lex_odd_space(lx->text + i, lx->len - i, NULL) : 0;
+}
+
 static int clamp_int(size_t n)
 {
     return n > INT_MAX ? INT_MAX : (int)n;
@@ -175,8 +223,11 @@ tb_token tb_lex_next(tb_lexer *lx)
             tok = make(lx, TB_TOK_EXPR, start, lx->pos - start);
         } else if (cls == C_BAD) {
             tok = make(lx, TB_TOK_BAD, start, 1);
+        } else if (odd_space_at(lx, start)) {
+            lx->pos = start + odd_space_at(lx, start);
+            tok = make(lx, TB_TOK_BAD, start, lx->pos - start);
         } else {
-            while (class_at(lx, lx->pos) == C_WORD)
+            while (class_at(lx, lx->pos) == C_WORD && !odd_space_at(lx, lx->pos))
                 lx->pos++;
             tok = make(lx, TB_TOK_WORD, start, lx->pos - start);
         }
@@ -198,6 +249,16 @@ const char *tb_lex_line(const tb_lexer *lx, const char *at, size_t *len)
         end++;
     *len = (size_t)(end - start);
     return start;
+}
+
+const char *tb_lex_bad_text(const tb_token *tok, char *buf, size_t size)
+{
+    const char *name = NULL;
+    if (tb_lex_odd_space(tok->ptr, tok->len, &name))
+        snprintf(buf, size, "%s between fields: separate them with plain spaces or tabs", name);
+    else
+        snprintf(buf, size, "invalid control character 0x%02X", (unsigned)(unsigned char)tok->ptr[0]);
+    return buf;
 }
 
 bool tb_lex_is(const tb_token *tok, const char *keyword)

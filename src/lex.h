@@ -14,7 +14,8 @@ typedef enum {
     TB_TOK_EXPR,   /* {expression}: from '{' to the first '}' on the same physical
                     * line, both included; without a '}' it runs to the line's end */
     TB_TOK_PLUS,   /* a '+' line with no card before it to continue */
-    TB_TOK_BAD,    /* one control character, which has no place in a netlist */
+    TB_TOK_BAD,    /* one control character, which has no place in a netlist, or a
+                    * character that looks like a blank but is not (tb_lex_odd_space) */
     TB_TOK_EOC,    /* end of the current card (logical line) */
     TB_TOK_EOF     /* end of the input */
 } tb_tok_kind;
@@ -62,6 +63,16 @@ tb_token tb_lex_next(tb_lexer *lx);
 /* The physical line of the source holding at (text <= at <= text + len),
  * without its line end; its length goes to *len. */
 const char *tb_lex_line(const tb_lexer *lx, const char *at, size_t *len);
+
+/* The length of the UTF-8 character at s[0..len) when it is one that looks like
+ * a blank but is not (the no-break space U+00A0, the spaces U+2000..U+200B,
+ * U+202F, U+205F, U+3000, U+FEFF), with its name ("no-break space (U+00A0)") in
+ * *name when name is not NULL; 0 otherwise. */
+size_t tb_lex_odd_space(const char *s, size_t len, const char **name);
+
+/* The message for a TB_TOK_BAD token, in buf: "invalid control character 0x1B",
+ * or the odd space named; returns buf. */
+const char *tb_lex_bad_text(const tb_token *tok, char *buf, size_t size);
 
 /* ASCII lower case, independent of the locale. */
 static inline char tb_lex_lower(char c)

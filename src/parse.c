@@ -9,13 +9,16 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "alloc.h"
 #include "circuit.h"
 #include "diag.h"
 #include "expect.h"
 #include "expr.h"
+#include "grid.h"
 #include "lex.h"
+#include "netfile.h"
 #include "suggest.h"
 #include "tbeta.h"
 
@@ -27,8 +30,12 @@
 /* Deepest nesting of .include files, of subcircuit instances, of parameters
  * defined through other parameters. */
 #define MAX_INCLUDE_DEPTH 64
+/* Most files read through .include per netlist, counting each time a file is included
+ * (a shared file too): the cap on fan-out (files including others twice, each level
+ * doubling the work). */
+#define MAX_INCLUSIONS ((size_t)10000)
 #define MAX_INSTANCE_DEPTH 100
-#define MAX_PARAM_CHAIN 32
+#define MAX_PARAM_CHAIN 32 /* others a parameter may lean on: 33 parameters in a chain */
 /* Most subcircuit instances, and elements made by expanding them, per circuit. */
 #define MAX_INSTANCES ((size_t)200000)
 #define MAX_EXPANDED ((size_t)5000000)
@@ -48,11 +55,19 @@ typedef struct {
     param_state state;
 } param;
 
+/* Parameters in definition order; looked up by name through index once there are more
+ * than SMALL_LIST of them (an instance's copy of its definition's list has no index of
+ * its own: it is looked up through the definition's, whose positions it shares). */
 typedef struct {
     param *items;
     size_t count;
     size_t cap;
+    tb_name_index index;
 } param_list;
+
+/* Lists up to this long are searched in order: no index (most subcircuits have a few
+ * parameters, and a library may define a hundred thousand subcircuits). */
+#define SMALL_LIST 8
 
 /* A .subckt definition; its body is re-read for every instance. */
 typedef struct {
@@ -62,6 +77,7 @@ typedef struct {
     const char **pins;      /* interned */
     size_t pin_count;
     size_t pin_cap;
+    tb_name_index pin_index; /* once there are more than SMALL_LIST pins */
     param_list params;      /* defaults (the first default_count), then .param cards of the body */
     size_t default_count;
     size_t body_pos;        /* the body: text[body_pos..body_end) from line body_line */
@@ -105,12 +121,36 @@ typedef struct {
     char *canon; /* canonical path (malloc'd by realpath), NULL when unknown */
 } open_file;
 
-/* Names already taken by instances: open addressing, name and line. */
+/* A file read through .include, kept so that including it again shares its text
+ * (each file is read once) and a refused one is refused again without reading it. */
 typedef struct {
-    const char **names;
-    int *lines;
+    char id[48];      /* the file's identity (tb_netfile) */
+    const char *file; /* the name it was first read under (interned in the circuit); NULL when refused */
+    const char *text; /* owned by the circuit; NULL when refused */
+    size_t len;
+    tb_file_why why;  /* refused as binary: why; problem TB_FILE_OK otherwise */
+    int foreign_line; /* refused as not a netlist: the line of its first card that is not one */
+} known_file;
+
+/* How this netlist is read (tb_read_options, resolved). */
+typedef struct {
+    bool allow_include;
+    const char *include_root; /* as given, for messages; NULL: none */
+    char *root_canon;         /* its canonical path (malloc'd by realpath) */
+    size_t max_bytes;
+} read_setup;
+
+/* Names already taken by instances, with the line of each. */
+typedef struct {
+    const char *name; /* interned hierarchical name */
+    int line;
+} taken_name;
+
+typedef struct {
+    taken_name *items;
     size_t cap;
     size_t count;
+    tb_name_index index;
 } name_set;
 
 typedef struct {
@@ -134,9 +174,10 @@ typedef struct {
     subckt *defs;
     size_t def_count;
     size_t def_cap;
+    tb_name_index def_index;
     frame *frames;    /* MAX_INSTANCE_DEPTH of them, allocated on first use */
     size_t depth;
-    const param *chain[MAX_PARAM_CHAIN]; /* parameters being evaluated */
+    const param *chain[MAX_PARAM_CHAIN + 1]; /* parameters being evaluated */
     size_t chain_len;
     name_set instances;
     size_t expanded;  /* elements made inside instances */
@@ -145,6 +186,13 @@ typedef struct {
     size_t word_cap;
     char *scratch;    /* scratch: a hierarchical name */
     size_t scratch_cap;
+    const read_setup *setup;
+    size_t bytes;      /* text read, each file once */
+    size_t inclusions; /* files read through .include, each time (past the limit: it was said) */
+    known_file *known;
+    size_t known_count;
+    size_t known_cap;
+    tb_name_index known_index; /* by id */
 } parser;
 
 /* ---- messages ----------------------------------------------------------- */
@@ -172,21 +220,21 @@ static const char *line_at(const src_text *s, const char *at, size_t *len)
     return tb_lex_line(&lx, at, len);
 }
 
-/* Appends "  included from F:L" for each file around source src, then
- * "  in instance PATH (F:L)" for each instance being expanded. */
-static void add_context(const parser *p, size_t src, char *msg, size_t size)
+/* Adds "included from F:L" for each file around source src, then
+ * "in instance PATH (F:L)" for each instance being expanded, under the
+ * diagnostic just recorded. */
+static tb_status add_context(const parser *p, size_t src)
 {
-    size_t n = strlen(msg);
-    for (size_t s = src; s < p->src_count && p->srcs[s].parent != SIZE_MAX; s = p->srcs[s].parent)
-        if (n < size)
-            n += (size_t)snprintf(msg + n, size - n, "\n  included from %s:%d",
-                                  p->srcs[p->srcs[s].parent].file, p->srcs[s].line);
-    for (size_t d = p->depth; d-- > 0;) {
+    tb_status st = TB_OK;
+    for (size_t s = src; s < p->src_count && p->srcs[s].parent != SIZE_MAX && !st; s = p->srcs[s].parent)
+        st = tb_diag_add_context(p->diag, "included from %s:%d", p->srcs[p->srcs[s].parent].file,
+                                 p->srcs[s].line);
+    for (size_t d = p->depth; d-- > 0 && !st;) {
         const frame *f = &p->frames[d];
-        if (n < size)
-            n += (size_t)snprintf(msg + n, size - n, "\n  in instance %s (%s:%d)", f->path,
-                                  p->srcs[f->src].file, f->at.line);
+        st = tb_diag_add_context(p->diag, "in instance %s (%s:%d)", f->path, p->srcs[f->src].file,
+                                 f->at.line);
     }
+    return st;
 }
 
 static void vreport_in(parser *p, tb_severity sev, size_t src, const tb_token *at,
@@ -194,10 +242,10 @@ static void vreport_in(parser *p, tb_severity sev, size_t src, const tb_token *a
 {
     char msg[MESSAGE_SIZE];
     vsnprintf(msg, sizeof msg, fmt, ap);
-    add_context(p, src, msg, sizeof msg);
     size_t line_len = 0;
     const char *line = line_at(&p->srcs[src], at->ptr, &line_len);
-    if (tb_diag_add(p->diag, sev, p->srcs[src].file, at->line, at->col, line, line_len, "%s", msg)) {
+    if (tb_diag_add(p->diag, sev, p->srcs[src].file, at->line, at->col, line, line_len, "%s", msg) ||
+        add_context(p, src)) {
         p->status = TB_ERR_NOMEM;
     } else if (sev == TB_SEV_ERROR) {
         p->errors++;
@@ -253,10 +301,11 @@ static bool stopped(const parser *p)
     return p->status == TB_ERR_NOMEM || p->errors >= TB_DIAG_MAX_ERRORS || tb_diag_full(p->diag);
 }
 
+/* The current token is TB_TOK_BAD: a control character or an odd space, named. */
 static bool bad_char(parser *p)
 {
-    return error(p, &p->tok, "invalid control character 0x%02X",
-                 (unsigned)(unsigned char)p->tok.ptr[0]);
+    char text[128];
+    return error(p, &p->tok, "%s", tb_lex_bad_text(&p->tok, text, sizeof text));
 }
 
 /* The empty position just after token t, where something missing was due. */
@@ -447,13 +496,66 @@ static tb_token expr_pos(const tb_token *tok, size_t offset)
     return at;
 }
 
-static param *find_param(param_list *list, const char *name, size_t len)
+static const char *param_name_of(const void *owner, size_t i)
 {
-    tb_token t = {TB_TOK_WORD, name, len, 0, 0};
+    return ((const param_list *)owner)->items[i].name;
+}
+
+/* The parameter called name[0..len) in list, found through index (the list's own, or
+ * that of the list it is a copy of); NULL when there is none. */
+static param *find_param_in(param_list *list, const tb_name_index *index, const char *name, size_t len)
+{
+    size_t found = 0;
+    if (index->cap)
+        return tb_names_find(index, param_name_of, list, name, len, &found) ? &list->items[found] : NULL;
     for (size_t i = 0; i < list->count; i++)
-        if (name_is(list->items[i].name, &t))
+        if (tb_name_eq_n(list->items[i].name, name, len))
             return &list->items[i];
     return NULL;
+}
+
+static param *find_param(param_list *list, const char *name, size_t len)
+{
+    return find_param_in(list, &list->index, name, len);
+}
+
+/* Indexes the last of count entries of owner, once count is past SMALL_LIST (all of
+ * them the first time). On failure the index is dropped: the entries stay searchable
+ * in order. */
+static tb_status index_tail(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t count)
+{
+    size_t ignored = 0;
+    if (count <= SMALL_LIST)
+        return TB_OK;
+    for (size_t i = idx->cap ? count - 1 : 0; i < count; i++) {
+        if (tb_names_add(idx, name_of, owner, i, &ignored)) {
+            tb_names_free(idx);
+            return TB_ERR_NOMEM;
+        }
+    }
+    return TB_OK;
+}
+
+/* Appends prm to list (its name is new there). */
+static tb_status add_param(param_list *list, const param *prm)
+{
+    if (tb_grow(&list->items, &list->cap, list->count + 1, sizeof(param), TB_MAX_ELEMENTS))
+        return TB_ERR_NOMEM;
+    list->items[list->count++] = *prm;
+    return index_tail(&list->index, param_name_of, list, list->count);
+}
+
+static void free_params(param_list *list)
+{
+    tb_free(list->items);
+    tb_names_free(&list->index);
+}
+
+static void free_subckt(subckt *def)
+{
+    tb_free(def->pins);
+    tb_names_free(&def->pin_index);
+    free_params(&def->params);
 }
 
 /* "a -> b -> c": the chain from index `from`, then last. */
@@ -489,7 +591,7 @@ static tb_status param_value(const eval_ctx *cx, param *prm, size_t depth, size_
         error_in(p, cx->src, &at, "circular parameter definition %s", chain);
         return TB_ERR_INPUT;
     }
-    if (p->chain_len >= MAX_PARAM_CHAIN) {
+    if (p->chain_len > MAX_PARAM_CHAIN) {
         error_in(p, cx->src, &at, "parameters defined through too many others (limit is %d)",
                  MAX_PARAM_CHAIN);
         return TB_ERR_INPUT;
@@ -513,7 +615,8 @@ static tb_status lookup(void *ctx, const char *name, size_t len, size_t offset, 
     const eval_ctx *cx = ctx;
     parser *p = cx->p;
     for (size_t d = cx->depth; d > 0; d--) {
-        param *prm = find_param(&p->frames[d - 1].params, name, len);
+        const frame *f = &p->frames[d - 1];
+        param *prm = find_param_in((param_list *)&f->params, &f->def->params.index, name, len);
         if (prm)
             return param_value(cx, prm, d, offset, out);
     }
@@ -583,17 +686,35 @@ static bool param_def(parser *p, param_list *list, const char *what)
         return false;
     if (p->tok.kind != TB_TOK_WORD && p->tok.kind != TB_TOK_EXPR)
         return expected(p, "a value or {expression}");
-    if (tb_grow(&list->items, &list->cap, list->count + 1, sizeof(param), TB_MAX_ELEMENTS))
-        return nomem(p);
     param prm = {intern_n(p, name.ptr, name.len), p->tok, p->src, 0, PARAM_UNSET};
     if (!prm.name)
         return false;
-    list->items[list->count++] = prm;
+    if (add_param(list, &prm))
+        return nomem(p);
     advance(p);
     return true;
 }
 
 /* ---- operands ----------------------------------------------------------- */
+
+static const char *pin_name_of(const void *owner, size_t i)
+{
+    return ((const subckt *)owner)->pins[i];
+}
+
+/* The pin of def called name[0..len): true and its position in *found. */
+static bool find_pin(const subckt *def, const char *name, size_t len, size_t *found)
+{
+    if (def->pin_index.cap)
+        return tb_names_find(&def->pin_index, pin_name_of, def, name, len, found);
+    for (size_t i = 0; i < def->pin_count; i++) {
+        if (tb_name_eq_n(def->pins[i], name, len)) {
+            *found = i;
+            return true;
+        }
+    }
+    return false;
+}
 
 /* The node called t here: in an instance a pin stands for the caller's node,
  * ground stays ground, and any other name becomes PATH.name. */
@@ -604,11 +725,10 @@ static bool resolve_node(parser *p, const tb_token *t, int *index)
         *index = 0;
         return true;
     }
-    for (size_t i = 0; f && i < f->def->pin_count; i++) {
-        if (name_is(f->def->pins[i], t)) {
-            *index = f->pins[i];
-            return true;
-        }
+    size_t pin = 0;
+    if (f && find_pin(f->def, t->ptr, t->len, &pin)) {
+        *index = f->pins[pin];
+        return true;
     }
     size_t len = 0;
     const char *name = scoped(p, t, &len);
@@ -655,6 +775,48 @@ static bool value(parser *p, const char *what, double *out)
     }
     return false;
 }
+/* ---- value ranges ------------------------------------------------------- */
+
+/* The values a quantity may take (docs/netlist.md, "Value ranges"): zero when `zero`
+ * allows it, otherwise a magnitude from lo to hi, either sign. Wide enough for every
+ * realistic circuit, narrow enough that nothing the analysis forms from them leaves the
+ * range of a double: conductances 1/R, jwC and jwL up to 1e15 Hz, their products in the
+ * LU factors, natural frequencies 1/(RC) and R/L, a gain error in percent. */
+typedef struct {
+    double lo;
+    double hi;
+    bool zero;
+    const char *text; /* the range in words, for the message */
+} range;
+
+static const range R_RANGE = {1e-12, 1e18, false, "from 1e-12 to 1e18 ohms in magnitude"};
+static const range C_RANGE = {1e-21, 1e12, false, "from 1e-21 to 1e12 farads in magnitude"};
+static const range L_RANGE = {1e-21, 1e12, false, "from 1e-21 to 1e12 henries in magnitude"};
+/* gains of E, G, F, H and DC and AC values of V, I; .ideal gain and beta */
+static const range GAIN_RANGE = {1e-15, 1e15, true, "0 or from 1e-15 to 1e15 in magnitude"};
+static const range ESTIMATE_RANGE = {1e-15, 1e15, false, "from 1e-15 to 1e15 in magnitude"};
+/* .ac (positive, checked first): the period of the lowest is 32 years, the highest is light */
+static const range FREQ_RANGE = {1e-9, 1e15, false, "from 1e-9 to 1e15 Hz"};
+
+static bool in_range(const range *r, double x)
+{
+    double m = fabs(x);
+    return (r->zero && x == 0) || (m >= r->lo && m <= r->hi);
+}
+
+/* The value just read (p->prev) is `quantity` of `of` and must lie in r; a value of zero
+ * that r refuses is "must be non-zero". */
+static bool check_range(parser *p, const range *r, double x, const char *quantity, const char *of)
+{
+    char text[QUOTE_SIZE];
+    if (in_range(r, x))
+        return true;
+    if (x == 0 && !r->zero)
+        return error(p, &p->prev, "%s of %s must be non-zero", quantity, of);
+    return error(p, &p->prev, "%s of %s must be %s, got '%s'", quantity, of, r->text,
+                 quote(&p->prev, text));
+}
+
 /* ---- element cards ------------------------------------------------------ */
 
 /* Starts element e of the given kind at the name token (the current one). */
@@ -695,11 +857,10 @@ static const char *const quantity[TB_EL_COUNT] = {
 static bool passive(parser *p, tb_elem_kind kind)
 {
     tb_element e;
+    const range *r = kind == TB_EL_R ? &R_RANGE : kind == TB_EL_C ? &C_RANGE : &L_RANGE;
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]) ||
-        !value(p, "a value", &e.value))
+        !value(p, "a value", &e.value) || !check_range(p, r, e.value, quantity[kind], p->name))
         return false;
-    if (e.value == 0.0)
-        return error(p, &p->prev, "%s of %s must be non-zero", quantity[kind], p->name);
     return element_end(p, &e, "the value");
 }
 
@@ -711,12 +872,13 @@ static bool source(parser *p, tb_elem_kind kind)
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]))
         return false;
     if (accept_keyword(p, "dc") || looks_numeric(p)) {
-        if (!value(p, "a DC value", &e.dc))
+        if (!value(p, "a DC value", &e.dc) || !check_range(p, &GAIN_RANGE, e.dc, "DC value", p->name))
             return false;
         part = "the DC value";
     }
     if (accept_keyword(p, "ac")) {
-        if (!value(p, "an AC magnitude", &e.ac_mag))
+        if (!value(p, "an AC magnitude", &e.ac_mag) ||
+            !check_range(p, &GAIN_RANGE, e.ac_mag, "AC magnitude", p->name))
             return false;
         part = "the AC magnitude";
         if (looks_numeric(p)) {
@@ -735,7 +897,8 @@ static bool vcontrolled(parser *p, tb_elem_kind kind)
 {
     tb_element e;
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]) ||
-        !node(p, &e.node[2]) || !node(p, &e.node[3]) || !value(p, "a gain", &e.value))
+        !node(p, &e.node[2]) || !node(p, &e.node[3]) || !value(p, "a gain", &e.value) ||
+        !check_range(p, &GAIN_RANGE, e.value, "gain", p->name))
         return false;
     return element_end(p, &e, "the gain");
 }
@@ -751,7 +914,7 @@ static bool icontrolled(parser *p, tb_elem_kind kind)
     if (!e.ctrl_name)
         return false;
     advance(p);
-    if (!value(p, "a gain", &e.value))
+    if (!value(p, "a gain", &e.value) || !check_range(p, &GAIN_RANGE, e.value, "gain", p->name))
         return false;
     return element_end(p, &e, "the gain");
 }
@@ -877,14 +1040,20 @@ static bool ac_card(parser *p)
     if (!(ac.fstart > 0))
         return error(p, &start, "start frequency of .ac must be positive, got '%s'",
                      quote(&start, text));
-    if (!value(p, "a stop frequency", &ac.fstop))
+    if (!check_range(p, &FREQ_RANGE, ac.fstart, "start frequency", ".ac") ||
+        !value(p, "a stop frequency", &ac.fstop))
         return false;
     if (ac.fstop < ac.fstart)
         return error(p, &p->prev,
                      "stop frequency of .ac ('%s') must not be below its start frequency ('%s')",
                      quote(&p->prev, text), quote(&start, other));
-    if (!end_of_card(p, "the stop frequency of .ac", NULL))
+    if (!check_range(p, &FREQ_RANGE, ac.fstop, "stop frequency", ".ac") ||
+        !end_of_card(p, "the stop frequency of .ac", NULL))
         return false;
+    double total = tb_grid_total(&ac);
+    if (total > (double)TB_GRID_MAX_POINTS)
+        return error(p, &p->first, "the .ac grid has %.0f frequencies in all (limit is %zu)", total,
+                     TB_GRID_MAX_POINTS);
     p->ckt->ac = ac;
     return true;
 }
@@ -1022,10 +1191,12 @@ static bool ideal_card(parser *p)
         double x = 0;
         if (!expect(p, TB_TOK_EQUALS, "'='") || !value(p, k < 2 ? "a value" : "a percentage", &x))
             return false;
-        if ((k < 2 && x == 0) || (k == 2 && !(x > 0)) || (k == 3 && !(x > 0 && x < 100)))
+        if ((k < 2 && x == 0) || (k == 2 && !(x > 0 && x <= 1e6)) || (k == 3 && !(x > 0 && x < 100)))
             return error(p, &p->prev, "%s of .ideal must be %s, got '%s'", keys[k],
-                         k < 2 ? "non-zero" : k == 2 ? "a positive percentage" : "a percentage above 0 and below 100",
+                         k < 2 ? "non-zero" : k == 2 ? "a positive percentage up to 1e6" : "a percentage above 0 and below 100",
                          quote(&p->prev, text));
+        if (k < 2 && !check_range(p, &ESTIMATE_RANGE, x, keys[k], ".ideal"))
+            return false;
         seen[k] = true;
         if (k < 2) {
             id.as_beta = k == 1;
@@ -1039,6 +1210,15 @@ static bool ideal_card(parser *p)
         return error(p, &card_tok, ".ideal needs the estimate: gain=VALUE or beta=VALUE");
     p->ckt->ideal = id;
     return true;
+}
+
+/* Largest number an .expect bound may reach (value, tolerance, either end): far beyond
+ * any figure, small enough that the bound's ends stay finite. */
+#define EXPECT_MAX 1e100
+
+static bool fig_is_word(const tb_expect *x)
+{
+    return tb_figure_at((size_t)x->figure)->word;
 }
 
 /* The bound of an .expect card after its operator: op = EQ, GE, LE or IN (docs/check.md). */
@@ -1151,6 +1331,10 @@ static bool expect_card(parser *p)
     }
     if (!expect_bound(p, &x) || !end_of_card(p, "the bound of .expect", NULL))
         return false;
+    if (x.op != TB_XOP_NONE && !fig_is_word(&x) &&
+        !(fabs(x.lo) <= EXPECT_MAX && fabs(x.hi) <= EXPECT_MAX && fabs(x.tol) <= EXPECT_MAX))
+        return error(p, &p->prev, "the bound of .expect %s must stay within ±1e100: write a smaller "
+                     "value or tolerance", x.target);
     return tb_expect_add(p->ckt, &x) == TB_OK || nomem(p);
 }
 
@@ -1234,59 +1418,37 @@ static bool directive(parser *p)
 
 /* ---- subcircuit instances ------------------------------------------------ */
 
+static const char *def_name_of(const void *owner, size_t i)
+{
+    return ((const parser *)owner)->defs[i].name;
+}
+
 static const subckt *find_subckt(const parser *p, const tb_token *name)
 {
-    for (size_t i = 0; i < p->def_count; i++)
-        if (name_is(p->defs[i].name, name))
-            return &p->defs[i];
-    return NULL;
+    size_t found = 0;
+    return tb_names_find(&p->def_index, def_name_of, p, name->ptr, name->len, &found) ? &p->defs[found]
+                                                                                    : NULL;
 }
 
-static size_t hash_lower(const char *s)
+static const char *instance_name_of(const void *owner, size_t i)
 {
-    size_t h = 1469598103934665603u; /* FNV-1a */
-    for (; *s; s++) {
-        h ^= (unsigned char)tb_lex_lower(*s);
-        h *= 1099511628211u;
-    }
-    return h ^ (h >> 29);
+    return ((const name_set *)owner)->items[i].name;
 }
 
-/* Adds an instance path; false (with *line the first one's) when it is taken. */
+/* Adds an instance path; TB_ERR_INPUT (with *first_line the first one's) when it is taken. */
 static tb_status claim_instance(parser *p, const char *path, int line, int *first_line)
 {
     name_set *set = &p->instances;
-    if (2 * (set->count + 1) > set->cap) {
-        name_set bigger = {NULL, NULL, set->cap ? 2 * set->cap : 64, set->count};
-        bigger.names = tb_calloc(bigger.cap, sizeof(char *));
-        bigger.lines = tb_calloc(bigger.cap, sizeof(int));
-        if (!bigger.names || !bigger.lines) {
-            tb_free(bigger.names);
-            tb_free(bigger.lines);
-            return TB_ERR_NOMEM;
-        }
-        for (size_t i = 0; i < set->cap; i++) {
-            if (!set->names[i])
-                continue;
-            size_t k = hash_lower(set->names[i]) & (bigger.cap - 1);
-            while (bigger.names[k])
-                k = (k + 1) & (bigger.cap - 1);
-            bigger.names[k] = set->names[i];
-            bigger.lines[k] = set->lines[i];
-        }
-        tb_free(set->names);
-        tb_free(set->lines);
-        *set = bigger;
+    size_t found = 0;
+    if (tb_names_find(&set->index, instance_name_of, set, path, strlen(path), &found)) {
+        *first_line = set->items[found].line;
+        return TB_ERR_INPUT;
     }
-    size_t k = hash_lower(path) & (set->cap - 1);
-    for (; set->names[k]; k = (k + 1) & (set->cap - 1)) {
-        if (tb_name_eq(set->names[k], path)) {
-            *first_line = set->lines[k];
-            return TB_ERR_INPUT;
-        }
-    }
-    set->names[k] = path;
-    set->lines[k] = line;
+    if (tb_grow(&set->items, &set->cap, set->count + 1, sizeof(taken_name), MAX_INSTANCES))
+        return TB_ERR_NOMEM;
+    set->items[set->count] = (taken_name){path, line};
+    if (tb_names_add(&set->index, instance_name_of, set, set->count, &found))
+        return TB_ERR_NOMEM;
     set->count++;
     return TB_OK;
 }
@@ -1377,7 +1539,7 @@ static bool instance_params(parser *p, const subckt *def, param_list *values)
         if (!expect_word(p, "a parameter name"))
             return false;
         tb_token name = p->tok;
-        param *prm = find_param(values, name.ptr, name.len);
+        param *prm = find_param_in(values, &def->params.index, name.ptr, name.len);
         if (!prm || (size_t)(prm - values->items) >= def->default_count)
             return error(p, &name, "subcircuit '%s' has no parameter '%s'", def->name,
                          quote(&name, text));
@@ -1582,10 +1744,10 @@ static bool subckt_head(parser *p, subckt *def)
     if (!card_words(p))
         return false;
     for (size_t i = 0; i < p->word_count; i++) {
-        for (size_t k = 0; k < i; k++)
-            if (name_is(def->pins[k], &p->words[i]))
-                return error(p, &p->words[i], "pin '%s' appears twice on .subckt %s",
-                             quote(&p->words[i], text), def->name);
+        size_t first = 0;
+        if (find_pin(def, p->words[i].ptr, p->words[i].len, &first))
+            return error(p, &p->words[i], "pin '%s' appears twice on .subckt %s",
+                         quote(&p->words[i], text), def->name);
         if (is_ground(&p->words[i]))
             return error(p, &p->words[i], "ground '%s' cannot be a pin of .subckt %s",
                          quote(&p->words[i], text), def->name);
@@ -1595,6 +1757,8 @@ static bool subckt_head(parser *p, subckt *def)
         if (!def->pins[i])
             return false;
         def->pin_count = i + 1;
+        if (index_tail(&def->pin_index, pin_name_of, def, def->pin_count))
+            return nomem(p);
     }
     while (!at_end(p))
         if (!param_def(p, &def->params, "parameter"))
@@ -1658,27 +1822,24 @@ static void subckt_card(parser *p)
         if (ok)
             end_of_card(p, ".ends", NULL);
     }
+    size_t ignored = 0;
     if (ok && def->body_end > 0) {
-        p->def_count++;
-        return;
+        if (tb_names_add(&p->def_index, def_name_of, p, p->def_count, &ignored) == TB_OK) {
+            p->def_count++;
+            return;
+        }
+        nomem(p);
     }
-    tb_free(def->pins);
-    tb_free(def->params.items);
+    free_subckt(def);
 }
 
-static tb_status slurp(const char *path, int *err, char **text, size_t *len);
-
-/* Adds a source text (owned by the circuit from here on). */
-static bool add_source(parser *p, const char *file, char *text, size_t len, size_t parent, int line)
+/* Adds an entry to the sources (the netlist, or one inclusion of a file) whose text the
+ * circuit holds under the interned name file. */
+static bool add_src(parser *p, const char *file, const char *text, size_t len, size_t parent, int line)
 {
-    const char *name = NULL;
-    if (tb_grow(&p->srcs, &p->src_cap, p->src_count + 1, sizeof(src_text), SIZE_MAX / 64)) {
-        tb_free(text);
+    if (tb_grow(&p->srcs, &p->src_cap, p->src_count + 1, sizeof(src_text), SIZE_MAX / 64))
         return nomem(p);
-    }
-    if (tb_circuit_add_source(p->ckt, file, text, len, &name) != TB_OK)
-        return nomem(p);
-    p->srcs[p->src_count++] = (src_text){name, text, len, parent, line};
+    p->srcs[p->src_count++] = (src_text){file, text, len, parent, line};
     return true;
 }
 
@@ -1716,60 +1877,168 @@ static void include_cycle(const parser *p, const open_file *files, size_t depth,
         snprintf(buf + n, size - n, "%s", path);
 }
 
+static const char *known_id_of(const void *owner, size_t i)
+{
+    return ((const parser *)owner)->known[i].id;
+}
+
+/* Whether canon (a canonical path) lies inside the include root, when there is one. */
+static bool inside_root(const parser *p, const char *canon)
+{
+    const char *root = p->setup->root_canon;
+    if (!root)
+        return true;
+    size_t n = strlen(root);
+    return strncmp(canon, root, n) == 0 && (n > 0 && (root[n - 1] == '/' || canon[n] == '/'));
+}
+
+/* Says why the included file path was not read, at its name on the .include card; false. */
+static bool refused(parser *p, const tb_token *name, const char *path, const tb_file_why *why,
+                    int foreign_line)
+{
+    char reason[160];
+    if (foreign_line)
+        return error(p, name, "'%s' is not a netlist: line %d does not start like a card (its text is "
+                     "not shown)", path, foreign_line);
+    tb_netfile_why_text(why, reason, sizeof reason);
+    if (why->problem == TB_FILE_BINARY)
+        return error(p, name, "'%s' is not a netlist: %s", path, reason);
+    return error(p, name, "cannot read '%s': %s", path, reason);
+}
+
+/* Reads the file named path (at canon) for an .include card, or finds it read already:
+ * *out is its record (which may say it was refused). Each file is read once: its text,
+ * held by the circuit, serves every inclusion. A text that is not a netlist is freed
+ * unread by anyone: it never reaches the circuit, whose sources messages quote. */
+static bool read_included(parser *p, const tb_token *name, const char *path, const char *canon,
+                          size_t *out)
+{
+    tb_netfile f;
+    tb_file_why why = {.problem = TB_FILE_OK};
+    if (tb_netfile_open(canon, true, &f, &why) != TB_OK)
+        return refused(p, name, path, &why, 0);
+    if (tb_names_find(&p->known_index, known_id_of, p, f.id, strlen(f.id), out)) {
+        tb_netfile_close(&f);
+        return true;
+    }
+    known_file k = {.why = {.problem = TB_FILE_OK}};
+    memcpy(k.id, f.id, sizeof k.id);
+    char *text = NULL;
+    size_t len = 0;
+    tb_status st = tb_netfile_load(&f, p->setup->max_bytes - p->bytes, &text, &len, &why);
+    tb_netfile_close(&f);
+    if (st == TB_ERR_NOMEM)
+        return nomem(p);
+    if (st != TB_OK && why.problem == TB_FILE_TOO_LARGE)
+        why.limit = p->setup->max_bytes; /* the cap is on all files together */
+    if (st != TB_OK && why.problem != TB_FILE_BINARY)
+        return refused(p, name, path, &why, 0); /* too large, or a read error: not remembered */
+    if (st != TB_OK) {
+        k.why = why;
+    } else if ((k.foreign_line = tb_netfile_foreign_line(text, len)) != 0) {
+        tb_free(text);
+    } else {
+        if (tb_circuit_add_source(p->ckt, path, text, len, &k.file) != TB_OK) /* it owns text now */
+            return nomem(p);
+        k.text = text;
+        k.len = len;
+        p->bytes += len;
+    }
+    size_t ignored = 0;
+    if (tb_grow(&p->known, &p->known_cap, p->known_count + 1, sizeof(known_file), MAX_INCLUSIONS + 1))
+        return nomem(p);
+    p->known[p->known_count] = k;
+    if (tb_names_add(&p->known_index, known_id_of, p, p->known_count, &ignored))
+        return nomem(p);
+    *out = p->known_count++;
+    return true;
+}
+
+/* The name under which an inclusion of file k through path is known to the circuit:
+ * k's own when path is the name it was first read under, else an alias of its text. */
+static const char *inclusion_name(parser *p, const known_file *k, const char *path)
+{
+    const char *name = NULL;
+    if (strcmp(k->file, path) == 0)
+        return k->file;
+    if (tb_circuit_add_source_alias(p->ckt, path, k->text, k->len, &name) != TB_OK)
+        nomem(p);
+    return name;
+}
+
+/* The checks an .include card passes before its file is looked at; false after an error. */
+static bool may_include(parser *p, const tb_token *name, size_t depth)
+{
+    if (!p->setup->allow_include)
+        return error(p, name, ".include is not allowed: this netlist is read with includes turned off");
+    if (depth >= MAX_INCLUDE_DEPTH)
+        return error(p, name, "includes nested too deeply (limit is %d files)", MAX_INCLUDE_DEPTH);
+    if (p->inclusions > MAX_INCLUSIONS)
+        return false; /* said once already */
+    if (p->inclusions == MAX_INCLUSIONS) {
+        p->inclusions++;
+        return error(p, name, "too many files read through .include (limit is %zu in all)", MAX_INCLUSIONS);
+    }
+    return true;
+}
+
+/* Where path (canonical: canon) may not be included from here: outside the include
+ * root, or a cycle. false after an error. */
+static bool may_open(parser *p, const tb_token *name, const open_file *files, size_t depth,
+                     const char *path, const char *canon)
+{
+    char cycle[MESSAGE_SIZE / 2];
+    if (!inside_root(p, canon))
+        return error(p, name, "cannot include '%s': it lies outside the include root '%s'", path,
+                     p->setup->include_root);
+    for (size_t d = 0; d < depth; d++) {
+        if (files[d].canon && strcmp(files[d].canon, canon) == 0) {
+            include_cycle(p, files, depth, canon, path, cycle, sizeof cycle);
+            return error(p, name, "'%s' includes itself: %s", path, cycle);
+        }
+    }
+    return true;
+}
+
 /* includecard -> .INCLUDE FILE; opens the file as files[*depth] */
 static bool include_card(parser *p, open_file *files, size_t *depth)
 {
     char reason[128];
-    char cycle[MESSAGE_SIZE / 2];
     advance(p);
     if (!expect_word(p, "a file name"))
         return false;
     tb_token name = p->tok;
     advance(p);
-    if (!end_of_card(p, "the file name of .include", NULL))
+    if (!end_of_card(p, "the file name of .include", NULL) || !may_include(p, &name, *depth))
         return false;
-    if (*depth >= MAX_INCLUDE_DEPTH)
-        return error(p, &name, "includes nested too deeply (limit is %d files)", MAX_INCLUDE_DEPTH);
     char *path = include_path(p->srcs[p->src].file, &name);
     if (!path)
         return nomem(p);
     char *canon = realpath(path, NULL);
-    for (size_t d = 0; canon && d < *depth; d++) {
-        if (files[d].canon && strcmp(files[d].canon, canon) == 0) {
-            include_cycle(p, files, *depth, canon, path, cycle, sizeof cycle);
-            error(p, &name, "'%s' includes itself: %s", path, cycle);
-            free(canon);
-            tb_free(path);
-            return false;
-        }
-    }
-    char *text = NULL;
-    size_t len = 0;
-    int err = 0;
-    tb_status st = slurp(path, &err, &text, &len);
-    if (st != TB_OK) {
-        free(canon);
-        if (st == TB_ERR_NOMEM) {
-            tb_free(path);
-            return nomem(p);
-        }
+    size_t k = 0;
+    bool ok = canon && may_open(p, &name, files, *depth, path, canon) &&
+              read_included(p, &name, path, canon, &k);
+    if (!canon) {
+        int err = errno;
         if (strerror_r(err, reason, sizeof reason) != 0)
             snprintf(reason, sizeof reason, "error %d", err);
         error(p, &name, "cannot read '%s': %s", path, reason);
-        tb_free(path);
-        return false;
     }
-    bool ok = add_source(p, path, text, len, p->src, name.line);
+    const known_file *kf = ok ? &p->known[k] : NULL;
+    if (ok && (kf->why.problem != TB_FILE_OK || kf->foreign_line))
+        ok = refused(p, &name, path, &kf->why, kf->foreign_line);
+    const char *file = ok ? inclusion_name(p, kf, path) : NULL;
     tb_free(path);
-    if (!ok) {
+    if (!file || !add_src(p, file, kf->text, kf->len, p->src, name.line)) {
         free(canon);
         return false;
     }
-    size_t skip = len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0 ? 3 : 0;
+    p->inclusions++;
+    size_t skip = kf->len >= 3 && memcmp(kf->text, "\xEF\xBB\xBF", 3) == 0 ? 3 : 0;
     open_file *f = &files[(*depth)++];
     f->src = p->src_count - 1;
     f->canon = canon;
-    tb_lex_init_at(&f->lx, text, len, skip, 1);
+    tb_lex_init_at(&f->lx, kf->text, kf->len, skip, 1);
     return true;
 }
 
@@ -1836,16 +2105,18 @@ static void settle_globals(parser *p)
 static void free_parser(parser *p)
 {
     for (size_t i = 0; i < p->def_count; i++) {
-        tb_free(p->defs[i].pins);
-        tb_free(p->defs[i].params.items);
+        free_subckt(&p->defs[i]);
     }
     tb_free(p->defs);
     tb_free(p->frames);
-    tb_free(p->globals.items);
+    free_params(&p->globals);
     tb_free(p->srcs);
     tb_free(p->cards);
-    tb_free(p->instances.names);
-    tb_free(p->instances.lines);
+    tb_free(p->instances.items);
+    tb_names_free(&p->instances.index);
+    tb_free(p->known);
+    tb_names_free(&p->known_index);
+    tb_names_free(&p->def_index);
     tb_free(p->words);
     tb_free(p->scratch);
 }
@@ -1877,18 +2148,22 @@ static tb_status netlist(parser *p, const char *canon)
     return p->status;
 }
 
-/* Parses the source text (handed to the circuit) read from file. */
+/* Parses the source text (handed to the circuit) read from file, canonical path canon
+ * (NULL when it is not a file), as setup says. */
 static tb_status parse_owned(char *text, size_t len, const char *file, const char *canon,
-                             tb_diag *diag, tb_circuit **out)
+                             const read_setup *setup, tb_diag *diag, tb_circuit **out)
 {
     tb_circuit *ckt = NULL;
+    const char *name = NULL;
     tb_status st = tb_circuit_create(file, &ckt);
     if (st != TB_OK) {
         tb_free(text);
         return st;
     }
-    parser p = {.ckt = ckt, .diag = diag, .status = TB_OK};
-    if (add_source(&p, ckt->file, text, len, SIZE_MAX, 0))
+    parser p = {.ckt = ckt, .diag = diag, .status = TB_OK, .setup = setup, .bytes = len};
+    if (tb_circuit_add_source(ckt, ckt->file, text, len, &name) != TB_OK)
+        nomem(&p);
+    else if (add_src(&p, name, text, len, SIZE_MAX, 0))
         netlist(&p, canon);
     free_parser(&p);
     /* References are checked only in a netlist without syntax errors: an
@@ -1904,81 +2179,122 @@ static tb_status parse_owned(char *text, size_t len, const char *file, const cha
     return TB_OK;
 }
 
-tb_status tb_circuit_parse(const char *text, size_t len, const char *file, tb_diag *diag,
-                           tb_circuit **out)
+void tb_read_options_init(tb_read_options *opt)
+{
+    if (opt)
+        *opt = (tb_read_options){.allow_include = true, .include_root = NULL, .max_bytes = TB_READ_MAX_BYTES};
+}
+
+/* A diagnostic about the whole of file (no line); returns st, or TB_ERR_NOMEM when it
+ * could not be recorded. */
+static tb_status whole_file(tb_diag *diag, const char *file, tb_status st, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+static tb_status whole_file(tb_diag *diag, const char *file, tb_status st, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    tb_status added = tb_diag_vadd(diag, TB_SEV_ERROR, file ? file : "<input>", 0, 0, NULL, 0, fmt, ap);
+    va_end(ap);
+    return added ? TB_ERR_NOMEM : st;
+}
+
+/* Resolves opt (NULL: the defaults) into *rs; the include root must be a folder.
+ * TB_ERR_IO (with a diagnostic about file) when it is not. */
+static tb_status setup_read(const tb_read_options *opt, const char *file, tb_diag *diag, read_setup *rs)
+{
+    tb_read_options defaults;
+    tb_read_options_init(&defaults);
+    if (!opt)
+        opt = &defaults;
+    *rs = (read_setup){opt->allow_include, opt->include_root, NULL, opt->max_bytes};
+    if (!opt->include_root)
+        return TB_OK;
+    struct stat st;
+    rs->root_canon = realpath(opt->include_root, NULL);
+    int err = rs->root_canon ? (stat(rs->root_canon, &st) != 0 ? errno : S_ISDIR(st.st_mode) ? 0 : ENOTDIR)
+                             : errno;
+    if (!err)
+        return TB_OK;
+    free(rs->root_canon);
+    rs->root_canon = NULL;
+    char reason[128];
+    if (strerror_r(err, reason, sizeof reason) != 0)
+        snprintf(reason, sizeof reason, "error %d", err);
+    return whole_file(diag, file, TB_ERR_IO, "cannot use '%s' as the include root: %s", opt->include_root,
+                      reason);
+}
+
+tb_status tb_circuit_parse_with(const char *text, size_t len, const char *file,
+                                const tb_read_options *opt, tb_diag *diag, tb_circuit **out)
 {
     if ((!text && len) || !out)
         return TB_ERR_USAGE;
-    char *copy = tb_strndup(text ? text : "", len);
-    if (!copy)
-        return TB_ERR_NOMEM;
-    return parse_owned(copy, len, file, NULL, diag, out);
+    read_setup rs;
+    tb_status st = setup_read(opt, file, diag, &rs);
+    if (st != TB_OK)
+        return st;
+    char reason[160];
+    tb_file_why why = {.problem = TB_FILE_TOO_LARGE, .limit = rs.max_bytes};
+    char *copy = len > rs.max_bytes ? NULL : tb_strndup(text ? text : "", len);
+    if (len > rs.max_bytes)
+        st = whole_file(diag, file, TB_ERR_INPUT, "%s", tb_netfile_why_text(&why, reason, sizeof reason));
+    else
+        st = copy ? parse_owned(copy, len, file, NULL, &rs, diag, out) : TB_ERR_NOMEM;
+    free(rs.root_canon);
+    return st;
+}
+
+tb_status tb_circuit_parse(const char *text, size_t len, const char *file, tb_diag *diag,
+                           tb_circuit **out)
+{
+    return tb_circuit_parse_with(text, len, file, NULL, diag, out);
 }
 
 /* ---- files -------------------------------------------------------------- */
 
-static tb_status cannot_read(const char *path, int err, tb_diag *diag)
+/* Reads the netlist file at path whole: regular, within the limit, no NUL byte. */
+static tb_status read_netlist(const char *path, size_t limit, tb_diag *diag, char **text, size_t *len)
 {
-    char reason[128];
-    if (strerror_r(err, reason, sizeof reason) != 0)
-        snprintf(reason, sizeof reason, "error %d", err);
-    if (tb_diag_add(diag, TB_SEV_ERROR, path, 0, 0, NULL, 0, "cannot read '%s': %s", path, reason))
-        return TB_ERR_NOMEM;
-    return TB_ERR_IO;
+    char reason[160];
+    tb_netfile f;
+    tb_file_why why = {.problem = TB_FILE_OK};
+    tb_status st = tb_netfile_open(path, false, &f, &why);
+    if (st == TB_OK) {
+        st = tb_netfile_load(&f, limit, text, len, &why);
+        tb_netfile_close(&f);
+    }
+    if (st == TB_OK || st == TB_ERR_NOMEM)
+        return st;
+    tb_netfile_why_text(&why, reason, sizeof reason);
+    if (why.problem == TB_FILE_BINARY) /* located, but nothing of it quoted */
+        return tb_diag_add(diag, TB_SEV_ERROR, path, why.line, why.col, NULL, 0, "'%s' is not a netlist: %s",
+                           path, reason)
+                   ? TB_ERR_NOMEM
+                   : TB_ERR_INPUT;
+    return whole_file(diag, path, st, "cannot read '%s': %s", path, reason);
 }
 
-/* Reads the whole file at path into a new buffer *text of *len bytes;
- * TB_ERR_IO with *err the reason, or TB_ERR_NOMEM. */
-static tb_status slurp(const char *path, int *err, char **text, size_t *len)
+tb_status tb_circuit_read_with(const char *path, const tb_read_options *opt, tb_diag *diag,
+                               tb_circuit **out)
 {
-    FILE *f = fopen(path, "rb");
-    if (!f) {
-        *err = errno;
-        return TB_ERR_IO;
+    if (!path || !out)
+        return TB_ERR_USAGE;
+    read_setup rs;
+    tb_status st = setup_read(opt, path, diag, &rs);
+    char *text = NULL;
+    size_t len = 0;
+    if (st == TB_OK)
+        st = read_netlist(path, rs.max_bytes, diag, &text, &len);
+    if (st == TB_OK) {
+        char *canon = realpath(path, NULL);
+        st = parse_owned(text, len, path, canon, &rs, diag, out);
+        free(canon);
     }
-    char *buf = NULL;
-    size_t cap = 0;
-    size_t n = 0;
-    tb_status st = TB_OK;
-    for (;;) {
-        if (tb_grow(&buf, &cap, n + 65536, 1, SIZE_MAX / 2)) {
-            st = TB_ERR_NOMEM;
-            break;
-        }
-        size_t want = cap - n;
-        size_t got = fread(buf + n, 1, want, f);
-        n += got;
-        if (got < want)
-            break;
-    }
-    if (st == TB_OK && ferror(f)) {
-        *err = errno ? errno : EIO;
-        st = TB_ERR_IO;
-    }
-    fclose(f);
-    if (st != TB_OK) {
-        tb_free(buf);
-        return st;
-    }
-    *text = buf;
-    *len = n;
-    return TB_OK;
+    free(rs.root_canon);
+    return st;
 }
 
 tb_status tb_circuit_read(const char *path, tb_diag *diag, tb_circuit **out)
 {
-    if (!path || !out)
-        return TB_ERR_USAGE;
-    char *text = NULL;
-    size_t len = 0;
-    int err = 0;
-    tb_status st = slurp(path, &err, &text, &len);
-    if (st == TB_ERR_IO)
-        return cannot_read(path, err, diag);
-    if (st != TB_OK)
-        return st;
-    char *canon = realpath(path, NULL);
-    st = parse_owned(text, len, path, canon, diag, out);
-    free(canon);
-    return st;
+    return tb_circuit_read_with(path, NULL, diag, out);
 }

@@ -103,6 +103,27 @@ for f in tests/bad/*.net; do
         failed=$((failed + 1)); echo "FAIL bad $f: first line '$got', expected '$want'"; fi
 done
 
+# a control code in a rejected card is escaped in the quoted line: nothing reaches the terminal raw
+expect "escaped line" 2 $tb tests/bad/control_char.net
+has "escaped line" err 'Rg fb 0 \x1B[1m1k'
+if LC_ALL=C grep -q "$(printf '\033')" "$tmp/err"; then
+    failed=$((failed + 1)); echo "FAIL escaped line: an ESC byte reached stderr"; else passed=$((passed + 1)); fi
+
+# a file that is not a netlist is named, never quoted; nothing blocks on a FIFO or reads a device forever
+for f in tests/bad/include_binary.net tests/bad/include_foreign.net tests/bad/binary_netlist.net; do
+    expect "not quoted $f" 2 $tb "$f"
+    if grep -q SECRET "$tmp/err"; then
+        failed=$((failed + 1)); echo "FAIL not quoted $f: the file's content reached stderr"; else passed=$((passed + 1)); fi
+done
+mkfifo "$tmp/pipe.net"
+expect "fifo netlist" 2 timeout 20 $tb "$tmp/pipe.net"
+has "fifo netlist" err "cannot read '$tmp/pipe.net': not a regular file (a FIFO)"
+printf 'Includes a FIFO\nV1 a 0 AC 1\nE1 b 0 a 0 2\nRb b 0 1k\n.loop E1\n.include pipe.net\n' >"$tmp/fifo_inc.net"
+expect "fifo include" 2 timeout 20 $tb "$tmp/fifo_inc.net"
+has "fifo include" err "fifo_inc.net:6:10: error: cannot read '$tmp/pipe.net': not a regular file (a FIFO)"
+expect "device netlist" 2 timeout 20 $tb /dev/zero
+has "device netlist" err "/dev/zero: error: cannot read '/dev/zero': not a regular file (a character device)"
+
 # every example of docs/netlist.md runs (subcircuits, parameters, includes, K) and its JSON parses
 for f in docs/examples/*.net; do
     [ -f "$f" ] || continue

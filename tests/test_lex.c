@@ -113,6 +113,13 @@ static void test_lex_tokens(void **state)
         {"t\n\x7f\n", "2:1:[!] | ."},
         /* bytes of UTF-8 sequences are word characters */
         {"t\nR1 n\xC5\x93ud 0 1\n", "2:1:R1 2:4:n\xC5\x93ud 2:10:0 2:12:1 | ."},
+        /* ... except the characters that look like blanks: each is a token of its own,
+         * to be reported by name, and ends the word before it */
+        {"t\nR1\xC2\xA0" "a b\n", "2:1:R1 2:3:[!] 2:5:a 2:7:b | ."},
+        {"t\nR1 a\xE2\x80\x89" "b\xE3\x80\x80\n", "2:1:R1 2:4:a 2:5:[!] 2:8:b 2:9:[!] | ."},
+        {"t\n\xEF\xBB\xBFR1\n", "2:1:[!] 2:4:R1 | ."},
+        /* a lone 0xC2 or 0xE2 byte is a word character like any other */
+        {"t\nR1 \xC2\xC2 \xE2\x80\n", "2:1:R1 2:4:\xC2\xC2 2:7:\xE2\x80 | ."},
         /* {expression}: one token from '{' to the first '}' on its physical line,
          * blanks, ';', '(' and ',' inside it included; '{' also ends a word */
         {"t\nR1 a b {2 * (r; 1)}x\n", "2:1:R1 2:4:a 2:6:b 2:8:[{2 * (r; 1)}] 2:20:x | ."},
@@ -139,6 +146,32 @@ static void test_lex_nul_byte(void **state)
     char got[200];
     render(text, sizeof text - 1, got, sizeof got);
     assert_string_equal(got, "2:1:R1 2:4:a 2:5:[!] 2:6:b | .");
+}
+
+/* A bad token's message names what it is. */
+static void test_lex_bad_text(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *bytes;
+        const char *text;
+    } cases[] = {
+        {"\x1B", "invalid control character 0x1B"},
+        {"\x7F", "invalid control character 0x7F"},
+        {"\xC2\xA0", "no-break space (U+00A0) between fields: separate them with plain spaces or tabs"},
+        {"\xE2\x80\xAF", "narrow no-break space (U+202F) between fields: separate them with plain spaces or tabs"},
+        {"\xE2\x80\x8B", "zero-width space (U+200B) between fields: separate them with plain spaces or tabs"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        tb_token tok = {TB_TOK_BAD, cases[i].bytes, strlen(cases[i].bytes), 1, 1};
+        char buf[160];
+        assert_string_equal(tb_lex_bad_text(&tok, buf, sizeof buf), cases[i].text);
+    }
+    const char *name = NULL;
+    assert_int_equal(tb_lex_odd_space("\xE2\x81\x9Fx", 4, &name), 3);
+    assert_string_equal(name, "medium mathematical space (U+205F)");
+    assert_int_equal(tb_lex_odd_space("\xE2\x81", 2, &name), 0); /* cut short */
+    assert_int_equal(tb_lex_odd_space("\xC2\xA9", 2, NULL), 0);  /* the copyright sign */
 }
 
 /* The end of a card sits just after its last token, on that token's line. */
@@ -418,6 +451,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_lex_tokens),
         cmocka_unit_test(test_lex_nul_byte),
+        cmocka_unit_test(test_lex_bad_text),
         cmocka_unit_test(test_lex_end_of_card_position),
         cmocka_unit_test(test_lex_title),
         cmocka_unit_test(test_lex_keyword_ignores_case),

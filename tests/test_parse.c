@@ -5,6 +5,7 @@
 #include "testutil.h"
 
 #include "circuit.h"
+#include "diag.h"
 
 /* Parses text from a buffer of exactly its length (no NUL after it, freed
  * before returning, so the circuit must own everything it keeps). */
@@ -337,6 +338,18 @@ static const struct {
     {"t\nR1 a 0 1k\x7f\n", "t.net:2:10: error: invalid control character 0x7F"},
     {"t\n\x02R1\n", "t.net:2:1: error: invalid control character 0x02"},
     {"t\nV1 a 0 \x1b[1m\n", "t.net:2:8: error: invalid control character 0x1B"},
+    /* characters that look like blanks are named */
+    {"t\nR1\xC2\xA0" "a 0 1k\n",
+     "t.net:2:3: error: no-break space (U+00A0) between fields: separate them with plain spaces or tabs"},
+    {"t\nR1 a 0\xE2\x80\x89" "1k\n",
+     "t.net:2:7: error: thin space (U+2009) between fields: separate them with plain spaces or tabs"},
+    {"t\n.param a=1\xC2\xA0" "b=2\n",
+     "t.net:2:11: error: no-break space (U+00A0) between fields: separate them with plain spaces or tabs"},
+    {"t\nR1 a 0 {2*\xC2\xA0" "3}\n",
+     "t.net:2:11: error: expected a number, a name or '(' in the expression, got a no-break space "
+     "(U+00A0): write plain spaces"},
+    {"t\nR1 a 0 {2*\xCE\xA9}\n",
+     "t.net:2:11: error: expected a number, a name or '(' in the expression, got '\xCE\xA9'"},
     /* the start of a card */
     {"t\n(R1 a 0 1)\n", "t.net:2:1: error: expected an element or a directive, got '('"},
     {"t\n=\n", "t.net:2:1: error: expected an element or a directive, got '='"},
@@ -360,6 +373,31 @@ static const struct {
     {"t\nc7 a 0 0.0p\n", "t.net:2:8: error: capacitance of c7 must be non-zero"},
     {"t\nLx a 0 -0\n", "t.net:2:8: error: inductance of Lx must be non-zero"},
     {"t\nR1 a 0 1e-400\n", "t.net:2:8: error: resistance of R1 must be non-zero"},
+    /* value ranges: a denormal, and values whose conductance, jwC or pole leaves a double */
+    {"t\nR1 a 0 1e-320\n",
+     "t.net:2:8: error: resistance of R1 must be from 1e-12 to 1e18 ohms in magnitude, got '1e-320'"},
+    {"t\nR1 a 0 -0.999e-12\n",
+     "t.net:2:8: error: resistance of R1 must be from 1e-12 to 1e18 ohms in magnitude, got '-0.999e-12'"},
+    {"t\nR1 a 0 1.001e18\n",
+     "t.net:2:8: error: resistance of R1 must be from 1e-12 to 1e18 ohms in magnitude, got '1.001e18'"},
+    {"t\nC1 a 0 1e300\n",
+     "t.net:2:8: error: capacitance of C1 must be from 1e-21 to 1e12 farads in magnitude, got '1e300'"},
+    {"t\nC1 a 0 1e-22\n",
+     "t.net:2:8: error: capacitance of C1 must be from 1e-21 to 1e12 farads in magnitude, got '1e-22'"},
+    {"t\nL1 a 0 {-1e13}\n",
+     "t.net:2:8: error: inductance of L1 must be from 1e-21 to 1e12 henries in magnitude, got '{-1e13}'"},
+    {"t\nE1 a 0 b 0 1e-320\n",
+     "t.net:2:12: error: gain of E1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e-320'"},
+    {"t\nG1 a 0 b 0 -2e15\n",
+     "t.net:2:12: error: gain of G1 must be 0 or from 1e-15 to 1e15 in magnitude, got '-2e15'"},
+    {"t\nF1 a 0 V1 1e16\n",
+     "t.net:2:11: error: gain of F1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e16'"},
+    {"t\nH1 a 0 V1 1e-16\n",
+     "t.net:2:11: error: gain of H1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e-16'"},
+    {"t\nV1 a 0 AC 1e-320\n",
+     "t.net:2:11: error: AC magnitude of V1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e-320'"},
+    {"t\nI1 a 0 1e300 AC 1\n",
+     "t.net:2:8: error: DC value of I1 must be 0 or from 1e-15 to 1e15 in magnitude, got '1e300'"},
     {"t\nR1 a 0 1k foo\n", "t.net:2:11: error: unexpected 'foo' after the value of R1"},
     {"t\nR1 a 0 1k\n+ 2k\n", "t.net:3:3: error: unexpected '2k' after the value of R1"},
     {"t\nR1 a 0 1k=2\n", "t.net:2:10: error: unexpected '=' after the value of R1"},
@@ -409,6 +447,15 @@ static const struct {
     {"t\n.ac dec 10 1k 100\n",
      "t.net:2:15: error: stop frequency of .ac ('100') must not be below its start frequency ('1k')"},
     {"t\n.ac dec 10 1 1k 5\n", "t.net:2:17: error: unexpected '5' after the stop frequency of .ac"},
+    {"t\n.ac lin 10 1e-300 1.7e308\n",
+     "t.net:2:12: error: start frequency of .ac must be from 1e-9 to 1e15 Hz, got '1e-300'"},
+    {"t\n.ac lin 10 1 1.1e15\n",
+     "t.net:2:14: error: stop frequency of .ac must be from 1e-9 to 1e15 Hz, got '1.1e15'"},
+    /* each number in range, the grid too large in all: located at the card */
+    {"t\n.ac dec 1e7 1e-9 1e15\n",
+     "t.net:2:1: error: the .ac grid has 240000001 frequencies in all (limit is 10000000)"},
+    {"t\n.ac oct 5meg 1 4\n",
+     "t.net:2:1: error: the .ac grid has 10000001 frequencies in all (limit is 10000000)"},
     {"t\n.ac dec 10 1 1k\n.ac lin 5 1 2\n",
      "t.net:3:1: error: second .ac directive (the first is on line 2)"},
     /* .loop */
@@ -461,6 +508,25 @@ static void test_parse_errors(void **state)
     }
 }
 
+/* The ends of every value range are accepted, and the grid at its limit too. */
+static void test_parse_value_range_ends(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = parse_ok("ends\nV1 a 0 0 AC 1e15\nI1 a 0 -1e-15 AC 0\nR1 a b 1e-12\nR2 b 0 -1e18\n"
+                               "C1 b 0 1e-21\nC2 b 0 -1e12\nL1 b c 1e12\nL2 c 0 1e-21\nE1 d 0 a 0 0\n"
+                               "G1 d 0 a 0 1e15\nRd d 0 1\nF1 d 0 V1 -1e-15\n.loop E1\n.io V1 v(d)\n"
+                               ".ideal gain=1e15 tol=1e6\n.ac oct 5meg 1 2\n");
+    assert_true(elem_of(ckt, "R1")->value == 1e-12);
+    assert_true(elem_of(ckt, "R2")->value == -1e18);
+    assert_true(elem_of(ckt, "C1")->value == 1e-21);
+    assert_true(elem_of(ckt, "G1")->value == 1e15);
+    assert_int_equal(ckt->ac.points, 5000000);
+    tb_circuit_free(ckt);
+    ckt = parse_ok("ends\nV1 a 0 AC 1\nE1 b 0 a 0 2\n.loop E1\n.ac lin 1e7 1e-9 1e15\n");
+    assert_true(ckt->ac.fstart == 1e-9 && ckt->ac.fstop == 1e15);
+    tb_circuit_free(ckt);
+}
+
 /* The source line is quoted and the caret lands under the column (tabs kept). */
 static void test_parse_error_caret(void **state)
 {
@@ -481,6 +547,20 @@ static void test_parse_error_caret(void **state)
          "t.net:3:4: error: expected a value for R1 after 'b'\n"
          "  + b ; nothing\n"
          "     ^\n"},
+        /* control codes in the quoted line are escaped, never sent to the terminal, and
+         * the caret counts them as shown; a UTF-8 character takes one column */
+        {"t\nR1 \xCE\xA9 \x1b[2J 1k\n",
+         "t.net:2:7: error: invalid control character 0x1B\n"
+         "  R1 \xCE\xA9 \\x1B[2J 1k\n"
+         "       ^\n"},
+        {"t\nR1 \x1b[2J\x07 0 x\n",
+         "t.net:2:4: error: invalid control character 0x1B\n"
+         "  R1 \\x1B[2J\\x07 0 x\n"
+         "     ^\n"},
+        {"t\nR1 a\x9b" "b \xff\xfe x\n",
+         "t.net:2:11: error: expected a value for R1, got 'x'\n"
+         "  R1 a\\x9Bb \\xFF\\xFE x\n"
+         "                     ^\n"},
     };
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
         tb_diag *diag = tb_diag_new();
@@ -490,6 +570,45 @@ static void test_parse_error_caret(void **state)
         assert_string_equal(formatted(diag, 0), cases[i].want);
         tb_diag_free(diag);
     }
+}
+
+/* No text from the netlist or its name reaches a terminal as control codes: file
+ * names and messages are kept escaped, like the quoted line. */
+static void test_parse_escapes_user_text(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *text;
+        const char *want;
+    } cases[] = {
+        /* a C1 control (CSI) and a direction override inside a quoted word */
+        {"t\nR1 a 0 x\xC2\x9B" "2J\n", "expected a value for R1, got 'x\\u009B2J'"},
+        {"t\nR1 a 0 x\xE2\x80\xAE" "k1\n", "expected a value for R1, got 'x\\u202Ek1'"},
+        /* bytes that are not UTF-8, and an overlong form of '/' */
+        {"t\nR1 a 0 \xFF\xC0\xAF\n", "expected a value for R1, got '\\xFF\\xC0\\xAF'"},
+        /* valid UTF-8 stays as it is */
+        {"t\nR1 a 0 \xCE\xA9\n", "expected a value for R1, got '\xCE\xA9'"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        tb_diag *diag = tb_diag_new();
+        tb_circuit *ckt = NULL;
+        assert_int_equal(parse_exact(cases[i].text, strlen(cases[i].text), diag, &ckt), TB_ERR_INPUT);
+        assert_string_equal(tb_diag_get(diag, 0)->message, cases[i].want);
+        tb_diag_free(diag);
+    }
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    const char *text = "t\nR1 a 0 x\n";
+    assert_int_equal(tb_circuit_parse(text, strlen(text), "lib\n\x1B[2Jpass.net", diag, &ckt), TB_ERR_INPUT);
+    assert_string_equal(formatted(diag, 0), "lib\\x0A\\x1B[2Jpass.net:2:8: error: expected a value for R1, got 'x'\n"
+                                            "  R1 a 0 x\n"
+                                            "         ^\n");
+    tb_diag_free(diag);
+    char buf[16];
+    assert_int_equal(tb_diag_escape("a\tb\x7F", 4, buf, sizeof buf), 10);
+    assert_string_equal(buf, "a\\x09b\\x7F");
+    assert_int_equal(tb_diag_escape("\x1B[1m", 4, buf, 4), 7); /* cut short, still NUL-terminated */
+    assert_string_equal(buf, "\\x1");
 }
 
 /* Bad cards are reported one by one, in order, and good ones go on being read. */
@@ -696,7 +815,7 @@ static void test_parse_read_errors(void **state)
                                             "'/nonexistent/amp.net': No such file or directory\n");
     assert_int_equal(tb_diag_get(diag, 0)->line, 0);
     assert_int_equal(tb_circuit_read("tests", diag, &ckt), TB_ERR_IO);
-    assert_string_equal(first_line(diag, 1), "tests: error: cannot read 'tests': Is a directory");
+    assert_string_equal(first_line(diag, 1), "tests: error: cannot read 'tests': not a regular file (a directory)");
     tb_diag_free(diag);
 }
 
@@ -713,7 +832,9 @@ int main(void)
         cmocka_unit_test(test_parse_unknown_directive_warns),
         cmocka_unit_test(test_parse_default_ac),
         cmocka_unit_test(test_parse_errors),
+        cmocka_unit_test(test_parse_value_range_ends),
         cmocka_unit_test(test_parse_error_caret),
+        cmocka_unit_test(test_parse_escapes_user_text),
         cmocka_unit_test(test_parse_goes_on_after_errors),
         cmocka_unit_test(test_parse_stops_after_20_errors),
         cmocka_unit_test(test_parse_margins),

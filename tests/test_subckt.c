@@ -194,6 +194,14 @@ static const struct {
     {"t\n.ends\n", "t.net:2:1: error: .ends without .subckt"},
     {"t\n.subckt s a\n.ends t\n", "t.net:3:7: error: .ends t closes .subckt s"},
     {"t\n.subckt s a a\n.ends\n", "t.net:2:13: error: pin 'a' appears twice on .subckt s"},
+    /* past eight names, lookups go through the name index: the same messages */
+    {"t\n.subckt s a b c d e f g h i j B\n.ends\n", "t.net:2:31: error: pin 'B' appears twice on .subckt s"},
+    {"t\n.param a=1 b=2 c=3 d=4 e=5 f=6 g=7 h=8 i=9 j=10 C=11\n",
+     "t.net:2:49: error: parameter 'C' is defined twice (first on line 2)"},
+    {"t\n.subckt s a b=1 c=2 d=3 e=4 f=5 g=6 h=7 i=8 j=9\n.param k={j} J=1\n.ends\n",
+     "t.net:3:14: error: parameter 'J' is defined twice (first on line 2)"},
+    {"t\n.subckt s x a=1 b=2 c=3 d=4 e=5 f=6 g=7 h=8 i=9\nR1 x 0 {i}\n.ends\nX1 n s z=1\n",
+     "t.net:5:8: error: subcircuit 's' has no parameter 'z'"},
     {"t\n.subckt s a 0\n.ends\n", "t.net:2:13: error: ground '0' cannot be a pin of .subckt s"},
     {"t\n.subckt s a\n.ends\n.subckt S b\n.ends\n", "t.net:4:9: error: subcircuit 'S' is defined twice (first on line 2)"},
     {"t\n.subckt s a\n.subckt u b\n.ends\n.ends\n", "t.net:3:1: error: .subckt inside .subckt s: definitions do not nest"},
@@ -363,7 +371,74 @@ static void test_subckt_parameter_chain_limit(void **state)
     assert_int_equal(tb_circuit_parse(text, n, "t.net", diag, &ckt), TB_ERR_INPUT);
     tb_diag_format(diag, 0, first, sizeof first);
     first[strcspn(first, "\n")] = '\0';
-    assert_string_equal(first, "t.net:33:12: error: parameters defined through too many others (limit is 32)");
+    assert_string_equal(first, "t.net:34:12: error: parameters defined through too many others (limit is 32)");
+    tb_diag_free(diag);
+}
+
+/* Past eight parameters, pins or definitions the lookups use the name index: what they
+ * find is the same as in order (instance values, defaults, case, scopes). */
+static void test_subckt_many_names(void **state)
+{
+    (void)state;
+    char text[8192];
+    size_t n = (size_t)snprintf(text, sizeof text, "many\n.param g0=1");
+    for (int i = 1; i < 40; i++)
+        n += (size_t)snprintf(text + n, sizeof text - n, " g%d={g%d+1}", i, i - 1);
+    n += (size_t)snprintf(text + n, sizeof text - n, "\n.subckt s p0 p1 p2 p3 p4 p5 p6 p7 p8 p9 P10");
+    for (int i = 0; i < 12; i++)
+        n += (size_t)snprintf(text + n, sizeof text - n, " k%d=%d", i, i + 1);
+    n += (size_t)snprintf(text + n, sizeof text - n, "\nR1 p10 p9 {K11*G39}\nR2 P0 0 {k0}\n.ends\n");
+    for (int i = 0; i < 30; i++)
+        n += (size_t)snprintf(text + n, sizeof text - n, ".subckt u%d a\nR1 a 0 %d\n.ends\n", i, i + 1);
+    n += (size_t)snprintf(text + n, sizeof text - n, "X1 a0 a1 a2 a3 a4 a5 a6 a7 a8 a9 a10 S k11=5\n"
+                                                     "X2 b U29\nX3 c u0\nV1 a0 0 AC 1\nE1 b 0 a0 0 1\n.loop E1\n"
+                                                     "Rc c 0 1\n.ac dec 1 1 10\n");
+    for (int i = 1; i < 11; i++)
+        n += (size_t)snprintf(text + n, sizeof text - n, "Ra%d a%d 0 1\n", i, i);
+    tb_circuit *ckt = parse_ok(text);
+    assert_true(elem_of(ckt, "X1.R1")->value == 5 * 40);
+    assert_true(elem_of(ckt, "X1.R2")->value == 1);
+    int node = 0;
+    assert_true(tb_circuit_find_node(ckt, "a10", 3, &node));
+    assert_int_equal(elem_of(ckt, "X1.R1")->node[0], node);
+    assert_true(elem_of(ckt, "X2.R1")->value == 30);
+    assert_true(elem_of(ckt, "X3.R1")->value == 1);
+    tb_circuit_free(ckt);
+}
+
+/* Text of a netlist whose first parameter leans on `others` more through a chain,
+ * used by the value of E1. */
+static size_t chain_netlist(char *text, size_t size, int others)
+{
+    size_t n = (size_t)snprintf(text, size, "chain\nV1 a 0 AC 1\nE1 b 0 a 0 {p0}\n.loop E1\n");
+    for (int i = 0; i < others; i++)
+        n += (size_t)snprintf(text + n, size - n, ".param p%d={p%d}\n", i, i + 1);
+    n += (size_t)snprintf(text + n, size - n, ".param p%d=2\n", others);
+    return n;
+}
+
+/* The limit as docs/netlist.md states it: a parameter may lean on 32 others, not 33. */
+static void test_subckt_parameter_chain_at_limit(void **state)
+{
+    (void)state;
+    char text[4096];
+    size_t n = chain_netlist(text, sizeof text, 32);
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    assert_int_equal(tb_circuit_parse(text, n, "t.net", diag, &ckt), TB_OK);
+    size_t e = 0;
+    assert_true(tb_circuit_find_element(ckt, "E1", &e));
+    assert_true(ckt->elems[e].value == 2);
+    tb_circuit_free(ckt);
+    tb_diag_free(diag);
+    n = chain_netlist(text, sizeof text, 33);
+    diag = tb_diag_new();
+    assert_int_equal(tb_circuit_parse(text, n, "t.net", diag, &ckt), TB_ERR_INPUT);
+    char first[512];
+    tb_diag_format(diag, 0, first, sizeof first);
+    first[strcspn(first, "\n")] = '\0';
+    /* p32 is on line 37; its reference to p33 is where the 34th parameter would join */
+    assert_string_equal(first, "t.net:37:13: error: parameters defined through too many others (limit is 32)");
     tb_diag_free(diag);
 }
 
@@ -398,6 +473,8 @@ int main(void)
         cmocka_unit_test(test_subckt_depth_limit),
         cmocka_unit_test(test_subckt_expansion_limit),
         cmocka_unit_test(test_subckt_parameter_chain_limit),
+        cmocka_unit_test(test_subckt_parameter_chain_at_limit),
+        cmocka_unit_test(test_subckt_many_names),
         cmocka_unit_test(test_subckt_unknown_directive_warns_once),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

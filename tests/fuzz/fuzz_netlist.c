@@ -82,7 +82,12 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     tb_result *res = NULL;
     if (!diag)
         return 0;
-    if (tb_circuit_parse((const char *)data, size, "fuzz.net", diag, &ckt) == TB_OK &&
+    /* includes stay in the folder the fuzzer runs in (its corpus and findings), and small */
+    tb_read_options ropt;
+    tb_read_options_init(&ropt);
+    ropt.include_root = ".";
+    ropt.max_bytes = (size_t)1 << 20;
+    if (tb_circuit_parse_with((const char *)data, size, "fuzz.net", &ropt, diag, &ckt) == TB_OK &&
         tb_circuit_unknowns(ckt) <= FUZZ_MAX_UNKNOWNS && tb_grid_count(&ckt->ac) <= FUZZ_MAX_POINTS &&
         tb_analyse(ckt, NULL, diag, &res) == TB_OK) {
         FILE *sink = fopen("/dev/null", "w");
@@ -92,9 +97,13 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
         }
         expectations(ckt, res);
     }
-    char buf[256];
-    for (size_t i = 0; i < tb_diag_count(diag); i++)
+    char buf[4096];
+    for (size_t i = 0; i < tb_diag_count(diag); i++) {
         (void)tb_diag_format(diag, i, buf, sizeof buf);
+        for (const char *c = buf; *c; c++) /* user text is escaped: no control code but line ends and tabs */
+            if (((unsigned char)*c < 0x20 && *c != '\n' && *c != '\t') || *c == 0x7F)
+                abort();
+    }
     tb_result_free(res);
     tb_circuit_free(ckt);
     tb_diag_free(diag);

@@ -1,0 +1,118 @@
+/* src/names.c: the one name index: a case-insensitive hash from names to the positions of the entries that hold them */
+#include "names.h"
+
+#include <string.h>
+
+#include "alloc.h"
+
+/* ASCII lower case, whatever the locale. */
+static unsigned char lower(char c)
+{
+    return (unsigned char)(c >= 'A' && c <= 'Z' ? c - 'A' + 'a' : c);
+}
+
+bool tb_name_eq(const char *a, const char *b)
+{
+    while (*a && lower(*a) == lower(*b)) {
+        a++;
+        b++;
+    }
+    return lower(*a) == lower(*b);
+}
+
+bool tb_name_eq_n(const char *a, const char *b, size_t len)
+{
+    for (size_t i = 0; i < len; i++)
+        if (lower(a[i]) != lower(b[i]) || a[i] == '\0')
+            return false;
+    return a[len] == '\0';
+}
+
+static uint64_t hash_name(const char *s, size_t len)
+{
+    uint64_t h = 1469598103934665603u; /* FNV-1a */
+    for (size_t i = 0; i < len; i++) {
+        h ^= lower(s[i]);
+        h *= 1099511628211u;
+    }
+    /* final avalanche (from splitmix64) so that the low bits used as the slot
+     * index depend on every character: names like R1..R300000 differ late */
+    h ^= h >> 33;
+    h *= 0xff51afd7ed558ccdu;
+    h ^= h >> 33;
+    return h;
+}
+
+/* The slot holding name (hash h), or the empty slot where it would go. */
+static tb_name_slot *find_slot(const tb_name_index *idx, tb_name_of name_of, const void *owner,
+                               const char *name, size_t len, uint64_t h)
+{
+    size_t mask = idx->cap - 1;
+    size_t i = (size_t)h & mask;
+    while (idx->slots[i].index1) {
+        const tb_name_slot *slot = &idx->slots[i];
+        if (slot->hash == (uint32_t)(h >> 32) && tb_name_eq_n(name_of(owner, slot->index1 - 1), name, len))
+            return &idx->slots[i];
+        i = (i + 1) & mask;
+    }
+    return &idx->slots[i];
+}
+
+bool tb_names_find(const tb_name_index *idx, tb_name_of name_of, const void *owner, const char *name,
+                   size_t len, size_t *found)
+{
+    if (!idx->cap)
+        return false;
+    const tb_name_slot *slot = find_slot(idx, name_of, owner, name, len, hash_name(name, len));
+    if (!slot->index1)
+        return false;
+    *found = slot->index1 - 1;
+    return true;
+}
+
+/* Doubles the table while it would be more than half full with `entries`. */
+static tb_status reserve(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t entries)
+{
+    if (entries <= idx->cap / 2)
+        return TB_OK;
+    tb_name_index bigger = {NULL, idx->cap ? idx->cap * 2 : 64};
+    while (entries > bigger.cap / 2)
+        bigger.cap *= 2;
+    bigger.slots = tb_calloc(bigger.cap, sizeof(tb_name_slot));
+    if (!bigger.slots)
+        return TB_ERR_NOMEM;
+    for (size_t k = 0; k < idx->cap; k++) {
+        if (!idx->slots[k].index1)
+            continue;
+        const char *nm = name_of(owner, idx->slots[k].index1 - 1);
+        size_t i = (size_t)hash_name(nm, strlen(nm)) & (bigger.cap - 1);
+        while (bigger.slots[i].index1) /* names in the old table are distinct */
+            i = (i + 1) & (bigger.cap - 1);
+        bigger.slots[i] = idx->slots[k];
+    }
+    tb_free(idx->slots);
+    *idx = bigger;
+    return TB_OK;
+}
+
+tb_status tb_names_add(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t i,
+                       size_t *earlier)
+{
+    if (i >= TB_NAMES_MAX || reserve(idx, name_of, owner, i + 1))
+        return TB_ERR_NOMEM;
+    const char *nm = name_of(owner, i);
+    size_t len = strlen(nm);
+    uint64_t h = hash_name(nm, len);
+    tb_name_slot *slot = find_slot(idx, name_of, owner, nm, len, h);
+    *earlier = slot->index1 ? slot->index1 - 1 : SIZE_MAX;
+    if (!slot->index1)
+        *slot = (tb_name_slot){(uint32_t)(i + 1), (uint32_t)(h >> 32)};
+    return TB_OK;
+}
+
+void tb_names_free(tb_name_index *idx)
+{
+    tb_free(idx->slots);
+    idx->slots = NULL;
+    idx->cap = 0;
+}

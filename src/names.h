@@ -1,0 +1,49 @@
+/* src/names.h: the one name index: a case-insensitive hash from names to the positions of the entries that hold them */
+#ifndef TB_NAMES_H
+#define TB_NAMES_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#include "tbeta.h"
+
+/* Most entries one index holds: slots keep index + 1 in 32 bits. */
+#define TB_NAMES_MAX ((size_t)UINT32_MAX - 1)
+
+/* One slot: the entry's index + 1 (0 = empty) and the upper half of its name's
+ * hash, so that probes compare names only when the hashes agree. */
+typedef struct {
+    uint32_t index1;
+    uint32_t hash;
+} tb_name_slot;
+
+/* Open addressing over entries that keep their own names: the index stores positions
+ * only, and reads a name back through a tb_name_of. An empty index is {NULL, 0}. */
+typedef struct {
+    tb_name_slot *slots;
+    size_t cap;
+} tb_name_index;
+
+/* The NUL-terminated name of entry i of owner (a table the caller keeps). */
+typedef const char *(*tb_name_of)(const void *owner, size_t i);
+
+/* Records entry i (i < TB_NAMES_MAX), whose name is name_of(owner, i). When an entry
+ * of the same name (ignoring ASCII case) is there already, it keeps the slot and
+ * *earlier is its index; otherwise *earlier is SIZE_MAX. Entries need not be added in
+ * order, but the table sizes itself for i + 1 of them. TB_ERR_NOMEM: nothing changed. */
+tb_status tb_names_add(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t i,
+                       size_t *earlier);
+/* The entry called name[0..len) (ignoring ASCII case): true and its index in *found,
+ * or false. */
+bool tb_names_find(const tb_name_index *idx, tb_name_of name_of, const void *owner, const char *name,
+                   size_t len, size_t *found);
+/* Frees the slots (NULL is fine) and leaves an empty index. */
+void tb_names_free(tb_name_index *idx);
+
+/* Case-insensitive (ASCII) equality of two NUL-terminated names, and of a
+ * NUL-terminated name a with b[0..len). */
+bool tb_name_eq(const char *a, const char *b);
+bool tb_name_eq_n(const char *a, const char *b, size_t len);
+
+#endif

@@ -1,0 +1,93 @@
+/* tests/test_names.c: the name index: positions by case-insensitive name, first entry kept on duplicates, growth */
+#include <stdlib.h>
+
+#include "testutil.h"
+
+#include "names.h"
+
+typedef struct {
+    char (*names)[16];
+    size_t count;
+} table;
+
+static const char *name_of(const void *owner, size_t i)
+{
+    return ((const table *)owner)->names[i];
+}
+
+static void test_names_find_and_duplicates(void **state)
+{
+    (void)state;
+    char names[][16] = {"R1", "out", "Vin", "r1", "OUT", "X1.n3"};
+    table t = {names, 6};
+    tb_name_index idx = {NULL, 0};
+    size_t found = 0;
+    assert_false(tb_names_find(&idx, name_of, &t, "R1", 2, &found)); /* empty index */
+    size_t want_earlier[] = {SIZE_MAX, SIZE_MAX, SIZE_MAX, 0, 1, SIZE_MAX};
+    for (size_t i = 0; i < t.count; i++) {
+        size_t earlier = 7;
+        assert_int_equal(tb_names_add(&idx, name_of, &t, i, &earlier), TB_OK);
+        assert_int_equal(earlier, want_earlier[i]);
+    }
+    assert_true(tb_names_find(&idx, name_of, &t, "vIN", 3, &found));
+    assert_int_equal(found, 2);
+    assert_true(tb_names_find(&idx, name_of, &t, "r1", 2, &found));
+    assert_int_equal(found, 0); /* the first of that name keeps the slot */
+    assert_true(tb_names_find(&idx, name_of, &t, "x1.N3xyz", 5, &found)); /* a slice */
+    assert_int_equal(found, 5);
+    assert_false(tb_names_find(&idx, name_of, &t, "R", 1, &found));
+    assert_false(tb_names_find(&idx, name_of, &t, "R11", 3, &found));
+    tb_names_free(&idx);
+    assert_null(idx.slots);
+    assert_int_equal(idx.cap, 0);
+    tb_names_free(&idx); /* twice is fine */
+}
+
+/* 200 000 names that differ only in their last digits: every one is found where it was put. */
+static void test_names_many(void **state)
+{
+    (void)state;
+    enum { N = 200000 };
+    table t = {calloc(N, sizeof t.names[0]), N};
+    assert_non_null(t.names);
+    tb_name_index idx = {NULL, 0};
+    for (size_t i = 0; i < N; i++) {
+        size_t earlier = 0;
+        snprintf(t.names[i], sizeof t.names[i], "p%zu", i);
+        assert_int_equal(tb_names_add(&idx, name_of, &t, i, &earlier), TB_OK);
+        assert_int_equal(earlier, SIZE_MAX);
+    }
+    assert_true(idx.cap >= 2 * N); /* at most half full */
+    for (size_t i = 0; i < N; i += 997) {
+        size_t found = 0;
+        char upper[16];
+        snprintf(upper, sizeof upper, "P%zu", i);
+        assert_true(tb_names_find(&idx, name_of, &t, upper, strlen(upper), &found));
+        assert_int_equal(found, i);
+    }
+    size_t found = 0;
+    assert_false(tb_names_find(&idx, name_of, &t, "p200000", 7, &found));
+    tb_names_free(&idx);
+    free(t.names);
+}
+
+static void test_names_equality(void **state)
+{
+    (void)state;
+    assert_true(tb_name_eq("Gnd", "gND"));
+    assert_false(tb_name_eq("gnd", "gnd0"));
+    assert_false(tb_name_eq("gnd0", "gnd"));
+    assert_true(tb_name_eq_n("gnd", "GNDX", 3));
+    assert_false(tb_name_eq_n("gnd", "GN", 2));
+    assert_false(tb_name_eq("\xC3\xA9", "\xC3\x89")); /* ASCII case only: bytes above 127 as they are */
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_names_find_and_duplicates),
+        cmocka_unit_test(test_names_many),
+        cmocka_unit_test(test_names_equality),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
