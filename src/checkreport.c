@@ -126,7 +126,7 @@ static void xml(FILE *out, const char *s)
     for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n) {
         char enc[4];
         if ((tb_report_is_control(cp) && cp != '\t' && cp != '\n' && cp != '\r') || cp == 0xFFFE || cp == 0xFFFF) {
-            fprintf(out, cp > 0xFF ? "\\u%04x" : "\\x%02x", (unsigned)cp);
+            fprintf(out, cp > 0xFF ? "\\u%04X" : "\\x%02X", (unsigned)cp);
             continue;
         }
         switch (cp) {

@@ -107,7 +107,7 @@ static void put_text(const char *s, bool lines)
     for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n) {
         char enc[4];
         if (tb_report_is_control(cp) && !(lines && (cp == '\n' || cp == '\t')))
-            fprintf(stderr, "\\x%02x", (unsigned)cp);
+            fprintf(stderr, "\\x%02X", (unsigned)cp);
         else
             fwrite(enc, 1, tb_report_utf8(cp, enc), stderr);
     }

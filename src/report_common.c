@@ -209,7 +209,7 @@ const char *tb_report_escape(const char *s, char *buf, size_t size)
     uint32_t cp = 0;
     for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n) {
         char piece[8];
-        size_t len = tb_report_is_control(cp) ? (size_t)snprintf(piece, sizeof piece, "\\x%02x", (unsigned)cp)
+        size_t len = tb_report_is_control(cp) ? (size_t)snprintf(piece, sizeof piece, "\\x%02X", (unsigned)cp)
                                               : tb_report_utf8(cp, piece);
         if (used + len + 4 > size) { /* room for "..." and the NUL */
             memcpy(buf + used, "...", 3);

@@ -304,11 +304,11 @@ pass   forged.net"
 printf 'escape in a loop name\nV1 in 0 AC 1\nE1 out 0 in 0 2\nR1 out 0 1k\n.loop E1\n.ac dec 10 1 1k\n.expect E1\033[2J.dc.T = 1 +-1%%\n.end\n' >"$tmp/forge/esc.net"
 expect forge 2 $tb check "$tmp/forge" --junit "$tmp/forge.xml"
 if grep -q '^pass ' "$tmp/out"; then bad "forge: a forged pass line"; else ok; fi
-has forge out 'x\x0apass   forged.net:55: G1.unity_hz is 707581 Hz'
+has forge out 'x\x0Apass   forged.net:55: G1.unity_hz is 707581 Hz'
 esc=$(printf '\033')
 lacks forge out "$esc"
 lacks forge err "$esc"
-has forge err '\x1b[2J'
+has forge err '\x1B[2J'
 if xmllint --noout "$tmp/forge.xml" 2>"$tmp/err"; then ok; else bad "forge: xmllint"; head -3 "$tmp/err"; fi
 
 # 14. a standard output that cannot be written: exit 2 and a message

@@ -190,7 +190,7 @@ assert d["loops"][0]["source"] == "G\u00e41" and d["output"] == "v(aus\u00e4)", 
 assert d["loops"][0]["feedback"]["impedances"]["ports"][0]["name"] == "p\u00e4"
 PY
 expect odd-text 0 $tb report tests/cli/odd_bytes.net
-has odd-text out 'title   Verstärker \x1b[31mred title\x1b[0m'
+has odd-text out 'title   Verstärker \x1B[31mred title\x1B[0m'
 has odd-text out 'loop at Gä1'
 if grep -qF "$esc" "$tmp/out"; then failed=$((failed + 1)); echo "FAIL odd-text: an escape byte in stdout"
 else passed=$((passed + 1)); fi
@@ -199,11 +199,11 @@ mkdir -p "$tmp/odd"
 printf 'escape in a card\nV1 in 0 AC 1\nE1 out 0 in 0 2\nR1 out 0 1k\n.loop E1\n.ac dec 10 1 1k\n.io V1 v(out)\nX\033]0;title\007 a b\n.end\n' \
     >"$tmp/odd/card$esc[7m.net"
 expect odd-card 2 $tb report "$tmp/odd/card$esc[7m.net"
-has odd-card err 'card\x1b[7m.net:8:'
+has odd-card err 'card\x1B[7m.net:8:'
 if grep -qF "$esc" "$tmp/err"; then failed=$((failed + 1)); echo "FAIL odd-card: an escape byte in stderr"
 else passed=$((passed + 1)); fi
 expect odd-loop 2 $tb sweep netlists/ota_gain_of_2.net --loop "G$esc[2J"
-has odd-loop err "no .loop at 'G\x1b[2J'"
+has odd-loop err "no .loop at 'G\x1B[2J'"
 
 echo "cli: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]
