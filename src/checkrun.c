@@ -44,6 +44,8 @@ void tb_check_options_init(tb_check_options *opt)
     opt->shard_count = 1;
     opt->drift_pct = 1.0;
     opt->compared = false;
+    opt->include_root = NULL;
+    opt->include_anywhere = false;
     tb_options_init(&opt->analysis);
 }
 
@@ -488,7 +490,32 @@ static tb_status run_one(const tb_check_options *opt, tb_check_entry *e)
     tb_result *res = NULL;
     if (!diag)
         return TB_ERR_NOMEM;
-    tb_status st = tb_circuit_read(e->path, diag, &ckt); /* resolves .expect loop names */
+    /* .include stays inside the library: the folder of the argument the netlist came from
+     * (path = argument + "/" + rel), or the folder asked for */
+    char root[4096];
+    tb_read_options ro;
+    tb_read_options_init(&ro);
+    if (!opt->include_anywhere) {
+        size_t pl = strlen(e->path), rl = strlen(e->rel);
+        if (opt->include_root)
+            snprintf(root, sizeof root, "%s", opt->include_root);
+        else if (pl > rl && strcmp(e->path + pl - rl, e->rel) == 0)
+            snprintf(root, sizeof root, "%.*s", (int)(pl - rl), e->path);
+        else
+            snprintf(root, sizeof root, "%s", e->path);
+        size_t n = strlen(root);
+        while (n > 1 && root[n - 1] == '/')
+            root[--n] = '\0';
+        if (!opt->include_root && pl <= rl) { /* a file given by itself: its own folder */
+            char *slash = strrchr(root, '/');
+            if (slash && slash != root)
+                *slash = '\0';
+            else
+                snprintf(root, sizeof root, "%s", slash ? "/" : ".");
+        }
+        ro.include_root = root;
+    }
+    tb_status st = tb_circuit_read_with(e->path, &ro, diag, &ckt); /* resolves .expect loop names */
     if (st == TB_OK)
         st = tb_analyse(ckt, &opt->analysis, diag, &res);
     if (st == TB_OK) {

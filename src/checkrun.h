@@ -17,6 +17,9 @@ typedef struct {
     unsigned shard_count;  /* 1: no sharding */
     double drift_pct;      /* a figure that moves more than this percent the worse way drifts (default 1) */
     tb_options analysis;   /* tb_analyse options for every netlist */
+    const char *include_root; /* .include confined to this folder; NULL: to the folder of the
+                               * argument each netlist came from (the library tree) */
+    bool include_anywhere; /* no confinement at all (default false) */
     bool compared;         /* set by tb_check_against */
 } tb_check_options;
 

@@ -59,7 +59,8 @@ static const char usage_report[] =
     "  --all-sources     loop census: the return ratio of every controlled source, ranked,\n"
     "                    flagging unmarked local loops whose |T| reaches 1\n"
     "  --sensitivities   how every loop's figures move with each element's value (adjoint\n"
-    "                    method), ranked by their effect on the phase margin\n";
+    "                    method), ranked by their effect on the phase margin\n"
+    "  --include-root DIR  .include only files inside DIR (default: anywhere)\n";
 
 static const char usage_plot[] =
     "usage: tbeta plot NETLIST --svg DIR [--pole-limit N] [--all-sources]\n"
@@ -97,6 +98,7 @@ typedef struct {
     const char *table; /* sweep --table: a feedback table instead of the loop table */
     const char *html;  /* report --html FILE */
     const char *svg;   /* plot --svg DIR */
+    const char *include_root; /* --include-root DIR: .include only inside DIR */
 } args;
 
 /* Text on stderr with every control character written \xHH (tb_report_escape), except, with
@@ -215,6 +217,10 @@ static int parse_args(int argc, char **argv, int first, args *a)
             if (i + 1 >= argc)
                 return usage_error("--html needs a file name", NULL, usage);
             a->html = argv[++i];
+        } else if (strcmp(s, "--include-root") == 0) {
+            if (i + 1 >= argc)
+                return usage_error("--include-root needs a folder", NULL, usage);
+            a->include_root = argv[++i];
         } else if (strcmp(s, "--svg") == 0 && strcmp(a->command, "plot") == 0) {
             if (i + 1 >= argc)
                 return usage_error("--svg needs a folder", NULL, usage);
@@ -426,7 +432,10 @@ static int run(const args *a)
         complain("out of memory");
         return EXIT_BAD_INPUT;
     }
-    tb_status st = tb_circuit_read(a->netlist, diag, &ckt);
+    tb_read_options ro;
+    tb_read_options_init(&ro);
+    ro.include_root = a->include_root;
+    tb_status st = tb_circuit_read_with(a->netlist, &ro, diag, &ckt);
     if (st == TB_OK)
         st = tb_analyse(ckt, &a->opt, diag, &res);
     print_diags(diag);
@@ -469,6 +478,9 @@ static const char usage_check[] =
     "  --json FILE     write the full results as JSON\n"
     "  --junit FILE    write JUnit XML, one testcase per expectation\n"
     "  --merge         the PATHs are --json files of shards: merge them\n"
+    "  --include-root DIR   .include only files inside DIR (default: the folder of the\n"
+    "                  PATH each netlist came from, so a library cannot reach outside itself)\n"
+    "  --include-anywhere   do not confine .include\n"
     "  --pole-limit N  poles only up to N unknowns (default 500; their cost grows\n"
     "                  as N^3: lower it for large netlists; the step response then\n"
     "                  comes from time stepping)\n"
@@ -531,6 +543,8 @@ static int check_value_option(const char *s, const char *v, check_args *a)
         return usage_error("--drift needs a percentage of 0 or more, got", v, usage_check);
     else if (strcmp(s, "--drift") == 0)
         a->opt.drift_pct = x;
+    else if (strcmp(s, "--include-root") == 0)
+        a->opt.include_root = v;
     else if (strcmp(s, "--pole-limit") == 0 && !number_arg(v, true, &x))
         return usage_error("not a non-negative whole number:", v, usage_check);
     else if (strcmp(s, "--pole-limit") == 0)
@@ -541,7 +555,7 @@ static int check_value_option(const char *s, const char *v, check_args *a)
 static bool check_takes_value(const char *s)
 {
     static const char *const names[] = {"--glob", "--save", "--against", "--json", "--junit",
-                                        "--shard", "--jobs", "--drift", "--pole-limit"};
+                                        "--shard", "--jobs", "--drift", "--pole-limit", "--include-root"};
     for (size_t i = 0; i < sizeof names / sizeof names[0]; i++)
         if (strcmp(s, names[i]) == 0)
             return true;
@@ -556,6 +570,8 @@ static int parse_check_args(int argc, char **argv, check_args *a)
         if (strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0) {
             fputs(usage_check, stdout);
             return EXIT_DONE;
+        } else if (strcmp(s, "--include-anywhere") == 0) {
+            a->opt.include_anywhere = true;
         } else if (strcmp(s, "--merge") == 0) {
             a->merge = true;
         } else if (strcmp(s, "--no-stability") == 0) {
@@ -667,7 +683,7 @@ static int command(int argc, char **argv)
         printf("tbeta %s\n", TB_VERSION);
         return EXIT_DONE;
     }
-    args a = {"report", NULL, NULL, false, false, {0}, NULL, NULL, NULL};
+    args a = {"report", NULL, NULL, false, false, {0}, NULL, NULL, NULL, NULL};
     tb_options_init(&a.opt);
     a.opt.stability = strcmp(argv[1], "sweep") != 0; /* the sweep table needs none of it */
     int first = 1;

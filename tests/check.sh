@@ -315,5 +315,19 @@ if xmllint --noout "$tmp/forge.xml" 2>"$tmp/err"; then ok; else bad "forge: xmll
 expect stdout-full 2 sh -c "exec $tb check netlists/ota_gain_of_2.net >/dev/full"
 has stdout-full err "tbeta: cannot write the output: No space left on device"
 
+# 5. .include stays inside the library by default: a netlist reaching outside its argument's
+# folder is an error entry; --include-anywhere lifts it; --include-root names another folder
+mkdir -p "$tmp/inc/lib" "$tmp/incout"
+printf '* the stage, kept outside the library\nE1 out 0 in 0 2\nR1 out 0 1k\n' >"$tmp/incout/stage.net"
+printf 'a library netlist that includes a file outside the library\nV1 in 0 AC 1\n.include ../../incout/stage.net\n.loop E1\n.io V1 v(out)\n.ac dec 5 1 1k\n.expect E1.dc.A = 2 +-1%%\n.end\n' \
+    >"$tmp/inc/lib/reach.net"
+expect include-confined 2 $tb check "$tmp/inc"
+has include-confined out "outside the include root"
+expect include-anywhere 0 $tb check "$tmp/inc" --include-anywhere
+expect include-root 0 $tb check "$tmp/inc" --include-root "$tmp"
+expect include-report 0 $tb report "$tmp/inc/lib/reach.net"
+expect include-report-root 2 $tb report "$tmp/inc/lib/reach.net" --include-root "$tmp/inc"
+has include-report-root err "outside the include root"
+
 echo "check: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]
