@@ -7,6 +7,13 @@
 
 #include "alloc.h"
 
+#if defined(__x86_64__) || defined(__SSE2__)
+#include <xmmintrin.h>
+#define TB_HAVE_MXCSR 1
+#else
+#define TB_HAVE_MXCSR 0
+#endif
+
 struct tb_solver {
     const tb_mna *mna;
     klu_common common;
@@ -15,6 +22,39 @@ struct tb_solver {
     double rcond;         /* min/max |U_ii| of the last pivoted factorization */
     tb_solver_counts counts;
 };
+
+/* Subnormal numbers (below 2.2e-308) appear where a response decays along a long
+ * RC line, and x86 arithmetic on them is slow. Inside KLU's calls, results that
+ * would be subnormal are flushed to zero (FTZ) and subnormal operands read as
+ * zero (DAZ): they lie 300 orders of magnitude below the entries of M and of any
+ * excitation, so no figure moves. MXCSR is the calling thread's own register;
+ * it is restored after each call, so the caller's floating-point mode is left
+ * as it was. Other processors run the calls unchanged. */
+#if TB_HAVE_MXCSR
+enum { MXCSR_DAZ = 0x0040, MXCSR_FTZ = 0x8000 };
+
+static unsigned flush_begin(void)
+{
+    unsigned old = _mm_getcsr();
+    _mm_setcsr(old | MXCSR_DAZ | MXCSR_FTZ);
+    return old;
+}
+
+static void flush_end(unsigned old)
+{
+    _mm_setcsr(old);
+}
+#else
+static unsigned flush_begin(void)
+{
+    return 0;
+}
+
+static void flush_end(unsigned old)
+{
+    (void)old;
+}
+#endif
 
 tb_status tb_solver_new(const tb_mna *mna, tb_solver **out)
 {
@@ -52,6 +92,17 @@ static tb_status singular(tb_solver *s, size_t *culprit)
     return TB_ERR_SINGULAR;
 }
 
+/* klu_z_factor and the pivot-size baseline klu_z_rcond, subnormals flushed. */
+static bool klu_factor_flushed(tb_solver *s, double *Ax)
+{
+    unsigned mode = flush_begin();
+    s->numeric = klu_z_factor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, &s->common);
+    bool ok = s->numeric && s->common.status != KLU_SINGULAR &&
+              klu_z_rcond(s->symbolic, s->numeric, &s->common);
+    flush_end(mode);
+    return ok;
+}
+
 tb_status tb_solver_factor(tb_solver *s, const double *Mx, size_t *culprit)
 {
     if (s->numeric)
@@ -59,21 +110,15 @@ tb_status tb_solver_factor(tb_solver *s, const double *Mx, size_t *culprit)
     /* KLU's API takes non-const arrays but does not modify A */
     double *Ax = (double *)(uintptr_t)Mx;
     s->counts.numeric++;
-    s->numeric = klu_z_factor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, &s->common);
-    if (!s->numeric) {
-        if (s->common.status == KLU_OUT_OF_MEMORY)
+    if (!klu_factor_flushed(s, Ax)) {
+        int status = s->common.status;
+        if (s->numeric)
+            klu_z_free_numeric(&s->numeric, &s->common);
+        if (status == KLU_OUT_OF_MEMORY)
             return TB_ERR_NOMEM;
-        if (s->common.status == KLU_SINGULAR)
-            return singular(s, culprit);
-        return TB_ERR_NUMERIC;
-    }
-    if (s->common.status == KLU_SINGULAR) {
-        klu_z_free_numeric(&s->numeric, &s->common);
-        return singular(s, culprit);
+        return status == KLU_SINGULAR ? singular(s, culprit) : TB_ERR_NUMERIC;
     }
     s->counts.pivoted++;
-    if (!klu_z_rcond(s->symbolic, s->numeric, &s->common))
-        return TB_ERR_NUMERIC;
     s->rcond = s->common.rcond;
     return TB_OK;
 }
@@ -84,11 +129,14 @@ tb_status tb_solver_refactor(tb_solver *s, const double *Mx, double rcond_drop, 
         return tb_solver_factor(s, Mx, culprit);
     double *Ax = (double *)(uintptr_t)Mx;
     s->counts.numeric++;
+    unsigned mode = flush_begin();
     int ok = klu_z_refactor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, s->numeric, &s->common);
     /* A reused pivot that has become small shows as a collapse of min/max |U_ii|.
      * klu_z_rcond is O(n); klu_z_rgrowth would cost about half a refactor. */
-    if (ok && s->common.status == KLU_OK && klu_z_rcond(s->symbolic, s->numeric, &s->common) &&
-        s->common.rcond >= rcond_drop * s->rcond)
+    ok = ok && s->common.status == KLU_OK && klu_z_rcond(s->symbolic, s->numeric, &s->common) &&
+         s->common.rcond >= rcond_drop * s->rcond;
+    flush_end(mode);
+    if (ok)
         return TB_OK;
     if (s->common.status == KLU_OUT_OF_MEMORY)
         return TB_ERR_NOMEM;
@@ -105,9 +153,10 @@ tb_status tb_solver_solve(tb_solver *s, double complex *B, size_t nrhs)
     double *Bx = (double *)B;
     s->counts.solves++;
     s->counts.columns += nrhs;
-    if (!klu_z_solve(s->symbolic, s->numeric, (int)s->mna->n, (int)nrhs, Bx, &s->common))
-        return TB_ERR_NUMERIC;
-    return TB_OK;
+    unsigned mode = flush_begin();
+    int ok = klu_z_solve(s->symbolic, s->numeric, (int)s->mna->n, (int)nrhs, Bx, &s->common);
+    flush_end(mode);
+    return ok ? TB_OK : TB_ERR_NUMERIC;
 }
 
 size_t tb_solver_factor_count(const tb_solver *solver)
