@@ -18,6 +18,7 @@ struct tb_solver {
     const tb_mna *mna;
     klu_common common;
     klu_symbolic *symbolic;
+    bool owns_symbolic;   /* false for a tb_solver_new_sharing solver */
     klu_numeric *numeric;
     double rcond;         /* min/max |U_ii| of the last pivoted factorization */
     tb_solver_counts counts;
@@ -56,14 +57,23 @@ static void flush_end(unsigned old)
 }
 #endif
 
-tb_status tb_solver_new(const tb_mna *mna, tb_solver **out)
+static tb_solver *solver_alloc(const tb_mna *mna)
 {
     tb_solver *s = tb_calloc(1, sizeof(*s));
     if (!s)
-        return TB_ERR_NOMEM;
+        return NULL;
     s->mna = mna;
     klu_defaults(&s->common);
     s->common.halt_if_singular = 1;
+    return s;
+}
+
+tb_status tb_solver_new(const tb_mna *mna, tb_solver **out)
+{
+    tb_solver *s = solver_alloc(mna);
+    if (!s)
+        return TB_ERR_NOMEM;
+    s->owns_symbolic = true;
     s->symbolic = klu_analyze((int)mna->n, mna->Ap, mna->Ai, &s->common);
     if (!s->symbolic) {
         tb_status st = s->common.status == KLU_OUT_OF_MEMORY ? TB_ERR_NOMEM : TB_ERR_NUMERIC;
@@ -74,15 +84,32 @@ tb_status tb_solver_new(const tb_mna *mna, tb_solver **out)
     return TB_OK;
 }
 
+tb_status tb_solver_new_sharing(const tb_solver *base, tb_solver **out)
+{
+    tb_solver *s = solver_alloc(base->mna);
+    if (!s)
+        return TB_ERR_NOMEM;
+    s->common = base->common;
+    s->symbolic = base->symbolic;
+    *out = s;
+    return TB_OK;
+}
+
 void tb_solver_free(tb_solver *solver)
 {
     if (!solver)
         return;
     if (solver->numeric)
         klu_z_free_numeric(&solver->numeric, &solver->common);
-    if (solver->symbolic)
+    if (solver->symbolic && solver->owns_symbolic)
         klu_free_symbolic(&solver->symbolic, &solver->common);
     tb_free(solver);
+}
+
+void tb_solver_release(tb_solver *solver)
+{
+    if (solver->numeric)
+        klu_z_free_numeric(&solver->numeric, &solver->common);
 }
 
 static tb_status singular(tb_solver *s, size_t *culprit)
@@ -167,4 +194,10 @@ size_t tb_solver_factor_count(const tb_solver *solver)
 tb_solver_counts tb_solver_get_counts(const tb_solver *solver)
 {
     return solver->counts;
+}
+
+tb_solver_counts tb_solver_counts_add(tb_solver_counts a, tb_solver_counts b)
+{
+    return (tb_solver_counts){a.numeric + b.numeric, a.pivoted + b.pivoted, a.solves + b.solves,
+                              a.columns + b.columns};
 }

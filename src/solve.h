@@ -13,6 +13,14 @@ typedef struct tb_solver tb_solver;
  * pointer to mna, which must outlive it. Errors: TB_ERR_NOMEM, TB_ERR_NUMERIC.
  * A structurally singular pattern is reported by the first factorization. */
 tb_status tb_solver_new(const tb_mna *mna, tb_solver **out);
+
+/* A second solver over base's symbolic analysis, with its own numeric
+ * factorization, KLU settings and counts: one per thread of a sweep. KLU only
+ * reads the symbolic analysis while it factors, refactors and solves (its
+ * factorization revises the analysis's fill estimates only after a COLAMD
+ * ordering; ours is AMD, klu_defaults). base must outlive it and neither may
+ * be freed while the other is in use. Errors: TB_ERR_NOMEM. */
+tb_status tb_solver_new_sharing(const tb_solver *base, tb_solver **out);
 void tb_solver_free(tb_solver *solver);
 
 /* Factors M = Mx (2*nnz interleaved) with pivoting. TB_ERR_SINGULAR with the
@@ -22,9 +30,13 @@ tb_status tb_solver_factor(tb_solver *solver, const double *Mx, size_t *culprit)
 /* Refactors with the pivot order of the last factorization; when the pivots
  * degrade (KLU's cheap min/max |U_ii| ratio falls below rcond_drop times that
  * of the last pivoted factorization) or a pivot vanishes, factors again with
- * pivoting. Errors as tb_solver_factor. */
+ * pivoting. With no factorization held (none yet, or after
+ * tb_solver_release), factors with pivoting. Errors as tb_solver_factor. */
 tb_status tb_solver_refactor(tb_solver *solver, const double *Mx, double rcond_drop,
                              size_t *culprit);
+
+/* Drops the factorization held, so that the next refactor pivots afresh. */
+void tb_solver_release(tb_solver *solver);
 
 /* Solves M X = B in place for nrhs right-hand sides stored one after the other
  * (each n complex values). Errors: TB_ERR_NUMERIC. */
@@ -43,5 +55,8 @@ typedef struct {
     size_t columns;
 } tb_solver_counts;
 tb_solver_counts tb_solver_get_counts(const tb_solver *solver);
+
+/* a + b, field by field. */
+tb_solver_counts tb_solver_counts_add(tb_solver_counts a, tb_solver_counts b);
 
 #endif

@@ -63,6 +63,18 @@ has margins-stated out "needs |PM| >= 60: FAILS"
 expect margins-override 0 $tb tests/cli/margins_stated.net --pm-min 5
 has margins-override out "needs |PM| >= 5: ok"
 
+# --jobs: threads share the sweep's points; every output is the same byte for byte
+expect jobs-bad 2 $tb report netlists/photodiode_tia.net --jobs 0
+has jobs-bad err "--jobs needs a whole number from 1 to 1024, got 0"
+for f in netlists/noninverting_loaded_opamp.net tests/fb/noninverting_x20.net tests/ref/ref_lc_twoloop.net; do
+    for form in "report --json --all-sources" "sweep --csv"; do
+        $tb $form "$f" --jobs 1 >"$tmp/jobs1" 2>&1
+        $tb $form "$f" --jobs 2 >"$tmp/jobs2" 2>&1
+        if cmp -s "$tmp/jobs1" "$tmp/jobs2"; then passed=$((passed + 1)); else
+            failed=$((failed + 1)); echo "FAIL jobs $f $form: --jobs 2 differs from --jobs 1"; fi
+    done
+done
+
 # every malformed netlist: exit 2 and the first line of stderr as stated in its .err file
 for f in tests/bad/*.net; do
     [ -f "$f" ] || continue
