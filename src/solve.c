@@ -14,13 +14,19 @@
 #define TB_HAVE_MXCSR 0
 #endif
 
+/* One numeric factorization and the min/max |U_ii| it had when it was pivoted. */
+typedef struct {
+    klu_numeric *numeric; /* NULL: none */
+    double rcond;
+} factorization;
+
 struct tb_solver {
     const tb_mna *mna;
     klu_common common;
     klu_symbolic *symbolic;
     bool owns_symbolic;   /* false for a tb_solver_new_sharing solver */
-    klu_numeric *numeric;
-    double rcond;         /* min/max |U_ii| of the last pivoted factorization */
+    factorization reference; /* pivoted by tb_solver_factor */
+    factorization repivot;   /* pivoted by tb_solver_refactor where the reference's order degraded */
     tb_solver_counts counts;
 };
 
@@ -95,12 +101,23 @@ tb_status tb_solver_new_sharing(const tb_solver *base, tb_solver **out)
     return TB_OK;
 }
 
+static void drop(tb_solver *s, factorization *f)
+{
+    if (f->numeric)
+        klu_z_free_numeric(&f->numeric, &s->common);
+}
+
+/* The factorization solves use: the re-pivoted one when there is one. */
+static const factorization *current(const tb_solver *s)
+{
+    return s->repivot.numeric ? &s->repivot : &s->reference;
+}
+
 void tb_solver_free(tb_solver *solver)
 {
     if (!solver)
         return;
-    if (solver->numeric)
-        klu_z_free_numeric(&solver->numeric, &solver->common);
+    tb_solver_release(solver);
     if (solver->symbolic && solver->owns_symbolic)
         klu_free_symbolic(&solver->symbolic, &solver->common);
     tb_free(solver);
@@ -108,8 +125,13 @@ void tb_solver_free(tb_solver *solver)
 
 void tb_solver_release(tb_solver *solver)
 {
-    if (solver->numeric)
-        klu_z_free_numeric(&solver->numeric, &solver->common);
+    drop(solver, &solver->repivot);
+    drop(solver, &solver->reference);
+}
+
+void tb_solver_restart(tb_solver *solver)
+{
+    drop(solver, &solver->repivot);
 }
 
 static tb_status singular(tb_solver *s, size_t *culprit)
@@ -119,55 +141,61 @@ static tb_status singular(tb_solver *s, size_t *culprit)
     return TB_ERR_SINGULAR;
 }
 
-/* klu_z_factor and the pivot-size baseline klu_z_rcond, subnormals flushed. */
-static bool klu_factor_flushed(tb_solver *s, double *Ax)
+/* klu_z_factor into f and its pivot-size baseline klu_z_rcond, subnormals flushed. */
+static bool klu_factor_flushed(tb_solver *s, factorization *f, double *Ax)
 {
     unsigned mode = flush_begin();
-    s->numeric = klu_z_factor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, &s->common);
-    bool ok = s->numeric && s->common.status != KLU_SINGULAR &&
-              klu_z_rcond(s->symbolic, s->numeric, &s->common);
+    f->numeric = klu_z_factor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, &s->common);
+    bool ok = f->numeric && s->common.status != KLU_SINGULAR &&
+              klu_z_rcond(s->symbolic, f->numeric, &s->common);
     flush_end(mode);
+    f->rcond = s->common.rcond;
     return ok;
 }
 
-tb_status tb_solver_factor(tb_solver *s, const double *Mx, size_t *culprit)
+/* A pivoted factorization of Mx into f (whatever f held is dropped first). */
+static tb_status pivot_into(tb_solver *s, factorization *f, const double *Mx, size_t *culprit)
 {
-    if (s->numeric)
-        klu_z_free_numeric(&s->numeric, &s->common);
+    drop(s, f);
     /* KLU's API takes non-const arrays but does not modify A */
     double *Ax = (double *)(uintptr_t)Mx;
     s->counts.numeric++;
-    if (!klu_factor_flushed(s, Ax)) {
+    if (!klu_factor_flushed(s, f, Ax)) {
         int status = s->common.status;
-        if (s->numeric)
-            klu_z_free_numeric(&s->numeric, &s->common);
+        drop(s, f);
         if (status == KLU_OUT_OF_MEMORY)
             return TB_ERR_NOMEM;
         return status == KLU_SINGULAR ? singular(s, culprit) : TB_ERR_NUMERIC;
     }
     s->counts.pivoted++;
-    s->rcond = s->common.rcond;
     return TB_OK;
+}
+
+tb_status tb_solver_factor(tb_solver *s, const double *Mx, size_t *culprit)
+{
+    drop(s, &s->repivot);
+    return pivot_into(s, &s->reference, Mx, culprit);
 }
 
 tb_status tb_solver_refactor(tb_solver *s, const double *Mx, double rcond_drop, size_t *culprit)
 {
-    if (!s->numeric)
+    if (!s->reference.numeric)
         return tb_solver_factor(s, Mx, culprit);
+    factorization *f = s->repivot.numeric ? &s->repivot : &s->reference;
     double *Ax = (double *)(uintptr_t)Mx;
     s->counts.numeric++;
     unsigned mode = flush_begin();
-    int ok = klu_z_refactor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, s->numeric, &s->common);
+    int ok = klu_z_refactor(s->mna->Ap, s->mna->Ai, Ax, s->symbolic, f->numeric, &s->common);
     /* A reused pivot that has become small shows as a collapse of min/max |U_ii|.
      * klu_z_rcond is O(n); klu_z_rgrowth would cost about half a refactor. */
-    ok = ok && s->common.status == KLU_OK && klu_z_rcond(s->symbolic, s->numeric, &s->common) &&
-         s->common.rcond >= rcond_drop * s->rcond;
+    ok = ok && s->common.status == KLU_OK && klu_z_rcond(s->symbolic, f->numeric, &s->common) &&
+         s->common.rcond >= rcond_drop * f->rcond;
     flush_end(mode);
     if (ok)
         return TB_OK;
     if (s->common.status == KLU_OUT_OF_MEMORY)
         return TB_ERR_NOMEM;
-    return tb_solver_factor(s, Mx, culprit);
+    return pivot_into(s, &s->repivot, Mx, culprit);
 }
 
 tb_status tb_solver_solve(tb_solver *s, double complex *B, size_t nrhs)
@@ -181,7 +209,7 @@ tb_status tb_solver_solve(tb_solver *s, double complex *B, size_t nrhs)
     s->counts.solves++;
     s->counts.columns += nrhs;
     unsigned mode = flush_begin();
-    int ok = klu_z_solve(s->symbolic, s->numeric, (int)s->mna->n, (int)nrhs, Bx, &s->common);
+    int ok = klu_z_solve(s->symbolic, current(s)->numeric, (int)s->mna->n, (int)nrhs, Bx, &s->common);
     flush_end(mode);
     return ok ? TB_OK : TB_ERR_NUMERIC;
 }

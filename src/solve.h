@@ -23,19 +23,28 @@ tb_status tb_solver_new(const tb_mna *mna, tb_solver **out);
 tb_status tb_solver_new_sharing(const tb_solver *base, tb_solver **out);
 void tb_solver_free(tb_solver *solver);
 
-/* Factors M = Mx (2*nnz interleaved) with pivoting. TB_ERR_SINGULAR with the
- * unknown index of the zero pivot in *culprit when M is singular. */
+/* Factors M = Mx (2*nnz interleaved) with pivoting: this factorization's pivot
+ * order becomes the solver's reference order. TB_ERR_SINGULAR with the unknown
+ * index of the zero pivot in *culprit when M is singular. */
 tb_status tb_solver_factor(tb_solver *solver, const double *Mx, size_t *culprit);
 
-/* Refactors with the pivot order of the last factorization; when the pivots
- * degrade (KLU's cheap min/max |U_ii| ratio falls below rcond_drop times that
- * of the last pivoted factorization) or a pivot vanishes, factors again with
- * pivoting. With no factorization held (none yet, or after
+/* Refactors with the pivot order of the last pivoted factorization: the
+ * reference order, or the re-pivoted one made since. When the pivots degrade
+ * (KLU's cheap min/max |U_ii| ratio falls below rcond_drop times that of the
+ * pivoted factorization whose order was reused) or a pivot vanishes, factors
+ * again with pivoting into a re-pivoted factorization, and keeps the reference
+ * for tb_solver_restart. With no factorization held (none yet, or after
  * tb_solver_release), factors with pivoting. Errors as tb_solver_factor. */
 tb_status tb_solver_refactor(tb_solver *solver, const double *Mx, double rcond_drop,
                              size_t *culprit);
 
-/* Drops the factorization held, so that the next refactor pivots afresh. */
+/* Back to the reference order: drops the re-pivoted factorization, if any, so
+ * that the next refactor reuses the reference's pivots and baseline whatever
+ * was refactored since (a refactor's result depends only on the pivot order
+ * and the matrix). */
+void tb_solver_restart(tb_solver *solver);
+
+/* Drops every factorization held, so that the next refactor pivots afresh. */
 void tb_solver_release(tb_solver *solver);
 
 /* Solves M X = B in place for nrhs right-hand sides stored one after the other

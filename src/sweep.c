@@ -15,7 +15,8 @@ typedef struct {
     tb_solver *solver;
     double *Mx;
     tb_loop_work *work;
-    tb_point *row; /* one point of every loop */
+    tb_point *row;  /* one point of every loop */
+    bool reference; /* the solver's reference order is that of the first grid point */
 } lane;
 
 struct tb_sweep {
@@ -224,21 +225,53 @@ static void record_failure(grid_run *g, size_t i, tb_status st, size_t culprit)
         pthread_mutex_unlock(&g->lock);
 }
 
-/* One chunk on lane l: a pivoted factorization at its first point, refactors after. */
+/* The reference pivot order of the run: a pivoted factorization at the first
+ * grid point, the same on every lane. */
+static tb_status reference_factor(const tb_sweep *s, lane *ln, double f0, size_t *culprit)
+{
+    tb_mna_values(s->mna, TB_TWO_PI * f0, ln->Mx);
+    tb_status st = tb_solver_factor(ln->solver, ln->Mx, culprit);
+    ln->reference = st == TB_OK;
+    return st;
+}
+
+/* M factored at grid point i of a chunk starting at first: point 0 is the
+ * reference factorization itself; elsewhere a refactor with the reference
+ * order, restarted at the chunk's first point, so that a re-pivoting where the
+ * order degrades holds to the end of its chunk only. *failed is the point a
+ * failure belongs to (0 when the reference factorization fails). */
+static tb_status factor_point(const grid_run *g, lane *ln, size_t first, size_t i, size_t *culprit,
+                              size_t *failed)
+{
+    *failed = 0;
+    if (i == 0)
+        return reference_factor(g->s, ln, g->freqs[0], culprit);
+    if (i == first && ln->reference) {
+        tb_solver_restart(ln->solver);
+    } else if (i == first) {
+        tb_status st = reference_factor(g->s, ln, g->freqs[0], culprit);
+        if (st)
+            return st;
+    }
+    *failed = i;
+    tb_mna_values(g->s->mna, TB_TWO_PI * g->freqs[i], ln->Mx);
+    return tb_solver_refactor(ln->solver, ln->Mx, g->s->rcond_drop, culprit);
+}
+
+/* One chunk on lane l. */
 static void grid_chunk(grid_run *g, size_t l, size_t chunk)
 {
-    const lane *ln = &g->s->lanes[l];
+    lane *ln = &g->s->lanes[l];
     size_t first = chunk * TB_SWEEP_CHUNK;
     size_t end = first + TB_SWEEP_CHUNK < g->npoints ? first + TB_SWEEP_CHUNK : g->npoints;
     for (size_t i = first; i < end; i++) {
         size_t culprit = 0;
-        tb_mna_values(g->s->mna, TB_TWO_PI * g->freqs[i], ln->Mx);
-        tb_status st = i == first ? tb_solver_factor(ln->solver, ln->Mx, &culprit)
-                                  : tb_solver_refactor(ln->solver, ln->Mx, g->s->rcond_drop, &culprit);
+        size_t failed = i;
+        tb_status st = factor_point(g, ln, first, i, &culprit, &failed);
         if (!st)
             st = visit(g->s, l, i, g->freqs[i], g->hooks, g->nhooks);
         if (st) {
-            record_failure(g, i, st, culprit);
+            record_failure(g, failed, st, culprit);
             return;
         }
     }
@@ -275,6 +308,21 @@ static void grid_run_all(tb_sweep *s, grid_run *g)
         pthread_mutex_destroy(&g->lock);
 }
 
+/* After the grid, the probe continues on lane 0 from the reference order,
+ * whichever chunks lane 0 took (it factors at the first grid point when it took
+ * none), so that what it computes does not depend on the number of lanes; the
+ * other lanes' factorizations are freed. */
+static tb_status hand_to_probe(tb_sweep *s, const double *freqs, size_t npoints)
+{
+    lane *ln = &s->lanes[0];
+    size_t culprit = 0;
+    tb_status st = !ln->reference && npoints > 0 ? reference_factor(s, ln, freqs[0], &culprit) : TB_OK;
+    tb_solver_restart(ln->solver);
+    for (size_t l = 1; l < s->nlanes; l++)
+        tb_solver_release(s->lanes[l].solver);
+    return st;
+}
+
 tb_status tb_sweep_run(tb_sweep *s, const double *freqs, size_t npoints, bool dc,
                        const tb_sweep_hook *hooks, size_t nhooks, bool *has_dc)
 {
@@ -282,6 +330,8 @@ tb_status tb_sweep_run(tb_sweep *s, const double *freqs, size_t npoints, bool dc
     *has_dc = false;
     s->probe.held = false;
     s->probe.row_valid = false;
+    for (size_t l = 0; l < s->nlanes; l++)
+        s->lanes[l].reference = false;
     tb_status st = dc ? sweep_dc(s, hooks, nhooks, has_dc, &dc_culprit) : TB_OK;
     if (!st) {
         grid_run g = {.s = s, .freqs = freqs, .npoints = npoints, .hooks = hooks, .nhooks = nhooks,
@@ -291,9 +341,8 @@ tb_status tb_sweep_run(tb_sweep *s, const double *freqs, size_t npoints, bool dc
         if (st == TB_ERR_SINGULAR)
             st = singular_diag(s, TB_SEV_ERROR, freqs[g.fail_index], g.fail_culprit, "");
     }
-    /* what lane 0 holds depends on which chunks it took: the probe starts afresh */
-    for (size_t l = 0; l < s->nlanes; l++)
-        tb_solver_release(s->lanes[l].solver);
+    if (!st)
+        st = hand_to_probe(s, freqs, npoints);
     if (!st && dc && !*has_dc) {
         st = singular_diag(s, TB_SEV_WARNING, 0.0, dc_culprit, "; DC values are those at the lowest sweep frequency");
         st = st == TB_ERR_SINGULAR ? TB_OK : st;

@@ -8,9 +8,12 @@
 #define TB_SWEEP_DC SIZE_MAX
 
 /* Grid points per chunk. The grid is cut into chunks of this many consecutive
- * points, the same for any number of threads; each chunk starts with a pivoted
- * factorization and refactors with that pivot order inside the chunk, so every
- * point's numbers are the same whichever thread takes its chunk. */
+ * points, the same for any number of threads, and threads take whole chunks.
+ * Every point refactors with the reference pivot order (a pivoted factorization
+ * at the first grid point, made once on each lane); where that order degrades,
+ * the point pivots afresh and the rest of its chunk reuses the new order, and
+ * the next chunk starts from the reference again. So a point's numbers depend
+ * only on its chunk, whichever thread takes it. */
 #define TB_SWEEP_CHUNK 16
 
 /* At most this many threads in one point loop. */
@@ -70,14 +73,15 @@ size_t tb_sweep_lanes(const tb_sweep *sweep);
 /* DC first (when dc is set and M(0) is non-singular; *has_dc says whether it
  * was), on lane 0; then every frequency of freqs (npoints, ascending), chunk
  * by chunk (TB_SWEEP_CHUNK), the chunks shared among the lanes' threads: M
- * written and factored once per point (pivoting at DC and at the first point
- * of each chunk, tb_solver_refactor after), every loop evaluated, then every
- * hook called in order. The numbers at a point do not depend on the number of
- * lanes. A singular M at a grid point is an error naming the unknown (the
- * lowest such point, as one thread would find it); a singular M(0) is a warning
- * (DC values then come from the lowest point). Afterwards the probe holds no
- * factorization (its first one pivots). Errors: TB_ERR_SINGULAR, TB_ERR_NOMEM,
- * TB_ERR_NUMERIC, those of the hooks (the one at the lowest point). */
+ * written and factored once per point (pivoting at DC and at the first grid
+ * point, tb_solver_refactor with that reference order elsewhere), every loop
+ * evaluated, then every hook called in order. The numbers at a point do not
+ * depend on the number of lanes. A singular M at a grid point is an error
+ * naming the unknown (the lowest such point, as one thread would find it); a
+ * singular M(0) is a warning (DC values then come from the lowest point).
+ * Afterwards the probe's solver holds the reference order. Errors:
+ * TB_ERR_SINGULAR, TB_ERR_NOMEM, TB_ERR_NUMERIC, those of the hooks (the one
+ * at the lowest point). */
 tb_status tb_sweep_run(tb_sweep *sweep, const double *freqs, size_t npoints, bool dc,
                        const tb_sweep_hook *hooks, size_t nhooks, bool *has_dc);
 
