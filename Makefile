@@ -52,6 +52,12 @@ $(BUILD)/tests/%: tests/%.c tests/testutil.h $(BUILD)/libtbeta.a | $(DEPS_OK)
 	@mkdir -p $(dir $@)
 	$(CC) $(CPPFLAGS) $(CFLAGS) -Wno-missing-prototypes $< $(filter %.o,$^) $(BUILD)/libtbeta.a $(LDFLAGS) $(LDWRAP) $(TESTLIBS) $(LDLIBS) -o $@
 
+# helper programs of the reference scripts (tests/ref/*.py): built by make check, not run as tests
+TOOL_BIN := $(patsubst tests/%.c,$(BUILD)/tests/%,$(wildcard tests/tool_*.c))
+$(BUILD)/tests/tool_%: tests/tool_%.c $(BUILD)/libtbeta.a | $(DEPS_OK)
+	@mkdir -p $(dir $@)
+	$(CC) $(CPPFLAGS) $(CFLAGS) $< $(BUILD)/libtbeta.a $(LDFLAGS) $(LDLIBS) -o $@
+
 # tests of the regression runner link its objects (they are not in libtbeta.a)
 $(BUILD)/tests/test_expect $(BUILD)/tests/test_oom: $(RUNNER_OBJ)
 
@@ -59,7 +65,7 @@ $(BUILD)/tests/test_expect $(BUILD)/tests/test_oom: $(RUNNER_OBJ)
 $(BUILD)/tests/test_oom: LDWRAP := -Wl,--wrap=malloc,--wrap=calloc,--wrap=realloc
 
 # check: build and run every test in $(BUILD) (RUNWRAP wraps each test program).
-check: $(BUILD)/tbeta $(TEST_BIN)
+check: $(BUILD)/tbeta $(TEST_BIN) $(TOOL_BIN)
 	@sh tests/run.sh $(BUILD) "$(RUNWRAP)"
 
 test: check

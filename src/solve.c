@@ -3,9 +3,12 @@
 
 #include <klu.h>
 #include <limits.h>
+#include <math.h>
 #include <stdint.h>
+#include <string.h>
 
 #include "alloc.h"
+#include "units.h"
 
 #if defined(__x86_64__) || defined(__SSE2__)
 #include <xmmintrin.h>
@@ -27,6 +30,8 @@ struct tb_solver {
     bool owns_symbolic;   /* false for a tb_solver_new_sharing solver */
     factorization reference; /* pivoted by tb_solver_factor */
     factorization repivot;   /* pivoted by tb_solver_refactor where the reference's order degraded */
+    bool q_odd;           /* the column permutation of the symbolic analysis is odd */
+    unsigned char *mark;  /* n: workspace of permutation parities */
     tb_solver_counts counts;
 };
 
@@ -63,12 +68,32 @@ static void flush_end(unsigned old)
 }
 #endif
 
+/* true when perm (a permutation of 0..n-1) is odd: n minus its cycle count. */
+static bool perm_odd(const int *perm, size_t n, unsigned char *mark)
+{
+    memset(mark, 0, n);
+    size_t cycles = 0;
+    for (size_t i = 0; i < n; i++) {
+        if (mark[i])
+            continue;
+        cycles++;
+        for (size_t j = i; !mark[j]; j = (size_t)perm[j])
+            mark[j] = 1;
+    }
+    return (n - cycles) % 2 == 1;
+}
+
 static tb_solver *solver_alloc(const tb_mna *mna)
 {
     tb_solver *s = tb_calloc(1, sizeof(*s));
     if (!s)
         return NULL;
     s->mna = mna;
+    s->mark = tb_malloc(mna->n ? mna->n : 1, 1);
+    if (!s->mark) {
+        tb_free(s);
+        return NULL;
+    }
     klu_defaults(&s->common);
     s->common.halt_if_singular = 1;
     return s;
@@ -86,6 +111,7 @@ tb_status tb_solver_new(const tb_mna *mna, tb_solver **out)
         tb_solver_free(s);
         return st;
     }
+    s->q_odd = perm_odd(s->symbolic->Q, mna->n, s->mark);
     *out = s;
     return TB_OK;
 }
@@ -97,6 +123,7 @@ tb_status tb_solver_new_sharing(const tb_solver *base, tb_solver **out)
         return TB_ERR_NOMEM;
     s->common = base->common;
     s->symbolic = base->symbolic;
+    s->q_odd = base->q_odd;
     *out = s;
     return TB_OK;
 }
@@ -120,6 +147,7 @@ void tb_solver_free(tb_solver *solver)
     tb_solver_release(solver);
     if (solver->symbolic && solver->owns_symbolic)
         klu_free_symbolic(&solver->symbolic, &solver->common);
+    tb_free(solver->mark);
     tb_free(solver);
 }
 
@@ -212,6 +240,31 @@ tb_status tb_solver_solve(tb_solver *s, double complex *B, size_t nrhs)
     int ok = klu_z_solve(s->symbolic, current(s)->numeric, (int)s->mna->n, (int)nrhs, Bx, &s->common);
     flush_end(mode);
     return ok ? TB_OK : TB_ERR_NUMERIC;
+}
+
+tb_status tb_solver_log_det(tb_solver *s, double *log_abs, double *arg)
+{
+    const klu_numeric *numeric = current(s)->numeric;
+    if (!numeric)
+        return TB_ERR_NOT_FOUND;
+    size_t n = s->mna->n;
+    const double *U = numeric->Udiag; /* n complex values, (re, im) interleaved */
+    const double *Rs = numeric->Rs;   /* NULL without scaling */
+    double mag = 0;
+    double phase = 0;
+    for (size_t i = 0; i < n; i++) {
+        double re = U[2 * i], im = U[2 * i + 1];
+        if (re == 0 && im == 0)
+            return TB_ERR_SINGULAR;
+        mag += log(hypot(re, im)) + (Rs ? log(Rs[i]) : 0);
+        phase += atan2(im, re);
+    }
+    bool odd = s->q_odd != perm_odd(numeric->Pnum, n, s->mark);
+    double pi = TB_TWO_PI / 2;
+    phase = remainder(phase + (odd ? pi : 0), TB_TWO_PI);
+    *log_abs = mag;
+    *arg = phase <= -pi ? phase + TB_TWO_PI : phase;
+    return TB_OK;
 }
 
 size_t tb_solver_factor_count(const tb_solver *solver)

@@ -51,6 +51,17 @@ void tb_solver_release(tb_solver *solver);
  * (each n complex values). Errors: TB_ERR_NUMERIC. */
 tb_status tb_solver_solve(tb_solver *solver, double complex *B, size_t nrhs);
 
+/* The determinant of the matrix whose factorization the solver holds, from
+ * KLU's factors P (R^-1 M) Q = L U (L unit lower triangular, R = diag(Rs) the
+ * row scale factors, P and Q permutations):
+ *   det M = det R * sign(P) * sign(Q) * prod U_ii.
+ * *log_abs = ln|det M| = sum ln Rs_i + sum ln|U_ii| (no overflow at any size);
+ * *arg = arg det M = sum arg U_ii + pi [P odd] + pi [Q odd], reduced to
+ * (-pi, pi]. Both are set only on success. Uses the solver's own O(n)
+ * workspace for the parity of P, so one solver is not used by two threads. Errors: TB_ERR_NOT_FOUND (no
+ * factorization held), TB_ERR_SINGULAR (a zero pivot: det M = 0). */
+tb_status tb_solver_log_det(tb_solver *solver, double *log_abs, double *arg);
+
 /* Number of pivoted factorizations so far (first one included). */
 size_t tb_solver_factor_count(const tb_solver *solver);
 
