@@ -63,6 +63,12 @@ $(BUILD)/tests/%: tests/%.c tests/testutil.h $(BUILD)/libtbeta.a | $(DEPS_OK)
 	@mkdir -p $(dir $@)
 	$(CC) $(CPPFLAGS) $(CFLAGS) -Wno-missing-prototypes $< $(filter %.o,$^) $(BUILD)/libtbeta.a $(LDFLAGS) $(LDWRAP) $(TESTLIBS) $(LDLIBS) -o $@
 
+# helper programs of the reference scripts (tests/ref/*.py): built by make check, not run as tests
+TOOL_BIN := $(patsubst tests/%.c,$(BUILD)/tests/%,$(wildcard tests/tool_*.c))
+$(BUILD)/tests/tool_%: tests/tool_%.c $(BUILD)/libtbeta.a | $(DEPS_OK)
+	@mkdir -p $(dir $@)
+	$(CC) $(CPPFLAGS) $(CFLAGS) $< $(BUILD)/libtbeta.a $(LDFLAGS) $(LDLIBS) -o $@
+
 # tests of the regression runner link its objects (they are not in libtbeta.a)
 $(BUILD)/tests/test_expect $(BUILD)/tests/test_oom: $(RUNNER_OBJ)
 
@@ -85,7 +91,7 @@ install: all
 	install -m 644 docs/tbeta.1 $(DESTDIR)$(PREFIX)/share/man/man1/tbeta.1
 
 # check: build and run every test in $(BUILD) (RUNWRAP wraps each test program).
-check: $(BUILD)/tbeta $(SHLIB) $(TEST_BIN)
+check: $(BUILD)/tbeta $(SHLIB) $(TEST_BIN) $(TOOL_BIN)
 	@sh tests/run.sh $(BUILD) "$(RUNWRAP)"
 
 test: check

@@ -23,6 +23,7 @@ void tb_options_init(tb_options *opt)
     opt->gm_min_db = -1.0;  /* the netlist's .margins, else 10 dB (common practice) */
     opt->census = false;
     opt->sensitivity = false;
+    opt->jobs = 1;
 }
 
 /* Thresholds left negative in the options come from the netlist's .margins,
@@ -64,18 +65,20 @@ static void point_analyses_free(point_analyses *pa)
     tb_wirebreak_free(pa->brk);
 }
 
-static tb_status point_analyses_begin(point_analyses *pa, const tb_circuit *ckt, const tb_mna *mna,
+static tb_status point_analyses_begin(point_analyses *pa, const tb_circuit *ckt, const tb_sweep *sw,
                                       const tb_options *opt, tb_result *res)
 {
+    const tb_mna *mna = tb_sweep_mna(sw);
+    size_t lanes = tb_sweep_lanes(sw);
     *pa = (point_analyses){0};
     pa->hooks[pa->count++] = (tb_sweep_hook){res, store_point};
     tb_status st = TB_OK;
-    if (opt->census && !(st = tb_census_begin(ckt, mna, &pa->census)))
+    if (opt->census && !(st = tb_census_begin(ckt, mna, res->npoints, lanes, &pa->census)))
         pa->hooks[pa->count++] = (tb_sweep_hook){pa->census, tb_census_at};
     if (!st && ckt->zport_count > 0 && mna->loop_count > 0 &&
-        !(st = tb_impedance_begin(ckt, mna, res->npoints, &pa->ports)))
+        !(st = tb_impedance_begin(ckt, mna, res->npoints, lanes, &pa->ports)))
         pa->hooks[pa->count++] = (tb_sweep_hook){pa->ports, tb_impedance_at};
-    if (!st && ckt->brk.given && !(st = tb_wirebreak_begin(ckt, mna, res->npoints, &pa->brk)))
+    if (!st && ckt->brk.given && !(st = tb_wirebreak_begin(ckt, mna, res->npoints, lanes, &pa->brk)))
         pa->hooks[pa->count++] = (tb_sweep_hook){pa->brk, tb_wirebreak_at};
     return st;
 }
@@ -149,9 +152,10 @@ tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag
     res->has_io = ckt->io.given;
     tb_sweep *sw = NULL;
     point_analyses pa = {0};
-    tb_status st = tb_sweep_new(ckt, opt->refactor_rcond_drop, diag, &sw);
+    size_t lanes = tb_sweep_lanes_for(opt->jobs, npoints);
+    tb_status st = tb_sweep_new(ckt, opt->refactor_rcond_drop, lanes, diag, &sw);
     if (!st)
-        st = point_analyses_begin(&pa, ckt, tb_sweep_mna(sw), opt, res);
+        st = point_analyses_begin(&pa, ckt, sw, opt, res);
     if (!st)
         st = tb_sweep_run(sw, res->freqs, npoints, opt->dc, pa.hooks, pa.count, &res->has_dc);
     if (!st) {

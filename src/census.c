@@ -37,15 +37,16 @@ struct tb_census {
     tb_census_entry *entries; /* count, handed to the result by tb_census_end */
     source *src;
     size_t count;
-    double complex *W; /* count columns of n */
+    size_t npoints;
+    double complex *W; /* per lane, count columns of n */
+    double complex *q; /* count x (1 + npoints): q = k v'w of each source at DC, then at each grid point */
 };
 typedef struct tb_census census;
 
 
-/* T of source s from w = M^-1 u; false when T is infinite (1 - q = 0). */
-static bool ratio(const source *s, const double complex *w, double complex *T)
+/* T of source s from q = k v'w, w = M^-1 u; false when T is infinite (1 - q = 0). */
+static bool ratio(const source *s, double complex q, double complex *T)
 {
-    double complex q = s->k * tb_svec_dot(&s->v, w);
     if (cabs(1.0 - q) <= TB_LOOP_INF_TOL)
         return false;
     *T = q / (1.0 - q);
@@ -54,23 +55,29 @@ static bool ratio(const source *s, const double complex *w, double complex *T)
     return true;
 }
 
-/* W = M^-1 u of sources [first, first + count) on the factorization solver holds. */
-static tb_status solve_sources(census *cs, tb_solver *solver, size_t first, size_t count)
+static double complex q_of(const source *s, const double complex *w)
+{
+    return s->k * tb_svec_dot(&s->v, w);
+}
+
+/* W = M^-1 u of sources [first, first + count) into W on the factorization solver holds. */
+static tb_status solve_sources(const census *cs, tb_solver *solver, size_t first, size_t count,
+                               double complex *W)
 {
     size_t n = cs->mna->n;
     for (size_t i = 0; i < count; i++) {
-        memset(cs->W + i * n, 0, n * sizeof(double complex));
-        tb_svec_axpy(&cs->src[first + i].u, 1.0, cs->W + i * n);
+        memset(W + i * n, 0, n * sizeof(double complex));
+        tb_svec_axpy(&cs->src[first + i].u, 1.0, W + i * n);
     }
-    return tb_solver_solve(solver, cs->W, count);
+    return tb_solver_solve(solver, W, count);
 }
 
 /* Takes one sample of source s at f: the largest |T|, unity brackets, unwrapped phase. */
-static void update(source *s, double f, const double complex *w)
+static void update(source *s, double f, double complex q)
 {
     tb_census_entry *e = s->entry;
     double complex T = 0;
-    bool inf = !ratio(s, w, &T);
+    bool inf = !ratio(s, q, &T);
     e->t_infinite = e->t_infinite || inf;
     if (!s->have_prev && !inf) { /* the first sample: DC, or the lowest sweep point */
         e->has_T_dc = true;
@@ -102,12 +109,27 @@ static void update(source *s, double f, const double complex *w)
 tb_status tb_census_at(void *self, const tb_sweep_point *pt)
 {
     census *cs = self;
-    tb_status st = solve_sources(cs, pt->solver, 0, cs->count);
+    size_t n = cs->mna->n;
+    double complex *W = cs->W + pt->lane * cs->count * n;
+    tb_status st = solve_sources(cs, pt->solver, 0, cs->count, W);
     if (st)
         return st;
+    size_t slot = pt->index == TB_SWEEP_DC ? 0 : 1 + pt->index;
     for (size_t i = 0; i < cs->count; i++)
-        update(&cs->src[i], pt->f, cs->W + i * cs->mna->n);
+        cs->q[i * (1 + cs->npoints) + slot] = q_of(&cs->src[i], W + i * n);
     return TB_OK;
+}
+
+/* The samples of every source in frequency order, DC first when it was solved. */
+static void sequential_pass(census *cs, const tb_result *res)
+{
+    for (size_t i = 0; i < cs->count; i++) {
+        const double complex *q = cs->q + i * (1 + cs->npoints);
+        if (res->has_dc)
+            update(&cs->src[i], 0.0, q[0]);
+        for (size_t p = 0; p < cs->npoints; p++)
+            update(&cs->src[i], res->freqs[p], q[1 + p]);
+    }
 }
 
 typedef struct {
@@ -123,10 +145,11 @@ static tb_status log_magnitude(void *ctx, double x, double *y)
     size_t culprit = 0;
     tb_status st = tb_probe_factor(rc->probe, exp(x), true, &culprit);
     if (!st)
-        st = solve_sources(rc->cs, rc->probe->solver, rc->i, 1);
+        st = solve_sources(rc->cs, rc->probe->solver, rc->i, 1, rc->cs->W);
     if (st)
         return st;
-    if (!ratio(&rc->cs->src[rc->i], rc->cs->W, &rc->T))
+    const source *s = &rc->cs->src[rc->i];
+    if (!ratio(s, q_of(s, rc->cs->W), &rc->T))
         return TB_ERR_NUMERIC;
     *y = log(fmax(cabs(rc->T), 1e-300));
     return TB_OK;
@@ -227,10 +250,12 @@ void tb_census_free(tb_census *cs)
     tb_free(cs->entries);
     tb_free(cs->src);
     tb_free(cs->W);
+    tb_free(cs->q);
     tb_free(cs);
 }
 
-tb_status tb_census_begin(const tb_circuit *ckt, const tb_mna *mna, tb_census **out)
+tb_status tb_census_begin(const tb_circuit *ckt, const tb_mna *mna, size_t npoints, size_t lanes,
+                          tb_census **out)
 {
     size_t total = 0;
     for (size_t i = 0; i < ckt->elem_count; i++)
@@ -238,11 +263,13 @@ tb_status tb_census_begin(const tb_circuit *ckt, const tb_mna *mna, tb_census **
     census *cs = tb_calloc(1, sizeof(*cs));
     if (!cs)
         return TB_ERR_NOMEM;
-    *cs = (census){.ckt = ckt, .mna = mna};
-    cs->entries = tb_calloc(total ? total : 1, sizeof(tb_census_entry));
-    cs->src = tb_calloc(total ? total : 1, sizeof(source));
-    cs->W = tb_malloc((total ? total : 1) * mna->n, sizeof(double complex));
-    if (!cs->entries || !cs->src || !cs->W) {
+    *cs = (census){.ckt = ckt, .mna = mna, .npoints = npoints};
+    size_t slots = total ? total : 1;
+    cs->entries = tb_calloc(slots, sizeof(tb_census_entry));
+    cs->src = tb_calloc(slots, sizeof(source));
+    cs->W = tb_malloc(lanes * slots, mna->n * sizeof(double complex)); /* lanes <= TB_SWEEP_MAX_LANES */
+    cs->q = tb_calloc(slots, (1 + npoints) * sizeof(double complex));
+    if (!cs->entries || !cs->src || !cs->W || !cs->q) {
         tb_census_free(cs);
         return TB_ERR_NOMEM;
     }
@@ -260,6 +287,7 @@ tb_status tb_census_begin(const tb_circuit *ckt, const tb_mna *mna, tb_census **
 
 tb_status tb_census_end(tb_census *cs, tb_probe *probe, tb_result *res)
 {
+    sequential_pass(cs, res);
     for (size_t i = 0; i < cs->count; i++) {
         tb_status st = refine(cs, probe, i);
         if (st)

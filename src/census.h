@@ -8,18 +8,24 @@
 /* The census of one analysis: begin -> at (every sweep point) -> end. */
 typedef struct tb_census tb_census;
 
-/* State for every E, G, F, H of ckt (their u, v, k from tb_mna_source_vectors).
- * On success *out owns it (free with tb_census_free). Errors: TB_ERR_NOMEM. */
-tb_status tb_census_begin(const tb_circuit *ckt, const tb_mna *mna, tb_census **out);
+/* State for every E, G, F, H of ckt (their u, v, k from tb_mna_source_vectors)
+ * over npoints grid points and DC, with a workspace for each of lanes lanes
+ * (tb_sweep_lanes). On success *out owns it (free with tb_census_free).
+ * Errors: TB_ERR_NOMEM. */
+tb_status tb_census_begin(const tb_circuit *ckt, const tb_mna *mna, size_t npoints, size_t lanes,
+                          tb_census **out);
 
 /* Per-point hook (self: a tb_census): one multi-RHS solve of M w_s = u_s for
- * every source on the sweep's factorization, T_s = q/(1 - q), q = k v'w_s; the
- * largest |T| and the grid brackets of every unity crossing. Errors: TB_ERR_NUMERIC. */
+ * every source on the sweep's factorization, in pt->lane's workspace, and
+ * q = k v'w_s of every source stored for the point (T_s = q/(1 - q)). Safe to
+ * call concurrently for different points on different lanes. Errors: TB_ERR_NUMERIC. */
 tb_status tb_census_at(void *self, const tb_sweep_point *pt);
 
-/* Refines each bracketed crossing by Brent on fresh pivoted factorizations
- * through probe, groups the sources of one loop, ranks them by largest |T| and
- * hands the entries to res->census. Errors: TB_ERR_NOMEM. */
+/* Goes through the stored points in frequency order (DC first when res->has_dc):
+ * the largest |T| and the grid brackets of every unity crossing; then refines
+ * each bracketed crossing by Brent on fresh pivoted factorizations through
+ * probe, groups the sources of one loop, ranks them by largest |T| and hands
+ * the entries to res->census. Errors: TB_ERR_NOMEM. */
 tb_status tb_census_end(tb_census *cs, tb_probe *probe, tb_result *res);
 
 /* After the stability analysis: each flagged local loop's phase margin against

@@ -9,6 +9,14 @@
 #include "loop.h"
 
 
+/* One lane's workspace: the point being evaluated and its solutions. */
+typedef struct {
+    double complex *Y;   /* P columns: y_p = M^-1 r_p (w_l = M^-1 u_l comes from the loop evaluation) */
+    const tb_loop_work *work; /* the sweep's w_l = M^-1 u_l at the current point */
+    double complex *Y0;  /* P x L + L columns: M0^-1 r_p of loop l, then w0_l = M0^-1 u_l */
+    double complex *D;   /* as many columns: residuals, then corrections */
+} zlane;
+
 /* The pass's state and workspace, allocated before the point loop. */
 struct tb_impedance {
     const tb_circuit *ckt;
@@ -19,17 +27,15 @@ struct tb_impedance {
     tb_z_data *zd;       /* what the result receives from tb_impedance_end */
     tb_svec *r;          /* P port vectors: unit test current into node a, out of node b */
     bool *at_source;     /* P: the port is a V source's terminals (r = e_j) */
-    double complex *Y;   /* P columns: y_p = M^-1 r_p (w_l = M^-1 u_l comes from the loop evaluation) */
-    const tb_loop_work *work; /* the sweep's w_l = M^-1 u_l at the current point */
-    double complex *Y0;  /* P x L + L columns: M0^-1 r_p of loop l, then w0_l = M0^-1 u_l */
-    double complex *D;   /* as many columns: residuals, then corrections */
+    size_t lanes;
+    zlane *lane;         /* one workspace per lane of the sweep */
 };
 typedef struct tb_impedance zpass;
 
 /* w_l = M^-1 u_l at the current point. */
-static const double complex *loop_w(const zpass *z, size_t l)
+static const double complex *loop_w(const zlane *zl, size_t l)
 {
-    return tb_loop_work_w(z->work, l);
+    return tb_loop_work_w(zl->work, l);
 }
 
 /* r_p of every port from the names tb_circuit_finish resolved: e_j of the
@@ -66,19 +72,19 @@ static const tb_svec *col_rhs(const zpass *z, size_t c)
 /* M0^-1 of every column's right-hand side by Sherman-Morrison from M's solutions,
  * refined once against M0's exact entries (one batched solve). Loops with 1 - q = 0
  * are left unrefined (their figures are absent). */
-static tb_status port_m0(zpass *z, const tb_sweep_point *pt)
+static tb_status port_m0(const zpass *z, zlane *zl, const tb_sweep_point *pt)
 {
     size_t n = z->mna->n;
     size_t cols = z->P * z->L + z->L;
     for (size_t c = 0; c < cols; c++) {
         size_t l = col_loop(z, c);
         const tb_loopvec *lv = &z->mna->loops[l];
-        const double complex *w = loop_w(z, l);
-        double complex *y0 = z->Y0 + c * n;
+        const double complex *w = loop_w(zl, l);
+        double complex *y0 = zl->Y0 + c * n;
         double complex q = lv->k * tb_svec_dot(&lv->v, w);
         bool inf = cabs(1.0 - q) <= TB_LOOP_INF_TOL;
         if (c < z->P * z->L) {
-            const double complex *y = z->Y + (c / z->L) * n;
+            const double complex *y = zl->Y + (c / z->L) * n;
             if (inf)
                 memcpy(y0, y, n * sizeof(double complex));
             else
@@ -87,16 +93,16 @@ static tb_status port_m0(zpass *z, const tb_sweep_point *pt)
             for (size_t i = 0; i < n; i++)
                 y0[i] = inf ? 0 : w[i] / (1.0 - q);
         }
-        tb_mna_residual0(z->mna, pt->Mx, pt->omega, lv, col_rhs(z, c), y0, z->D + c * n);
+        tb_mna_residual0(z->mna, pt->Mx, pt->omega, lv, col_rhs(z, c), y0, zl->D + c * n);
     }
-    if (tb_solver_solve(pt->solver, z->D, cols))
+    if (tb_solver_solve(pt->solver, zl->D, cols))
         return TB_ERR_NUMERIC;
     for (size_t c = 0; c < cols; c++) {
         size_t l = col_loop(z, c);
         const tb_loopvec *lv = &z->mna->loops[l];
-        const double complex *w = loop_w(z, l);
-        const double complex *d = z->D + c * n;
-        double complex *y0 = z->Y0 + c * n;
+        const double complex *w = loop_w(zl, l);
+        const double complex *d = zl->D + c * n;
+        double complex *y0 = zl->Y0 + c * n;
         double complex q = lv->k * tb_svec_dot(&lv->v, w);
         if (cabs(1.0 - q) <= TB_LOOP_INF_TOL)
             continue;
@@ -109,24 +115,24 @@ static tb_status port_m0(zpass *z, const tb_sweep_point *pt)
  * takes -s_j and Z = -1/s_j (likewise Z0 from M0). V as it is is the port shorted (T_sc = T);
  * with V open the branch row e_p - e_n becomes e_j, a rank-one change whose determinant
  * factor is s_j, so 1 + T_oc = (1 + T) Z0/Z (matrix determinant lemma). */
-static tb_zpoint evaluate_source(const zpass *z, size_t p, size_t l)
+static tb_zpoint evaluate_source(const zpass *z, const zlane *zl, size_t p, size_t l)
 {
     size_t n = z->mna->n;
     const tb_loopvec *lv = &z->mna->loops[l];
     const tb_svec *r = &z->r[p];
-    const double complex *w = loop_w(z, l);
+    const double complex *w = loop_w(zl, l);
     tb_zpoint zp = {0};
-    double complex sj = tb_svec_dot(r, z->Y + p * n);
+    double complex sj = tb_svec_dot(r, zl->Y + p * n);
     if (cabs(sj) == 0)
         return zp; /* the source sees an open circuit */
     zp.has_Z = true;
     zp.Z = -1.0 / sj;
     double complex q = lv->k * tb_svec_dot(&lv->v, w);
-    double complex s0 = tb_svec_dot(r, z->Y0 + (p * z->L + l) * n);
+    double complex s0 = tb_svec_dot(r, zl->Y0 + (p * z->L + l) * n);
     if (cabs(1.0 - q) <= TB_LOOP_INF_TOL || cabs(s0) == 0)
         return zp;
     zp.has_T_sc = true;
-    zp.T_sc = lv->k * tb_svec_dot(&lv->v, z->Y0 + (z->P * z->L + l) * n); /* T = k v'w0 */
+    zp.T_sc = lv->k * tb_svec_dot(&lv->v, zl->Y0 + (z->P * z->L + l) * n); /* T = k v'w0 */
     zp.has_Z0 = true;
     zp.Z0 = -1.0 / s0;
     zp.has_T_oc = true;
@@ -136,18 +142,18 @@ static tb_zpoint evaluate_source(const zpass *z, size_t p, size_t l)
     return zp;
 }
 
-static tb_zpoint evaluate(const zpass *z, size_t p, size_t l)
+static tb_zpoint evaluate(const zpass *z, const zlane *zl, size_t p, size_t l)
 {
     size_t n = z->mna->n;
     const tb_loopvec *lv = &z->mna->loops[l];
     const tb_svec *r = &z->r[p];
-    const double complex *w = loop_w(z, l);
-    const double complex *y0 = z->Y0 + (p * z->L + l) * n;
-    tb_zpoint zp = {.has_Z = true, .Z = tb_svec_dot(r, z->Y + p * n)};
+    const double complex *w = loop_w(zl, l);
+    const double complex *y0 = zl->Y0 + (p * z->L + l) * n;
+    tb_zpoint zp = {.has_Z = true, .Z = tb_svec_dot(r, zl->Y + p * n)};
     double complex q = lv->k * tb_svec_dot(&lv->v, w);
     if (cabs(1.0 - q) <= TB_LOOP_INF_TOL)
         return zp; /* T infinite: Z0 (the circuit at k = 0) is singular */
-    const double complex *w0 = z->Y0 + (z->P * z->L + l) * n;
+    const double complex *w0 = zl->Y0 + (z->P * z->L + l) * n;
     zp.has_T_oc = true;
     zp.T_oc = lv->k * tb_svec_dot(&lv->v, w0); /* T = k v'w0, w0 = M0^-1 u refined */
     zp.has_Z0 = true;
@@ -166,34 +172,45 @@ static tb_zpoint evaluate(const zpass *z, size_t p, size_t l)
 tb_status tb_impedance_at(void *self, const tb_sweep_point *pt)
 {
     zpass *z = self;
+    zlane *zl = &z->lane[pt->lane];
     size_t n = z->mna->n;
-    memset(z->Y, 0, z->P * n * sizeof(double complex));
+    memset(zl->Y, 0, z->P * n * sizeof(double complex));
     for (size_t p = 0; p < z->P; p++)
-        tb_svec_axpy(&z->r[p], 1.0, z->Y + p * n);
-    z->work = pt->work;
-    tb_status st = tb_solver_solve(pt->solver, z->Y, z->P);
+        tb_svec_axpy(&z->r[p], 1.0, zl->Y + p * n);
+    zl->work = pt->work;
+    tb_status st = tb_solver_solve(pt->solver, zl->Y, z->P);
     if (!st)
-        st = port_m0(z, pt);
+        st = port_m0(z, zl, pt);
     if (st)
         return st;
     for (size_t p = 0; p < z->P; p++) {
         for (size_t l = 0; l < z->L; l++) {
-            tb_zpoint zp = z->at_source[p] ? evaluate_source(z, p, l) : evaluate(z, p, l);
-            tb_zport_summary *s = &z->zd->sum[p * z->L + l];
+            tb_zpoint zp = z->at_source[p] ? evaluate_source(z, zl, p, l) : evaluate(z, zl, p, l);
             if (pt->index == TB_SWEEP_DC) {
+                tb_zport_summary *s = &z->zd->sum[p * z->L + l];
                 s->dc = zp;
                 s->dc_hz = pt->f;
             } else {
                 z->zd->pts[(p * z->L + l) * z->npoints + pt->index] = zp;
             }
-            if (zp.has_blackman && cabs(zp.Z) > 0) {
-                double diff = cabs(zp.Z_blackman - zp.Z) / cabs(zp.Z);
-                s->max_rel_diff = s->has_max_diff ? fmax(s->max_rel_diff, diff) : diff;
-                s->has_max_diff = true;
-            }
         }
     }
     return TB_OK;
+}
+
+/* The largest |Z_blackman - Z|/|Z| over DC (when solved) and the grid. */
+static void blackman_difference(tb_zport_summary *s, const tb_zpoint *pts, size_t npoints, bool has_dc)
+{
+    for (size_t i = 0; i <= npoints; i++) {
+        if (i == 0 && !has_dc)
+            continue;
+        const tb_zpoint *zp = i == 0 ? &s->dc : &pts[i - 1];
+        if (zp->has_blackman && cabs(zp->Z) > 0) {
+            double diff = cabs(zp->Z_blackman - zp->Z) / cabs(zp->Z);
+            s->max_rel_diff = s->has_max_diff ? fmax(s->max_rel_diff, diff) : diff;
+            s->has_max_diff = true;
+        }
+    }
 }
 
 /* Which side: does the feedback raise or lower the impedance (docs/feedback.md)? */
@@ -223,15 +240,37 @@ void tb_impedance_free(tb_impedance *z)
     }
     tb_free(z->r);
     tb_free(z->at_source);
-    tb_free(z->Y);
-    tb_free(z->Y0);
-    tb_free(z->D);
+    for (size_t l = 0; z->lane && l < z->lanes; l++) {
+        tb_free(z->lane[l].Y);
+        tb_free(z->lane[l].Y0);
+        tb_free(z->lane[l].D);
+    }
+    tb_free(z->lane);
     tb_free(z);
 }
 
-tb_status tb_impedance_begin(const tb_circuit *ckt, const tb_mna *mna, size_t npoints, tb_impedance **out)
+static bool lanes_new(zpass *z, size_t lanes)
 {
-    size_t P = ckt->zport_count, L = mna->loop_count, n = mna->n;
+    size_t P = z->P, L = z->L, n = z->mna->n;
+    z->lane = tb_calloc(lanes, sizeof(zlane));
+    if (!z->lane)
+        return false;
+    z->lanes = lanes;
+    for (size_t l = 0; l < lanes; l++) {
+        zlane *zl = &z->lane[l];
+        zl->Y = tb_malloc(P * n, sizeof(double complex));
+        zl->Y0 = tb_malloc((P * L + L) * n, sizeof(double complex));
+        zl->D = tb_malloc((P * L + L) * n, sizeof(double complex));
+        if (!zl->Y || !zl->Y0 || !zl->D)
+            return false;
+    }
+    return true;
+}
+
+tb_status tb_impedance_begin(const tb_circuit *ckt, const tb_mna *mna, size_t npoints, size_t lanes,
+                             tb_impedance **out)
+{
+    size_t P = ckt->zport_count, L = mna->loop_count;
     zpass *z = tb_calloc(1, sizeof(*z));
     if (!z)
         return TB_ERR_NOMEM;
@@ -245,10 +284,7 @@ tb_status tb_impedance_begin(const tb_circuit *ckt, const tb_mna *mna, size_t np
     }
     z->r = tb_calloc(P, sizeof(tb_svec));
     z->at_source = tb_calloc(P, sizeof(bool));
-    z->Y = tb_malloc(P * n, sizeof(double complex));
-    z->Y0 = tb_malloc((P * L + L) * n, sizeof(double complex));
-    z->D = tb_malloc((P * L + L) * n, sizeof(double complex));
-    if (!z->zd || !z->zd->sum || !z->zd->pts || !z->r || !z->at_source || !z->Y || !z->Y0 || !z->D) {
+    if (!z->zd || !z->zd->sum || !z->zd->pts || !z->r || !z->at_source || !lanes_new(z, lanes)) {
         tb_impedance_free(z);
         return TB_ERR_NOMEM;
     }
@@ -266,6 +302,7 @@ void tb_impedance_end(tb_impedance *z, tb_result *res)
     for (size_t p = 0; p < z->P; p++) {
         for (size_t l = 0; l < z->L; l++) {
             tb_zport_summary *s = &zd->sum[p * z->L + l];
+            blackman_difference(s, zd->pts + (p * z->L + l) * res->npoints, res->npoints, res->has_dc);
             if (!res->has_dc && res->npoints > 0) {
                 s->dc = zd->pts[(p * z->L + l) * res->npoints];
                 s->dc_hz = res->freqs[0];

@@ -38,6 +38,7 @@ static const char usage_main[] =
 static const char usage_report[] =
     "usage: tbeta report NETLIST [--json] [--html FILE] [--pm-min DEG] [--gm-min DB] [--strict]\n"
     "                            [--pole-limit N] [--no-stability] [--all-sources] [--sensitivities]\n"
+    "                            [--jobs N] [--include-root DIR]\n"
     "  Prints, for every .loop: T, a, beta = 1/A_inf, A_inf, A0 and A at DC, the gain\n"
     "  error (A - A_inf)/A_inf, the unity-loop-gain frequency, the phase margin and\n"
     "  the closed-loop -3 dB frequency; then the stability figures: every crossing of\n"
@@ -60,7 +61,9 @@ static const char usage_report[] =
     "                    flagging unmarked local loops whose |T| reaches 1\n"
     "  --sensitivities   how every loop's figures move with each element's value (adjoint\n"
     "                    method), ranked by their effect on the phase margin\n"
-    "  --include-root DIR  .include only files inside DIR (default: anywhere)\n";
+    "  --include-root DIR  .include only files inside DIR (default: anywhere)\n"
+    "  --jobs N          threads sharing the sweep's frequency points (default: the number\n"
+    "                    of cores); the output is the same for any N\n";
 
 static const char usage_plot[] =
     "usage: tbeta plot NETLIST --svg DIR [--pole-limit N] [--all-sources]\n"
@@ -70,23 +73,26 @@ static const char usage_plot[] =
     "  --svg DIR   the folder to write to\n";
 
 static const char usage_sweep[] =
-    "usage: tbeta sweep NETLIST [--csv] [--loop NAME]\n"
+    "usage: tbeta sweep NETLIST [--csv] [--loop NAME] [--jobs N]\n"
     "  Prints one CSV row per .ac frequency (no DC row):\n"
     "  freq_hz,T_re,T_im,A_re,A_im,Ainf_re,Ainf_im,A0_re,A0_im,aol_re,aol_im,T_db,T_phase_deg\n"
     "  An empty field is a value that does not exist at that frequency.\n"
     "  --csv         CSV output (the default and only format)\n"
     "  --loop NAME   the loop at controlled source NAME (default: the first .loop)\n"
     "  --table T     instead, a feedback table (docs/feedback.md): breakdown (needs .ideal),\n"
-    "                zport:NAME (a .zport) or break (needs .break)\n";
+    "                zport:NAME (a .zport) or break (needs .break)\n"
+    "  --jobs N      threads sharing the frequency points (default: the number of cores);\n"
+    "                the output is the same for any N\n";
 
 static const char usage_step[] =
-    "usage: tbeta step NETLIST [--csv] [--pole-limit N]\n"
+    "usage: tbeta step NETLIST [--csv] [--pole-limit N] [--jobs N]\n"
     "  Prints the response of the .io output to a unit step of the .io input,\n"
     "  G x + C dx/dt = b u(t), as CSV: t_s,y. Up to the pole limit it is the exact\n"
     "  sum over the closed-loop modes; above it, time stepping with error control\n"
     "  (docs/stability.md). Overshoot, rise and settling time are in 'tbeta report'.\n"
     "  --csv           CSV output (the default and only format)\n"
-    "  --pole-limit N  the sum over the modes only up to N unknowns (default 500)\n";
+    "  --pole-limit N  the sum over the modes only up to N unknowns (default 500)\n"
+    "  --jobs N        threads sharing the sweep's frequency points (default: the number of cores)\n";
 
 typedef struct {
     const char *command; /* "report", "sweep" or "step" */
@@ -236,6 +242,12 @@ static int parse_args(int argc, char **argv, int first, args *a)
             if (i + 1 >= argc)
                 return usage_error("--loop needs a source name", NULL, usage);
             a->loop = argv[++i];
+        } else if (strcmp(s, "--jobs") == 0) {
+            const char *v = i + 1 < argc ? argv[++i] : "nothing";
+            double x = 0;
+            if (!number_arg(v, true, &x) || x < 1 || x > 1024)
+                return usage_error("--jobs needs a whole number from 1 to 1024, got", v, usage);
+            a->opt.jobs = (unsigned)x;
         } else if (strcmp(s, "--table") == 0 && strcmp(a->command, "sweep") == 0) {
             if (i + 1 >= argc)
                 return usage_error("--table needs breakdown, zport:NAME or break", NULL, usage);
@@ -686,6 +698,7 @@ static int command(int argc, char **argv)
     args a = {"report", NULL, NULL, false, false, {0}, NULL, NULL, NULL, NULL};
     tb_options_init(&a.opt);
     a.opt.stability = strcmp(argv[1], "sweep") != 0; /* the sweep table needs none of it */
+    a.opt.jobs = 0; /* one thread per core unless --jobs says otherwise */
     int first = 1;
     if (strcmp(argv[1], "report") == 0 || strcmp(argv[1], "sweep") == 0 ||
         strcmp(argv[1], "step") == 0 || strcmp(argv[1], "plot") == 0) {

@@ -20,7 +20,7 @@ struct tb_wirebreak {
     brk b;
     size_t n;
     tb_wb_data *wb;     /* what the result receives from tb_wirebreak_end */
-    double complex *S;  /* 2 columns: the voltage and the current injection */
+    double complex *S;  /* per lane, 2 columns: the voltage and the current injection */
 };
 
 static double complex node_v(const double complex *s, int node)
@@ -65,13 +65,14 @@ tb_status tb_wirebreak_at(void *self, const tb_sweep_point *pt)
     tb_wirebreak *w = self;
     size_t n = w->n;
     const brk *b = &w->b;
-    memset(w->S, 0, 2 * n * sizeof(double complex));
-    w->S[b->j] = 1.0;
-    w->S[n + tb_mna_node_unknown(b->inject_y ? b->y : b->x)] = 1.0;
-    tb_status st = tb_solver_solve(pt->solver, w->S, 2);
+    double complex *S = w->S + pt->lane * 2 * n;
+    memset(S, 0, 2 * n * sizeof(double complex));
+    S[b->j] = 1.0;
+    S[n + tb_mna_node_unknown(b->inject_y ? b->y : b->x)] = 1.0;
+    tb_status st = tb_solver_solve(pt->solver, S, 2);
     if (st)
         return st;
-    tb_break_point p = evaluate(b, w->S, w->S + n);
+    tb_break_point p = evaluate(b, S, S + n);
     if (pt->index == TB_SWEEP_DC)
         w->wb->sum.dc = p;
     else
@@ -130,7 +131,8 @@ void tb_wirebreak_free(tb_wirebreak *w)
     tb_free(w);
 }
 
-tb_status tb_wirebreak_begin(const tb_circuit *ckt, const tb_mna *mna, size_t npoints, tb_wirebreak **out)
+tb_status tb_wirebreak_begin(const tb_circuit *ckt, const tb_mna *mna, size_t npoints, size_t lanes,
+                             tb_wirebreak **out)
 {
     const tb_element *el = &ckt->elems[ckt->brk.elem];
     tb_wirebreak *w = tb_calloc(1, sizeof(*w));
@@ -143,7 +145,7 @@ tb_status tb_wirebreak_begin(const tb_circuit *ckt, const tb_mna *mna, size_t np
         w->wb->pts = tb_calloc(npoints ? npoints : 1, sizeof(tb_break_point));
     if (w->wb)
         w->wb->vs = tb_calloc(mna->loop_count ? mna->loop_count : 1, sizeof(tb_break_vs_loop));
-    w->S = tb_malloc(2 * mna->n, sizeof(double complex));
+    w->S = tb_malloc(2 * lanes, mna->n * sizeof(double complex)); /* lanes <= TB_SWEEP_MAX_LANES */
     if (!w->wb || !w->wb->pts || !w->wb->vs || !w->S) {
         tb_wirebreak_free(w);
         return TB_ERR_NOMEM;

@@ -92,6 +92,17 @@ expect unsettled 0 $tb tests/cli/margins_unsettled.net
 has unsettled out "T did not settle to its high-frequency asymptote within the search"
 expect unsettled-strict 1 $tb tests/cli/margins_unsettled.net --strict
 has unsettled-strict err "loop G1: the margins could not be determined (see the notes)"
+# --jobs: threads share the sweep's points; every output is the same byte for byte
+expect jobs-bad 2 $tb report netlists/photodiode_tia.net --jobs 0
+has jobs-bad err "--jobs needs a whole number from 1 to 1024, got 0"
+for f in netlists/noninverting_loaded_opamp.net tests/fb/noninverting_x20.net tests/ref/ref_lc_twoloop.net; do
+    for form in "report --json --all-sources" "sweep --csv"; do
+        $tb $form "$f" --jobs 1 >"$tmp/jobs1" 2>&1
+        $tb $form "$f" --jobs 2 >"$tmp/jobs2" 2>&1
+        if cmp -s "$tmp/jobs1" "$tmp/jobs2"; then passed=$((passed + 1)); else
+            failed=$((failed + 1)); echo "FAIL jobs $f $form: --jobs 2 differs from --jobs 1"; fi
+    done
+done
 
 # every malformed netlist: exit 2 and the first line of stderr as stated in its .err file
 for f in tests/bad/*.net; do

@@ -5,14 +5,17 @@
  *    matrix of the same netlist re-read with the marked gain written as 0;
  *  - T = k v' M0^-1 u by a separate dense solve with M0 (test-source definition);
  *  - A0 by a dense solve of the k = 0 netlist; A by a dense solve of M;
- *  - A_inf by a bordered (nullor) solve [M0 u; v' 0] (references.md section 2).
+ *  - A_inf by a bordered (nullor) solve [M0 u; v' 0] (references.md section 2);
+ *  - ln det M and arg det M from KLU's factors against the dense LU's.
  * LAPACK zgetrf/zgetrs (Debian's liblapack / OpenBLAS) do the dense work. */
 #include "testutil.h"
 
 #include <stdlib.h>
 
 #include "circuit.h"
+#include "grid.h"
 #include "mna.h"
+#include "solve.h"
 #include "sweep.h"
 
 void zgetrf_(const int *m, const int *n, double complex *a, const int *lda, int *ipiv, int *info);
@@ -242,6 +245,79 @@ static void test_ref_dense_ccvs(void **state)
     check_netlist(ccvs, -1e5);
 }
 
+/* ln det M and arg det M from KLU's factors (tb_solver_log_det: U's diagonal, the row
+ * scale factors, the signs of the permutations) against LAPACK's dense LU of the same
+ * M (zgetrf: sum of ln u_ii, pi per row interchange) at DC and every grid point of the
+ * netlist, the first point factored with pivoting and the others refactored. */
+static void check_log_det(const char *fmt, double k)
+{
+    tb_circuit *ckt = parse_gain(fmt, k);
+    tb_mna *mna = build(ckt);
+    size_t np = tb_grid_count(&ckt->ac);
+    double *f = malloc((np + 1) * sizeof(double));
+    double *Mx = malloc(2 * mna->nnz * sizeof(double));
+    double complex *M = malloc(mna->n * mna->n * sizeof(double complex));
+    assert_true(f && Mx && M);
+    f[0] = 0.0;
+    tb_grid_fill(&ckt->ac, f + 1);
+    tb_solver *solver = NULL;
+    assert_int_equal(tb_solver_new(mna, &solver), TB_OK);
+    for (size_t i = 0; i <= np; i++) {
+        double omega = 2.0 * TU_PI * f[i];
+        size_t culprit = 0;
+        tb_mna_values(mna, omega, Mx);
+        if (i < 2)
+            assert_int_equal(tb_solver_factor(solver, Mx, &culprit), TB_OK);
+        else
+            assert_int_equal(tb_solver_refactor(solver, Mx, 1e-6, &culprit), TB_OK);
+        double log_abs = 0, arg = 0;
+        assert_int_equal(tb_solver_log_det(solver, &log_abs, &arg), TB_OK);
+        tb_mna_dense(mna, omega, M);
+        dense_lu lu = dense_factor(M, mna->n);
+        double complex want = log_det(&lu);
+        dense_free(&lu);
+        assert_true(fabs(log_abs - creal(want)) <= 1e-10 * fmax(1.0, fabs(creal(want))));
+        double darg = remainder(arg - cimag(want), 2.0 * TU_PI);
+        if (!(fabs(darg) <= 1e-9)) {
+            print_error("%s at %g Hz: arg det %.15g, LAPACK %.15g\n", fmt, f[i], arg, cimag(want));
+            fail();
+        }
+        assert_true(arg > -TU_PI && arg <= TU_PI);
+    }
+    tb_solver_free(solver);
+    free(f);
+    free(Mx);
+    free(M);
+    tb_mna_free(mna);
+    tb_circuit_free(ckt);
+}
+
+static void test_ref_dense_log_det(void **state)
+{
+    (void)state;
+    check_log_det(noninv, 1e3);
+    check_log_det(noninv, 1e9);
+    check_log_det(noninv, -3.0); /* positive feedback: det M changes sign along the real axis */
+    check_log_det(vccs, 10e-3);
+    check_log_det(cccs, 20.0);
+    check_log_det(ccvs, -1e5);
+}
+
+/* No factorization held: no determinant. */
+static void test_ref_dense_log_det_needs_factors(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = parse_gain(noninv, 1e3);
+    tb_mna *mna = build(ckt);
+    tb_solver *solver = NULL;
+    assert_int_equal(tb_solver_new(mna, &solver), TB_OK);
+    double log_abs = 0, arg = 0;
+    assert_int_equal(tb_solver_log_det(solver, &log_abs, &arg), TB_ERR_NOT_FOUND);
+    tb_solver_free(solver);
+    tb_mna_free(mna);
+    tb_circuit_free(ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -251,6 +327,8 @@ int main(void)
         cmocka_unit_test(test_ref_dense_vccs_feedthrough),
         cmocka_unit_test(test_ref_dense_cccs),
         cmocka_unit_test(test_ref_dense_ccvs),
+        cmocka_unit_test(test_ref_dense_log_det),
+        cmocka_unit_test(test_ref_dense_log_det_needs_factors),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

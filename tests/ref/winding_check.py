@@ -1,0 +1,102 @@
+#!/usr/bin/python3
+"""tests/ref/winding_check.py: right-half-plane counts by the argument principle against QZ.
+
+Usage:
+    /usr/bin/python3 tests/ref/winding_check.py TBETA [NETLIST...]
+
+src/winding.c counts the zeros of det M(s) (the circuit as it is) and of det M0(s)
+(a .loop source at gain zero) in the right half-plane from the phase of det M(jw)
+along the axis, which KLU's factors give, without eigenvalues; build/tests/tool_winding
+(next to TBETA's folder, built by make check) prints its counts. Here the same
+determinants' zeros come from the dense pencil G + sC of the independent MNA of
+tests/ref/mna_check.py (sharing no code with tbeta), by scipy.linalg.eig (QZ) on the
+balanced pencil, as tests/ref/stability_check.py does: for every netlist given, every
+tests/stab/*.net (stab_rhp_open.net has an open-loop pole at +1e6 rad/s,
+stab_threepole_unstable.net two closed-loop ones) and every tests/winding/*.net (a
+right-half-plane pair open loop only, in both, a pair on the axis), and every loop,
+  - the right-half-plane count (Re s > 1e-9 |s|, stability_check's rule),
+  - the degree: the number of finite eigenvalues,
+  - the zeros at the origin (|s| below 1e-8 of the largest),
+  - the zeros on the axis away from the origin,
+of the closed loop and of the open loop must agree exactly.
+Prints "winding_check: N passed, M failed"; exit 1 when any failed.
+"""
+
+import glob
+import importlib.util
+import os
+import subprocess
+import sys
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+STAB = os.path.join(HERE, "..", "stab")
+WINDING = os.path.join(HERE, "..", "winding")
+spec = importlib.util.spec_from_file_location("mna_check", os.path.join(HERE, "mna_check.py"))
+mna_check = importlib.util.module_from_spec(spec)
+spec.loader.exec_module(mna_check)
+# the dense pencil and its finite eigenvalues as stability_check computes them
+spec = importlib.util.spec_from_file_location("stability_check", os.path.join(HERE, "stability_check.py"))
+stability_check = importlib.util.module_from_spec(spec)
+spec.loader.exec_module(stability_check)
+finite_eigs = stability_check.finite_eigs
+pencil = stability_check.pencil
+
+
+def classify(roots):
+    """(rhp, degree, at origin, on the axis away from the origin)."""
+    scale = max([abs(r) for r in roots] + [1e-300])
+    origin = [r for r in roots if abs(r) <= 1e-8 * scale]
+    rest = [r for r in roots if abs(r) > 1e-8 * scale]
+    rhp = sum(1 for r in rest if r.real > 1e-9 * abs(r))
+    axis = sum(1 for r in rest if abs(r.real) <= 1e-9 * abs(r))
+    return rhp, len(roots), len(origin), axis
+
+
+def tool_counts(tool, fname):
+    out = subprocess.run([tool, fname], capture_output=True, text=True, check=False)
+    if out.returncode != 0:
+        raise RuntimeError("%s %s: exit %d: %s" % (tool, fname, out.returncode, out.stderr.strip()))
+    counts = {}
+    for line in out.stdout.splitlines():
+        f = line.split()
+        # NAME closed R D O A open R D O A evals N
+        counts[f[0].lower()] = {"closed": f[2:6], "open": f[7:11]}
+    return counts
+
+
+def main(argv):
+    if not argv:
+        print("usage: winding_check.py TBETA [NETLIST...]", file=sys.stderr)
+        return 2
+    tool = os.path.join(os.path.dirname(os.path.abspath(argv[0])), "tests", "tool_winding")
+    files = argv[1:] + sorted(glob.glob(os.path.join(STAB, "*.net"))) + sorted(glob.glob(os.path.join(WINDING, "*.net")))
+    passed = failed = 0
+    for fname in files:
+        where = os.path.relpath(fname)
+        try:
+            with open(fname, encoding="utf-8", errors="replace") as handle:
+                ckt = mna_check.read_netlist(handle.read())
+            mna = mna_check.Mna(ckt)
+            counts = tool_counts(tool, fname)
+        except (OSError, RuntimeError, ValueError, mna_check.NetlistError) as exc:
+            failed += 1
+            print("FAIL %s: %s" % (where, exc))
+            continue
+        cl = classify(finite_eigs(*pencil(mna)))
+        for name, got in counts.items():
+            ol = classify(finite_eigs(*pencil(mna, {name: 0.0})))
+            for kind, want in (("closed", cl), ("open", ol)):
+                have = tuple(int(x) if x != "-" else None for x in got[kind])
+                if have == want:
+                    passed += 1
+                else:
+                    failed += 1
+                    print("FAIL %s %s %s: winding (rhp, degree, origin, axis) = %s, QZ %s"
+                          % (where, name, kind, have, want))
+        print("ok %s: %d loop(s), closed loop %d right-half-plane zero(s) of %d" % (where, len(counts), cl[0], cl[1]))
+    print("winding_check: %d passed, %d failed" % (passed, failed))
+    return 1 if failed else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))
