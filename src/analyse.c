@@ -23,6 +23,7 @@ void tb_options_init(tb_options *opt)
     opt->gm_min_db = -1.0;  /* the netlist's .margins, else 10 dB (common practice) */
     opt->census = false;
     opt->sensitivity = false;
+    opt->closed_loop = true;
     opt->jobs = 1;
 }
 
@@ -101,7 +102,7 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
         st = tb_census_judge(pa->census, probe, &limits, res);
     if (!st)
         st = tb_feedback_run(ckt, probe, res);
-    if (!st)
+    if (!st && opt->closed_loop)
         st = tb_closed_loop_run(probe, res);
     if (!st && opt->sensitivity)
         st = tb_sensitivity_run(ckt, probe, res);
