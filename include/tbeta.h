@@ -128,6 +128,9 @@ typedef struct {
     double gm_min_db;     /* gain-margin threshold; negative (the default): the netlist's
                            * .margins gm=, else 10 dB (common practice) */
     bool census;          /* return ratio of every controlled source (default false) */
+    bool closed_loop;     /* closed-loop figures from A(jw): -3 dB edges, midband, peaking, by
+                           * root finding on fresh solves (default true; the sweep table
+                           * needs none of them) */
     unsigned jobs;        /* threads sharing the frequency points of the sweep: 1 (the default)
                            * runs it in the calling thread, 0 one per online core; every
                            * figure is the same for any value */

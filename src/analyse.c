@@ -21,6 +21,7 @@ void tb_options_init(tb_options *opt)
     opt->pm_min_deg = -1.0; /* the netlist's .margins, else 45 degrees (common practice) */
     opt->gm_min_db = -1.0;  /* the netlist's .margins, else 10 dB (common practice) */
     opt->census = false;
+    opt->closed_loop = true;
     opt->jobs = 1;
 }
 
@@ -99,7 +100,7 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
         st = tb_census_judge(pa->census, &limits, res);
     if (!st)
         st = tb_feedback_run(ckt, probe, res);
-    if (!st)
+    if (!st && opt->closed_loop)
         st = tb_closed_loop_run(probe, res);
     res->stats.probe_factorizations = probe->factorizations;
     size_t before = tb_sweep_counts(sw).numeric;

@@ -514,6 +514,7 @@ int main(int argc, char **argv)
     args a = {"report", NULL, NULL, false, false, {0}, NULL};
     tb_options_init(&a.opt);
     a.opt.stability = strcmp(argv[1], "sweep") != 0; /* the sweep table needs none of it */
+    a.opt.closed_loop = a.opt.stability;
     a.opt.jobs = 0; /* one thread per core unless --jobs says otherwise */
     int first = 1;
     if (strcmp(argv[1], "report") == 0 || strcmp(argv[1], "sweep") == 0 ||
