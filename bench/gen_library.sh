@@ -2,8 +2,9 @@
 # bench/gen_library.sh: writes the library benchmark: COUNT netlists of NMIN to NMAX nodes into DIR
 # Usage: sh bench/gen_library.sh DIR [COUNT [NMIN [NMAX]]]     (defaults 1000, 10, 2000)
 #
-# Netlist i (0-based) is the ladder of bench/gen_ladder.sh (VCCS-coupled RC sections closed by
-# the loop GA, a follower with T(0) = 1000 and one dominant pole at 1 Hz) with
+# Netlist i (0-based) is a ladder of VCCS-coupled RC sections (4 nodes of 100 ohm and 0.1 pF each,
+# a 1 mS VCCS into each section, 1k load) closed by the loop GA, a follower with T(0) = 1000 and
+# one dominant pole at 1 Hz (CDOM = 159.15 uF on section 1's last node), with
 # round(NMIN * (NMAX/NMIN)^(i/(COUNT-1))) nodes, sizes spaced evenly in log between the two
 # ends, on the grid .ac dec 10 1 1meg, and carries the expectations a library netlist would:
 #   dc.T = 1000 (T(0) = k RL (gm RL)^(S-1) = 1000), dc.A = 1000/1001 (A_inf = 1, A0 = 0),

@@ -4,6 +4,7 @@
  * Runs COMMAND with its standard output sent to OUTFILE (standard error is
  * left alone), waits for it, and prints on standard output
  *   wall_s      seconds from fork to the end of the wait (CLOCK_MONOTONIC)
+ *   cpu_s       the child's user plus system time, every thread of it
  *   maxrss_kib  the child's peak resident set size, getrusage(RUSAGE_CHILDREN)
  *               (Linux reports ru_maxrss in KiB)
  * Exit status 0 when the command exited with 0, else 1.
@@ -62,7 +63,9 @@ int main(int argc, char **argv)
         perror("getrusage");
         return 1;
     }
-    printf("wall_s %.6f\nmaxrss_kib %ld\n", wall, ru.ru_maxrss);
+    double cpu = (double)ru.ru_utime.tv_sec + 1e-6 * (double)ru.ru_utime.tv_usec + (double)ru.ru_stime.tv_sec +
+                 1e-6 * (double)ru.ru_stime.tv_usec;
+    printf("wall_s %.6f\ncpu_s %.6f\nmaxrss_kib %ld\n", wall, cpu, ru.ru_maxrss);
     if (!WIFEXITED(status) || WEXITSTATUS(status) != 0) {
         fprintf(stderr, "peakrss: %s did not finish cleanly (status %d)\n", argv[2], status);
         return 1;

@@ -1,75 +1,72 @@
 #!/bin/sh
-# bench/run.sh: `make bench`: times tbeta's sweep on large generated ladders against the KLU floor, and its peak memory
+# bench/run.sh: `make bench`: tbeta's sweep and report on three generated families against an independent KLU floor
 # Usage: sh bench/run.sh BUILD        (BUILD holds tbeta and libtbeta.a)
-# Environment: BENCH_SIZES (default "100000 200000"), BENCH_RUNS (best of, default 3),
-#              BENCH_REPEATS (passes of each in-process loop in floor, default 2),
-#              BENCH_LIBRARY (netlists in the library benchmark, default 1000; 0 skips it).
+# Environment:
+#   BENCH_RUNS      repetitions of each timing, the figures are medians (default 3)
+#   BENCH_FAMILIES  families of bench/gen_family.sh (default "line buffered mesh")
+#   BENCH_SIZES     unknowns (default "10000 100000")
+#   BENCH_MILLION   1: also the line at 10^6 unknowns (sweep and floor only; about 3 minutes)
+#   BENCH_REPORTS   FAMILY:UNKNOWNS cases whose full report is timed (default
+#                   "line:10000 buffered:10000 mesh:10000 line:100000 buffered:100000"; the mesh
+#                   at 10^5 would take about 2 hours: about 1800 factorizations of 4 s)
+#   BENCH_REPORT_RUNS  repetitions of each report (default 1)
+#   BENCH_LIBRARY   netlists in the library benchmark (default 1000; 0 skips it)
+#   BENCH_COUNTS_ONLY  1: the factorization counts only
+#   BENCH_OUT       the results file (default BUILD/bench/families.txt), read by bench/plot.py
+#   BENCH_BEFORE    another build folder (an older tbeta) timed in the same run: its sweep in
+#                   the first round and its report once, against the same floor
 #
-# Method (docs/performance.md):
-#   end to end  `tbeta sweep FILE --csv` on a 200-point grid, wall clock, parse and
-#               output included, best of BENCH_RUNS; e2e/pt = that time / 200
-#   fixed cost  the same netlist with a 2-point grid: fixed = t2 - 2 p and
-#               p = (t200 - t2) / 198 is tbeta's marginal cost per point
-#   floor       bench/floor: per point tb_mna_values + tb_solver_refactor + one
-#               1-RHS tb_solver_solve on the same matrix and frequencies
-#   peak memory ru_maxrss of the 200-point run (bench/peakrss), in bytes per node
-#   library     `tbeta check DIR --jobs 1` and `--jobs 2 --pole-limit 0` on BENCH_LIBRARY
-#               generated netlists of 10 to 2000 nodes (bench/gen_library.sh), best of
-#               BENCH_RUNS: netlists per second and the speed-up of two threads
+# Method (docs/performance.md), for each family and size, BENCH_RUNS rounds, each round:
+#   floor     bench/klu_floor: its own reader, MNA and CSC assembly, bare KLU: per point the
+#             values of M(jw), klu_z_refactor and one klu_z_solve of the input's response; the
+#             time of one pass over the grid (seconds per point x points)
+#   sweep 1   `tbeta sweep FILE --csv --jobs 1`, wall clock and CPU time from fork to exit
+#   sweep N   `tbeta sweep FILE --csv` (one thread per core), wall clock
+#   then      `tbeta FILE` (the full report, one thread per core) BENCH_REPORT_RUNS times
+# and reports the medians over the rounds of sweep 1 / floor, sweep N / floor, sweep 1 /
+# sweep N (the speed-up of the threads), and report / sweep N; and, less disturbed by other
+# work on the machine, sweep 1 / floor in CPU time (both programs' own). The floor's response at the
+# first frequency must equal the first row of tbeta's table (1e-9: the same matrix), and the
+# tables of 1 and N threads must be the same byte for byte.
 set -eu
 BUILD=${1:?usage: run.sh BUILD}
-SIZES=${BENCH_SIZES:-100000 200000}
 RUNS=${BENCH_RUNS:-3}
-REPEATS=${BENCH_REPEATS:-2}
+FAMILIES=${BENCH_FAMILIES:-line buffered mesh}
+SIZES=${BENCH_SIZES:-10000 100000}
+REPORTS=${BENCH_REPORTS:-line:10000 buffered:10000 mesh:10000 line:100000 buffered:100000}
+REPORT_RUNS=${BENCH_REPORT_RUNS:-1}
 DIR=$BUILD/bench
+OUT=${BENCH_OUT:-$DIR/families.txt}
 HERE=$(dirname "$0")
 ROOT=$HERE/..
 WARN="-std=c11 -Wall -Wextra -Werror -Wshadow -Wmissing-prototypes -Wstrict-prototypes -Wwrite-strings -Wundef -Wold-style-definition"
+LIBS="-lklu -lamd -lcolamd -lbtf -lsuitesparseconfig"
 mkdir -p "$DIR"
 
-for prog in floor peakrss counts; do
+for prog in parts peakrss counts; do
     ${CC:-cc} $WARN -O2 -D_POSIX_C_SOURCE=200809L -I"$ROOT/include" -I"$ROOT/src" -I/usr/include/suitesparse \
-        "$HERE/$prog.c" "$BUILD/libtbeta.a" \
-        -lklu -lamd -lcolamd -lbtf -lsuitesparseconfig -ljansson -llapack -lblas -lm -o "$DIR/$prog"
+        "$HERE/$prog.c" "$BUILD/libtbeta.a" $LIBS -ljansson -llapack -lblas -lm -lpthread -o "$DIR/$prog"
 done
+# the floor shares no code with tbeta
+${CC:-cc} $WARN -O2 -D_POSIX_C_SOURCE=200809L -I/usr/include/suitesparse "$HERE/klu_floor.c" $LIBS -lm \
+    -o "$DIR/klu_floor"
 
 # value KEY FILE: the number after KEY in a "key value" file
 value() {
     awk -v k="$1" '$1 == k { print $2; found = 1 } END { if (!found) exit 1 }' "$2"
 }
 
-# best RUNS NETLIST OUT: best wall time of RUNS sweeps into OUT; prints "wall maxrss_kib"
-# (the largest peak of the runs), nothing when a run fails
-best() {
-    i=0
-    wall=""
-    rss=0
-    while [ "$i" -lt "$1" ]; do
-        "$DIR/peakrss" "$3" "$BUILD/tbeta" sweep "$2" --csv > "$DIR/run.txt" || return 1
-        w=$(value wall_s "$DIR/run.txt")
-        r=$(value maxrss_kib "$DIR/run.txt")
-        wall=$(awk -v a="$wall" -v b="$w" 'BEGIN { print (a == "" || b + 0 < a + 0) ? b : a }')
-        rss=$(awk -v a="$rss" -v b="$r" 'BEGIN { print (b + 0 > a + 0) ? b : a }')
-        i=$((i + 1))
-    done
-    echo "$wall $rss"
+# median NUMBERS...: the median (the mean of the middle two for an even count)
+median() {
+    printf '%s\n' "$@" | sort -g | awk '{ v[NR] = $1 } END { print NR % 2 ? v[(NR + 1) / 2] : (v[NR / 2] + v[NR / 2 + 1]) / 2 }'
 }
 
-# check CSV: the 1 Hz row against the single-pole algebra of gen_ladder.sh
-# (T = 1000/(1 + j), A_inf = 1, A0 = 0); the sections' own poles shift |T| and
-# its phase there by far less than the tolerances.
-check() {
-    awk -F, 'NR == 1 { for (i = 1; i <= NF; i++) col[$i] = i; next }
-        NR == 2 {
-            tr = $col["T_re"]; ti = $col["T_im"]
-            mag = sqrt(tr * tr + ti * ti); want = 1000 / sqrt(2)
-            bad = $col["freq_hz"] != 1 || (mag - want) / want > 1e-3 || (want - mag) / want > 1e-3 ||
-                  $col["T_phase_deg"] > -44.9 || $col["T_phase_deg"] < -45.1 ||
-                  $col["Ainf_re"] - 1 > 1e-9 || 1 - $col["Ainf_re"] > 1e-9 ||
-                  $col["A0_re"] > 1e-9 || -$col["A0_re"] > 1e-9
-            if (bad) { print "bench: unexpected 1 Hz row: " $0 > "/dev/stderr"; exit 1 }
-        }
-        END { if (NR != 201) { print "bench: expected 200 rows, got " NR - 1 > "/dev/stderr"; exit 1 } }' "$1"
+# timed OUTFILE COMMAND...: runs COMMAND under bench/peakrss; prints "wall cpu maxrss_kib"
+timed() {
+    out=$1
+    shift
+    "$DIR/peakrss" "$out" "$@" > "$DIR/peak.txt" || { echo "bench: $* failed" >&2; return 1; }
+    echo "$(value wall_s "$DIR/peak.txt") $(value cpu_s "$DIR/peak.txt") $(value maxrss_kib "$DIR/peak.txt")"
 }
 
 # counts: the numeric factorizations of M on the grid with and without the per-point
@@ -90,45 +87,94 @@ counts "$ROOT/tests/fb/noninverting_x20.net"
 counts "$ROOT/tests/fb/noninverting_gain1e7_ports.net"
 [ "${BENCH_COUNTS_ONLY:-0}" = 1 ] && exit 0
 
-echo "tbeta bench: $(nproc) cores, $(awk -F': ' '/^model name/ { print $2; exit }' /proc/cpuinfo)"
-echo "  grid: .ac dec 50 1 9.99k (200 points); times are seconds; best of $RUNS runs"
-RESULTS=$DIR/results.txt
-: > "$RESULTS"
-for n in $SIZES; do
-    net=$DIR/ladder_$n.net
-    net2=$DIR/ladder_${n}_2pt.net
-    sh "$HERE/gen_ladder.sh" "$n" > "$net"
-    sh "$HERE/gen_ladder.sh" "$n" "lin 2 1 9.99k" > "$net2"
-    set -- $(best "$RUNS" "$net" "$DIR/ladder_$n.csv") none
-    t200=$1
-    rss=${2:-}
-    set -- $(best "$RUNS" "$net2" /dev/null) none
-    t2=$1
-    if [ "$t200" = none ] || [ "$t2" = none ]; then
-        echo "bench: tbeta sweep failed on $net" >&2
-        exit 1
+# --jobs exists (an older tbeta, measured for comparison, runs one thread)
+if "$BUILD/tbeta" sweep --help | grep -q -- --jobs; then JOBS1="--jobs 1"; else JOBS1=""; fi
+BEFORE=${BENCH_BEFORE:-}
+
+# same_first_row CSV FLOOR_OUT: the floor's response equals the table's first A (1e-9)
+same_first_row() {
+    awk -F, -v re="$(value a_re "$2")" -v im="$(value a_im "$2")" '
+        NR == 1 { for (i = 1; i <= NF; i++) col[$i] = i; next }
+        NR == 2 { dr = $col["A_re"] - re; di = $col["A_im"] - im
+                  if (dr * dr + di * di > 1e-18 * (re * re + im * im)) {
+                      print "bench: the floor solved another matrix: A " $col["A_re"] " " $col["A_im"] " against " re " " im > "/dev/stderr"; exit 1 } }' "$1"
+}
+
+# one_case FAMILY UNKNOWNS: the rounds, then one line of $OUT
+one_case() {
+    fam=$1 n=$2
+    case $fam in mesh) ac="dec 2 1 1g" ;; *) ac="dec 10 1 1g" ;; esac
+    net=$DIR/${fam}_$n.net
+    sh "$HERE/gen_family.sh" "$fam" "$n" "$ac" > "$net"
+    want_report=0
+    for c in $REPORTS; do [ "$c" = "$fam:$n" ] && want_report=1; done
+    r1="" rN="" rsp="" cpu1="" s1="" sN="" fl="" rss="" sB="" rB=""
+    i=0
+    while [ "$i" -lt "$RUNS" ]; do
+        if [ "$i" -eq 0 ]; then mode=ftz; else mode=; fi
+        "$DIR/klu_floor" "$net" 1 $mode > "$DIR/floor.txt"
+        [ "$i" -eq 0 ] && cp "$DIR/floor.txt" "$DIR/floor_first.txt"
+        points=$(value points "$DIR/floor.txt")
+        f=$(awk -v p="$(value floor_s "$DIR/floor.txt")" -v n="$points" 'BEGIN { print p * n }')
+        fc=$(awk -v p="$(value floor_cpu_s "$DIR/floor.txt")" -v n="$points" 'BEGIN { print p * n }')
+        set -- $(timed "$DIR/sweep1.csv" "$BUILD/tbeta" sweep "$net" --csv $JOBS1)
+        t1=$1 c1=$2 rss=$3
+        set -- $(timed "$DIR/sweepN.csv" "$BUILD/tbeta" sweep "$net" --csv)
+        tN=$1
+        same_first_row "$DIR/sweep1.csv" "$DIR/floor.txt"
+        cmp -s "$DIR/sweep1.csv" "$DIR/sweepN.csv" || { echo "bench: --jobs 1 and N tables differ" >&2; exit 1; }
+        fl="$fl $f" s1="$s1 $t1" sN="$sN $tN"
+        if [ -n "$BEFORE" ] && [ "$i" -eq 0 ]; then
+            set -- $(timed "$DIR/sweepB.csv" "$BEFORE/tbeta" sweep "$net" --csv)
+            sB=$1
+            rB=$(awk -v a="$1" -v b="$f" 'BEGIN { print a / b }')
+        fi
+        r1="$r1 $(awk -v a="$t1" -v b="$f" 'BEGIN { print a / b }')"
+        rN="$rN $(awk -v a="$tN" -v b="$f" 'BEGIN { print a / b }')"
+        rsp="$rsp $(awk -v a="$t1" -v b="$tN" 'BEGIN { print a / b }')"
+        cpu1="$cpu1 $(awk -v a="$c1" -v b="$fc" 'BEGIN { print a / b }')"
+        i=$((i + 1))
+    done
+    rr="-" tr="-"
+    if [ "$want_report" = 1 ]; then
+        k=0 reps=""
+        while [ "$k" -lt "$REPORT_RUNS" ]; do
+            set -- $(timed "$DIR/report.txt" "$BUILD/tbeta" "$net")
+            reps="$reps $1"
+            k=$((k + 1))
+        done
+        tr=$(median $reps)
+        rr=$(awk -v a="$tr" -v b="$(median $sN)" 'BEGIN { print a / b }')
     fi
-    check "$DIR/ladder_$n.csv"
-    "$DIR/floor" "$net" "$REPEATS" > "$DIR/floor_$n.txt"
-    echo "$(value nodes "$DIR/floor_$n.txt") $t200 $t2 $rss" >> "$RESULTS"
-    echo
-    echo "== $(value nodes "$DIR/floor_$n.txt") nodes, $(value unknowns "$DIR/floor_$n.txt") unknowns, nnz(M) $(value nnz "$DIR/floor_$n.txt"), nnz(L+U) $(value lu_nnz "$DIR/floor_$n.txt")"
-    awk -v t200="$t200" -v t2="$t2" -v rss="$rss" '
-        { v[$1] = $2 }
-        END {
-            n = v["nodes"]; fl = v["floor_s"]; p = (t200 - t2) / 198; fixed = t2 - 2 * p
-            printf "  end to end   %8.3f s  = %7.2f ms/point  ratio to floor %.2f (target <= 1.5)\n", t200, 1e3 * t200 / 200, t200 / 200 / fl
-            printf "  marginal     %8.3f s fixed (2-point run %.3f s) + %7.2f ms/point  ratio %.2f\n", fixed, t2, 1e3 * p, p / fl
-            printf "  in process   tbeta point loop %7.2f ms/point  ratio %.2f\n", 1e3 * v["loop_s"], v["loop_s"] / fl
-            printf "  floor        %7.2f ms/point (refactor incl. pivot check + 1 solve); KLU bare %.2f\n", 1e3 * fl, 1e3 * v["klu_s"]
-            printf "  parts, ms    values %.2f  refactor %.2f  rcond %.2f  solve 1 RHS %.2f  2 RHS %.2f\n", 1e3 * v["values_s"], 1e3 * (v["refactor_s"] - v["values_s"]), 1e3 * v["rcond_s"], 1e3 * v["solve1_s"], 1e3 * v["solve2_s"]
-            printf "  setup, s     read %.3f  stamp %.3f  analyze %.3f  factor %.3f\n", v["read_s"], v["stamp_s"], v["analyze_s"], v["factor_s"]
-            printf "  peak memory  %.1f MiB = %.0f bytes/node\n", rss / 1024, rss * 1024 / n
-        }' "$DIR/floor_$n.txt"
+    bs="-" brr="-"
+    if [ -n "$BEFORE" ]; then
+        bs=$rB
+        if [ "$want_report" = 1 ]; then
+            set -- $(timed "$DIR/reportB.txt" "$BEFORE/tbeta" "$net")
+            brr=$(awk -v a="$1" -v b="$sB" 'BEGIN { print a / b }')
+        fi
+    fi
+    ff=$DIR/floor_first.txt
+    echo "$fam $(value unknowns "$ff") $points $(value lu_nnz "$ff") $(median $fl) $(value floor_ftz_s "$ff") \
+$(value factor_s "$ff") $(value refactor_s "$ff") $(median $s1) $(median $sN) $tr $(median $r1) $(median $rN) \
+$(median $rsp) $(median $cpu1) $rr $rss $bs $brr" >> "$OUT"
+    tail -n 1 "$OUT" | awk '{
+        printf "  %-9s %8d unknowns %3d points  nnz(L+U) %9d   floor %8.3f s (%.2f ms/point; FTZ %.2f; pivoted factor %.1f refactors)\n", $1, $2, $3, $4, $5, 1e3 * $5 / $3, 1e3 * $6, $7 / $8
+        printf "            sweep --jobs 1 %8.3f s  = %5.2f x floor (CPU %5.2f)   sweep --jobs N %8.3f s = %5.2f x floor (speed-up %.2f)\n", $9, $12, $15, $10, $13, $14
+        if ($11 != "-") printf "            report %8.3f s = %5.2f x sweep --jobs N;  peak memory %.1f MiB\n", $11, $16, $17 / 1024
+        else printf "            report not timed;  peak memory %.1f MiB\n", $17 / 1024
+        if ($18 != "-") printf "            before: sweep %5.2f x floor, report %s x its sweep\n", $18, $19 }'
+}
+
+echo "tbeta bench: $(nproc) cores, $(awk -F': ' '/^model name/ { print $2; exit }' /proc/cpuinfo); medians of $RUNS rounds"
+echo "# family unknowns points lu_nnz floor_s floor_ftz_pp factor_s refactor_s sweep1_s sweepN_s report_s sweep1/floor sweepN/floor speedup cpu_sweep1/floor report/sweepN maxrss_kib before_sweep/floor before_report/sweep" > "$OUT"
+for n in $SIZES; do
+    for fam in $FAMILIES; do
+        one_case "$fam" "$n"
+    done
 done
-awk 'NR == 1 { n1 = $1; r1 = $4 } NR > 1 { n2 = $1; r2 = $4 }
-    END { if (NR > 1) printf "\nmemory growth %.0f bytes per added node (%.0f and %.0f bytes/node at the two sizes)\n",
-          (r2 - r1) * 1024 / (n2 - n1), r1 * 1024 / n1, r2 * 1024 / n2 }' "$RESULTS"
+[ "${BENCH_MILLION:-0}" = 1 ] && one_case line 1000000
+echo "results in $OUT (bench/plot.py draws docs/performance.svg from it)"
 
 # ---- library benchmark: tbeta check over many netlists, one and two threads ----
 LIBN=${BENCH_LIBRARY:-1000}

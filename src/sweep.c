@@ -30,6 +30,12 @@ struct tb_sweep {
     tb_probe probe;
 };
 
+size_t tb_sweep_chunk(size_t npoints)
+{
+    size_t c = npoints / 8;
+    return c < 4 ? 4 : c > TB_SWEEP_CHUNK ? TB_SWEEP_CHUNK : c;
+}
+
 size_t tb_sweep_lanes_for(unsigned jobs, size_t npoints)
 {
     size_t lanes = jobs;
@@ -37,7 +43,8 @@ size_t tb_sweep_lanes_for(unsigned jobs, size_t npoints)
         long cores = sysconf(_SC_NPROCESSORS_ONLN);
         lanes = cores > 0 ? (size_t)cores : 1;
     }
-    size_t chunks = (npoints + TB_SWEEP_CHUNK - 1) / TB_SWEEP_CHUNK;
+    size_t chunk = tb_sweep_chunk(npoints);
+    size_t chunks = (npoints + chunk - 1) / chunk;
     if (lanes > chunks)
         lanes = chunks;
     if (lanes > TB_SWEEP_MAX_LANES)
@@ -183,6 +190,7 @@ typedef struct {
     const tb_sweep *s;
     const double *freqs;
     size_t npoints;
+    size_t chunk;         /* points per chunk */
     const tb_sweep_hook *hooks;
     size_t nhooks;
     bool threaded;        /* lock is initialised and guards the fields below */
@@ -203,7 +211,7 @@ static bool take_chunk(grid_run *g, size_t *chunk)
 {
     if (g->threaded)
         pthread_mutex_lock(&g->lock);
-    size_t first = g->next_chunk * TB_SWEEP_CHUNK;
+    size_t first = g->next_chunk * g->chunk;
     bool more = first < g->npoints && first < g->fail_index;
     if (more)
         *chunk = g->next_chunk++;
@@ -262,8 +270,8 @@ static tb_status factor_point(const grid_run *g, lane *ln, size_t first, size_t 
 static void grid_chunk(grid_run *g, size_t l, size_t chunk)
 {
     lane *ln = &g->s->lanes[l];
-    size_t first = chunk * TB_SWEEP_CHUNK;
-    size_t end = first + TB_SWEEP_CHUNK < g->npoints ? first + TB_SWEEP_CHUNK : g->npoints;
+    size_t first = chunk * g->chunk;
+    size_t end = first + g->chunk < g->npoints ? first + g->chunk : g->npoints;
     for (size_t i = first; i < end; i++) {
         size_t culprit = 0;
         size_t failed = i;
@@ -334,8 +342,8 @@ tb_status tb_sweep_run(tb_sweep *s, const double *freqs, size_t npoints, bool dc
         s->lanes[l].reference = false;
     tb_status st = dc ? sweep_dc(s, hooks, nhooks, has_dc, &dc_culprit) : TB_OK;
     if (!st) {
-        grid_run g = {.s = s, .freqs = freqs, .npoints = npoints, .hooks = hooks, .nhooks = nhooks,
-                      .fail_index = npoints};
+        grid_run g = {.s = s, .freqs = freqs, .npoints = npoints, .chunk = tb_sweep_chunk(npoints),
+                      .hooks = hooks, .nhooks = nhooks, .fail_index = npoints};
         grid_run_all(s, &g);
         st = g.fail_index < npoints ? g.fail_status : TB_OK;
         if (st == TB_ERR_SINGULAR)

@@ -7,8 +7,9 @@
 /* The index a hook sees at DC (f = 0). */
 #define TB_SWEEP_DC SIZE_MAX
 
-/* Grid points per chunk. The grid is cut into chunks of this many consecutive
- * points, the same for any number of threads, and threads take whole chunks.
+/* Grid points per chunk, at most (tb_sweep_chunk). The grid is cut into chunks of
+ * consecutive points, the same for any number of threads, and threads take whole
+ * chunks.
  * Every point refactors with the reference pivot order (a pivoted factorization
  * at the first grid point, made once on each lane); where that order degrades,
  * the point pivots afresh and the rest of its chunk reuses the new order, and
@@ -54,6 +55,11 @@ typedef struct {
  * per lane a numeric factorization, M's values, the loop workspace and row. */
 typedef struct tb_sweep tb_sweep;
 
+/* Points per chunk of a grid of npoints: npoints/8 (about eight chunks, so that
+ * two or three threads end close together), at least 4 and at most
+ * TB_SWEEP_CHUNK (a re-pivoting lasts to the end of its chunk). */
+size_t tb_sweep_chunk(size_t npoints);
+
 /* The lanes (threads) a point loop over npoints grid points uses for jobs
  * asked (0: one per online core): at most one per chunk, at most
  * TB_SWEEP_MAX_LANES, at least 1. */
@@ -72,7 +78,7 @@ size_t tb_sweep_lanes(const tb_sweep *sweep);
 
 /* DC first (when dc is set and M(0) is non-singular; *has_dc says whether it
  * was), on lane 0; then every frequency of freqs (npoints, ascending), chunk
- * by chunk (TB_SWEEP_CHUNK), the chunks shared among the lanes' threads: M
+ * by chunk (tb_sweep_chunk), the chunks shared among the lanes' threads: M
  * written and factored once per point (pivoting at DC and at the first grid
  * point, tb_solver_refactor with that reference order elsewhere), every loop
  * evaluated, then every hook called in order. The numbers at a point do not

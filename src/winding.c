@@ -7,8 +7,17 @@
 
 #define PI (TB_TWO_PI / 2)
 #define LN10 2.30258509299404568401799145468436421
-/* Both phases may move by at most this much over one step. */
+/* Over half a step each phase may move by at most twice this, and by at most this
+ * from what the last step's rate predicts; the slope of ln|det| may differ by at
+ * most SLOPE_LIMIT between the halves. */
 #define STEP_LIMIT (PI / 4)
+#define SLOPE_LIMIT 1.0
+/* Halves narrower than SLOPE_WIDTH / d^2 (in ln f, d the degree of det; at most
+ * 1e-4) are judged by their phases alone: near a zero on or close to the axis the
+ * slope varies without bound, and a halving on the slope would never end. The
+ * zeros of a long RC line crowd towards its top frequency like (k/d)^2, so about
+ * one of them lies within such a width of another. */
+#define SLOPE_WIDTH 0.1
 /* A step this narrow (in ln f) whose phase still jumps straddles a zero on the axis. */
 #define MIN_WIDTH 1e-10
 /* An end decade has settled when the slope of ln|det| is within this of a whole
@@ -31,6 +40,11 @@ typedef struct {
     size_t l;
     size_t evals;
     size_t jumps[KINDS]; /* phase jumps of about pi no halving resolved: zeros on the axis */
+    double slope_width;  /* halves at least this wide (ln f) are also judged by their slopes */
+    bool rate_known;     /* rate holds the phases' rate over the last step taken */
+    double rate[KINDS];  /* d arg det / d ln f there */
+    bool first_known;    /* first_rate holds the rate over the walk's first step */
+    double first_rate[KINDS];
 } walk;
 
 /* Ran out of evaluations: internal, becomes a count that was not made. */
@@ -79,41 +93,91 @@ static tb_status sample_at(walk *w, double lnf, sample *out)
     return TB_ERR_SINGULAR;
 }
 
-/* The change of both phases from a to b, into acc: halves the step until each
- * phase moves by at most STEP_LIMIT; a jump that survives down to MIN_WIDTH is a
- * zero on the axis, taken as +pi (the path passes it on the right, so it counts
- * with the left half-plane). */
-static tb_status step(walk *w, const sample *a, const sample *b, double acc[KINDS])
+/* The change of phase k from x to y (either way along the axis), taking the
+ * branch nearest the change that the last step's rate predicts; false when the
+ * wrapped value strays from the prediction by more than STEP_LIMIT. */
+static bool change(const walk *w, const sample *x, const sample *y, int k, double *d)
 {
-    double d[KINDS];
-    bool big = false;
-    for (int k = 0; k < KINDS; k++) {
-        d[k] = wrap(b->phi[k] - a->phi[k]);
-        big = big || fabs(d[k]) > STEP_LIMIT;
-    }
-    sample mid;
-    tb_status st = TB_OK;
-    bool narrow = b->lnf - a->lnf <= MIN_WIDTH;
-    if (big && !narrow && !(st = sample_at(w, 0.5 * (a->lnf + b->lnf), &mid)) && mid.lnf > a->lnf &&
-        mid.lnf < b->lnf) {
-        st = step(w, a, &mid, acc);
-        return st ? st : step(w, &mid, b, acc);
-    }
-    if (st)
-        return st;
-    for (int k = 0; k < KINDS; k++) {
-        bool jump = fabs(d[k]) > STEP_LIMIT;
-        acc[k] += jump ? PI : d[k];
-        w->jumps[k] += jump;
-    }
-    return TB_OK;
+    double predicted = w->rate_known ? w->rate[k] * (y->lnf - x->lnf) : 0.0;
+    double off = wrap(y->phi[k] - x->phi[k] - predicted);
+    *d = predicted + off;
+    return fabs(off) <= STEP_LIMIT && fabs(*d) <= 2 * STEP_LIMIT;
 }
 
-/* From a to b (a.lnf < b.lnf) in TB_WINDING_STEPS steps a decade. */
+/* Whether the step a -> m -> b is fine enough to take the phase change as the sum
+ * of the two halves: each half moves each phase by at most 2 STEP_LIMIT and by
+ * STEP_LIMIT at most from what the rate of the last step predicts (a phase that
+ * drifts by whole turns within a step, as det does above a crowd of zeros, is
+ * followed from the rate), and the slope of ln|det| differs between the halves by
+ * at most SLOPE_LIMIT (about one zero of det nearby; many zeros within a step could
+ * otherwise turn the phase by whole turns that no wrapped difference shows).
+ * Rounding of ln|det| (about 1e-12 of its size) is allowed for in the slopes of
+ * narrow steps. */
+static bool fine_enough(walk *w, const sample *a, const sample *m, const sample *b, double d1[KINDS],
+                        double d2[KINDS])
+{
+    bool fine = true;
+    for (int k = 0; k < KINDS; k++) {
+        fine = change(w, a, m, k, &d1[k]) && fine;
+        fine = change(w, m, b, k, &d2[k]) && fine;
+        double s1 = (m->L[k] - a->L[k]) / (m->lnf - a->lnf);
+        double s2 = (b->L[k] - m->L[k]) / (b->lnf - m->lnf);
+        double half = fabs(m->lnf - a->lnf);
+        double noise = 1e-12 * (fabs(a->L[k]) + fabs(b->L[k]) + 1.0) / half;
+        fine = fine && (half < w->slope_width || fabs(s1 - s2) <= SLOPE_LIMIT + noise);
+    }
+    return fine;
+}
+
+/* A step too narrow to halve: the wrapped change, or, where a phase still jumps,
+ * a zero on the axis, taken as +pi going up the axis (the path passes it on the
+ * right, so it counts with the left half-plane). */
+static void narrow_step(walk *w, const sample *a, const sample *b, double acc[KINDS])
+{
+    for (int k = 0; k < KINDS; k++) {
+        double d = wrap(b->phi[k] - a->phi[k]);
+        bool jump = fabs(d) > STEP_LIMIT;
+        acc[k] += jump ? (b->lnf > a->lnf ? PI : -PI) : d;
+        w->jumps[k] += jump;
+    }
+}
+
+/* The change of both phases from a to b (either way along the axis), into acc,
+ * halving the step until it is fine enough (fine_enough) or MIN_WIDTH narrow. */
+static tb_status step(walk *w, const sample *a, const sample *b, double acc[KINDS])
+{
+    if (fabs(b->lnf - a->lnf) <= MIN_WIDTH) {
+        narrow_step(w, a, b, acc);
+        return TB_OK;
+    }
+    sample m;
+    tb_status st = sample_at(w, 0.5 * (a->lnf + b->lnf), &m);
+    if (st)
+        return st;
+    if (!(fabs(m.lnf - a->lnf) < fabs(b->lnf - a->lnf) && (m.lnf - a->lnf) * (b->lnf - m.lnf) > 0)) {
+        narrow_step(w, a, b, acc); /* stepped around a singular point: as narrow */
+        return TB_OK;
+    }
+    double d1[KINDS], d2[KINDS];
+    if (fine_enough(w, a, &m, b, d1, d2)) {
+        for (int k = 0; k < KINDS; k++) {
+            acc[k] += d1[k] + d2[k];
+            w->rate[k] = d2[k] / (b->lnf - m.lnf);
+            w->first_rate[k] = w->first_known ? w->first_rate[k] : d1[k] / (m.lnf - a->lnf);
+        }
+        w->rate_known = w->first_known = true;
+        return TB_OK;
+    }
+    st = step(w, a, &m, acc);
+    return st ? st : step(w, &m, b, acc);
+}
+
+/* From a to b (either way along the axis) in TB_WINDING_STEPS steps a decade;
+ * acc takes the change from a to b. */
 static tb_status span(walk *w, const sample *a, const sample *b, double acc[KINDS])
 {
     double width = LN10 / TB_WINDING_STEPS;
-    size_t steps = (size_t)ceil((b->lnf - a->lnf) / width - 1e-9);
+    size_t steps = (size_t)ceil(fabs(b->lnf - a->lnf) / width - 1e-9);
     sample prev = *a;
     for (size_t i = 1; i <= steps; i++) {
         sample next = *b;
@@ -182,6 +246,33 @@ static bool low_settled(const sample *lo, const sample *up, double moved, const 
     return *m >= 1 && lo->lnf <= log(f_start) - TB_WINDING_ORIGIN_DECADES * LN10;
 }
 
+/* The larger degree of the two determinants, from the slope of ln|det| at two
+ * samples a decade apart, going up from lnf until two decades agree on a whole
+ * number (no phase walked: only to size the walk's slope test). */
+static tb_status degree_guess(walk *w, double lnf, double *d)
+{
+    sample a, b;
+    double last[KINDS] = {-1, -1};
+    tb_status st = sample_at(w, lnf, &a);
+    for (int dec = 0; !st && dec < TB_WINDING_MAX_DECADES; dec++) {
+        if ((st = sample_at(w, a.lnf + LN10, &b)))
+            break;
+        bool agree = true;
+        for (int k = 0; k < KINDS; k++) {
+            double s = settled_slope(&a, &b, 0.0, k);
+            agree = agree && s >= 0 && s == last[k];
+            last[k] = s;
+        }
+        if (agree) {
+            *d = fmax(last[CLOSED], last[OPEN]);
+            return TB_OK;
+        }
+        a = b;
+    }
+    *d = -1; /* no settled slope: the walk will say so */
+    return st;
+}
+
 /* Walks on by decades above *end until both determinants settle; *end moves to the
  * new end, total takes the phase change, d the degrees. */
 static tb_status extend_up(walk *w, sample *end, double total[KINDS], double d[KINDS], bool *ok)
@@ -218,13 +309,13 @@ static tb_status extend_down(walk *w, sample *end, const origin o[KINDS], double
         double moved[KINDS] = {0, 0};
         tb_status st = sample_at(w, end->lnf - LN10, &next);
         if (!st)
-            st = span(w, &next, end, moved);
+            st = span(w, end, &next, moved); /* downward: the rate carries on from above */
         if (st)
             return st;
         *ok = true;
         for (int k = 0; k < KINDS; k++) {
-            *ok = low_settled(&next, end, moved[k], &o[k], k, f_start, &m[k]) && *ok;
-            total[k] += moved[k];
+            *ok = low_settled(&next, end, -moved[k], &o[k], k, f_start, &m[k]) && *ok;
+            total[k] -= moved[k];
         }
         *end = next;
     }
@@ -265,7 +356,11 @@ tb_status tb_winding_run(tb_probe *probe, size_t l, double f_start, double f_sto
     double total[KINDS] = {0, 0};
     double top[KINDS] = {0, 0}, bottom[KINDS] = {0, 0};
     bool up_ok = false, down_ok = false;
+    double d = 0;
     tb_status st = at_origin(&w, o);
+    if (!st)
+        st = degree_guess(&w, log(f_stop), &d);
+    w.slope_width = d > 0 ? fmin(1e-4, SLOPE_WIDTH / (d * d)) : 1e-4;
     if (!st)
         st = sample_at(&w, log(f_start), &lo);
     if (!st)
@@ -274,6 +369,10 @@ tb_status tb_winding_run(tb_probe *probe, size_t l, double f_start, double f_sto
         st = span(&w, &lo, &hi, total);
     if (!st)
         st = extend_up(&w, &hi, total, top, &up_ok);
+    /* below the range the rate carries on from the walk's first step, at f_start */
+    for (int k = 0; k < KINDS; k++)
+        w.rate[k] = w.first_rate[k];
+    w.rate_known = w.first_known;
     if (!st)
         st = extend_down(&w, &lo, o, f_start, total, bottom, &down_ok);
     tb_winding res = {.f_low = exp(lo.lnf), .f_high = exp(hi.lnf), .evaluations = w.evals};

@@ -45,23 +45,30 @@ typedef struct {
  * frequency, through the probe; det M0 = det M / (1 + T) from the same
  * factorization (the return difference). The walk starts on [f_start, f_stop]
  * (Hz, 0 < f_start < f_stop: the sweep's range), TB_WINDING_STEPS steps a
- * decade, halving a step until both phases move by at most pi/4, and goes on by
- * decades past the top until the slope of ln|det| is within 0.05 of a whole
- * number d and the phase moves by at most 0.05 rad over the decade. Below the
- * range it goes down by decades until det is within 1 % and 0.01 rad of its
- * value at s = 0 (one more factorization, at f = 0: then m = 0); where det is
- * zero at s = 0 (an integrator), until the slope has settled to m >= 1 at least
- * TB_WINDING_ORIGIN_DECADES below the range. A zero on the axis (a phase jump
- * that no halving resolves, down to 1e-10 relative) is counted in on_axis and,
- * like a zero at the origin, not in rhp. A count that cannot be made (no
- * settled slope, more than TB_WINDING_MAX_EVALS evaluations, a total that is
- * not a whole number) has counted false and a reason. Limits: a zero beyond
- * the settled top (above a wide stretch where the slope stays whole), or one
- * within TB_WINDING_ORIGIN_DECADES of the origin's slope region when det(0) = 0,
- * is not seen (a left-half-plane one changes no count; a right-half-plane one
- * is missed); two resonances of the same frequency within one step whose
- * damping is below about 1/20 can be missed. Cost: about TB_WINDING_STEPS
- * evaluations a decade plus about two per zero of det M.
+ * decade, halving a step until, over each half, both phases move by at most
+ * pi/2 and by at most pi/4 from what the phase's rate over the last step
+ * predicts (above a crowd of zeros the phase drifts by whole turns per step),
+ * and the slope of ln|det| changes by at most 1 between the halves (more zeros
+ * than that within a step would turn the phase by whole turns no wrapped
+ * difference shows). It goes on by decades past the top until the slope of
+ * ln|det| is within 0.05 of a whole number d and the phase moves by at most 0.05
+ * rad over the decade. Below the range it goes down by decades until det is
+ * within 1 % and 0.01 rad of its value at s = 0 (one more factorization, at
+ * f = 0: then m = 0); where det is zero at s = 0 (an integrator), until the
+ * slope has settled to m >= 1 at least TB_WINDING_ORIGIN_DECADES below the
+ * range. A zero on the axis (a phase jump that no halving resolves, down to
+ * 1e-10 relative) is counted in on_axis and, like a zero at the origin, not in
+ * rhp. A count that cannot be made (no settled slope, more than
+ * TB_WINDING_MAX_EVALS evaluations, a total that is not a whole number) has
+ * counted false and a reason. Limits: a zero beyond the settled top (above a
+ * wide stretch where the slope stays whole), or one within
+ * TB_WINDING_ORIGIN_DECADES of the origin's slope region when det(0) = 0, is
+ * not seen (a left-half-plane one changes no count; a right-half-plane one is
+ * missed); resonances closer together than about one part in 1e4 whose
+ * damping is below about 1e-4 can be missed. Cost: about TB_WINDING_STEPS
+ * evaluations a decade plus about two per zero of det M (a 10^4-section RC
+ * line: 16 800 evaluations), so TB_WINDING_MAX_EVALS stops it near 10^4
+ * reactive elements.
  * Errors: TB_ERR_USAGE (bad l or range), TB_ERR_NOMEM, TB_ERR_NUMERIC; a
  * singular M at a frequency of the walk is stepped around, not an error. */
 tb_status tb_winding_run(tb_probe *probe, size_t l, double f_start, double f_stop, tb_winding *out);

@@ -308,10 +308,11 @@ static void test_sweep_lanes_compute_what_one_lane_does(void **state)
         record_sweep(paths[p], 3, &three);
         assert_int_equal(one.npoints, three.npoints);
         bool lane_used[3] = {false, false, false};
+        size_t chunk = tb_sweep_chunk(three.npoints);
         for (size_t i = 0; i < three.npoints; i++) {
             assert_true(three.lane_of[i] < 3);
             lane_used[three.lane_of[i]] = true;
-            assert_true(three.lane_of[i] == three.lane_of[i - i % TB_SWEEP_CHUNK]); /* whole chunks */
+            assert_true(three.lane_of[i] == three.lane_of[i - i % chunk]); /* whole chunks */
         }
         assert_true(lane_used[0] && lane_used[1] && lane_used[2]);
         assert_memory_equal(one.pts, three.pts, one.npoints * sizeof(tb_point));
@@ -322,14 +323,19 @@ static void test_sweep_lanes_compute_what_one_lane_does(void **state)
     }
 }
 
-/* Lanes: as asked, at most one per chunk of TB_SWEEP_CHUNK points, at least one. */
+/* Chunks of npoints/8 points, 4 to TB_SWEEP_CHUNK; lanes as asked, at most one per
+ * chunk, at least one. */
 static void test_sweep_lanes_per_chunk(void **state)
 {
     (void)state;
+    assert_int_equal(tb_sweep_chunk(19), 4);
+    assert_int_equal(tb_sweep_chunk(91), 11);
+    assert_int_equal(tb_sweep_chunk(1000), TB_SWEEP_CHUNK);
     assert_int_equal(tb_sweep_lanes_for(1, 1000), 1);
     assert_int_equal(tb_sweep_lanes_for(3, 1000), 3);
-    assert_int_equal(tb_sweep_lanes_for(8, 2 * TB_SWEEP_CHUNK), 2);
-    assert_int_equal(tb_sweep_lanes_for(8, 2 * TB_SWEEP_CHUNK + 1), 3);
+    assert_int_equal(tb_sweep_lanes_for(8, 8), 2);  /* chunks of 4 */
+    assert_int_equal(tb_sweep_lanes_for(8, 9), 3);
+    assert_int_equal(tb_sweep_lanes_for(64, 91), 9); /* chunks of 11 */
     assert_int_equal(tb_sweep_lanes_for(4, 1), 1);
     assert_int_equal(tb_sweep_lanes_for(4, 0), 1);
     assert_int_equal(tb_sweep_lanes_for(1000, 100000), TB_SWEEP_MAX_LANES);
@@ -347,7 +353,7 @@ static void test_sweep_lanes_visit_every_point_once(void **state)
     tb_sweep *sw = NULL;
     assert_int_equal(tb_sweep_new(ckt, 1e-6, 3, diag, &sw), TB_OK);
     assert_int_equal(tb_sweep_lanes(sw), 3);
-    enum { NPTS = 5 * TB_SWEEP_CHUNK + 3 };
+    enum { NPTS = 83 }; /* chunks of 10: 9 of them */
     double f[NPTS];
     for (size_t i = 0; i < NPTS; i++)
         f[i] = 10.0 * pow(10.0, 0.05 * (double)i);

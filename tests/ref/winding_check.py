@@ -16,7 +16,7 @@ stab_threepole_unstable.net two closed-loop ones) and every tests/winding/*.net 
 right-half-plane pair open loop only, in both, a pair on the axis), and every loop,
   - the right-half-plane count (Re s > 1e-9 |s|, stability_check's rule),
   - the degree: the number of finite eigenvalues,
-  - the zeros at the origin (|s| below 1e-8 of the largest),
+  - the zeros at the origin (the nullity of G, by numpy's rank of the scaled matrix),
   - the zeros on the axis away from the origin,
 of the closed loop and of the open loop must agree exactly.
 Prints "winding_check: N passed, M failed"; exit 1 when any failed.
@@ -27,6 +27,8 @@ import importlib.util
 import os
 import subprocess
 import sys
+
+import numpy as np
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 STAB = os.path.join(HERE, "..", "stab")
@@ -42,14 +44,23 @@ finite_eigs = stability_check.finite_eigs
 pencil = stability_check.pencil
 
 
-def classify(roots):
-    """(rhp, degree, at origin, on the axis away from the origin)."""
-    scale = max([abs(r) for r in roots] + [1e-300])
-    origin = [r for r in roots if abs(r) <= 1e-8 * scale]
-    rest = [r for r in roots if abs(r) > 1e-8 * scale]
+def nullity(G):
+    """Zeros of det(G + sC) at the origin: the nullity of G (numpy's rank of G with rows and
+    then columns scaled to unit largest entry, so that stiff circuits do not look singular)."""
+    A = np.array(G, dtype=float)
+    A = A / np.maximum(np.abs(A).max(axis=1, keepdims=True), 1e-300)
+    A = A / np.maximum(np.abs(A).max(axis=0, keepdims=True), 1e-300)
+    return A.shape[0] - np.linalg.matrix_rank(A)
+
+
+def classify(roots, at_origin):
+    """(rhp, degree, at origin, on the axis away from the origin): the at_origin smallest
+    roots are the origin's; of the others, Re s > 1e-9 |s| is right half-plane
+    (stability_check's rule) and |Re s| <= 1e-9 |s| on the axis."""
+    rest = sorted(roots, key=abs)[at_origin:]
     rhp = sum(1 for r in rest if r.real > 1e-9 * abs(r))
     axis = sum(1 for r in rest if abs(r.real) <= 1e-9 * abs(r))
-    return rhp, len(roots), len(origin), axis
+    return rhp, len(roots), at_origin, axis
 
 
 def tool_counts(tool, fname):
@@ -82,9 +93,11 @@ def main(argv):
             failed += 1
             print("FAIL %s: %s" % (where, exc))
             continue
-        cl = classify(finite_eigs(*pencil(mna)))
+        G, C = pencil(mna)
+        cl = classify(finite_eigs(G, C), nullity(G))
         for name, got in counts.items():
-            ol = classify(finite_eigs(*pencil(mna, {name: 0.0})))
+            G0, C0 = pencil(mna, {name: 0.0})
+            ol = classify(finite_eigs(G0, C0), nullity(G0))
             for kind, want in (("closed", cl), ("open", ol)):
                 have = tuple(int(x) if x != "-" else None for x in got[kind])
                 if have == want:

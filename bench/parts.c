@@ -1,6 +1,9 @@
-/* bench/floor.c: times the per-point floor (values, KLU refactor, one solve) on a netlist's own matrix */
+/* bench/parts.c: tbeta's per-point work and its parts, timed in process through tbeta's own code, for profiling */
 /*
- * Usage: floor NETLIST [REPEATS [LOOP]]
+ * Usage: parts NETLIST [REPEATS [LOOP]]
+ * (Not the benchmark's floor: bench/klu_floor.c measures that with code of its
+ * own. This program goes through tbeta's reader, stamps and solver wrapper, to
+ * split tbeta's per-point time into its parts.)
  * Reads NETLIST with tb_circuit_read, stamps it once, runs KLU's symbolic
  * analysis once and a pivoted factorization at the first sweep frequency,
  * then times per-point loops over the netlist's .ac grid, each the best of
@@ -79,7 +82,7 @@ static double now(void)
 
 static int fail(const char *what)
 {
-    fprintf(stderr, "floor: %s failed\n", what);
+    fprintf(stderr, "parts: %s failed\n", what);
     return 1;
 }
 
