@@ -1,0 +1,210 @@
+/* src/report_distortion.c: the distortion section of the text, JSON and HTML reports */
+#include "report_distortion.h"
+
+#include <jansson.h>
+#include <math.h>
+
+#include "diag.h"
+#include "report.h"
+
+/* ---- text ------------------------------------------------------------------- */
+
+/* "-80.21 dB (0.009762 %)", "0 (vanishes)" or "--". */
+static const char *fmt_ratio(const tb_dist_ratio *r, char *buf, size_t size)
+{
+    if (!r->present)
+        snprintf(buf, size, "--");
+    else if (!r->has_db)
+        snprintf(buf, size, "0 (vanishes)");
+    else
+        snprintf(buf, size, "%.2f dB (%.4g %%)", r->db, 100 * r->ratio);
+    return buf;
+}
+
+static void row(FILE *out, const char *label, const char *value)
+{
+    fprintf(out, "    %-30s %s\n", label, value);
+}
+
+static void case_lines(FILE *out, const tb_dist_case *dc, double limit_pct, const char *drive_unit)
+{
+    char v[160], a[64], b[64];
+    row(out, "HD2 (2f)", fmt_ratio(&dc->hd2, v, sizeof v));
+    row(out, "HD3 (3f)", fmt_ratio(&dc->hd3, v, sizeof v));
+    snprintf(v, sizeof v, "k3 terms %s, second-order interaction %s", fmt_ratio(&dc->hd3_direct, a, sizeof a),
+             fmt_ratio(&dc->hd3_inter, b, sizeof b));
+    row(out, "  of which", v);
+    snprintf(v, sizeof v, "%s (f1+f2), %s (f2-f1)", fmt_ratio(&dc->im2, a, sizeof a),
+             fmt_ratio(&dc->im2_diff, b, sizeof b));
+    row(out, "IM2", dc->im2.present ? v : "--");
+    row(out, "IM3 (2f1-f2)", fmt_ratio(&dc->im3, v, sizeof v));
+    snprintf(v, sizeof v, "%.5g%s%s per tone (%.2f dB re 1)", dc->iip3, drive_unit[0] ? " " : "", drive_unit,
+             dc->has_iip3 ? 20 * log10(dc->iip3) : 0);
+    row(out, "input-referred IP3", dc->has_iip3 ? v : "--");
+    snprintf(v, sizeof v, "%s: largest third-order term %.3g %% of the fundamental, limit %.3g %%",
+             dc->valid ? "holds" : "AMPLITUDE TOO LARGE for a third-order series", 100 * dc->third, limit_pct);
+    row(out, "series", v);
+}
+
+static void loop_lines(FILE *out, const tb_circuit *ckt, const tb_result *res, const tb_distortion *sum, size_t l)
+{
+    tb_distortion_loop dl;
+    char v[200], esc[256];
+    tb_distortion_loop_get(res, l, &dl, NULL, NULL);
+    const tb_element *e = &ckt->elems[ckt->loops[l].elem];
+    const char *name = tb_report_escape(e->name, esc, sizeof esc);
+    if (!dl.computed) {
+        fprintf(out, "  loop %s opened: -- (%s)\n", name, dl.why_absent ? dl.why_absent : "not computed");
+        return;
+    }
+    bool current = e->kind == TB_EL_F || e->kind == TB_EL_H;
+    fprintf(out, "  loop %s opened (T = %.4g%+.4gj at the tone), its control driven with %.5g %s for the same "
+                 "fundamental\n",
+            name, creal(dl.T), cimag(dl.T), dl.open.drive, current ? "A" : "V");
+    case_lines(out, &dl.open, sum->limit_pct, current ? "A" : "V");
+    snprintf(v, sizeof v, "HD2 %.4g times (rule |1+T| = %.4g)", dl.hd2_reduction, dl.rule_hd2);
+    row(out, "feedback reduces", dl.has_hd2_reduction ? v : "HD2 --");
+    snprintf(v, sizeof v, "HD3 %.4g times; its k3 part %.4g times (rule |1+T| = %.4g)", dl.hd3_reduction,
+             dl.hd3_direct_reduction, dl.rule_hd3);
+    row(out, "", dl.has_hd3_reduction && dl.has_hd3_direct_reduction ? v : "HD3 --");
+}
+
+void tb_report_distortion_text(const tb_circuit *ckt, const tb_result *res, FILE *out)
+{
+    tb_distortion sum;
+    char f1[64], f2[64], o[512], esc[256];
+    if (!ckt->volterra.given)
+        return;
+    tb_distortion_get(res, &sum);
+    fprintf(out, "\ndistortion (Volterra series to third order, equal output amplitude with and without feedback)\n");
+    if (!sum.computed) {
+        fprintf(out, "    -- (%s)\n", sum.why_absent ? sum.why_absent : "not computed");
+        return;
+    }
+    fprintf(out, "  input %.5g peak per tone at %s into %s, second tone %s; output %s; %zu nonlinear source%s\n",
+            sum.amp, tb_format_hz(sum.freq_hz, 5, f1, sizeof f1), tb_report_escape(ckt->io.source, esc, sizeof esc),
+            tb_format_hz(sum.freq2_hz, 5, f2, sizeof f2), tb_report_output(&ckt->io, o, sizeof o), sum.nonlinear,
+            sum.nonlinear == 1 ? "" : "s");
+    fprintf(out, "  as drawn: fundamental %.6g\n", sum.closed.fund);
+    case_lines(out, &sum.closed, sum.limit_pct, "");
+    for (size_t l = 0; l < tb_result_loops(res); l++)
+        loop_lines(out, ckt, res, &sum, l);
+    fprintf(out, "    (weakly nonlinear: valid while the series holds; it does not replace a large-signal "
+                 "simulation or a bench measurement)\n");
+}
+
+/* ---- JSON ------------------------------------------------------------------- */
+
+static json_t *num(bool present, double x)
+{
+    return present && isfinite(x) ? json_real(x) : json_null();
+}
+
+/* Adds key: val, remembering a failure in *ok. */
+static void put(json_t *obj, const char *key, json_t *val, bool *ok)
+{
+    if (!obj || !val || json_object_set_new(obj, key, val))
+        *ok = false;
+}
+
+static json_t *ratio_object(const tb_dist_ratio *r, bool *ok)
+{
+    json_t *o = json_object();
+    put(o, "ratio", num(r->present, r->ratio), ok);
+    put(o, "db", num(r->present && r->has_db, r->db), ok);
+    put(o, "pct", num(r->present, 100 * r->ratio), ok);
+    return o;
+}
+
+static json_t *case_object(const tb_dist_case *dc, bool *ok)
+{
+    json_t *o = json_object();
+    if (!dc->computed) {
+        put(o, "why_absent", json_string(dc->why_absent ? dc->why_absent : "not computed"), ok);
+        return o;
+    }
+    put(o, "drive", num(true, dc->drive), ok);
+    put(o, "fundamental", num(true, dc->fund), ok);
+    put(o, "hd2", ratio_object(&dc->hd2, ok), ok);
+    put(o, "hd3", ratio_object(&dc->hd3, ok), ok);
+    put(o, "hd3_k3_part", ratio_object(&dc->hd3_direct, ok), ok);
+    put(o, "hd3_interaction_part", ratio_object(&dc->hd3_inter, ok), ok);
+    put(o, "im2_sum", ratio_object(&dc->im2, ok), ok);
+    put(o, "im2_difference", ratio_object(&dc->im2_diff, ok), ok);
+    put(o, "im3", ratio_object(&dc->im3, ok), ok);
+    put(o, "iip3", num(dc->has_iip3, dc->iip3), ok);
+    put(o, "third_order_max", num(true, dc->third), ok);
+    put(o, "series_valid", json_boolean(dc->valid), ok);
+    return o;
+}
+
+static json_t *sweep_array(const tb_dist_sweep_point *p, size_t n, bool *ok)
+{
+    json_t *a = json_array();
+    for (size_t i = 0; i < n; i++) {
+        json_t *o = json_object();
+        put(o, "freq_hz", num(true, p[i].freq_hz), ok);
+        put(o, "hd2", num(p[i].has_closed, p[i].hd2_closed), ok);
+        put(o, "hd3", num(p[i].has_closed, p[i].hd3_closed), ok);
+        put(o, "hd2_open", num(p[i].has_open, p[i].hd2_open), ok);
+        put(o, "hd3_open", num(p[i].has_open, p[i].hd3_open), ok);
+        put(o, "T_mag", num(p[i].has_T, p[i].T_mag), ok);
+        put(o, "series_valid", json_boolean(p[i].valid), ok);
+        if (!a || !o || json_array_append_new(a, o))
+            *ok = false;
+    }
+    return a;
+}
+
+static json_t *loop_object(const tb_circuit *ckt, const tb_result *res, size_t l, bool *ok)
+{
+    tb_distortion_loop dl;
+    const tb_dist_sweep_point *pts = NULL;
+    size_t n = 0;
+    tb_distortion_loop_get(res, l, &dl, &pts, &n);
+    json_t *o = json_object();
+    put(o, "source", tb_report_json_text(ckt->elems[ckt->loops[l].elem].name), ok);
+    if (!dl.computed) {
+        put(o, "why_absent", json_string(dl.why_absent ? dl.why_absent : "not computed"), ok);
+        return o;
+    }
+    put(o, "T", json_pack("{s:f,s:f}", "re", creal(dl.T), "im", cimag(dl.T)), ok);
+    put(o, "open", case_object(&dl.open, ok), ok);
+    put(o, "hd2_reduction", num(dl.has_hd2_reduction, dl.hd2_reduction), ok);
+    put(o, "hd3_reduction", num(dl.has_hd3_reduction, dl.hd3_reduction), ok);
+    put(o, "hd3_k3_part_reduction", num(dl.has_hd3_direct_reduction, dl.hd3_direct_reduction), ok);
+    put(o, "rule_hd2", num(true, dl.rule_hd2), ok);
+    put(o, "rule_hd3", num(true, dl.rule_hd3), ok);
+    put(o, "sweep", sweep_array(pts, n, ok), ok);
+    return o;
+}
+
+json_t *tb_report_distortion_json(const tb_circuit *ckt, const tb_result *res)
+{
+    tb_distortion sum;
+    bool ok = true;
+    tb_distortion_get(res, &sum);
+    json_t *o = json_object();
+    put(o, "amp", num(true, sum.amp), &ok);
+    put(o, "freq_hz", num(true, sum.freq_hz), &ok);
+    put(o, "freq2_hz", num(true, sum.freq2_hz), &ok);
+    put(o, "limit_pct", num(true, sum.limit_pct), &ok);
+    put(o, "nonlinear_sources", json_integer((json_int_t)sum.nonlinear), &ok);
+    if (!sum.computed) {
+        put(o, "why_absent", json_string(sum.why_absent ? sum.why_absent : "not computed"), &ok);
+    } else {
+        put(o, "closed", case_object(&sum.closed, &ok), &ok);
+        json_t *loops = json_array();
+        for (size_t l = 0; l < tb_result_loops(res); l++) {
+            json_t *lo = loop_object(ckt, res, l, &ok);
+            if (!loops || !lo || json_array_append_new(loops, lo))
+                ok = false;
+        }
+        put(o, "loops", loops, &ok);
+    }
+    if (!ok) {
+        json_decref(o);
+        return NULL;
+    }
+    return o;
+}

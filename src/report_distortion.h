@@ -1,0 +1,18 @@
+/* src/report_distortion.h: the distortion section of the text, JSON and HTML reports */
+#ifndef TB_REPORT_DISTORTION_H
+#define TB_REPORT_DISTORTION_H
+
+#include <stdio.h>
+
+#include "result.h"
+
+struct json_t;
+
+/* The distortion section for people (nothing without .volterra). */
+void tb_report_distortion_text(const tb_circuit *ckt, const tb_result *res, FILE *out);
+
+/* The "distortion" object of the JSON report, full precision, null where absent; NULL when out
+ * of memory. */
+struct json_t *tb_report_distortion_json(const tb_circuit *ckt, const tb_result *res);
+
+#endif
