@@ -103,8 +103,23 @@ static json_t *num(bool present, double x)
 /* Adds key: val, remembering a failure in *ok. */
 static void put(json_t *obj, const char *key, json_t *val, bool *ok)
 {
-    if (!obj || !val || json_object_set_new(obj, key, val))
+    if (!obj) {
+        json_decref(val);
         *ok = false;
+    } else if (!val || json_object_set_new(obj, key, val)) {
+        *ok = false;
+    }
+}
+
+/* Appends val to arr, remembering a failure in *ok. */
+static void append(json_t *arr, json_t *val, bool *ok)
+{
+    if (!arr) {
+        json_decref(val);
+        *ok = false;
+    } else if (!val || json_array_append_new(arr, val)) {
+        *ok = false;
+    }
 }
 
 static json_t *ratio_object(const tb_dist_ratio *r, bool *ok)
@@ -150,8 +165,7 @@ static json_t *sweep_array(const tb_dist_sweep_point *p, size_t n, bool *ok)
         put(o, "hd3_open", num(p[i].has_open, p[i].hd3_open), ok);
         put(o, "T_mag", num(p[i].has_T, p[i].T_mag), ok);
         put(o, "series_valid", json_boolean(p[i].valid), ok);
-        if (!a || !o || json_array_append_new(a, o))
-            *ok = false;
+        append(a, o, ok);
     }
     return a;
 }
@@ -197,8 +211,7 @@ json_t *tb_report_distortion_json(const tb_circuit *ckt, const tb_result *res)
         json_t *loops = json_array();
         for (size_t l = 0; l < tb_result_loops(res); l++) {
             json_t *lo = loop_object(ckt, res, l, &ok);
-            if (!loops || !lo || json_array_append_new(loops, lo))
-                ok = false;
+            append(loops, lo, &ok);
         }
         put(o, "loops", loops, &ok);
     }
