@@ -11,6 +11,8 @@
  * the element values, never copied from tbeta. */
 #include "testutil.h"
 
+#include "expect.h"
+
 typedef struct {
     tb_circuit *ckt;
     tb_result *res;
@@ -196,6 +198,48 @@ static void test_distortion_absent(void **state)
     assert_int_equal(tb_distortion_get(NULL, &sum), TB_ERR_USAGE);
 }
 
+/* The .expect figures read the same numbers: HD2 and HD3 in dB and percent from b1, b2, b3, the
+ * reductions from the opened stage (closed forms above). */
+static void test_distortion_expect_figures(void **state)
+{
+    (void)state;
+    run r = analyse(memoryless);
+    double a1 = 1000, a2 = 200, a3 = -5000, beta = 0.1, U = 0.1;
+    double T = a1 * beta;
+    double b1 = a1 / (1 + T);
+    double hd2 = a2 / pow(1 + T, 3) * U / (2 * b1);
+    double hd3 = fabs(a3 * (1 + T) - 2 * a2 * a2 * beta) / pow(1 + T, 5) * U * U / (4 * b1);
+    struct {
+        const char *name;
+        double want;
+    } cases[] = {
+        {"hd2_db", 20 * log10(hd2)},
+        {"hd3_db", 20 * log10(hd3)},
+        {"hd2_pct", 100 * hd2},
+        {"hd3_pct", 100 * hd3},
+        {"im3_db", 20 * log10(3 * hd3)},
+        {"hd2_reduction", 1 + T},
+    };
+    tb_figure_value all[64];
+    assert_true(tb_figure_count() <= sizeof all / sizeof all[0]);
+    assert_int_equal(tb_figure_measure(r.res, 0, all), TB_OK);
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        int idx = tb_figure_find(cases[i].name, strlen(cases[i].name));
+        assert_true(idx >= 0);
+        assert_true(all[idx].present);
+        tu_close(all[idx].value, cases[i].want, 1e-9);
+    }
+    done(&r);
+    /* without .volterra every distortion figure is absent, with the reason */
+    r = analyse("none\nV1 in 0 AC 1\nE1 out 0 in 0 10 k2=1\nR2 out 0 1k\n.ac dec 1 10 100\n.loop E1\n"
+                ".io V1 v(out)\n");
+    assert_int_equal(tb_figure_measure(r.res, 0, all), TB_OK);
+    int idx = tb_figure_find("hd3_db", 6);
+    assert_false(all[idx].present);
+    assert_string_equal(all[idx].why, "no .volterra directive");
+    done(&r);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -205,6 +249,7 @@ int main(void)
         cmocka_unit_test(test_distortion_validity),
         cmocka_unit_test(test_distortion_factorizations),
         cmocka_unit_test(test_distortion_absent),
+        cmocka_unit_test(test_distortion_expect_figures),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
