@@ -4,7 +4,9 @@
 #include <jansson.h>
 #include <math.h>
 
+#include "alloc.h"
 #include "diag.h"
+#include "plot.h"
 #include "report.h"
 
 /* ---- text ------------------------------------------------------------------- */
@@ -220,4 +222,173 @@ json_t *tb_report_distortion_json(const tb_circuit *ckt, const tb_result *res)
         return NULL;
     }
     return o;
+}
+
+/* ---- HTML ------------------------------------------------------------------- */
+
+#define PIC_WIDTH 900.0
+#define PIC_LEFT 78.0
+#define PIC_PANEL_WIDTH (PIC_WIDTH - PIC_LEFT - 240.0)
+
+/* The columns of the picture: x, and HD2/HD3 with and without feedback in dB. */
+typedef struct {
+    double *x;
+    double *y[4];
+    bool *ok[4];
+} dist_columns;
+
+static void columns_free(dist_columns *c)
+{
+    tb_free(c->x);
+    for (int k = 0; k < 4; k++) {
+        tb_free(c->y[k]);
+        tb_free(c->ok[k]);
+    }
+}
+
+static bool columns_new(dist_columns *c, size_t n)
+{
+    *c = (dist_columns){tb_calloc(n, sizeof(double)), {NULL}, {NULL}};
+    bool ok = c->x != NULL;
+    for (int k = 0; k < 4; k++) {
+        c->y[k] = tb_calloc(n, sizeof(double));
+        c->ok[k] = tb_calloc(n, sizeof(bool));
+        ok = ok && c->y[k] && c->ok[k];
+    }
+    if (!ok)
+        columns_free(c);
+    return ok;
+}
+
+/* Fills the columns in dB; *lo and *hi span the values present. */
+static void columns_fill(dist_columns *c, const tb_dist_sweep_point *p, size_t n, double *lo, double *hi)
+{
+    *lo = INFINITY;
+    *hi = -INFINITY;
+    for (size_t i = 0; i < n; i++) {
+        c->x[i] = p[i].freq_hz;
+        double r[4] = {p[i].hd2_closed, p[i].hd2_open, p[i].hd3_closed, p[i].hd3_open};
+        bool has[4] = {p[i].has_closed, p[i].has_open, p[i].has_closed, p[i].has_open};
+        for (int k = 0; k < 4; k++) {
+            c->ok[k][i] = has[k] && r[k] > 0;
+            c->y[k][i] = c->ok[k][i] ? 20 * log10(r[k]) : 0;
+            if (c->ok[k][i]) {
+                *lo = fmin(*lo, c->y[k][i]);
+                *hi = fmax(*hi, c->y[k][i]);
+            }
+        }
+    }
+}
+
+/* The picture of loop l: HD2 and HD3 over the tone's frequency, as drawn and opened. */
+static tb_status sweep_picture(const tb_circuit *ckt, const tb_result *res, size_t l, FILE *out)
+{
+    tb_distortion_loop dl;
+    const tb_dist_sweep_point *p = NULL;
+    size_t n = 0;
+    tb_distortion_loop_get(res, l, &dl, &p, &n);
+    if (n < 2)
+        return TB_OK;
+    dist_columns c;
+    if (!columns_new(&c, n))
+        return TB_ERR_NOMEM;
+    double lo = 0, hi = 0;
+    columns_fill(&c, p, n, &lo, &hi);
+    if (!(lo <= hi)) {
+        columns_free(&c);
+        return TB_OK;
+    }
+    char title[300];
+    snprintf(title, sizeof title, "Harmonic distortion over the tone's frequency, loop %s",
+             ckt->elems[ckt->loops[l].elem].name);
+    tb_picture pic;
+    tb_plot_begin(&pic, out, PIC_WIDTH, 480, title);
+    tb_panel pan = {p[0].freq_hz, p[n - 1].freq_hz, floor(lo / 10) * 10 - 5, ceil(hi / 10) * 10 + 5, true, false,
+                    PIC_LEFT, 50, PIC_PANEL_WIDTH, 380};
+    tb_plot_axes(&pic, &pan, "tone frequency (Hz)", "distortion (dB re fundamental)");
+    static const char *const names[4] = {"HD2 with feedback", "HD2 loop opened", "HD3 with feedback",
+                                         "HD3 loop opened"};
+    static const tb_style styles[4] = {TB_STYLE_MAIN, TB_STYLE_SECOND, TB_STYLE_THIRD, TB_STYLE_FOURTH};
+    for (int k = 0; k < 4; k++) {
+        tb_plot_series(&pic, &pan, c.x, c.y[k], c.ok[k], n, styles[k]);
+        tb_plot_legend(&pic, styles[k], names[k]);
+    }
+    char note[120];
+    tb_distortion sum;
+    tb_distortion_get(res, &sum);
+    snprintf(note, sizeof note, "equal output amplitude; input %.4g", sum.amp);
+    tb_plot_text(&pic, pic.legend_x, pic.legend_y + 10, note);
+    bool ok = tb_plot_end(&pic);
+    columns_free(&c);
+    return ok ? TB_OK : TB_ERR_IO;
+}
+
+static void html_row(FILE *out, const char *label, const char *closed, const char *open)
+{
+    fputs("<tr><th>", out);
+    tb_plot_escape(out, label);
+    fputs("</th><td class=\"num\">", out);
+    tb_plot_escape(out, closed);
+    fputs("</td><td class=\"num\">", out);
+    tb_plot_escape(out, open);
+    fputs("</td></tr>\n", out);
+}
+
+static void html_table(FILE *out, const tb_distortion *sum, const tb_distortion_loop *dl)
+{
+    char a[96], b[96];
+    const tb_dist_case *c = &sum->closed;
+    const tb_dist_case *o = &dl->open;
+    bool on = dl->computed;
+    fputs("<table>\n<tr><th></th><th>with feedback</th><th>loop opened</th></tr>\n", out);
+    html_row(out, "HD2", fmt_ratio(&c->hd2, a, sizeof a), on ? fmt_ratio(&o->hd2, b, sizeof b) : "--");
+    html_row(out, "HD3", fmt_ratio(&c->hd3, a, sizeof a), on ? fmt_ratio(&o->hd3, b, sizeof b) : "--");
+    html_row(out, "IM2 (f1+f2)", fmt_ratio(&c->im2, a, sizeof a), on ? fmt_ratio(&o->im2, b, sizeof b) : "--");
+    html_row(out, "IM3 (2f1-f2)", fmt_ratio(&c->im3, a, sizeof a), on ? fmt_ratio(&o->im3, b, sizeof b) : "--");
+    snprintf(a, sizeof a, c->has_iip3 ? "%.4g" : "--", c->iip3);
+    snprintf(b, sizeof b, on && o->has_iip3 ? "%.4g" : "--", o->iip3);
+    html_row(out, "input-referred IP3 (per tone)", a, b);
+    snprintf(a, sizeof a, "%s", c->valid ? "holds" : "amplitude too large");
+    snprintf(b, sizeof b, "%s", !on ? "--" : o->valid ? "holds" : "amplitude too large");
+    html_row(out, "third-order series", a, b);
+    fputs("</table>\n", out);
+    if (!on)
+        return;
+    fprintf(out, "<p>Feedback reduces HD2 %.4g times (memoryless rule |1+T| = %.4g) and HD3 %.4g times (its k3 "
+                 "part %.4g times; the rest is the second-order interaction), T = %.4g%+.4gj at the tone.</p>\n",
+            dl->hd2_reduction, dl->rule_hd2, dl->hd3_reduction, dl->hd3_direct_reduction, creal(dl->T),
+            cimag(dl->T));
+}
+
+tb_status tb_report_distortion_html(const tb_circuit *ckt, const tb_result *res, FILE *out)
+{
+    tb_distortion sum;
+    char f1[64];
+    if (!ckt->volterra.given)
+        return TB_OK;
+    tb_distortion_get(res, &sum);
+    fputs("<h2>Distortion (Volterra series to third order)</h2>\n<p>", out);
+    if (!sum.computed) {
+        tb_plot_escape(out, sum.why_absent ? sum.why_absent : "not computed");
+        fputs("</p>\n", out);
+        return ferror(out) ? TB_ERR_IO : TB_OK;
+    }
+    fprintf(out, "Input %.5g peak per tone at %s; with the loop opened the source is driven for the same output "
+                 "amplitude.</p>\n",
+            sum.amp, tb_format_hz(sum.freq_hz, 5, f1, sizeof f1));
+    for (size_t l = 0; l < tb_result_loops(res); l++) {
+        tb_distortion_loop dl;
+        tb_distortion_loop_get(res, l, &dl, NULL, NULL);
+        fputs("<h3>Loop at ", out);
+        tb_plot_escape(out, ckt->elems[ckt->loops[l].elem].name);
+        fputs("</h3>\n", out);
+        html_table(out, &sum, &dl);
+        fputs("<figure>\n", out);
+        tb_status st = sweep_picture(ckt, res, l, out);
+        if (st)
+            return st;
+        fputs("<figcaption>HD2 and HD3 over frequency, with feedback and with the loop opened, at equal output "
+              "amplitude.</figcaption>\n</figure>\n", out);
+    }
+    return ferror(out) ? TB_ERR_IO : TB_OK;
 }

@@ -15,4 +15,9 @@ void tb_report_distortion_text(const tb_circuit *ckt, const tb_result *res, FILE
  * of memory. */
 struct json_t *tb_report_distortion_json(const tb_circuit *ckt, const tb_result *res);
 
+/* The HTML section: the figures as a table per loop and the picture of HD2 and HD3 over
+ * frequency with and without the loop's feedback, as inline SVG (nothing without .volterra).
+ * Errors: TB_ERR_NOMEM, TB_ERR_IO. */
+tb_status tb_report_distortion_html(const tb_circuit *ckt, const tb_result *res, FILE *out);
+
 #endif
