@@ -969,18 +969,23 @@ typedef struct {
 typedef struct {
     bool computed;
     const char *why_absent;
-    double complex T;            /* return ratio at freq */
+    double complex T;            /* return ratio at freq (0 when infinite there) */
     tb_dist_case open;
     bool has_hd2_reduction;
     double hd2_reduction;        /* HD2 open / HD2 closed */
     bool has_hd3_reduction;
     double hd3_reduction;        /* HD3 open / HD3 closed */
     bool has_hd3_direct_reduction;
-    double hd3_direct_reduction; /* HD3 open / the closed loop's k3-driven part */
-    double rule_hd2;             /* |1 + T|: the memoryless rule for HD2 at equal output amplitude */
-    double rule_hd3;             /* |1 + T|: the memoryless rule for the k3-driven part of HD3 at
-                                  * equal output amplitude (the second-order interaction moves the
-                                  * whole of HD3 away from it; docs/distortion.md) */
+    double hd3_direct_reduction; /* the k3-driven part of HD3, open over closed */
+    bool has_rule_hd2;           /* T finite at 2 freq */
+    double complex T_2f;         /* T at 2 freq */
+    double rule_hd2;             /* |1 + T(2f)|: the rule for HD2 at equal output amplitude (exact for
+                                  * a memoryless stage, where T is the same at every frequency) */
+    bool has_rule_hd3;           /* T finite at 3 freq */
+    double complex T_3f;         /* T at 3 freq */
+    double rule_hd3;             /* |1 + T(3f)|: the rule for the k3-driven part of HD3 at equal output
+                                  * amplitude (the second-order interaction moves the whole of HD3
+                                  * away from it; docs/distortion.md) */
 } tb_distortion_loop;
 
 /* HD2 and HD3 at one tone frequency of the sweep, as ratios (0: vanishes), with and

@@ -40,8 +40,8 @@ typedef struct {
     double *drive;      /* ncase */
     bool *ok;           /* ncase: the case exists at every frequency solved so far */
     const char **why;   /* ncase: why not */
-    double complex *T;  /* nloops: T at the last first-order frequency */
-    bool *T_ok;         /* nloops: T was finite there */
+    double complex *T;  /* 3 x nloops: T at the last tone f, at 2f and at 3f */
+    bool *T_ok;         /* 3 x nloops: T was finite there */
     double complex *B;  /* n x (2 ncase + nloops): right-hand sides, then w_l = M^-1 u_l */
     double complex *X1; /* n x ncase: first order at f1 */
     double complex *X2; /* n x ncase: second order at 2 f1 */
@@ -67,15 +67,16 @@ static double complex *col(const dist_work *dw, double complex *base, size_t j)
 }
 
 /* Solves M(j 2 pi f) X = B for per columns of each case (case-major), the opened cases by
- * Sherman-Morrison; T_out (nloops, may be NULL) receives T at f. A singular matrix marks
+ * Sherman-Morrison; T_out and T_ok (nloops each, or NULL) receive T at f and whether it is
+ * finite. A singular matrix marks
  * every case absent and returns TB_OK. */
-static tb_status solve_at(dist_work *dw, double f, size_t per, double complex *T_out)
+static tb_status solve_at(dist_work *dw, double f, size_t per, double complex *T_out, bool *T_ok)
 {
     size_t culprit = 0;
     tb_status st = tb_probe_factor(dw->probe, f, false, &culprit);
     if (st == TB_ERR_SINGULAR) {
-        for (size_t l = 0; T_out && l < dw->nloops; l++)
-            dw->T_ok[l] = false;
+        for (size_t l = 0; T_ok && l < dw->nloops; l++)
+            T_ok[l] = false;
         for (size_t c = 0; c < dw->ncase; c++)
             if (dw->ok[c]) {
                 dw->ok[c] = false;
@@ -101,7 +102,7 @@ static tb_status solve_at(dist_work *dw, double f, size_t per, double complex *T
         bool inf = cabs(1 - q) <= TB_LOOP_INF_TOL;
         if (T_out) {
             T_out[l] = inf ? 0 : q / (1 - q);
-            dw->T_ok[l] = !inf;
+            T_ok[l] = !inf;
         }
         if (inf && dw->ok[1 + l]) {
             dw->ok[1 + l] = false;
@@ -147,10 +148,10 @@ static double complex out_of(const dist_work *dw, const double complex *X)
 }
 
 /* Order 1 at f into X1 with each opened case's drive set for the output amplitude of case 0. */
-static tb_status order_one(dist_work *dw, double f, double complex *T)
+static tb_status order_one(dist_work *dw, double f)
 {
     first_order_rhs(dw, true);
-    tb_status st = solve_at(dw, f, 1, T);
+    tb_status st = solve_at(dw, f, 1, dw->T, dw->T_ok);
     if (st)
         return st;
     memcpy(dw->X1, dw->B, dw->ncase * dw->n * sizeof *dw->B);
@@ -170,13 +171,13 @@ static tb_status order_one(dist_work *dw, double f, double complex *T)
 }
 
 /* The harmonics of the tone f: X1 (f), X2 (2f), then third order at 3f into raw. */
-static tb_status harmonics(dist_work *dw, double f, double complex *T, dist_raw *raw)
+static tb_status harmonics(dist_work *dw, double f, dist_raw *raw)
 {
     for (size_t c = 0; c < dw->ncase; c++) {
         dw->ok[c] = true;
         dw->why[c] = NULL;
     }
-    tb_status st = order_one(dw, f, T);
+    tb_status st = order_one(dw, f);
     clear(dw, dw->ncase);
     for (size_t c = 0; !st && c < dw->ncase; c++)
         for (size_t s = 0; s < dw->nsrc; s++) {
@@ -185,7 +186,7 @@ static tb_status harmonics(dist_work *dw, double f, double complex *T, dist_raw 
             tb_svec_axpy(&ns->lv.u, -ns->k2 * x1 * x1 / 2, col(dw, dw->B, c));
         }
     if (!st)
-        st = solve_at(dw, 2 * f, 1, NULL);
+        st = solve_at(dw, 2 * f, 1, dw->T + dw->nloops, dw->T_ok + dw->nloops);
     if (st)
         return st;
     memcpy(dw->X2, dw->B, dw->ncase * dw->n * sizeof *dw->B);
@@ -198,7 +199,7 @@ static tb_status harmonics(dist_work *dw, double f, double complex *T, dist_raw 
             tb_svec_axpy(&ns->lv.u, -ns->k3 * x1 * x1 * x1 / 4, col(dw, dw->B, 2 * c));
             tb_svec_axpy(&ns->lv.u, -ns->k2 * x1 * x2, col(dw, dw->B, 2 * c + 1));
         }
-    st = solve_at(dw, 3 * f, 2, NULL);
+    st = solve_at(dw, 3 * f, 2, dw->T + 2 * dw->nloops, dw->T_ok + 2 * dw->nloops);
     for (size_t c = 0; !st && c < dw->ncase; c++) {
         raw[c].y1 = out_of(dw, col(dw, dw->X1, c));
         raw[c].y2 = out_of(dw, col(dw, dw->X2, c));
@@ -228,18 +229,18 @@ static void second_mix_rhs(dist_work *dw, bool sum)
 static tb_status intermodulation(dist_work *dw, double f1, double f2, dist_raw *raw)
 {
     first_order_rhs(dw, false);
-    tb_status st = solve_at(dw, f2, 1, NULL);
+    tb_status st = solve_at(dw, f2, 1, NULL, NULL);
     if (st)
         return st;
     memcpy(dw->Xb, dw->B, dw->ncase * dw->n * sizeof *dw->B);
     second_mix_rhs(dw, false);
-    if ((st = solve_at(dw, f2 - f1, 1, NULL)))
+    if ((st = solve_at(dw, f2 - f1, 1, NULL, NULL)))
         return st;
     memcpy(dw->Xd, dw->B, dw->ncase * dw->n * sizeof *dw->B);
     for (size_t c = 0; c < dw->ncase; c++)
         raw[c].ydiff = out_of(dw, col(dw, dw->Xd, c));
     second_mix_rhs(dw, true);
-    if ((st = solve_at(dw, f1 + f2, 1, NULL)))
+    if ((st = solve_at(dw, f1 + f2, 1, NULL, NULL)))
         return st;
     for (size_t c = 0; c < dw->ncase; c++)
         raw[c].ysum = out_of(dw, col(dw, dw->B, c));
@@ -255,7 +256,7 @@ static tb_status intermodulation(dist_work *dw, double f1, double f2, dist_raw *
             double complex p = ns->k2 * (x2a * conj(xb) + xa * conj(xd)) + ns->k3 * 0.75 * xa * xa * conj(xb);
             tb_svec_axpy(&ns->lv.u, -p, col(dw, dw->B, c));
         }
-    if ((st = solve_at(dw, 2 * f1 - f2, 1, NULL)))
+    if ((st = solve_at(dw, 2 * f1 - f2, 1, NULL, NULL)))
         return st;
     for (size_t c = 0; c < dw->ncase; c++)
         raw[c].yim3 = out_of(dw, col(dw, dw->B, c));
@@ -302,26 +303,32 @@ static void absent_case(tb_dist_case *dc, const char *why)
     *dc = (tb_dist_case){.computed = false, .why_absent = why};
 }
 
-/* Open against closed, and the memoryless rules, for loop l. */
-static void compare(tb_distortion_loop *dl, const tb_dist_case *closed, double complex T)
+/* Open against closed, and the memoryless rules at the harmonics' own frequencies, for loop l
+ * (T: at f, 2f, 3f, with T_ok). */
+static void compare(tb_distortion_loop *dl, const tb_dist_case *closed, const double complex *T, const bool *T_ok)
 {
     const tb_dist_case *open = &dl->open;
-    dl->T = T;
-    dl->rule_hd2 = cabs(1 + T);
-    dl->rule_hd3 = dl->rule_hd2;
+    dl->T = T[0];
+    dl->has_rule_hd2 = T_ok[1];
+    dl->T_2f = T[1];
+    dl->rule_hd2 = T_ok[1] ? cabs(1 + T[1]) : 0;
+    dl->has_rule_hd3 = T_ok[2];
+    dl->T_3f = T[2];
+    dl->rule_hd3 = T_ok[2] ? cabs(1 + T[2]) : 0;
     dl->has_hd2_reduction = closed->hd2.ratio > 0 && open->hd2.ratio > 0;
     dl->hd2_reduction = dl->has_hd2_reduction ? open->hd2.ratio / closed->hd2.ratio : 0;
     dl->has_hd3_reduction = closed->hd3.ratio > 0 && open->hd3.ratio > 0;
     dl->hd3_reduction = dl->has_hd3_reduction ? open->hd3.ratio / closed->hd3.ratio : 0;
-    dl->has_hd3_direct_reduction = closed->hd3_direct.ratio > 0 && open->hd3.ratio > 0;
-    dl->hd3_direct_reduction = dl->has_hd3_direct_reduction ? open->hd3.ratio / closed->hd3_direct.ratio : 0;
+    dl->has_hd3_direct_reduction = closed->hd3_direct.ratio > 0 && open->hd3_direct.ratio > 0;
+    dl->hd3_direct_reduction =
+        dl->has_hd3_direct_reduction ? open->hd3_direct.ratio / closed->hd3_direct.ratio : 0;
 }
 
 /* At the stated amplitude and tones: the circuit as drawn into dd->sum.closed, each loop's
  * opened case into dd->loops. */
 static tb_status at_tone(dist_work *dw, const tb_volterra_spec *vs, dist_raw *raw, bool *hd_ok, tb_dist_data *dd)
 {
-    tb_status st = harmonics(dw, vs->freq_hz, dw->T, raw);
+    tb_status st = harmonics(dw, vs->freq_hz, raw);
     if (st)
         return st;
     memcpy(hd_ok, dw->ok, dw->ncase * sizeof *hd_ok);
@@ -343,8 +350,10 @@ static tb_status at_tone(dist_work *dw, const tb_volterra_spec *vs, dist_raw *ra
         tb_distortion_loop *dl = &dd->loops[l];
         dl->computed = dd->sum.closed.computed && dl->open.computed;
         dl->why_absent = !dd->sum.closed.computed ? dd->sum.closed.why_absent : dl->open.why_absent;
+        const double complex T[3] = {dw->T[l], dw->T[dw->nloops + l], dw->T[2 * dw->nloops + l]};
+        const bool T_ok[3] = {dw->T_ok[l], dw->T_ok[dw->nloops + l], dw->T_ok[2 * dw->nloops + l]};
         if (dl->computed)
-            compare(dl, &dd->sum.closed, dw->T[l]);
+            compare(dl, &dd->sum.closed, T, T_ok);
     }
     return TB_OK;
 }
@@ -357,7 +366,7 @@ static tb_status sweep(dist_work *dw, const tb_result *res, const tb_volterra_sp
     size_t stride = (res->npoints + count - 1) / count;
     for (size_t i = 0; i < count; i++) {
         double f = res->freqs[i * stride];
-        tb_status st = harmonics(dw, f, dw->T, raw);
+        tb_status st = harmonics(dw, f, raw);
         if (st)
             return st;
         double closed_hd3 = cabs(raw[0].y3_direct + raw[0].y3_inter) / cabs(raw[0].y1);
@@ -435,8 +444,8 @@ static tb_status work_new(const tb_circuit *ckt, tb_probe *probe, dist_work *dw)
     dw->drive = tb_calloc(nc, sizeof *dw->drive);
     dw->ok = tb_calloc(nc, sizeof *dw->ok);
     dw->why = tb_calloc(nc, sizeof *dw->why);
-    dw->T = tb_calloc(nc, sizeof *dw->T);
-    dw->T_ok = tb_calloc(nc, sizeof *dw->T_ok);
+    dw->T = tb_calloc(3 * nc, sizeof *dw->T);
+    dw->T_ok = tb_calloc(3 * nc, sizeof *dw->T_ok);
     dw->B = tb_calloc(n * (2 * nc + dw->nloops), sizeof *dw->B);
     dw->X1 = tb_calloc(n * nc, sizeof *dw->X1);
     dw->X2 = tb_calloc(n * nc, sizeof *dw->X2);

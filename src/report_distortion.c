@@ -64,10 +64,14 @@ static void loop_lines(FILE *out, const tb_circuit *ckt, const tb_result *res, c
                  "fundamental\n",
             name, creal(dl.T), cimag(dl.T), dl.open.drive, current ? "A" : "V");
     case_lines(out, &dl.open, sum->limit_pct, current ? "A" : "V");
-    snprintf(v, sizeof v, "HD2 %.4g times (rule |1+T| = %.4g)", dl.hd2_reduction, dl.rule_hd2);
+    char r2[48], r3[48];
+    snprintf(r2, sizeof r2, dl.has_rule_hd2 ? "%.4g" : "--", dl.rule_hd2);
+    snprintf(r3, sizeof r3, dl.has_rule_hd3 ? "%.4g" : "--", dl.rule_hd3);
+    snprintf(v, sizeof v, "HD2 %.4g times (rule |1+T(2f)| = %s; |1+T(f)| = %.4g)", dl.hd2_reduction, r2,
+             cabs(1 + dl.T));
     row(out, "feedback reduces", dl.has_hd2_reduction ? v : "HD2 --");
-    snprintf(v, sizeof v, "HD3 %.4g times; its k3 part %.4g times (rule |1+T| = %.4g)", dl.hd3_reduction,
-             dl.hd3_direct_reduction, dl.rule_hd3);
+    snprintf(v, sizeof v, "HD3 %.4g times; its k3 part %.4g times (rule |1+T(3f)| = %s)", dl.hd3_reduction,
+             dl.hd3_direct_reduction, r3);
     row(out, "", dl.has_hd3_reduction && dl.has_hd3_direct_reduction ? v : "HD3 --");
 }
 
@@ -189,8 +193,12 @@ static json_t *loop_object(const tb_circuit *ckt, const tb_result *res, size_t l
     put(o, "hd2_reduction", num(dl.has_hd2_reduction, dl.hd2_reduction), ok);
     put(o, "hd3_reduction", num(dl.has_hd3_reduction, dl.hd3_reduction), ok);
     put(o, "hd3_k3_part_reduction", num(dl.has_hd3_direct_reduction, dl.hd3_direct_reduction), ok);
-    put(o, "rule_hd2", num(true, dl.rule_hd2), ok);
-    put(o, "rule_hd3", num(true, dl.rule_hd3), ok);
+    put(o, "T_2f", dl.has_rule_hd2 ? json_pack("{s:f,s:f}", "re", creal(dl.T_2f), "im", cimag(dl.T_2f))
+                                   : json_null(), ok);
+    put(o, "T_3f", dl.has_rule_hd3 ? json_pack("{s:f,s:f}", "re", creal(dl.T_3f), "im", cimag(dl.T_3f))
+                                   : json_null(), ok);
+    put(o, "rule_hd2", num(dl.has_rule_hd2, dl.rule_hd2), ok);
+    put(o, "rule_hd3", num(dl.has_rule_hd3, dl.rule_hd3), ok);
     put(o, "sweep", sweep_array(pts, n, ok), ok);
     return o;
 }
@@ -354,10 +362,11 @@ static void html_table(FILE *out, const tb_distortion *sum, const tb_distortion_
     fputs("</table>\n", out);
     if (!on)
         return;
-    fprintf(out, "<p>Feedback reduces HD2 %.4g times (memoryless rule |1+T| = %.4g) and HD3 %.4g times (its k3 "
-                 "part %.4g times; the rest is the second-order interaction), T = %.4g%+.4gj at the tone.</p>\n",
-            dl->hd2_reduction, dl->rule_hd2, dl->hd3_reduction, dl->hd3_direct_reduction, creal(dl->T),
-            cimag(dl->T));
+    fprintf(out, "<p>Feedback reduces HD2 %.4g times (rule |1+T(2f)| = %.4g) and HD3 %.4g times (its k3 part "
+                 "%.4g times, rule |1+T(3f)| = %.4g; the rest is the second-order interaction), T = %.4g%+.4gj "
+                 "at the tone.</p>\n",
+            dl->hd2_reduction, dl->rule_hd2, dl->hd3_reduction, dl->hd3_direct_reduction, dl->rule_hd3,
+            creal(dl->T), cimag(dl->T));
 }
 
 tb_status tb_report_distortion_html(const tb_circuit *ckt, const tb_result *res, FILE *out)

@@ -240,6 +240,34 @@ static void test_distortion_expect_figures(void **state)
     done(&r);
 }
 
+/* A loop with memory: G1 drives R || C at out, Efb feeds back beta v(out), so
+ * T(jw) = gm beta R/(1 + jw R C) (written out by hand). The harmonics G1 makes are currents at
+ * the node the loop senses, so at equal output amplitude feedback divides HD2 by |1 + T(2jw)|
+ * and the k3 part of HD3 by |1 + T(3jw)|, not by |1 + T(jw)| (the distortion is fed back at its
+ * own frequency: common practice, here exact because beta is memoryless and A0 = 0). */
+static void test_distortion_rule_at_harmonics(void **state)
+{
+    (void)state;
+    const char *text = "one-pole loop\nV1 in 0 AC 1\nG1 0 out in fb 10m k2=5m k3=-20m\nR1 out 0 100k\n"
+                       "C1 out 0 1n\nEfb fb 0 out 0 0.5\n.ac dec 2 100 100k\n.loop G1\n.io V1 v(out)\n"
+                       ".volterra amp=10m freq=20k\n";
+    run r = analyse(text);
+    double gm = 10e-3, R = 100e3, C = 1e-9, beta = 0.5, w = 2 * TU_PI * 20e3;
+    double complex T1 = gm * beta * R / (1 + I * w * R * C);
+    double complex T2 = gm * beta * R / (1 + 2 * I * w * R * C);
+    double complex T3 = gm * beta * R / (1 + 3 * I * w * R * C);
+    assert_true(r.dl.computed);
+    tu_close(r.dl.T, T1, 1e-12);
+    tu_close(r.dl.T_2f, T2, 1e-12);
+    tu_close(r.dl.T_3f, T3, 1e-12);
+    tu_close(r.dl.rule_hd2, cabs(1 + T2), 1e-12);
+    tu_close(r.dl.hd2_reduction, cabs(1 + T2), 1e-9);
+    tu_close(r.dl.hd3_direct_reduction, cabs(1 + T3), 1e-9);
+    /* the interaction makes the whole of HD3 differ from the rule */
+    assert_true(fabs(r.dl.hd3_reduction / cabs(1 + T3) - 1) > 1e-3);
+    done(&r);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -249,6 +277,7 @@ int main(void)
         cmocka_unit_test(test_distortion_validity),
         cmocka_unit_test(test_distortion_factorizations),
         cmocka_unit_test(test_distortion_absent),
+        cmocka_unit_test(test_distortion_rule_at_harmonics),
         cmocka_unit_test(test_distortion_expect_figures),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
