@@ -176,14 +176,14 @@ static json_t *sweep_array(const tb_dist_sweep_point *p, size_t n, bool *ok)
     return a;
 }
 
-static json_t *loop_object(const tb_circuit *ckt, const tb_result *res, size_t l, bool *ok)
+static json_t *loop_object(const tb_circuit *ckt, const tb_result *res, size_t l, tb_json_text_fn text, bool *ok)
 {
     tb_distortion_loop dl;
     const tb_dist_sweep_point *pts = NULL;
     size_t n = 0;
     tb_distortion_loop_get(res, l, &dl, &pts, &n);
     json_t *o = json_object();
-    put(o, "source", tb_report_json_text(ckt->elems[ckt->loops[l].elem].name), ok);
+    put(o, "source", text(ckt->elems[ckt->loops[l].elem].name), ok);
     if (!dl.computed) {
         put(o, "why_absent", json_string(dl.why_absent ? dl.why_absent : "not computed"), ok);
         return o;
@@ -203,7 +203,7 @@ static json_t *loop_object(const tb_circuit *ckt, const tb_result *res, size_t l
     return o;
 }
 
-json_t *tb_report_distortion_json(const tb_circuit *ckt, const tb_result *res)
+json_t *tb_report_distortion_json(const tb_circuit *ckt, const tb_result *res, tb_json_text_fn text)
 {
     tb_distortion sum;
     bool ok = true;
@@ -220,7 +220,7 @@ json_t *tb_report_distortion_json(const tb_circuit *ckt, const tb_result *res)
         put(o, "closed", case_object(&sum.closed, &ok), &ok);
         json_t *loops = json_array();
         for (size_t l = 0; l < tb_result_loops(res); l++) {
-            json_t *lo = loop_object(ckt, res, l, &ok);
+            json_t *lo = loop_object(ckt, res, l, text, &ok);
             append(loops, lo, &ok);
         }
         put(o, "loops", loops, &ok);

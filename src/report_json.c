@@ -673,7 +673,7 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
     if (tb_result_has_census(res))
         set(b, root, "census", census_array(b, res));
     if (ckt->volterra.given)
-        set(b, root, "distortion", tb_report_distortion_json(ckt, res));
+        set(b, root, "distortion", tb_report_distortion_json(ckt, res, tb_report_json_text));
     set(b, root, "caution", json_string(tb_report_caution));
     return root;
 }
