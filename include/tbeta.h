@@ -989,9 +989,10 @@ typedef struct {
 } tb_distortion_loop;
 
 /* HD2 and HD3 at one tone frequency of the sweep, as ratios (0: vanishes), with and
- * without loop l's feedback. */
+ * without loop l's feedback, at the output amplitude of the stated tone (the input scaled). */
 typedef struct {
     double freq_hz;
+    double amp;                  /* the input amplitude that gives that output here */
     bool has_closed;
     double hd2_closed;
     double hd3_closed;
@@ -1000,7 +1001,10 @@ typedef struct {
     double hd3_open;
     bool has_T;
     double T_mag;                /* |T| at the tone */
-    bool valid;                  /* every third-order term within the limit */
+    bool valid;                  /* both within the limit (below) */
+    bool valid_closed;           /* 3 HD3 with feedback within the .volterra limit (IM3 of a
+                                  * memoryless cubic is 3 HD3) */
+    bool valid_open;             /* likewise with the loop opened */
 } tb_dist_sweep_point;
 
 /* The distortion summary (computed false without .volterra, with why_absent). Errors:

@@ -32,6 +32,7 @@ typedef struct {
     tb_probe *probe;
     const tb_mna *mna;
     double amp;
+    double target;      /* > 0: the output amplitude to hold by scaling the input (the sweep) */
     size_t n;
     size_t nloops;
     size_t ncase;
@@ -156,16 +157,20 @@ static tb_status order_one(dist_work *dw, double f)
         return st;
     memcpy(dw->X1, dw->B, dw->ncase * dw->n * sizeof *dw->B);
     double y0 = cabs(out_of(dw, dw->X1));
+    /* holding the output (the sweep): the input is scaled so that |y0| is the target */
+    double in_scale = dw->target > 0 && y0 > 0 ? dw->target / y0 : 1.0;
+    y0 *= in_scale;
     for (size_t c = 0; c < dw->ncase; c++) {
         double complex *X = col(dw, dw->X1, c);
-        double g = cabs(out_of(dw, X));
-        if (dw->ok[c] && (y0 == 0 || g == 0)) {
+        double g = c == 0 ? y0 : cabs(out_of(dw, X));
+        if (dw->ok[c] && (y0 == 0 || g == 0 || !isfinite(in_scale))) {
             dw->ok[c] = false;
-            dw->why[c] = y0 == 0 ? WHY_DEAF : WHY_OPEN_DEAF;
+            dw->why[c] = y0 == 0 || !isfinite(in_scale) ? WHY_DEAF : WHY_OPEN_DEAF;
         }
-        dw->drive[c] = c == 0 ? dw->amp : dw->ok[c] ? y0 / g : 0;
-        for (size_t i = 0; c > 0 && i < dw->n; i++)
-            X[i] *= dw->drive[c];
+        dw->drive[c] = c == 0 ? dw->amp * in_scale : dw->ok[c] ? y0 / g : 0;
+        double scale = c == 0 ? in_scale : dw->drive[c];
+        for (size_t i = 0; i < dw->n; i++)
+            X[i] *= scale;
     }
     return TB_OK;
 }
@@ -268,6 +273,8 @@ static tb_status intermodulation(dist_work *dw, double f1, double f2, dist_raw *
 static tb_dist_ratio ratio_of(double complex y, double fund)
 {
     double r = cabs(y) / fund;
+    if (!isfinite(r))
+        return (tb_dist_ratio){.present = false}; /* beyond a double: the series is long gone */
     return (tb_dist_ratio){.present = true, .ratio = r, .has_db = r > 0, .db = r > 0 ? 20 * log10(r) : 0};
 }
 
@@ -283,7 +290,7 @@ static void fill_harmonics(tb_dist_case *dc, const dist_raw *raw, double drive, 
     dc->hd3_direct = ratio_of(raw->y3_direct, dc->fund);
     dc->hd3_inter = ratio_of(raw->y3_inter, dc->fund);
     dc->third = dc->hd3.ratio;
-    dc->valid = 100 * dc->third <= limit_pct;
+    dc->valid = dc->hd3.present && 100 * dc->third <= limit_pct;
 }
 
 /* The intermodulation figures of one case (after fill_harmonics). */
@@ -292,10 +299,10 @@ static void fill_intermodulation(tb_dist_case *dc, const dist_raw *raw, double l
     dc->im2 = ratio_of(raw->ysum, dc->fund);
     dc->im2_diff = ratio_of(raw->ydiff, dc->fund);
     dc->im3 = ratio_of(raw->yim3, dc->fund);
-    dc->has_iip3 = dc->im3.ratio > 0;
+    dc->has_iip3 = dc->im3.ratio > 0 && isfinite(dc->drive / sqrt(dc->im3.ratio));
     dc->iip3 = dc->has_iip3 ? dc->drive / sqrt(dc->im3.ratio) : 0;
     dc->third = fmax(dc->hd3.ratio, dc->im3.ratio);
-    dc->valid = 100 * dc->third <= limit_pct;
+    dc->valid = dc->hd3.present && dc->im3.present && 100 * dc->third <= limit_pct;
 }
 
 static void absent_case(tb_dist_case *dc, const char *why)
@@ -358,12 +365,14 @@ static tb_status at_tone(dist_work *dw, const tb_volterra_spec *vs, dist_raw *ra
     return TB_OK;
 }
 
-/* HD2 and HD3 with and without each loop's feedback at every kept grid frequency. */
+/* HD2 and HD3 with and without each loop's feedback at every kept grid frequency, the input
+ * scaled at each so that the output amplitude is that of the stated tone. */
 static tb_status sweep(dist_work *dw, const tb_result *res, const tb_volterra_spec *vs, dist_raw *raw,
                        tb_dist_data *dd)
 {
     size_t count = dd->sum.sweep_points;
     size_t stride = (res->npoints + count - 1) / count;
+    dw->target = dd->sum.closed.fund; /* the output amplitude at the stated tone */
     for (size_t i = 0; i < count; i++) {
         double f = res->freqs[i * stride];
         tb_status st = harmonics(dw, f, raw);
@@ -373,7 +382,8 @@ static tb_status sweep(dist_work *dw, const tb_result *res, const tb_volterra_sp
         for (size_t l = 0; l < dw->nloops; l++) {
             tb_dist_sweep_point *p = &dd->pts[l * count + i];
             const dist_raw *r = &raw[1 + l];
-            *p = (tb_dist_sweep_point){.freq_hz = f, .has_closed = dw->ok[0], .has_open = dw->ok[1 + l]};
+            *p = (tb_dist_sweep_point){.freq_hz = f, .amp = dw->drive[0], .has_closed = dw->ok[0],
+                                       .has_open = dw->ok[1 + l]};
             if (p->has_closed) {
                 p->hd2_closed = cabs(raw[0].y2) / cabs(raw[0].y1);
                 p->hd3_closed = closed_hd3;
@@ -386,7 +396,15 @@ static tb_status sweep(dist_work *dw, const tb_result *res, const tb_volterra_sp
             p->T_mag = p->has_T ? cabs(dw->T[l]) : 0;
             /* IM3 of a memoryless cubic is three times HD3 (common practice): the sweep, which
              * computes HD3 alone, judges the series by 3 HD3 */
-            p->valid = 300 * fmax(p->hd3_closed, p->hd3_open) <= vs->limit_pct;
+            p->has_closed = p->has_closed && isfinite(p->hd2_closed) && isfinite(p->hd3_closed);
+            p->has_open = p->has_open && isfinite(p->hd2_open) && isfinite(p->hd3_open);
+            if (!p->has_closed)
+                p->hd2_closed = p->hd3_closed = 0;
+            if (!p->has_open)
+                p->hd2_open = p->hd3_open = 0;
+            p->valid_closed = p->has_closed && 300 * p->hd3_closed <= vs->limit_pct;
+            p->valid_open = p->has_open && 300 * p->hd3_open <= vs->limit_pct;
+            p->valid = p->valid_closed && p->valid_open;
         }
     }
     return TB_OK;

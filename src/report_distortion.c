@@ -165,12 +165,14 @@ static json_t *sweep_array(const tb_dist_sweep_point *p, size_t n, bool *ok)
     for (size_t i = 0; i < n; i++) {
         json_t *o = json_object();
         put(o, "freq_hz", num(true, p[i].freq_hz), ok);
+        put(o, "amp", num(true, p[i].amp), ok);
         put(o, "hd2", num(p[i].has_closed, p[i].hd2_closed), ok);
         put(o, "hd3", num(p[i].has_closed, p[i].hd3_closed), ok);
         put(o, "hd2_open", num(p[i].has_open, p[i].hd2_open), ok);
         put(o, "hd3_open", num(p[i].has_open, p[i].hd3_open), ok);
         put(o, "T_mag", num(p[i].has_T, p[i].T_mag), ok);
-        put(o, "series_valid", json_boolean(p[i].valid), ok);
+        put(o, "series_valid", json_boolean(p[i].valid_closed), ok);
+        put(o, "series_valid_open", json_boolean(p[i].valid_open), ok);
         append(a, o, ok);
     }
     return a;
@@ -276,7 +278,8 @@ static void columns_fill(dist_columns *c, const tb_dist_sweep_point *p, size_t n
     for (size_t i = 0; i < n; i++) {
         c->x[i] = p[i].freq_hz;
         double r[4] = {p[i].hd2_closed, p[i].hd2_open, p[i].hd3_closed, p[i].hd3_open};
-        bool has[4] = {p[i].has_closed, p[i].has_open, p[i].has_closed, p[i].has_open};
+        /* a point beyond the series' limit is left out: the series says nothing there */
+        bool has[4] = {p[i].valid_closed, p[i].valid_open, p[i].valid_closed, p[i].valid_open};
         for (int k = 0; k < 4; k++) {
             c->ok[k][i] = has[k] && r[k] > 0;
             c->y[k][i] = c->ok[k][i] ? 20 * log10(r[k]) : 0;
@@ -324,8 +327,10 @@ static tb_status sweep_picture(const tb_circuit *ckt, const tb_result *res, size
     char note[120];
     tb_distortion sum;
     tb_distortion_get(res, &sum);
-    snprintf(note, sizeof note, "equal output amplitude; input %.4g", sum.amp);
+    snprintf(note, sizeof note, "output held at %.4g (the tone's)", sum.closed.fund);
     tb_plot_text(&pic, pic.legend_x, pic.legend_y + 10, note);
+    snprintf(note, sizeof note, "left out where 3 HD3 > %.3g %%", sum.limit_pct);
+    tb_plot_text(&pic, pic.legend_x, pic.legend_y + 26, note);
     bool ok = tb_plot_end(&pic);
     columns_free(&c);
     return ok ? TB_OK : TB_ERR_IO;
@@ -396,8 +401,9 @@ tb_status tb_report_distortion_html(const tb_circuit *ckt, const tb_result *res,
         tb_status st = sweep_picture(ckt, res, l, out);
         if (st)
             return st;
-        fputs("<figcaption>HD2 and HD3 over frequency, with feedback and with the loop opened, at equal output "
-              "amplitude.</figcaption>\n</figure>\n", out);
+        fputs("<figcaption>HD2 and HD3 over the tone's frequency, with feedback and with the loop opened, the output "
+              "held at the stated tone's amplitude; points where the third-order series no longer holds are left "
+              "out.</figcaption>\n</figure>\n", out);
     }
     return ferror(out) ? TB_ERR_IO : TB_OK;
 }
