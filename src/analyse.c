@@ -2,6 +2,7 @@
 #include "alloc.h"
 #include "census.h"
 #include "closedloop.h"
+#include "distortion.h"
 #include "feedback.h"
 #include "feedback_type.h"
 #include "grid.h"
@@ -106,6 +107,8 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
         st = tb_closed_loop_run(probe, res);
     if (!st && opt->sensitivity)
         st = tb_sensitivity_run(ckt, probe, res);
+    if (!st)
+        st = tb_distortion_run(ckt, probe, res);
     res->stats.probe_factorizations = probe->factorizations;
     size_t before = tb_sweep_counts(sw).numeric;
     if (!st && opt->stability)

@@ -5,6 +5,7 @@
 #include "diag.h"
 #include "plot.h"
 #include "report.h"
+#include "report_distortion.h"
 #include "units.h"
 
 static const char style_sheet[] =
@@ -232,6 +233,9 @@ tb_status tb_report_html(const tb_circuit *ckt, const tb_result *res, FILE *out)
         if (st)
             return st;
     }
+    tb_status dst = tb_report_distortion_html(ckt, res, out);
+    if (dst)
+        return dst;
     fputs("<h2>Caution</h2>\n<p class=\"caution\">", out);
     text(out, tb_report_caution);
     fputs("</p>\n</body>\n</html>\n", out);

@@ -6,6 +6,7 @@
 #include "alloc.h"
 #include "units.h"
 #include "report.h"
+#include "report_distortion.h"
 
 /* Builds a document while remembering whether any allocation failed. */
 typedef struct {
@@ -671,6 +672,8 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
         set(b, root, "step_response", step_object(b, res));
     if (tb_result_has_census(res))
         set(b, root, "census", census_array(b, res));
+    if (ckt->volterra.given)
+        set(b, root, "distortion", tb_report_distortion_json(ckt, res, tb_report_json_text));
     set(b, root, "caution", json_string(tb_report_caution));
     return root;
 }

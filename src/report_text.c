@@ -5,6 +5,7 @@
 #include "diag.h"
 #include "units.h"
 #include "report.h"
+#include "report_distortion.h"
 
 /* A frequency with an SI prefix: "1.2346 MHz". */
 static const char *fmt_hz(double f, char *buf, size_t size)
@@ -649,6 +650,7 @@ tb_status tb_report_text(const tb_circuit *ckt, const tb_result *res, FILE *out)
         step_block(out, res);
     if (tb_result_has_census(res))
         census_block(out, res);
+    tb_report_distortion_text(ckt, res, out);
     fprintf(out, "\ncaution: %s\n", tb_report_caution);
     return ferror(out) ? TB_ERR_IO : TB_OK;
 }

@@ -49,6 +49,15 @@ static void wb_free(tb_wb_data *wb)
     tb_free(wb);
 }
 
+static void dist_free(tb_dist_data *dd)
+{
+    if (!dd)
+        return;
+    tb_free(dd->loops);
+    tb_free(dd->pts);
+    tb_free(dd);
+}
+
 void tb_result_free(tb_result *res)
 {
     if (!res)
@@ -65,6 +74,7 @@ void tb_result_free(tb_result *res)
     fb_free(res->fb);
     zp_free(res->zp);
     wb_free(res->wb);
+    dist_free(res->dist);
     tb_free(res->ftype);
     tb_free(res->mid);
     tb_free(res->sens);
@@ -264,5 +274,35 @@ tb_status tb_break_get(const tb_result *res, tb_break_summary *out, const tb_bre
     *out = res->wb->sum;
     if (pts)
         *pts = res->wb->pts;
+    return TB_OK;
+}
+
+tb_status tb_distortion_get(const tb_result *res, tb_distortion *out)
+{
+    if (!res || !out)
+        return TB_ERR_USAGE;
+    if (res->dist)
+        *out = res->dist->sum;
+    else
+        *out = (tb_distortion){.computed = false, .why_absent = "no .volterra directive"};
+    return TB_OK;
+}
+
+tb_status tb_distortion_loop_get(const tb_result *res, size_t l, tb_distortion_loop *out,
+                                 const tb_dist_sweep_point **pts, size_t *count)
+{
+    if (!res || !out || l >= res->nloops)
+        return TB_ERR_USAGE;
+    const tb_dist_data *dd = res->dist;
+    if (dd && dd->loops)
+        *out = dd->loops[l];
+    else
+        *out = (tb_distortion_loop){.computed = false,
+                                    .why_absent = dd ? dd->sum.why_absent : "no .volterra directive"};
+    size_t n = dd && dd->pts ? dd->sum.sweep_points : 0;
+    if (pts)
+        *pts = n ? dd->pts + l * n : NULL;
+    if (count)
+        *count = n;
     return TB_OK;
 }

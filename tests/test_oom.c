@@ -215,6 +215,8 @@ static void test_oom_demo_netlists(void **state)
         {"tests/fb/transistor_wirebreak.net", false},
         /* names with bytes that are not UTF-8, a title with an escape sequence */
         {"tests/cli/odd_bytes.net", true},
+        /* .volterra: two nonlinear sources, the loop opened, the sweep, distortion .expect cards */
+        {"docs/examples/distortion.net", false},
     };
     for (size_t i = 0; i < sizeof passes / sizeof passes[0]; i++)
         sweep(passes[i].path, netlist_once, &passes[i]);
@@ -265,6 +267,7 @@ static void test_oom_json_writer(void **state)
     (void)state;
     json_sweep("tests/fb/noninverting_x20.net");
     json_sweep("tests/cli/odd_bytes.net"); /* names made UTF-8 (tb_report_json_text) */
+    json_sweep("docs/examples/distortion.net"); /* the distortion object */
 }
 
 static void test_oom_malformed_netlist(void **state)
