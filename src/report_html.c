@@ -155,6 +155,93 @@ static void breakdown_table(FILE *out, const tb_feedback_summary *fs)
     fputs("</table>\n", out);
 }
 
+/* One row of the table of chosen frequencies: a label, then one cell per frequency. */
+typedef enum { SPOT_T, SPOT_T_DB, SPOT_PHASE, SPOT_RD, SPOT_A, SPOT_AINF, SPOT_A0, SPOT_PART, SPOT_Z } spot_row;
+
+static const char *spot_cell(const tb_spot *s, spot_row row, size_t k, char *v, size_t size)
+{
+    const tb_point *p = &s->pt;
+    bool io = s->solved && !(p->flags & TB_PT_NO_IO);
+    switch (row) {
+    case SPOT_T:
+        return s->solved && !s->has_T ? "infinite" : fmt_complex(s->solved, p->T, v, size);
+    case SPOT_T_DB:
+        snprintf(v, size, s->solved && s->has_T_db ? "%+.2f dB" : "--", s->T_db);
+        return v;
+    case SPOT_PHASE:
+        snprintf(v, size, s->solved && s->has_T_db ? "%.2f deg" : "--", s->T_phase_deg);
+        return v;
+    case SPOT_RD:
+        snprintf(v, size, s->solved && s->has_T ? "%.6g" : "--", s->return_difference);
+        return v;
+    case SPOT_A:
+        return fmt_complex(io, p->A, v, size);
+    case SPOT_AINF:
+        return fmt_complex(io && !(p->flags & TB_PT_AINF_NONE), p->A_inf, v, size);
+    case SPOT_A0:
+        return fmt_complex(io && !(p->flags & TB_PT_A0_NONE), p->A0, v, size);
+    case SPOT_PART:
+        return fmt_complex(s->solved && s->breakdown.has_parts, s->breakdown.part[k], v, size);
+    case SPOT_Z:
+        return fmt_complex(s->solved && k < s->ports && s->zports[k].has_Z, s->zports[k].Z, v, size);
+    }
+    return "--";
+}
+
+static void spot_row_out(FILE *out, const tb_result *res, size_t l, const char *label, spot_row row, size_t k)
+{
+    char v[128];
+    fputs("<tr><th>", out);
+    text(out, label);
+    fputs("</th>", out);
+    for (size_t i = 0; i < tb_spot_count(res); i++) {
+        tb_spot s;
+        tb_spot_get(res, i, l, &s);
+        fputs("<td class=\"num\">", out);
+        text(out, spot_cell(&s, row, k, v, sizeof v));
+        fputs("</td>", out);
+    }
+    fputs("</tr>\n", out);
+}
+
+/* Loop l at every frequency of --at (fresh solves), one column per frequency. */
+static void spot_table(FILE *out, const tb_result *res, size_t l)
+{
+    static const struct {
+        const char *label;
+        spot_row row;
+    } rows[] = {{"loop gain T", SPOT_T},        {"|T|", SPOT_T_DB},          {"phase of T", SPOT_PHASE},
+                {"|1 + T|", SPOT_RD},           {"closed-loop gain A", SPOT_A}, {"ideal gain A_inf", SPOT_AINF},
+                {"feedthrough A0", SPOT_A0}};
+    char v[128], label[160];
+    if (tb_spot_count(res) == 0)
+        return;
+    fputs("<h3>At chosen frequencies (each by a fresh solve there)</h3>\n<table>\n<tr><th>frequency</th>", out);
+    for (size_t i = 0; i < tb_spot_count(res); i++) {
+        tb_spot s;
+        tb_spot_get(res, i, l, &s);
+        fputs("<th>", out);
+        text(out, s.f_hz > 0 ? fmt_hz(true, s.f_hz, v, sizeof v) : "DC");
+        fputs(s.solved ? "</th>" : " (singular)</th>", out);
+    }
+    fputs("</tr>\n", out);
+    for (size_t r = 0; r < sizeof rows / sizeof rows[0]; r++)
+        spot_row_out(out, res, l, rows[r].label, rows[r].row, 0);
+    tb_feedback_summary fs = {0};
+    tb_feedback_loop(res, l, &fs);
+    for (int k = 0; k < TB_PART_COUNT && fs.computed && fs.has_estimate; k++) {
+        snprintf(label, sizeof label, "part of A - G: %s", tb_part_str((tb_part)k));
+        spot_row_out(out, res, l, label, SPOT_PART, (size_t)k);
+    }
+    for (size_t p = 0; p < tb_zport_count(res); p++) {
+        tb_zport_summary zs;
+        tb_zport_loop(res, p, l, &zs, NULL);
+        snprintf(label, sizeof label, "Z at port %s (ohm)", zs.name);
+        spot_row_out(out, res, l, label, SPOT_Z, p);
+    }
+    fputs("</table>\n", out);
+}
+
 /* A picture as inline SVG inside a figure; nothing when it has nothing to show. */
 static tb_status figure(FILE *out, const tb_circuit *ckt, const tb_result *res, tb_picture_kind kind, size_t l,
                         size_t port, const char *caption)
@@ -186,6 +273,7 @@ static tb_status loop_section(FILE *out, const tb_circuit *ckt, const tb_result 
         verdict_box(out, &st, &m);
     dc_table(out, &m, tb_circuit_gain_unit(ckt), tb_circuit_beta_unit(ckt));
     frequency_table(out, res, &m, &st);
+    spot_table(out, res, l);
     breakdown_table(out, &fs);
     if ((s = figure(out, ckt, res, TB_PIC_BODE, l, 0, "Loop gain T: magnitude with |A|, |A_inf| and the estimate; phase. Markers: crossings with their margins.")))
         return s;
