@@ -275,16 +275,43 @@ static tb_status loop_section(FILE *out, const tb_circuit *ckt, const tb_result 
     frequency_table(out, res, &m, &st);
     spot_table(out, res, l);
     breakdown_table(out, &fs);
-    if ((s = figure(out, ckt, res, TB_PIC_BODE, l, 0, "Loop gain T: magnitude with |A|, |A_inf| and the estimate; phase. Markers: crossings with their margins.")))
+    if ((s = figure(out, ckt, res, TB_PIC_BODE, l, 0,
+                    "How much the loop corrects, and until when. Where the loop gain |T| (solid) is large, the "
+                    "closed-loop gain |A| follows the ideal gain |A_inf| = 1/beta; where |T| falls through 0 dB "
+                    "the correction ends and |A| follows the amplifier alone. The phase margin (PM, red bar in "
+                    "the phase panel) is how far the phase of T stays above -180 deg where |T| = 1; the gain "
+                    "margin (GM, red bar in the magnitude panel) is how far |T| stays below 0 dB where the "
+                    "phase reaches -180 deg. A margin near zero or below means ringing or oscillation.")))
         return s;
-    if ((s = figure(out, ckt, res, TB_PIC_NYQUIST, l, 0, "Nyquist plot of T with the unit circle, -1 and the vector-margin circle.")))
+    if ((s = figure(out, ckt, res, TB_PIC_NYQUIST, l, 0,
+                    "The same T as one curve in the complex plane, from the start of the sweep (far out: large "
+                    "|T|) to its end (near the origin); the dashed curve is its mirror for negative "
+                    "frequencies. Beyond the unit circle the radius is compressed, one ring per 20 dB. What "
+                    "matters is the point -1: the closer the curve passes it, the smaller the vector margin "
+                    "(the circle around -1), and the count of turns around it decides stability.")))
         return s;
     if (fs.computed && fs.has_estimate &&
-        (s = figure(out, ckt, res, TB_PIC_BREAKDOWN, l, 0, "The parts of A - G over frequency.")))
+        (s = figure(out, ckt, res, TB_PIC_BREAKDOWN, l, 0,
+                    "Why the real gain A misses the hand estimate G, frequency by frequency: |A - G| (solid) "
+                    "is the sum of three parts, loading (the loaded network's 1/beta differs from G), finite "
+                    "loop gain (-A_inf/(1 + T), which grows as |T| falls) and feedthrough (signal that "
+                    "bypasses the amplifier). The highest curve at a frequency is the reason there; the marker "
+                    "shows where the error first exceeds the tolerance.")))
         return s;
-    for (size_t p = 0; p < tb_zport_count(res); p++)
-        if ((s = figure(out, ckt, res, TB_PIC_IMPEDANCE, l, p, "Port impedance with and without feedback (Blackman).")))
+    for (size_t p = 0; p < tb_zport_count(res); p++) {
+        tb_zport_summary zs;
+        char caption[512];
+        tb_zport_loop(res, p, l, &zs, NULL);
+        snprintf(caption, sizeof caption,
+                 "The impedance at port %s with the loop working (solid) and with the amplifier's gain at "
+                 "zero (dashed). %s Where |T| has fallen, the two meet: the feedback no longer acts.",
+                 zs.name,
+                 zs.side == TB_SIDE_SERIES  ? "Here the feedback is in series: it raises the impedance (by |1 + T| when pure)."
+                 : zs.side == TB_SIDE_SHUNT ? "Here the feedback is in shunt: it lowers the impedance (by |1 + T| when pure)."
+                                            : "Blackman's formula Z = Z0 (1 + T_sc)/(1 + T_oc) gives the change.");
+        if ((s = figure(out, ckt, res, TB_PIC_IMPEDANCE, l, p, caption)))
             return s;
+    }
     return TB_OK;
 }
 
@@ -307,6 +334,12 @@ tb_status tb_report_html(const tb_circuit *ckt, const tb_result *res, FILE *out)
         text(out, ckt->io.source);
     }
     fputs(".</p>\n", out);
+    fputs("<p>How to read this page: each loop opens with its verdict, then its figures at DC and over "
+          "frequency; the pictures then tell its story: the Bode plot shows how much the loop corrects and up "
+          "to what frequency, with its margins drawn as red bars; the Nyquist plot shows how close the loop "
+          "comes to oscillation (the point -1); the step response shows what the output does. Each picture's "
+          "caption says what to look for.</p>\n",
+          out);
     for (size_t l = 0; l < tb_result_loops(res); l++) {
         tb_status st = loop_section(out, ckt, res, l);
         if (st)
@@ -316,7 +349,10 @@ tb_status tb_report_html(const tb_circuit *ckt, const tb_result *res, FILE *out)
     tb_step_figures_get(res, &fig);
     if (fig.computed) {
         fputs("<h2>Closed-loop step response</h2>\n", out);
-        tb_status st = figure(out, ckt, res, TB_PIC_STEP, 0, 0, "Response of the output to a unit step of the input.");
+        tb_status st = figure(out, ckt, res, TB_PIC_STEP, 0, 0,
+                              "What the output does after a unit step at the input: overshoot, the 10-90 % "
+                              "rise and the time to settle within 2 % are marked. A small phase margin shows "
+                              "here as overshoot and ringing.");
         if (st)
             return st;
     }
