@@ -57,10 +57,13 @@ static tb_status open_temp(const char *target, const struct stat *old, char **tm
     int dir_len = slash ? (int)(slash - target + 1) : 0;
     const char *name = slash ? slash + 1 : target;
     for (int k = 0; k < TEMP_TRIES; k++) {
-        /* the name cut to 200 bytes keeps the temporary one within the usual 255 */
-        char *path = tb_check_format("%.*s.%.200s.%ld-%d.tmp", dir_len, target, name, (long)getpid(), k);
+        /* the name cut to 200 bytes keeps the temporary one within the usual 255; with the pid
+         * and k it takes at most 240 bytes beyond the folder */
+        size_t size = (size_t)dir_len + 240;
+        char *path = tb_malloc(size, 1);
         if (!path)
             return TB_ERR_NOMEM;
+        snprintf(path, size, "%.*s.%.200s.%ld-%d.tmp", dir_len, target, name, (long)getpid(), k);
         int fd = open(path, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
         if (fd < 0) {
             int err = errno;
