@@ -479,11 +479,13 @@ static void spot_lines(FILE *out, const tb_circuit *ckt, const tb_result *res, s
              s.has_T_db ? extra : "");
         snprintf(v, sizeof v, "%.6g", s.return_difference);
         line(out, "  |1 + T|", s.has_T, v, "");
-        line(out, "  closed-loop gain A", io, fmt_value(p->A, v, sizeof v), gu);
-        line(out, "  ideal gain A_inf", io && !(p->flags & TB_PT_AINF_NONE), fmt_value(p->A_inf, v, sizeof v), gu);
         double scale = fmax(cabs(p->A), cabs(p->A_inf));
-        line(out, "  feedthrough A0", io && !(p->flags & TB_PT_A0_NONE), fmt_value(denoise(p->A0, scale), v, sizeof v),
-             gu);
+        if (io) { /* without .io there are no gains to show */
+            line(out, "  closed-loop gain A", true, fmt_value(p->A, v, sizeof v), gu);
+            line(out, "  ideal gain A_inf", !(p->flags & TB_PT_AINF_NONE), fmt_value(p->A_inf, v, sizeof v), gu);
+            line(out, "  feedthrough A0", !(p->flags & TB_PT_A0_NONE), fmt_value(denoise(p->A0, scale), v, sizeof v),
+                 gu);
+        }
         const tb_breakdown_point *bd = &s.breakdown;
         for (int k = 0; k < TB_PART_COUNT && bd->has_parts; k++) {
             char label[64];
