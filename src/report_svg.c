@@ -285,6 +285,16 @@ static tb_status nyquist(tb_picture *pic, const tb_circuit *ckt, const tb_result
         snprintf(buf, sizeof buf, "N = %ld clockwise", st.nyquist_n);
         tb_plot_text(pic, pic->legend_x, pic->legend_y + 10, buf);
         tb_plot_text(pic, pic->legend_x, pic->legend_y + 26, "encirclements of -1");
+        /* what the count means: N + P closed-loop poles in the right half-plane */
+        long z = st.nyquist_n + (long)st.ol_rhp;
+        if (z == 0)
+            snprintf(buf, sizeof buf, "N + P = 0: no closed-loop pole");
+        else
+            snprintf(buf, sizeof buf, "N + P = %ld closed-loop poles", z);
+        tb_plot_text(pic, pic->legend_x, pic->legend_y + 48, buf);
+        tb_plot_text(pic, pic->legend_x, pic->legend_y + 64, "in the right half-plane");
+        snprintf(buf, sizeof buf, "(P = %zu open-loop ones)%s", st.ol_rhp, z > 0 ? ": unstable" : "");
+        tb_plot_text(pic, pic->legend_x, pic->legend_y + 80, buf);
     }
     return finish(pic, &c);
 }
