@@ -150,6 +150,9 @@ typedef struct {
     unsigned flags;
 } tb_point;
 
+/* Told how far a long computation has gone: done of total steps (tb_options.progress). */
+typedef void (*tb_progress_fn)(void *ctx, size_t done, size_t total);
+
 typedef struct {
     bool dc;              /* evaluate f = 0 exactly when the circuit allows (default true) */
     double refactor_rcond_drop; /* a refactor whose min/max |U_ii| falls below this times the
@@ -170,7 +173,18 @@ typedef struct {
     unsigned jobs;        /* threads sharing the frequency points of the sweep: 1 (the default)
                            * runs it in the calling thread, 0 one per online core; every
                            * figure is the same for any value */
+    const double *at_hz;  /* figures at these frequencies (Hz, finite, >= 0), each by a fresh
+                           * solve at exactly that frequency (tb_spot_get); NULL (the default):
+                           * none. Borrowed: read during tb_analyse only */
+    size_t at_count;      /* entries of at_hz, at most TB_AT_MAX */
+    tb_progress_fn progress; /* NULL (the default), or told of the sweep's grid points as they
+                              * start: progress(progress_ctx, done, points), from whichever
+                              * thread takes them, one call at a time; it must return quickly */
+    void *progress_ctx;
 } tb_options;
+
+/* The most frequencies tb_options.at_hz may hold (more: TB_ERR_USAGE). */
+#define TB_AT_MAX 1000
 
 /* Sets every field of *opt to its default. */
 TB_API void tb_options_init(tb_options *opt);
@@ -1014,6 +1028,31 @@ TB_API tb_status tb_distortion_get(const tb_result *res, tb_distortion *out);
  * Errors: TB_ERR_USAGE (NULL, l out of range). */
 TB_API tb_status tb_distortion_loop_get(const tb_result *res, size_t l, tb_distortion_loop *out,
                                         const tb_dist_sweep_point **pts, size_t *count);
+
+/* ---- figures at chosen frequencies (tb_options.at_hz) ------------------ */
+
+/* Loop l at one chosen frequency, from a fresh factorization of M there (not read
+ * off the sweep grid). */
+typedef struct {
+    double f_hz;
+    bool solved;            /* false: M is singular at f_hz (nothing below is set) */
+    tb_point pt;            /* T, A, A_inf, A0, a and the flags saying which do not exist */
+    bool has_T;             /* T finite */
+    double T_db;            /* 20 log10 |T| (has_T and T != 0) */
+    bool has_T_db;
+    double T_phase_deg;     /* arg T in degrees, on the branch nearest the sweep's unwrapped
+                             * phase at the closest grid point (has_T and T != 0) */
+    double return_difference; /* |1 + T| (has_T) */
+    tb_breakdown_point breakdown; /* the .ideal breakdown and desensitivity here */
+    size_t ports;           /* .zport ports (tb_zport_count) */
+    const tb_zpoint *zports; /* ports entries, port order, into res; NULL when ports is 0 */
+} tb_spot;
+
+/* Number of chosen frequencies analysed (tb_options.at_count; 0 when none). */
+TB_API size_t tb_spot_count(const tb_result *res);
+/* Loop l at chosen frequency i (in the order given). Errors: TB_ERR_USAGE (NULL, i or
+ * l out of range). Thread safety: as every accessor, reads res only. */
+TB_API tb_status tb_spot_get(const tb_result *res, size_t i, size_t l, tb_spot *out);
 
 #ifdef __cplusplus
 }

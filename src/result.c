@@ -40,6 +40,15 @@ static void zp_free(tb_z_data *zd)
     tb_free(zd);
 }
 
+void tb_spot_data_free(tb_spot_data *sd)
+{
+    if (!sd)
+        return;
+    tb_free(sd->spots);
+    tb_free(sd->zp);
+    tb_free(sd);
+}
+
 static void wb_free(tb_wb_data *wb)
 {
     if (!wb)
@@ -79,6 +88,7 @@ void tb_result_free(tb_result *res)
     tb_free(res->mid);
     tb_free(res->sens);
     tb_free(res->sens_entries);
+    tb_spot_data_free(res->spot);
     tb_free(res);
 }
 
@@ -304,5 +314,21 @@ tb_status tb_distortion_loop_get(const tb_result *res, size_t l, tb_distortion_l
         *pts = n ? dd->pts + l * n : NULL;
     if (count)
         *count = n;
+    return TB_OK;
+}
+
+size_t tb_spot_count(const tb_result *res)
+{
+    return res && res->spot ? res->spot->count : 0;
+}
+
+tb_status tb_spot_get(const tb_result *res, size_t i, size_t l, tb_spot *out)
+{
+    if (!res || !out || !res->spot || i >= res->spot->count || l >= res->spot->loops)
+        return TB_ERR_USAGE;
+    const tb_spot_data *sd = res->spot;
+    *out = sd->spots[i * sd->loops + l];
+    out->ports = sd->ports;
+    out->zports = sd->ports ? sd->zp + (i * sd->loops + l) * sd->ports : NULL;
     return TB_OK;
 }
