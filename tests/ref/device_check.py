@@ -28,7 +28,10 @@ gives every reference script, are ignored):
      the common-drain stage, from memory); A_inf = 1, T = gm RL'/(1 + gmb RL').
    Thermal voltage VT = k T/q with the exact SI values of k and q (BIPM, the SI brochure,
    9th edition); gm = IC/VT, r_pi = beta/gm (same sources, from memory).
-3. Hierarchical names: the census of sub_device.net lists X1.Q1 and X2.Q1, that of
+3. The macromodel library (netlists/lib/*.inc): each model in a unity follower
+   (lib_MODEL.net), T(jw) at every point of the sweep against the A(s) its header states
+   times the output divider, and A_inf(0) = 1.
+4. Hierarchical names: the census of sub_device.net lists X1.Q1 and X2.Q1, that of
    cs_device.net M1 and M1.gmb.
 
 Exit status: 0 all passed, 1 a check failed, 2 usage error.
@@ -198,6 +201,45 @@ def check_sf(tbeta):
         check(close(dc[key], w, CLOSED_RTOL, 0), "sf_closed: %s = %r, closed form %r" % (key, dc[key], w))
 
 
+def opamp_gain(model, p, s):
+    """A(s) of a library macromodel as its header states it (netlists/lib/*.inc)."""
+    a = p["a0"] / (1 + s * p["a0"] / (2 * np.pi * p["gbw"]))
+    if model in ("opamp2", "opamp3", "opamp2z"):
+        a = a / (1 + s / (2 * np.pi * p["p2"]))
+    if model == "opamp3":
+        a = a / (1 + s / (2 * np.pi * p["p3"]))
+    if model == "opamp2z":
+        a = a * (1 - s / (2 * np.pi * p["fz"]))
+    return a
+
+
+def library_T(model, p, s):
+    """T(s) of lib_MODEL.net, a unity follower with the source zeroed: the input resistance
+    hangs from the output to ground (common practice: node analysis of the follower)."""
+    if model.startswith("ota"):
+        z = 1 / (1 / p["rout"] + 1 / p["rl"] + 1 / p["rin"] + s * p["cl"])
+        h = 1 / (1 + s / (2 * np.pi * p["p2"])) if model == "ota2" else 1
+        return p["gm"] * z * h
+    rl = 1 / (1 / p["rl"] + 1 / p["rin"])
+    return opamp_gain(model, p, s) * rl / (rl + p["rout"])
+
+
+def check_library(tbeta):
+    for model in ("opamp1", "opamp2", "opamp3", "opamp2z", "ota1", "ota2"):
+        path = os.path.join(DEVICE, "lib_%s.net" % model)
+        p = params(path)
+        loop = "XA.Ga" if model.startswith("ota") else "XU1.Ga"
+        freqs, cols = sweep(tbeta, path, loop)
+        got = cols["T_re"] + 1j * cols["T_im"]
+        want = library_T(model, p, 2j * np.pi * freqs)
+        err = np.abs(got - want) / np.abs(want)
+        check(np.max(err) <= CLOSED_RTOL, "library %s: T differs from the stated A(s) by %.3g (relative) at %g Hz"
+              % (model, np.max(err), freqs[np.argmax(err)]))
+        dc = dc_of(tbeta, path)
+        check(close(dc["A_inf"], 1.0, CLOSED_RTOL, 0), "library %s: A_inf(0) = %r, a follower's is 1"
+              % (model, dc["A_inf"]))
+
+
 def main(argv):
     if len(argv) < 2:
         print(__doc__)
@@ -207,6 +249,7 @@ def main(argv):
         check_pair(tbeta, name, loops)
     check_ce(tbeta)
     check_sf(tbeta)
+    check_library(tbeta)
     if failures:
         print("device_check: %d of %d checks failed" % (failures, checks))
         return 1
