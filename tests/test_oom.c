@@ -215,6 +215,8 @@ static void test_oom_demo_netlists(void **state)
         {"tests/fb/transistor_wirebreak.net", false},
         /* names with bytes that are not UTF-8, a title with an escape sequence */
         {"tests/cli/odd_bytes.net", true},
+        /* a device card with an internal node (device.c's names and nodes) */
+        {"tests/device/ce_closed.net", false},
     };
     for (size_t i = 0; i < sizeof passes / sizeof passes[0]; i++)
         sweep(passes[i].path, netlist_once, &passes[i]);
