@@ -311,6 +311,21 @@ static tb_status input_cap(key_set *ks, key_id input, key_id feedback, double gm
 
 /* ---- the bipolar transistor ----------------------------------------------- */
 
+/* The substrate node and ccs= come together. */
+static tb_status bjt_substrate(key_set *ks, bool substrate)
+{
+    const tb_device_card *card = ks->card;
+    if (substrate && !ks->has[K_CCS])
+        return refuse(ks->err, &card->node_tok[3],
+                      "%s has a substrate node '%.*s' but no ccs= (collector-substrate capacitance); "
+                      "a model name is not read, see " SECTION,
+                      card->label, quoted_len(&card->node_tok[3]), card->node_tok[3].ptr);
+    if (!substrate && ks->has[K_CCS])
+        return refuse(ks->err, ks->at[K_CCS], "ccs= of %s needs a substrate node (Q c b e s)",
+                      card->label);
+    return TB_OK;
+}
+
 /* Q c b e [s]: gm = icq/VT from c to e controlled by v(bi, e); rpi = beta/gm (bi-e);
  * ro = vearly/icq (c-e); Cpi = gm/(2 pi ft) - cmu or cpi= (bi-e); Cmu (bi-c); rbb (b-bi);
  * Ccs (c-s). bi is b itself when rbb is absent or zero. */
@@ -325,14 +340,8 @@ static tb_status bjt(tb_circuit *ckt, key_set *ks, tb_device_parts *out)
     if ((st = exclusive(ks, K_FT, K_CPI, "Cpi")))
         return st;
     bool substrate = card->node_count == 4;
-    if (substrate && !ks->has[K_CCS])
-        return refuse(ks->err, &card->node_tok[3],
-                      "%s has a substrate node '%.*s' but no ccs= (collector-substrate capacitance); "
-                      "a model name is not read, see " SECTION,
-                      card->label, quoted_len(&card->node_tok[3]), card->node_tok[3].ptr);
-    if (!substrate && ks->has[K_CCS])
-        return refuse(ks->err, ks->at[K_CCS], "ccs= of %s needs a substrate node (Q c b e s)",
-                      card->label);
+    if ((st = bjt_substrate(ks, substrate)))
+        return st;
     double tj = ks->has[K_TJ] ? ks->v[K_TJ] : DEFAULT_TJ;
     double vt = BOLTZMANN * (tj + ZERO_CELSIUS) / ELEMENTARY_CHARGE;
     double gm = ks->v[K_ICQ] / vt;
