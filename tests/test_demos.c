@@ -38,7 +38,10 @@ static bool parse_figure(const char *line, figure *fig)
     char name[130];
     if (sscanf(line, "* check: %129s = %lf %7s %lf", name, &fig->value, kind, &fig->tol) != 4)
         return false;
-    char *dot = strchr(name, '.');
+    /* the source may be hierarchical (XU1.Ga): the key starts at ".dc." or after the last '.' */
+    char *dot = strstr(name, ".dc.");
+    if (!dot)
+        dot = strrchr(name, '.');
     assert_non_null(dot);
     *dot = '\0';
     snprintf(fig->source, sizeof fig->source, "%s", name);
