@@ -112,12 +112,6 @@ static const char *needs(dev_kind kind)
                            : "gm= or id= with vov=, with gds= or clm=, cgs= or ft=, cgd= as known";
 }
 
-bool tb_device_is_device(char letter)
-{
-    char c = tb_lex_lower(letter);
-    return c == 'q' || c == 'm';
-}
-
 /* ---- the shape of the card ---------------------------------------------- */
 
 tb_status tb_device_shape(const char *label, const tb_token *name, const tb_token *words,

@@ -48,9 +48,6 @@ typedef struct {
     char message[TB_DEVICE_MESSAGE];
 } tb_device_error;
 
-/* true when letter (any case) starts a device card this module expands (Q, M). */
-bool tb_device_is_device(char letter);
-
 /* The card's name, the words after it up to its first KEY=, and whether keys follow:
  * TB_OK when the node count fits the device; TB_ERR_INPUT with *err otherwise (a model
  * named instead of parameters, no keys, too few or too many nodes). label as in
