@@ -50,7 +50,7 @@ static void part(const tb_circuit *ckt, const char *name, tb_elem_kind kind, con
 }
 
 /* The hybrid-pi model (Gray, Hurst, Lewis and Meyer, Analysis and Design of Analog Integrated
- * Circuits, section 1.4, from memory): gm = IC/VT, r_pi = beta/gm, r_o = VA/IC,
+ * Circuits, chapter 1, from memory): gm = IC/VT, r_pi = beta/gm, r_o = VA/IC,
  * C_pi = gm/(2 pi fT) - C_mu, r_b into an internal base node. */
 static void test_device_bipolar_parts(void **state)
 {
