@@ -115,7 +115,7 @@ bench: $(BUILD)/tbeta $(BUILD)/libtbeta.a
 	@sh bench/run.sh $(BUILD)
 
 # fuzz: libFuzzer (clang) over read-parse-analyse-report-.expect for SECONDS seconds, corpus in
-# build/fuzz/corpus seeded from netlists/, tests/bad/, tests/ref/, tests/fb/ and tests/dist/; crashes land in build/fuzz/.
+# build/fuzz/corpus seeded from netlists/ (and devices/), tests/device/, tests/bad/, tests/ref/, tests/fb/ and tests/dist/; crashes land in build/fuzz/.
 SECONDS  ?= 60
 FUZZ_CC  := clang
 FUZZ_FLAGS := -std=c11 -g -O1 -fsanitize=fuzzer,address,undefined -fno-sanitize-recover=all
@@ -123,7 +123,7 @@ fuzz:
 	@sh scripts/deps.sh clang libclang-rt-14-dev
 	@mkdir -p build/fuzz/corpus
 	$(FUZZ_CC) $(FUZZ_FLAGS) $(CPPFLAGS) $(LIB_SRC) tests/fuzz/fuzz_netlist.c $(LDLIBS) -o build/fuzz/fuzz_netlist
-	cp netlists/*.net tests/bad/*.net tests/ref/*.net tests/fb/*.net tests/dist/*.net build/fuzz/corpus/ 2>/dev/null || true
+	cp netlists/*.net netlists/devices/*.net tests/device/*.net tests/bad/*.net tests/ref/*.net tests/fb/*.net tests/dist/*.net build/fuzz/corpus/ 2>/dev/null || true
 	cd build/fuzz && ./fuzz_netlist -max_total_time=$(SECONDS) -max_len=4096 -timeout=10 \
 	    -print_final_stats=1 corpus
 

@@ -13,6 +13,7 @@
 
 #include "alloc.h"
 #include "circuit.h"
+#include "device.h"
 #include "diag.h"
 #include "expect.h"
 #include "expr.h"
@@ -1008,11 +1009,60 @@ static size_t char_len(const char *s, size_t len)
     return n;
 }
 
-/* element -> rcard | vcard | ecard | fcard | kcard | xcard, chosen by the name's first letter */
+static bool card_words(parser *p);
+
+/* qcard -> QNAME node node node [node] NAME = value {NAME = value}   (M cards alike)
+ * Expanded into small-signal parts by device.c. */
+static bool device(parser *p)
+{
+    tb_device_card card = {.first = p->tok, .label = p->name};
+    tb_device_error err = {0};
+    tb_device_parts parts;
+    tb_element head;
+    if (!element_start(p, TB_EL_G, &head) || !card_words(p))
+        return false;
+    card.name = head.name;
+    card.loc = head.loc;
+    if (tb_device_shape(p->name, &card.first, p->words, p->word_count, !at_end(p), &err))
+        return error(p, &err.at, "%s", err.message);
+    card.node_count = p->word_count;
+    for (size_t i = 0; i < card.node_count; i++) {
+        card.node_tok[i] = p->words[i];
+        if (!resolve_node(p, &p->words[i], &card.node[i]))
+            return false;
+    }
+    while (!at_end(p)) {
+        if (card.key_count == TB_DEVICE_MAX_KEYS)
+            return error(p, &p->tok, "too many keys on %s (limit is %d)", p->name, TB_DEVICE_MAX_KEYS);
+        tb_device_key *k = &card.keys[card.key_count++];
+        if (!expect_word(p, "a key"))
+            return false;
+        k->key = p->tok;
+        advance(p);
+        if (!expect(p, TB_TOK_EQUALS, "'='"))
+            return false;
+        k->at = p->tok;
+        if (!value(p, "a value", &k->value))
+            return false;
+    }
+    tb_status st = tb_device_expand(p->ckt, &card, &parts, &err);
+    if (st == TB_ERR_NOMEM)
+        return nomem(p);
+    if (st)
+        return error(p, &err.at, "%s", err.message);
+    for (size_t i = 0; i < parts.count; i++)
+        if (!element_end(p, &parts.part[i], "the keys"))
+            return false;
+    return true;
+}
+
+/* element -> rcard | vcard | ecard | fcard | kcard | qcard | mcard | xcard, chosen by the
+ * name's first letter */
 static bool instance(parser *p);
 
 static bool element(parser *p)
 {
+    char refusal[TB_DEVICE_MESSAGE];
     switch (tb_lex_lower(p->tok.ptr[0])) {
     case 'r':
         return passive(p, TB_EL_R);
@@ -1036,10 +1086,15 @@ static bool element(parser *p)
         return coupling(p);
     case 'x':
         return instance(p);
+    case 'q':
+    case 'm':
+        return device(p);
     default:
+        if (tb_device_refusal(p->name, p->tok.ptr[0], refusal, sizeof refusal))
+            return error(p, &p->tok, "%s", refusal);
         return error(p, &p->tok,
                      "unknown element '%s': '%.*s' is not one of the element letters "
-                     "R C L V I E G F H K X",
+                     "R C L V I E G F H K Q M X",
                      p->name, (int)char_len(p->tok.ptr, p->tok.len), p->tok.ptr);
     }
 }

@@ -145,7 +145,7 @@ for f in docs/examples/*.net; do
 done
 
 # every demo: report, JSON and CSV run, JSON parses, nothing prints nan or inf
-for f in netlists/*.net tests/ref/*.net; do
+for f in netlists/*.net netlists/devices/*.net tests/ref/*.net; do
     expect "report $f" 0 $tb "$f"
     has "report $f" out "caution: tbeta is a small-signal, linear analysis"
     expect "json $f" 0 $tb report "$f" --json

@@ -222,6 +222,8 @@ static void test_oom_demo_netlists(void **state)
         {"tests/cli/odd_bytes.net", true},
         /* .volterra: two nonlinear sources, the loop opened, the sweep, distortion .expect cards */
         {"docs/examples/distortion.net", false},
+        /* a device card with an internal node (device.c's names and nodes) */
+        {"tests/device/ce_closed.net", false},
     };
     for (size_t i = 0; i < sizeof passes / sizeof passes[0]; i++)
         sweep(passes[i].path, netlist_once, &passes[i]);
