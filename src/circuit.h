@@ -172,6 +172,7 @@ struct tb_circuit {
     size_t source_count;
     size_t source_cap;
     struct tb_strblock *strings; /* string arena */
+    struct tb_spread_cards *spread; /* .spread and .scan cards (spreadcard.h), in the arena; NULL: none */
 };
 
 tb_status tb_circuit_create(const char *file, tb_circuit **out);
