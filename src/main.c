@@ -11,6 +11,7 @@
 #include "tbeta.h"
 #include "checkrun.h" /* the regression runner (tbeta check) */
 #include "report.h"   /* tb_report_escape and how odd bytes read */
+#include "spreadcli.h" /* tbeta spread */
 
 /* Exit codes, one table: 0 done; 1 done but an expectation or threshold
  * failed (used by later subcommands); 2 usage error, unreadable or malformed
@@ -25,6 +26,7 @@ static const char usage_main[] =
     "       tbeta step NETLIST [--csv]       closed-loop step response, one CSV row per sample\n"
     "       tbeta plot NETLIST --svg DIR      the pictures (Bode, Nyquist, step, ports, breakdown) as SVG\n"
     "       tbeta check PATH... [options]     run every netlist's .expect cards (tbeta check --help)\n"
+    "       tbeta spread NETLIST [options]    scans, corners, Monte Carlo (tbeta spread --help)\n"
     "       tbeta --help | --version\n"
     "\n"
     "tbeta solves a linear netlist over frequency and, at each controlled source\n"
@@ -691,6 +693,8 @@ static int command(int argc, char **argv)
     }
     if (strcmp(argv[1], "check") == 0)
         return check_command(argc, argv);
+    if (strcmp(argv[1], "spread") == 0)
+        return tb_spread_command(argc, argv);
     if (strcmp(argv[1], "--version") == 0) {
         printf("tbeta %s\n", TB_VERSION);
         return EXIT_DONE;

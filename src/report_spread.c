@@ -1,0 +1,467 @@
+/* src/report_spread.c: scans, corners and Monte Carlo as text, CSV, JSON, SVG and an HTML page */
+#include "report_spread.h"
+
+#include <jansson.h>
+#include <math.h>
+#include <string.h>
+
+#include "alloc.h"
+#include "plot.h"
+#include "report.h"
+
+/* Column heads of the spread figures for people, in spreadset.c's order. */
+static const char *const heads[TB_SPREAD_FIGURES] = {
+    "T(0)", "unity Hz", "PM deg", "GM dB", "delay s", "A(0)", "error %", "-3dB Hz", "verdict",
+};
+
+static const char *const status_words[] = {[TB_RUN_PASS] = "pass", [TB_RUN_FAIL] = "fail",
+                                           [TB_RUN_ERROR] = "not analysed"};
+
+void tb_spread_wilson(size_t k, size_t n, double *lo, double *hi)
+{
+    const double z = 1.959963984540054; /* the 97.5 % point of the standard normal */
+    double N = (double)n;
+    double p = (double)k / N;
+    double d = 1.0 + z * z / N;
+    double centre = (p + z * z / (2 * N)) / d;
+    double half = z / d * sqrt(p * (1 - p) / N + z * z / (4 * N * N));
+    *lo = fmax(0.0, centre - half);
+    *hi = fmin(1.0, centre + half);
+}
+
+/* A figure's value for a narrow column: %.5g, the verdict's word, or "--". */
+static const char *cell(size_t i, const tb_figure_value *v, char *buf, size_t size)
+{
+    if (!v->present)
+        return "--";
+    if (i == TB_SPREAD_FIGURES - 1)
+        return tb_figure_word(v->value);
+    snprintf(buf, size, "%.5g", v->value);
+    return buf;
+}
+
+static void kind_line(const tb_spreadset *set, FILE *out)
+{
+    size_t analysed = 0;
+    size_t pass = tb_spreadset_passed(set, &analysed);
+    if (set->kind == TB_SPREADSET_SCAN)
+        fprintf(out, "scan: %zu run%s over %zu element%s\n", set->runs, set->runs == 1 ? "" : "s", set->params,
+                set->params == 1 ? "" : "s");
+    else if (set->kind == TB_SPREADSET_CORNERS)
+        fprintf(out, "corners: %zu independent dimension%s at their extremes, %zu runs (%s)\n", set->dimensions,
+                set->dimensions == 1 ? "" : "s", set->runs,
+                set->reduced ? "reduced design: nominal, each dimension alone, then the corners they predict"
+                             : "the nominal values, then every combination");
+    else
+        fprintf(out, "Monte Carlo: %zu samples, seed %llu, %zu independent draw%s (xoshiro256**, one stream "
+                "per sample: the same numbers for any --jobs)\n", set->runs, set->seed, set->dimensions,
+                set->dimensions == 1 ? "" : "s");
+    fprintf(out, "  %zu of %zu runs pass (every loop stable with its margins, every .expect held)", pass, set->runs);
+    if (analysed > 0 && set->kind != TB_SPREADSET_SCAN) {
+        double lo = 0, hi = 0;
+        tb_spread_wilson(pass, analysed, &lo, &hi);
+        fprintf(out, ": yield %.1f %% (95 %% interval %.1f to %.1f %%)", 100.0 * (double)pass / (double)analysed,
+                100 * lo, 100 * hi);
+    }
+    fprintf(out, "%s", analysed < set->runs ? "" : "\n");
+    if (analysed < set->runs)
+        fprintf(out, "; %zu not analysed (a singular matrix at their values)\n", set->runs - analysed);
+}
+
+/* "RF=10.01k C1=1.03n" for run r. */
+static void run_values(const tb_spreadset *set, size_t r, FILE *out)
+{
+    char buf[40];
+    for (size_t p = 0; p < set->params; p++) {
+        char name[128];
+        fprintf(out, "%s%s=%s", p ? " " : "", tb_report_escape(set->param_names[p], name, sizeof name),
+                tb_plot_eng(set->param_values[r * set->params + p], "", buf, sizeof buf));
+    }
+}
+
+static void scan_text(const tb_circuit *ckt, const tb_spreadset *set, size_t l, FILE *out)
+{
+    char buf[64], name[128];
+    fputs("  ", out);
+    for (size_t p = 0; p < set->params; p++)
+        fprintf(out, "%-11s", tb_report_escape(set->param_names[p], name, sizeof name));
+    for (size_t i = 0; i < TB_SPREAD_FIGURES; i++)
+        fprintf(out, "%-11s", heads[i]);
+    fputs("\n", out);
+    for (size_t r = 0; r < set->runs; r++) {
+        fputs("  ", out);
+        for (size_t p = 0; p < set->params; p++)
+            fprintf(out, "%-11s", tb_plot_eng(set->param_values[r * set->params + p], "", buf, sizeof buf));
+        for (size_t i = 0; i < TB_SPREAD_FIGURES; i++)
+            fprintf(out, "%-11s", cell(i, &tb_spreadset_row(set, r, l)[i], buf, sizeof buf));
+        fputs("\n", out);
+    }
+    (void)ckt;
+}
+
+static tb_status corner_text(const tb_spreadset *set, size_t l, FILE *out)
+{
+    char a[64], b[64], c[64];
+    fprintf(out, "  %-10s %-12s %-22s %-22s\n", "figure", "nominal", "lowest (run)", "highest (run)");
+    bool used[TB_SPREAD_FIGURES * 2] = {false};
+    size_t which[TB_SPREAD_FIGURES * 2] = {0};
+    for (size_t i = 0; i < TB_SPREAD_FIGURES; i++) {
+        tb_spread_stats s;
+        tb_status st = tb_spreadset_stats(set, l, i, &s);
+        if (st)
+            return st;
+        const tb_figure_value *nom = &tb_spreadset_row(set, set->nominal == SIZE_MAX ? 0 : set->nominal, l)[i];
+        char lo[96] = "--", hi[96] = "--";
+        if (s.present) {
+            tb_figure_value vmin = {true, s.min, NULL}, vmax = {true, s.max, NULL};
+            snprintf(lo, sizeof lo, "%s (%zu)", cell(i, &vmin, a, sizeof a), s.min_run);
+            snprintf(hi, sizeof hi, "%s (%zu)", cell(i, &vmax, b, sizeof b), s.max_run);
+            used[2 * i] = used[2 * i + 1] = true;
+            which[2 * i] = s.min_run;
+            which[2 * i + 1] = s.max_run;
+        }
+        fprintf(out, "  %-10s %-12s %-22s %-22s%s\n", heads[i], cell(i, nom, c, sizeof c), lo, hi,
+                s.present < set->runs ? "  (absent in some runs)" : "");
+    }
+    fputs("  the runs named above:\n", out);
+    for (size_t r = 0; r < set->runs; r++) {
+        bool named = false;
+        for (size_t k = 0; k < 2 * TB_SPREAD_FIGURES; k++)
+            named = named || (used[k] && which[k] == r);
+        if (!named)
+            continue;
+        fprintf(out, "    %zu: ", r);
+        run_values(set, r, out);
+        fprintf(out, " (%s)\n", status_words[set->status[r]]);
+    }
+    return TB_OK;
+}
+
+static tb_status monte_carlo_text(const tb_spreadset *set, size_t l, FILE *out)
+{
+    fprintf(out, "  %-10s %-11s %-11s %-11s %-11s %-11s %-11s %-11s\n", "figure", "mean", "sigma", "min", "5 %",
+            "median", "95 %", "max");
+    for (size_t i = 0; i + 1 < TB_SPREAD_FIGURES; i++) {
+        tb_spread_stats s;
+        tb_status st = tb_spreadset_stats(set, l, i, &s);
+        if (st)
+            return st;
+        if (s.present == 0) {
+            fprintf(out, "  %-10s absent in every sample\n", heads[i]);
+            continue;
+        }
+        fprintf(out, "  %-10s %-11.5g %-11.4g %-11.5g %-11.5g %-11.5g %-11.5g %-11.5g", heads[i], s.mean, s.sigma,
+                s.min, s.p[1], s.p[2], s.p[3], s.max);
+        if (s.present < set->runs)
+            fprintf(out, " (in %zu samples)", s.present);
+        fputs("\n", out);
+    }
+    size_t count[4] = {0};
+    for (size_t r = 0; r < set->runs; r++) {
+        const tb_figure_value *v = &tb_spreadset_row(set, r, l)[TB_SPREAD_FIGURES - 1];
+        count[v->present && v->value >= 0 && v->value <= 3 ? (size_t)v->value : 0]++;
+    }
+    fprintf(out, "  verdict    stable %zu, marginal %zu, unstable %zu, undecided or not analysed %zu\n", count[1],
+            count[2], count[3], count[0]);
+    return TB_OK;
+}
+
+tb_status tb_report_spread_text(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+{
+    if (!ckt || !set || !out)
+        return TB_ERR_USAGE;
+    char name[512];
+    fprintf(out, "tbeta %s: spread of %s\n", TB_VERSION, tb_report_escape(ckt->file, name, sizeof name));
+    kind_line(set, out);
+    tb_status st = TB_OK;
+    for (size_t l = 0; l < set->loops && !st; l++) {
+        fprintf(out, "\nloop at %s\n", tb_report_escape(tb_circuit_loop_name(ckt, l), name, sizeof name));
+        if (set->kind == TB_SPREADSET_SCAN)
+            scan_text(ckt, set, l, out);
+        else if (set->kind == TB_SPREADSET_CORNERS)
+            st = corner_text(set, l, out);
+        else
+            st = monte_carlo_text(set, l, out);
+    }
+    fprintf(out, "\n%s\n", tb_report_caution);
+    if (st)
+        return st;
+    return ferror(out) ? TB_ERR_IO : TB_OK;
+}
+
+/* ---- CSV ------------------------------------------------------------------------- */
+
+tb_status tb_report_spread_csv(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+{
+    if (!ckt || !set || !out)
+        return TB_ERR_USAGE;
+    char name[256];
+    fputs("run,status", out);
+    for (size_t p = 0; p < set->params; p++)
+        fprintf(out, ",%s", tb_report_escape(set->param_names[p], name, sizeof name));
+    for (size_t l = 0; l < set->loops; l++)
+        for (size_t i = 0; i < TB_SPREAD_FIGURES; i++)
+            fprintf(out, ",%s.%s", tb_report_escape(tb_circuit_loop_name(ckt, l), name, sizeof name),
+                    tb_figure_at((size_t)tb_spreadset_figure(i))->name);
+    fputs("\n", out);
+    for (size_t r = 0; r < set->runs; r++) {
+        fprintf(out, "%zu,%s", r, status_words[set->status[r]]);
+        for (size_t p = 0; p < set->params; p++)
+            tb_report_cell_real(out, true, set->param_values[r * set->params + p]);
+        for (size_t l = 0; l < set->loops; l++)
+            for (size_t i = 0; i < TB_SPREAD_FIGURES; i++) {
+                const tb_figure_value *v = &tb_spreadset_row(set, r, l)[i];
+                if (i == TB_SPREAD_FIGURES - 1)
+                    fprintf(out, ",%s", v->present ? tb_figure_word(v->value) : "");
+                else
+                    tb_report_cell_real(out, v->present, v->value);
+            }
+        fputs("\n", out);
+    }
+    return ferror(out) ? TB_ERR_IO : TB_OK;
+}
+
+/* ---- JSON ------------------------------------------------------------------------ */
+
+static json_t *num(double x)
+{
+    return isfinite(x) ? json_real(x) : json_null();
+}
+
+/* obj[key] = val; false when out of memory (val is taken either way). */
+static bool put(json_t *obj, const char *key, json_t *val)
+{
+    return val && json_object_set_new(obj, key, val) == 0;
+}
+
+static json_t *figure_json(size_t i, const tb_figure_value *v)
+{
+    if (!v->present)
+        return json_null();
+    return i == TB_SPREAD_FIGURES - 1 ? json_string(tb_figure_word(v->value)) : num(v->value);
+}
+
+static json_t *run_json(const tb_circuit *ckt, const tb_spreadset *set, size_t r)
+{
+    json_t *run = json_object();
+    json_t *values = json_object();
+    json_t *loops = json_object();
+    bool ok = run && values && loops && put(run, "run", json_integer((json_int_t)r)) &&
+              put(run, "status", json_string(status_words[set->status[r]]));
+    for (size_t p = 0; ok && p < set->params; p++)
+        ok = put(values, set->param_names[p], num(set->param_values[r * set->params + p]));
+    for (size_t l = 0; ok && l < set->loops; l++) {
+        json_t *figs = json_object();
+        ok = figs && put(loops, tb_circuit_loop_name(ckt, l), figs);
+        for (size_t i = 0; ok && i < TB_SPREAD_FIGURES; i++)
+            ok = put(figs, tb_figure_at((size_t)tb_spreadset_figure(i))->name,
+                     figure_json(i, &tb_spreadset_row(set, r, l)[i]));
+    }
+    ok = ok && put(run, "values", json_incref(values)) && put(run, "loops", json_incref(loops));
+    json_decref(values);
+    json_decref(loops);
+    if (!ok) {
+        json_decref(run);
+        return NULL;
+    }
+    return run;
+}
+
+static json_t *stats_json(const tb_spreadset *set, size_t l, bool *nomem)
+{
+    json_t *all = json_object();
+    bool ok = all != NULL;
+    for (size_t i = 0; ok && i + 1 < TB_SPREAD_FIGURES; i++) {
+        tb_spread_stats s;
+        ok = tb_spreadset_stats(set, l, i, &s) == TB_OK;
+        json_t *o = ok ? json_object() : NULL;
+        ok = o && put(all, tb_figure_at((size_t)tb_spreadset_figure(i))->name, o) &&
+             put(o, "present", json_integer((json_int_t)s.present));
+        if (ok && s.present > 0) {
+            ok = put(o, "mean", num(s.mean)) && put(o, "sigma", num(s.sigma)) && put(o, "min", num(s.min)) &&
+                 put(o, "min_run", json_integer((json_int_t)s.min_run)) && put(o, "max", num(s.max)) &&
+                 put(o, "max_run", json_integer((json_int_t)s.max_run)) && put(o, "p1", num(s.p[0])) &&
+                 put(o, "p5", num(s.p[1])) && put(o, "p50", num(s.p[2])) && put(o, "p95", num(s.p[3])) &&
+                 put(o, "p99", num(s.p[4]));
+        }
+    }
+    if (!ok) {
+        json_decref(all);
+        *nomem = true;
+        return NULL;
+    }
+    return all;
+}
+
+static const char *const kind_words[] = {[TB_SPREADSET_SCAN] = "scan", [TB_SPREADSET_CORNERS] = "corners",
+                                         [TB_SPREADSET_MONTE_CARLO] = "monte_carlo"};
+
+static json_t *spread_json(const tb_circuit *ckt, const tb_spreadset *set)
+{
+    size_t analysed = 0;
+    size_t pass = tb_spreadset_passed(set, &analysed);
+    json_t *root = json_object();
+    json_t *runs = json_array();
+    json_t *stats = json_object();
+    bool ok = root && runs && stats && put(root, "tbeta", json_string(TB_VERSION)) &&
+              put(root, "netlist", tb_report_json_text(ckt->file)) && put(root, "kind", json_string(kind_words[set->kind])) &&
+              put(root, "dimensions", json_integer((json_int_t)set->dimensions)) &&
+              put(root, "passed", json_integer((json_int_t)pass)) &&
+              put(root, "analysed", json_integer((json_int_t)analysed));
+    if (ok && set->kind == TB_SPREADSET_MONTE_CARLO)
+        ok = put(root, "seed", json_integer((json_int_t)set->seed)) &&
+             put(root, "yield", analysed ? num((double)pass / (double)analysed) : json_null());
+    if (ok && set->kind == TB_SPREADSET_CORNERS)
+        ok = put(root, "reduced", json_boolean(set->reduced));
+    for (size_t r = 0; ok && r < set->runs; r++)
+        ok = json_array_append_new(runs, run_json(ckt, set, r)) == 0;
+    bool nomem = false;
+    for (size_t l = 0; ok && set->kind != TB_SPREADSET_SCAN && l < set->loops; l++)
+        ok = put(stats, tb_circuit_loop_name(ckt, l), stats_json(set, l, &nomem));
+    ok = ok && put(root, "runs", json_incref(runs)) && put(root, "statistics", json_incref(stats)) &&
+         put(root, "caution", json_string(tb_report_caution));
+    json_decref(runs);
+    json_decref(stats);
+    if (!ok) {
+        json_decref(root);
+        return NULL;
+    }
+    return root;
+}
+
+tb_status tb_report_spread_json(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+{
+    if (!ckt || !set || !out)
+        return TB_ERR_USAGE;
+    json_t *root = spread_json(ckt, set);
+    if (!root)
+        return TB_ERR_NOMEM;
+    int rc = json_dumpf(root, out, JSON_INDENT(2) | JSON_REAL_PRECISION(17) | JSON_PRESERVE_ORDER);
+    json_decref(root);
+    if (rc == 0)
+        fputs("\n", out);
+    if (ferror(out))
+        return TB_ERR_IO;
+    return rc == 0 ? TB_OK : TB_ERR_NOMEM;
+}
+
+/* ---- SVG and HTML ------------------------------------------------------------------- */
+
+/* Figure i of loop l against the scanned value, in a panel at top. */
+static tb_status scan_panel(tb_picture *pic, const tb_spreadset *set, size_t i, double top, const char *ylabel)
+{
+    size_t n = set->runs;
+    double *x = tb_malloc(n, sizeof(double));
+    double *y = tb_malloc(n * (set->loops ? set->loops : 1), sizeof(double));
+    bool *ok = tb_malloc(n * (set->loops ? set->loops : 1), sizeof(bool));
+    if (!x || !y || !ok) {
+        tb_free(x);
+        tb_free(y);
+        tb_free(ok);
+        return TB_ERR_NOMEM;
+    }
+    double x0 = INFINITY, x1 = -INFINITY, y0 = INFINITY, y1 = -INFINITY;
+    for (size_t r = 0; r < n; r++) {
+        x[r] = set->param_values[r * set->params];
+        x0 = fmin(x0, x[r]);
+        x1 = fmax(x1, x[r]);
+        for (size_t l = 0; l < set->loops; l++) {
+            const tb_figure_value *v = &tb_spreadset_row(set, r, l)[i];
+            ok[l * n + r] = v->present;
+            y[l * n + r] = v->value;
+            if (v->present) {
+                y0 = fmin(y0, v->value);
+                y1 = fmax(y1, v->value);
+            }
+        }
+    }
+    bool log_x = x0 > 0 && x1 / x0 > 20;
+    bool log_y = i == 1 && y0 > 0 && y1 / y0 > 20;
+    if (!(y0 < y1)) {
+        double pad = isfinite(y0) ? fmax(1.0, fabs(y0) * 0.1) : 1.0;
+        y0 = isfinite(y0) ? y0 - pad : 0;
+        y1 = isfinite(y1) ? y1 + pad : 1;
+        if (log_y && y0 <= 0)
+            log_y = false;
+    }
+    if (!(x0 < x1))
+        x1 = x0 + 1;
+    tb_panel p = {x0, x1, y0, y1, log_x, log_y, 90, top, 560, 200};
+    tb_plot_axes(pic, &p, set->param_names[0], ylabel);
+    for (size_t l = 0; l < set->loops && l < TB_STYLE_GUIDE; l++)
+        tb_plot_series(pic, &p, x, y + l * n, ok + l * n, n, (tb_style)l);
+    tb_free(x);
+    tb_free(y);
+    tb_free(ok);
+    return TB_OK;
+}
+
+/* The phase margin and the unity crossing against the scanned value (one axis, or the first of two). */
+static tb_status scan_svg(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+{
+    char title[512], name[256];
+    snprintf(title, sizeof title, "%s: phase margin and unity crossing over %s", ckt->file,
+             set->param_names[0]);
+    tb_picture pic;
+    tb_plot_begin(&pic, out, 860, 560, title);
+    tb_status st = scan_panel(&pic, set, 2, 50, "phase margin (deg)");
+    if (!st)
+        st = scan_panel(&pic, set, 1, 310, "unity crossing (Hz)");
+    for (size_t l = 0; !st && l < set->loops && l < TB_STYLE_GUIDE; l++) {
+        snprintf(title, sizeof title, "loop at %s", tb_report_escape(tb_circuit_loop_name(ckt, l), name, sizeof name));
+        tb_plot_legend(&pic, (tb_style)l, title);
+    }
+    bool written = tb_plot_end(&pic);
+    return st ? st : written ? TB_OK : TB_ERR_IO;
+}
+
+static void html_escape(FILE *out, const char *s)
+{
+    for (; *s; s++) {
+        if (*s == '<')
+            fputs("&lt;", out);
+        else if (*s == '>')
+            fputs("&gt;", out);
+        else if (*s == '&')
+            fputs("&amp;", out);
+        else
+            fputc(*s, out);
+    }
+}
+
+tb_status tb_report_spread_html(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+{
+    if (!ckt || !set || !out)
+        return TB_ERR_USAGE;
+    char *text = NULL;
+    size_t len = 0;
+    FILE *mem = open_memstream(&text, &len);
+    if (!mem)
+        return TB_ERR_NOMEM;
+    tb_status st = tb_report_spread_text(ckt, set, mem);
+    if (fclose(mem) != 0 && !st)
+        st = TB_ERR_NOMEM;
+    if (st) {
+        free(text);
+        return st;
+    }
+    char name[512];
+    fputs("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>", out);
+    html_escape(out, tb_report_escape(ckt->file, name, sizeof name));
+    fputs(": spread</title>\n<style>body{font-family:sans-serif;margin:2em}pre{font-size:13px}</style>"
+          "</head><body>\n<h1>Spread of ", out);
+    html_escape(out, name);
+    fputs("</h1>\n", out);
+    if (set->kind == TB_SPREADSET_SCAN && set->params >= 1 && set->runs > 1) {
+        fputs("<figure>\n", out);
+        st = scan_svg(ckt, set, out);
+        fputs("</figure>\n", out);
+    }
+    fputs("<pre>", out);
+    html_escape(out, text);
+    fputs("</pre>\n</body></html>\n", out);
+    free(text);
+    if (st)
+        return st;
+    return ferror(out) ? TB_ERR_IO : TB_OK;
+}
