@@ -1,0 +1,230 @@
+/* tests/test_spread.c: scans, corners and Monte Carlo against closed forms, sampling error and thread counts */
+#include "testutil.h"
+
+#include "circuit.h"
+#include "spread.h"
+
+/* A divider R1/R2 read by a follower of loop gain K = 1000 (E1 drives OUT to K (mid - out)):
+ * T = K, A_inf = D = R2/(R1 + R2), A = D K/(1 + K) (Black 1934: A = a/(1 + a beta) with
+ * beta = 1, scaled by the divider). */
+static const char *const DIVIDER =
+    "divider and follower\n"
+    "Vs in 0 AC 1\n"
+    "R1 in mid 10k\n"
+    "R2 mid 0 10k\n"
+    "E1 out 0 mid out 1000\n"
+    "RL out 0 1meg\n"
+    ".io Vs v(out)\n"
+    ".loop E1\n"
+    ".ac dec 2 1 1k\n";
+
+static tb_circuit *with_cards(const char *base, const char *cards)
+{
+    char text[2048];
+    snprintf(text, sizeof text, "%s%s", base, cards);
+    return tu_parse(text);
+}
+
+static tb_spreadset *run(const tb_circuit *ckt, int kind, size_t samples, unsigned jobs, uint64_t seed)
+{
+    tb_spread_options opt;
+    tb_spread_options_init(&opt);
+    opt.samples = samples;
+    opt.jobs = jobs;
+    opt.seed = seed;
+    tb_diag *diag = tb_diag_new();
+    tb_spreadset *set = NULL;
+    tb_status st = kind == 0   ? tb_spread_scan(ckt, &opt, diag, &set)
+                   : kind == 1 ? tb_spread_corners(ckt, &opt, diag, &set)
+                               : tb_spread_monte_carlo(ckt, &opt, diag, &set);
+    tu_print_diags(diag);
+    tb_diag_free(diag);
+    assert_int_equal(st, TB_OK);
+    return set;
+}
+
+enum { FIG_T = 0, FIG_A = 5 }; /* dc.T and dc.A among the spread figures (spreadset.c) */
+
+/* Gaussian R1, R2 (sigma 1 % each, independent): to first order (the delta method, any
+ * statistics text) D = R2/(R1 + R2) has mean D0 and sigma
+ *   sigma_D = sqrt((R2 s1)^2 + (R1 s2)^2)/(R1 + R2)^2
+ * with s_i = 0.01 R_i; the second-order bias of the mean and the error of the sigma are
+ * O(1e-4) relative, below the sampling error of N = 4000 samples. Bounds: 4 standard errors
+ * of the mean (sigma/sqrt N) and of the sigma (sigma/sqrt(2(N - 1))), common practice. */
+static void test_spread_divider_gaussian(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = with_cards(DIVIDER, ".spread R1 R2 gauss 1%\n");
+    const size_t n = 4000;
+    tb_spreadset *set = run(ckt, 2, n, 2, 20260101);
+    double k = 1000.0 / 1001.0;
+    double D0 = 0.5;
+    double sD = sqrt(2.0) * 10e3 * 100.0 / (20e3 * 20e3);
+    tb_spread_stats s;
+    assert_int_equal(tb_spreadset_stats(set, 0, FIG_A, &s), TB_OK);
+    assert_int_equal(s.present, n);
+    double mean_err = 4 * sD * k / sqrt((double)n);
+    double sigma_err = 4 * sD * k / sqrt(2.0 * (double)(n - 1));
+    if (fabs(s.mean - D0 * k) > mean_err || fabs(s.sigma - sD * k) > sigma_err)
+        fail_msg("A: mean %.9g (want %.9g +- %.3g), sigma %.6g (want %.6g +- %.3g)", s.mean, D0 * k, mean_err,
+                 s.sigma, sD * k, sigma_err);
+    /* the loop gain does not depend on the divider: T = 1000 in every sample */
+    assert_int_equal(tb_spreadset_stats(set, 0, FIG_T, &s), TB_OK);
+    assert_true(fabs(s.min - 1000) < 1e-9 && fabs(s.max - 1000) < 1e-9);
+    tb_spreadset_free(set);
+    tb_circuit_free(ckt);
+}
+
+/* Desensitivity: only the amplifier gain K spreads (gauss, sigma 10 %). To first order
+ * dA/A = S dK/K with S = 1/(1 + T) = 1/(1 + K) (Black 1934; H. W. Bode 1945, the
+ * sensitivity function): sigma_A/A = 0.1/(1 + K). K = 100 here, so that the spread of A
+ * stands well above rounding; second-order terms are O(0.1 S) relative. */
+static void test_spread_desensitivity(void **state)
+{
+    (void)state;
+    char text[2048];
+    snprintf(text, sizeof text, "%s", DIVIDER);
+    char *k = strstr(text, "mid out 1000");
+    memcpy(k, "mid out  100", 12);
+    tb_circuit *ckt = with_cards(text, ".spread E1 gauss 10%\n");
+    const size_t n = 3000;
+    tb_spreadset *set = run(ckt, 2, n, 2, 7);
+    tb_spread_stats sA, sT;
+    assert_int_equal(tb_spreadset_stats(set, 0, FIG_A, &sA), TB_OK);
+    assert_int_equal(tb_spreadset_stats(set, 0, FIG_T, &sT), TB_OK);
+    double rel_T = sT.sigma / sT.mean; /* the drawn spread of K = T, about 10 % */
+    double S = 1.0 / (1.0 + sT.mean);
+    double rel_A = sA.sigma / sA.mean;
+    /* the ratio of the spreads against S, to the first-order error plus sampling */
+    if (fabs(rel_A / rel_T - S) > 0.05 * S)
+        fail_msg("spread of A / spread of K = %.6g, S = 1/(1+T) = %.6g", rel_A / rel_T, S);
+    assert_true(fabs(rel_T - 0.1) < 4 * 0.1 / sqrt(2.0 * (double)n));
+    tb_spreadset_free(set);
+    tb_circuit_free(ckt);
+}
+
+/* A seeded run gives the same numbers for 1, 2 and 3 threads, and another seed others. */
+static void test_spread_reproducible(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = with_cards(DIVIDER, ".spread R* flat 5%\n.spread E1 pick 100 1000 10000\n");
+    tb_spreadset *a = run(ckt, 2, 37, 1, 99);
+    tb_spreadset *b = run(ckt, 2, 37, 2, 99);
+    tb_spreadset *c = run(ckt, 2, 37, 3, 99);
+    tb_spreadset *d = run(ckt, 2, 37, 3, 100);
+    size_t cells = a->runs * a->loops * TB_SPREAD_FIGURES;
+    for (size_t i = 0; i < cells; i++) {
+        assert_true(a->fig[i].present == b->fig[i].present && a->fig[i].value == b->fig[i].value);
+        assert_true(a->fig[i].present == c->fig[i].present && a->fig[i].value == c->fig[i].value);
+    }
+    assert_memory_equal(a->param_values, c->param_values, a->runs * a->params * sizeof(double));
+    assert_memory_not_equal(a->param_values, d->param_values, a->runs * a->params * sizeof(double));
+    tb_spreadset_free(a);
+    tb_spreadset_free(b);
+    tb_spreadset_free(c);
+    tb_spreadset_free(d);
+    tb_circuit_free(ckt);
+}
+
+/* A scan of K over a list: dc.A = D K/(1 + K) and dc.T = K at each value (Black 1934). */
+static void test_spread_scan_closed_form(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = with_cards(DIVIDER, ".scan E1 list 1 10 100 1000\n.scan R2 list 10k 30k\n");
+    tb_spreadset *set = run(ckt, 0, 0, 2, 0);
+    assert_int_equal(set->runs, 8);
+    static const double Ks[4] = {1, 10, 100, 1000};
+    for (size_t r = 0; r < set->runs; r++) {
+        double K = set->param_values[r * 2];
+        double R2 = set->param_values[r * 2 + 1];
+        assert_true(K == Ks[r / 2] && R2 == (r % 2 ? 30e3 : 10e3));
+        double want = R2 / (10e3 + R2) * K / (1 + K);
+        const tb_figure_value *f = tb_spreadset_row(set, r, 0);
+        assert_true(f[FIG_T].present && fabs(f[FIG_T].value - K) < 1e-9 * K);
+        assert_true(f[FIG_A].present && fabs(f[FIG_A].value - want) < 1e-9 * want);
+    }
+    tb_spreadset_free(set);
+    tb_circuit_free(ckt);
+}
+
+/* Corners of a group and two single parts: 3 dimensions, 1 + 2^3 runs; the extremes of A =
+ * D K/(1 + K) lie where D and K are extreme: lowest with R1 high, R2 low, K low. R1 and R2
+ * in one group move together, so D stays 0.5 in every corner. */
+static void test_spread_corners_extremes(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = with_cards(DIVIDER, ".spread R1 flat 10%\n.spread R2 gauss 1%\n.spread E1 pick 10 100\n");
+    tb_spreadset *set = run(ckt, 1, 0, 2, 0);
+    assert_int_equal(set->runs, 9);
+    assert_int_equal(set->dimensions, 3);
+    assert_false(set->reduced);
+    tb_spread_stats s;
+    assert_int_equal(tb_spreadset_stats(set, 0, FIG_A, &s), TB_OK);
+    double lo = 9.7e3 / (11e3 + 9.7e3) * 10.0 / 11.0;
+    double hi = 10.3e3 / (9e3 + 10.3e3) * 100.0 / 101.0;
+    assert_true(fabs(s.min - lo) < 1e-9 * lo && fabs(s.max - hi) < 1e-9 * hi);
+    tb_spreadset_free(set);
+    tb_circuit_free(ckt);
+
+    ckt = with_cards(DIVIDER, ".spread R1 R2 flat 10% group=matched\n");
+    set = run(ckt, 1, 0, 1, 0);
+    assert_int_equal(set->runs, 3);
+    assert_int_equal(tb_spreadset_stats(set, 0, FIG_A, &s), TB_OK);
+    assert_true(fabs(s.max - s.min) < 1e-12);
+    tb_spreadset_free(set);
+    tb_circuit_free(ckt);
+}
+
+/* Eleven independent resistors: past TB_SPREAD_FULL_CORNERS the reduced design runs the
+ * nominal point, each resistor alone at both ends, then the corners they predict. The gain
+ * of a chain of inverting stages is monotone in every resistor, so the predicted corner is
+ * the true worst case: A = prod (Rf_i/Rin_i) at its extremes. */
+static void test_spread_corners_reduced(void **state)
+{
+    (void)state;
+    char text[4096] = "gain chain\nVs in 0 AC 1\n";
+    char line[160];
+    static const char *const outs[6] = {"o1", "o2", "o3", "o4", "o5", "o6"};
+    const char *prev = "in";
+    for (int i = 1; i <= 6; i++) {
+        snprintf(line, sizeof line, "RI%d %s m%d 10k\nRF%d m%d o%d %dk\nE%d o%d 0 0 m%d 1meg\n", i, prev, i, i, i, i,
+                 10 + i, i, i, i);
+        strcat(text, line);
+        prev = outs[i - 1];
+    }
+    strcat(text, ".io Vs v(o6)\n.loop E1\n.ac dec 2 1 1k\n.spread RI* RF1 RF2 RF3 RF4 RF5 flat 1%\n");
+    tb_circuit *ckt = tu_parse(text);
+    tb_spreadset *set = run(ckt, 1, 0, 2, 0);
+    assert_true(set->reduced);
+    assert_int_equal(set->dimensions, 11);
+    assert_true(set->runs > 23 && set->runs <= 23 + 2 * (TB_SPREAD_FIGURES - 1));
+    tb_spread_stats s;
+    assert_int_equal(tb_spreadset_stats(set, 0, FIG_A, &s), TB_OK);
+    /* |A| largest with every RF high and RI low (RF6 fixed); six inversions: A > 0 */
+    double up = 1, down = 1;
+    for (int i = 1; i <= 6; i++) {
+        double rf = (10 + i) * 1e3;
+        double hi = i < 6 ? 1.01 : 1.0;
+        double lo = i < 6 ? 0.99 : 1.0;
+        up *= rf * hi / (10e3 * 0.99);
+        down *= rf * lo / (10e3 * 1.01);
+    }
+    /* finite stage gains (1e6) shift A by about 1e-5 relative: compare to 1e-4 */
+    if (fabs(s.max / up - 1) > 1e-4 || fabs(s.min / down - 1) > 1e-4)
+        fail_msg("reduced corners: A from %.9g to %.9g, want %.9g to %.9g", s.min, s.max, down, up);
+    tb_spreadset_free(set);
+    tb_circuit_free(ckt);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_spread_divider_gaussian),
+        cmocka_unit_test(test_spread_desensitivity),
+        cmocka_unit_test(test_spread_reproducible),
+        cmocka_unit_test(test_spread_scan_closed_form),
+        cmocka_unit_test(test_spread_corners_extremes),
+        cmocka_unit_test(test_spread_corners_reduced),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
