@@ -137,6 +137,26 @@ static tb_status corner_text(const tb_spreadset *set, size_t l, FILE *out)
     return TB_OK;
 }
 
+/* The spread of A against that of the loop source's gain, beside 1/|1 + T|. */
+static void desens_text(const tb_spreadset *set, size_t l, FILE *out)
+{
+    tb_spread_desens d;
+    if (!tb_spreadset_desens(set, l, 0, &d) || !(d.spread_k > 0))
+        return;
+    fprintf(out, "  desensitivity: the loop source's gain spreads %.3g %% (sigma/mean)\n"
+            "  %-12s %-16s %-16s %-16s\n", 100 * d.spread_k, "at", "sigma(A)/|A|", "|S| = 1/|1+T|",
+            "|S| x gain spread");
+    char f[32];
+    for (size_t i = 0; i < set->probes.count; i++) {
+        if (!tb_spreadset_desens(set, l, i, &d))
+            continue;
+        fprintf(out, "  %-12s %-16.4g %-16.4g %-16.4g\n", i == 0 ? "DC" : tb_plot_eng(d.hz, "Hz", f, sizeof f),
+                100 * d.spread_A, d.S, 100 * d.S * d.spread_k);
+    }
+    fputs("  (spreads in %; A also spreads with every other part, so the first column may exceed the\n"
+          "  last, which is the share the gain alone explains to first order, with A0 << A)\n", out);
+}
+
 static tb_status monte_carlo_text(const tb_spreadset *set, size_t l, FILE *out)
 {
     fprintf(out, "  %-10s %-11s %-11s %-11s %-11s %-11s %-11s %-11s\n", "figure", "mean", "sigma", "min", "5 %",
@@ -163,6 +183,7 @@ static tb_status monte_carlo_text(const tb_spreadset *set, size_t l, FILE *out)
     }
     fprintf(out, "  verdict    stable %zu, marginal %zu, unstable %zu, undecided or not analysed %zu\n", count[1],
             count[2], count[3], count[0]);
+    desens_text(set, l, out);
     return TB_OK;
 }
 
@@ -293,6 +314,28 @@ static json_t *stats_json(const tb_spreadset *set, size_t l, bool *nomem)
     return all;
 }
 
+/* Loop l's desensitivity over the probes (null when the loop source's gain does not spread). */
+static json_t *desens_json(const tb_spreadset *set, size_t l)
+{
+    tb_spread_desens d;
+    if (!tb_spreadset_desens(set, l, 0, &d) || !(d.spread_k > 0))
+        return json_null();
+    json_t *rows = json_array();
+    bool ok = rows != NULL;
+    for (size_t i = 0; ok && i < set->probes.count; i++) {
+        if (!tb_spreadset_desens(set, l, i, &d))
+            continue;
+        json_t *o = json_object();
+        ok = o && json_array_append_new(rows, o) == 0 && put(o, "hz", num(d.hz)) &&
+             put(o, "spread_A", num(d.spread_A)) && put(o, "spread_k", num(d.spread_k)) && put(o, "S", num(d.S));
+    }
+    if (!ok) {
+        json_decref(rows);
+        return NULL;
+    }
+    return rows;
+}
+
 static const char *const kind_words[] = {[TB_SPREADSET_SCAN] = "scan", [TB_SPREADSET_CORNERS] = "corners",
                                          [TB_SPREADSET_MONTE_CARLO] = "monte_carlo"};
 
@@ -316,8 +359,12 @@ static json_t *spread_json(const tb_circuit *ckt, const tb_spreadset *set)
     for (size_t r = 0; ok && r < set->runs; r++)
         ok = json_array_append_new(runs, run_json(ckt, set, r)) == 0;
     bool nomem = false;
-    for (size_t l = 0; ok && set->kind != TB_SPREADSET_SCAN && l < set->loops; l++)
-        ok = put(stats, tb_circuit_loop_name(ckt, l), stats_json(set, l, &nomem));
+    for (size_t l = 0; ok && set->kind != TB_SPREADSET_SCAN && l < set->loops; l++) {
+        json_t *one = stats_json(set, l, &nomem);
+        ok = put(stats, tb_circuit_loop_name(ckt, l), one);
+        if (ok && set->kind == TB_SPREADSET_MONTE_CARLO)
+            ok = put(one, "desensitivity", desens_json(set, l));
+    }
     ok = ok && put(root, "runs", json_incref(runs)) && put(root, "statistics", json_incref(stats)) &&
          put(root, "caution", json_string(tb_report_caution));
     json_decref(runs);

@@ -298,6 +298,9 @@ tb_status tb_spread_monte_carlo(const tb_circuit *ckt, const tb_spread_options *
     if (!st) {
         set->seed = opt->seed;
         tb_spreadrun_probes(ckt, set);
+        st = tb_spreadrun_nominal(ckt, opt, diag, set);
+    }
+    if (!st) {
         for (size_t r = 0; r < runs; r++)
             draw(&p, opt->seed, r, &p.z[r * p.dims]);
         st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, 0, runs, set);

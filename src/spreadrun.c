@@ -50,6 +50,44 @@ void tb_spreadrun_probes(const tb_circuit *ckt, tb_spreadset *set)
     tb_free(f);
 }
 
+static double complex finite_or_zero(double complex z)
+{
+    return isfinite(creal(z)) && isfinite(cimag(z)) ? z : 0;
+}
+
+/* Loop l's point at probe i of res (DC: the lowest sweep point when DC was not solved);
+ * values that are not finite read 0. */
+static tb_point probe_point(const tb_spreadset *set, const tb_result *res, size_t l, size_t i)
+{
+    size_t g = probe_index(set, tb_result_points(res), i);
+    tb_point p;
+    if (g != SIZE_MAX || !tb_result_dc(res, l, &p))
+        p = tb_result_loop(res, l)[g == SIZE_MAX ? 0 : g];
+    p.A = finite_or_zero(p.A);
+    p.T = finite_or_zero(p.T);
+    return p;
+}
+
+tb_status tb_spreadrun_nominal(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag,
+                               tb_spreadset *set)
+{
+    tb_options one = opt->analysis;
+    one.census = false;
+    one.sensitivity = false;
+    tb_result *res = NULL;
+    tb_status st = tb_analyse(ckt, &one, diag, &res);
+    if (st)
+        return st;
+    for (size_t i = 0; i < set->probes.count && set->loops > 0; i++) {
+        set->A_nom[i] = probe_point(set, res, 0, i).A;
+        for (size_t l = 0; l < set->loops; l++)
+            set->T_nom[l * set->probes.count + i] = probe_point(set, res, l, i).T;
+    }
+    set->has_nominal = set->loops > 0;
+    tb_result_free(res);
+    return TB_OK;
+}
+
 /* Loop l passes: stable, and its margins meet the thresholds (as 'tbeta report' judges). */
 static bool loop_passes(const tb_result *res, size_t l)
 {
@@ -60,9 +98,12 @@ static bool loop_passes(const tb_result *res, size_t l)
 }
 
 /* Figures, status and A of run r from its result; all: loops * tb_figure_count() scratch. */
-static tb_status record(const worker *w, const tb_result *res, size_t r, tb_figure_value *all)
+static tb_status record(const worker *w, const tb_circuit *copy, const tb_result *res, size_t r,
+                        tb_figure_value *all)
 {
     tb_spreadset *set = w->set;
+    for (size_t l = 0; l < set->loops; l++)
+        set->k[r * set->loops + l] = copy->elems[copy->loops[l].elem].value;
     size_t nfig = tb_figure_count();
     bool pass = true;
     for (size_t l = 0; l < set->loops; l++) {
@@ -81,17 +122,8 @@ static tb_status record(const worker *w, const tb_result *res, size_t r, tb_figu
     set->status[r] = pass ? TB_RUN_PASS : TB_RUN_FAIL;
     if (set->loops == 0 || !tb_circuit_has_io(w->ckt))
         return TB_OK;
-    const tb_point *pts = tb_result_loop(res, 0);
-    for (size_t i = 0; i < set->probes.count; i++) {
-        size_t g = probe_index(set, tb_result_points(res), i);
-        tb_point dc;
-        double complex A = 0;
-        if (g == SIZE_MAX)
-            A = tb_result_dc(res, 0, &dc) ? dc.A : pts[0].A;
-        else
-            A = pts[g].A;
-        set->A[r * set->probes.count + i] = isfinite(creal(A)) && isfinite(cimag(A)) ? A : 0;
-    }
+    for (size_t i = 0; i < set->probes.count; i++)
+        set->A[r * set->probes.count + i] = probe_point(set, res, 0, i).A;
     return TB_OK;
 }
 
@@ -108,7 +140,7 @@ static tb_status one_run(const worker *w, const tb_circuit *copy, size_t r, tb_f
         return st;
     if (st)
         return TB_OK; /* the row stays TB_RUN_ERROR */
-    st = record(w, res, r, all);
+    st = record(w, copy, res, r, all);
     tb_result_free(res);
     return st;
 }

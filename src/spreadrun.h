@@ -21,4 +21,9 @@ tb_status tb_spreadrun_all(const tb_circuit *ckt, const tb_spread_options *opt, 
  * points spread evenly over it. */
 void tb_spreadrun_probes(const tb_circuit *ckt, tb_spreadset *set);
 
+/* The nominal circuit's T (every loop) and A at set's probe frequencies, into set->T_nom and
+ * set->A_nom (set->has_nominal). Errors: those of tb_analyse. */
+tb_status tb_spreadrun_nominal(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag,
+                               tb_spreadset *set);
+
 #endif

@@ -46,7 +46,11 @@ tb_spreadset *tb_spreadset_new(tb_spreadset_kind kind, size_t runs, size_t param
     set->probes.count = probes;
     set->probes.hz = tb_calloc(probes ? probes : 1, sizeof(double));
     set->A = tb_calloc(cells(runs, probes), sizeof(double complex));
-    if (!set->param_names || !set->param_values || !set->fig || !set->status || !set->probes.hz || !set->A) {
+    set->k = tb_calloc(cells(runs, loops), sizeof(double));
+    set->T_nom = tb_calloc(cells(loops, probes), sizeof(double complex));
+    set->A_nom = tb_calloc(cells(1, probes), sizeof(double complex));
+    if (!set->param_names || !set->param_values || !set->fig || !set->status || !set->probes.hz || !set->A ||
+        !set->k || !set->T_nom || !set->A_nom) {
         tb_spreadset_free(set);
         return NULL;
     }
@@ -67,6 +71,9 @@ void tb_spreadset_free(tb_spreadset *set)
     tb_free(set->status);
     tb_free(set->probes.hz);
     tb_free(set->A);
+    tb_free(set->k);
+    tb_free(set->T_nom);
+    tb_free(set->A_nom);
     tb_free(set);
 }
 
@@ -137,4 +144,42 @@ size_t tb_spreadset_passed(const tb_spreadset *set, size_t *analysed)
     if (analysed)
         *analysed = done;
     return pass;
+}
+
+/* sqrt(sum |x_r - mean|^2 / (n - 1)) / |mean| over the analysed runs, x_r = A at probe i
+ * (A true) or k at x[r * stride]; false with fewer than two runs or a zero mean. */
+static bool relative_spread(const tb_spreadset *set, const double *x, size_t stride, bool A, size_t i, double *out)
+{
+    double complex sum = 0;
+    double sum2 = 0;
+    size_t n = 0;
+    for (size_t r = 0; r < set->runs; r++)
+        if (set->status[r] != TB_RUN_ERROR) {
+            sum += A ? set->A[r * set->probes.count + i] : x[r * stride];
+            n++;
+        }
+    if (n < 2 || cabs(sum) == 0)
+        return false;
+    double complex mean = sum / (double)n;
+    for (size_t r = 0; r < set->runs; r++)
+        if (set->status[r] != TB_RUN_ERROR) {
+            double complex v = A ? set->A[r * set->probes.count + i] : x[r * stride];
+            sum2 += cabs(v - mean) * cabs(v - mean);
+        }
+    *out = sqrt(sum2 / (double)(n - 1)) / cabs(mean);
+    return isfinite(*out);
+}
+
+bool tb_spreadset_desens(const tb_spreadset *set, size_t l, size_t i, tb_spread_desens *out)
+{
+    if (!set || !out || !set->has_nominal || l >= set->loops || i >= set->probes.count)
+        return false;
+    tb_spread_desens d = {.hz = set->probes.hz[i]};
+    double complex one_plus_T = 1.0 + set->T_nom[l * set->probes.count + i];
+    if (cabs(one_plus_T) == 0 || !relative_spread(set, NULL, 0, true, i, &d.spread_A) ||
+        !relative_spread(set, set->k + l, set->loops, false, i, &d.spread_k))
+        return false;
+    d.S = 1.0 / cabs(one_plus_T);
+    *out = d;
+    return isfinite(d.S);
 }

@@ -41,6 +41,10 @@ typedef struct {
     size_t nominal;            /* the row of the nominal values, or SIZE_MAX */
     tb_spread_probes probes;   /* Monte Carlo: where A is recorded (count 0 otherwise) */
     double complex *A;         /* runs * probes.count: A there (0 when absent) */
+    double *k;                 /* runs * loops: each loop source's gain in the run */
+    bool has_nominal;          /* Monte Carlo: the nominal circuit's T and A at the probes below */
+    double complex *T_nom;     /* loops * probes.count */
+    double complex *A_nom;     /* probes.count */
     /* what the run was asked */
     unsigned long long seed;   /* Monte Carlo */
     bool reduced;              /* corners: the reduced design (too many dimensions for all) */
@@ -76,6 +80,18 @@ tb_status tb_spreadset_stats(const tb_spreadset *set, size_t l, size_t i, tb_spr
 
 /* The q-th quantile (0..1) of sorted x[0..n): x[(n-1)q] interpolated linearly (Hyndman and Fan's type 7). */
 double tb_spread_quantile(const double *sorted, size_t n, double q);
+
+/* Desensitivity shown over the samples, at probe i: the relative spread of A (the rms of
+ * |A - mean A| over |mean A|, analysed runs), that of loop l's source gain k, and the
+ * nominal |S| = 1/|1 + T|. To first order (dA/A = S dk/k with A0 << A) the first is |S|
+ * times the second when only k spreads. false when there are fewer than two analysed runs or no nominal values. */
+typedef struct {
+    double hz;
+    double spread_A; /* rms |A - mean A| / |mean A| */
+    double spread_k; /* sigma k / |mean k| */
+    double S;        /* 1/|1 + T| of the nominal circuit */
+} tb_spread_desens;
+bool tb_spreadset_desens(const tb_spreadset *set, size_t l, size_t i, tb_spread_desens *out);
 
 /* Runs that passed, and runs analysed. */
 size_t tb_spreadset_passed(const tb_spreadset *set, size_t *analysed);
