@@ -204,7 +204,7 @@ tb_status tb_report_spread_text(const tb_circuit *ckt, const tb_spreadset *set, 
         else
             st = monte_carlo_text(set, l, out);
     }
-    fprintf(out, "\n%s\n", tb_report_caution);
+    fprintf(out, "\ncaution: %s\n", tb_report_caution);
     if (st)
         return st;
     return ferror(out) ? TB_ERR_IO : TB_OK;

@@ -216,5 +216,36 @@ else passed=$((passed + 1)); fi
 expect odd-loop 2 $tb sweep netlists/ota_gain_of_2.net --loop "G$esc[2J"
 has odd-loop err "no .loop at 'G\x1B[2J'"
 
+# tbeta spread: scans, corners and Monte Carlo (docs/spread.md): exit codes, valid JSON and CSV,
+# the same bytes for any --jobs, usage errors
+sp=docs/examples/spread_buffer.net
+expect spread-scan 0 $tb spread "$sp" --scan
+has spread-scan out "scan: 9 runs over 1 element"
+has spread-scan out "caution: tbeta is a small-signal, linear analysis"
+expect spread-corners 1 $tb spread "$sp" --corners --json
+if /usr/bin/python3 -c 'import json,sys; d=json.load(open(sys.argv[1])); assert d["kind"] == "corners" and len(d["runs"]) == 257' "$tmp/out"; then
+    passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread-corners: JSON"; fi
+cat "$tmp/out" >>"$tmp/all"
+expect spread-mc1 1 $tb spread "$sp" --samples 40 --seed 5 --csv --jobs 1
+cp "$tmp/out" "$tmp/mc1"
+expect spread-mc3 1 $tb spread "$sp" --samples 40 --seed 5 --csv --jobs 3
+if cmp -s "$tmp/mc1" "$tmp/out"; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread: CSV differs across --jobs"; fi
+cat "$tmp/out" >>"$tmp/all"
+expect spread-html 0 $tb spread "$sp" --scan --html "$tmp/spread.html"
+if grep -q "<svg" "$tmp/spread.html"; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread-html: no plot"; fi
+expect spread-gain 0 $tb spread docs/examples/spread_gain.net --samples 50
+has spread-gain out "desensitivity: the loop source's gain spreads"
+cat "$tmp/out" >>"$tmp/all"
+expect spread-no-cards 2 $tb spread netlists/ota_gain_of_2.net
+has spread-no-cards err "the netlist has no .scan or .spread card"
+expect spread-two-modes 2 $tb spread "$sp" --json
+has spread-two-modes err "--csv, --json and --html take one mode"
+expect spread-samples 2 $tb spread "$sp" --samples 0
+has spread-samples err "--samples takes a whole number from 1 to 1000000, not '0'"
+expect spread-bad 2 $tb spread tests/bad/spread_no_dist.net
+has spread-bad err "spread_no_dist.net:12:14: error: expected 'flat', 'gauss' or 'pick' on .spread"
+if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/all"; then failed=$((failed + 1)); echo "FAIL spread: nan or inf in an output"
+else passed=$((passed + 1)); fi
+
 echo "cli: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]
