@@ -297,8 +297,9 @@ tb_status tb_spread_monte_carlo(const tb_circuit *ckt, const tb_spread_options *
         st = new_set(&p, TB_SPREADSET_MONTE_CARLO, runs, TB_SPREAD_PROBES, &set);
     if (!st) {
         set->seed = opt->seed;
-        tb_spreadrun_probes(ckt, set);
-        st = tb_spreadrun_nominal(ckt, opt, diag, set);
+        st = tb_spreadrun_probes(ckt, set);
+        if (!st)
+            st = tb_spreadrun_nominal(ckt, opt, diag, set);
     }
     if (!st) {
         for (size_t r = 0; r < runs; r++)

@@ -31,15 +31,12 @@ static size_t probe_index(const tb_spreadset *set, size_t npoints, size_t i)
     return k <= 1 ? 0 : (i - 1) * (npoints - 1) / (k - 1);
 }
 
-void tb_spreadrun_probes(const tb_circuit *ckt, tb_spreadset *set)
+tb_status tb_spreadrun_probes(const tb_circuit *ckt, tb_spreadset *set)
 {
     size_t npoints = tb_grid_count(&ckt->ac);
     double *f = tb_malloc(npoints ? npoints : 1, sizeof(double));
-    if (!f) {
-        set->probes.count = 1; /* DC alone (the probe array holds at least one) */
-        set->probes.hz[0] = 0;
-        return;
-    }
+    if (!f)
+        return TB_ERR_NOMEM;
     tb_grid_fill(&ckt->ac, f);
     if (set->probes.count > npoints + 1)
         set->probes.count = npoints + 1;
@@ -48,6 +45,7 @@ void tb_spreadrun_probes(const tb_circuit *ckt, tb_spreadset *set)
         set->probes.hz[i] = g == SIZE_MAX ? 0 : f[g];
     }
     tb_free(f);
+    return TB_OK;
 }
 
 static double complex finite_or_zero(double complex z)

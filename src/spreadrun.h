@@ -18,8 +18,8 @@ tb_status tb_spreadrun_all(const tb_circuit *ckt, const tb_spread_options *opt, 
                            const void *plan, size_t first, size_t count, tb_spreadset *set);
 
 /* Chooses set's probe frequencies from ckt's grid: DC and up to TB_SPREAD_PROBES - 1 grid
- * points spread evenly over it. */
-void tb_spreadrun_probes(const tb_circuit *ckt, tb_spreadset *set);
+ * points spread evenly over it. Errors: TB_ERR_NOMEM. */
+tb_status tb_spreadrun_probes(const tb_circuit *ckt, tb_spreadset *set);
 
 /* The nominal circuit's T (every loop) and A at set's probe frequencies, into set->T_nom and
  * set->A_nom (set->has_nominal). Errors: those of tb_analyse. */
