@@ -314,3 +314,41 @@ tb_status tb_spread_monte_carlo(const tb_circuit *ckt, const tb_spread_options *
     *out = set;
     return TB_OK;
 }
+
+/* ---- the spread figures of .expect ------------------------------------------------ */
+
+tb_status tb_spread_figures_run(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag, bool corners,
+                                bool samples, tb_spread_figures *out)
+{
+    if (!ckt || !opt || !out)
+        return TB_ERR_USAGE;
+    for (size_t l = 0; l < ckt->loop_count; l++)
+        out[l] = (tb_spread_figures){0};
+    if (!ckt->spread || ckt->spread->rule_count == 0)
+        return TB_OK;
+    tb_spreadset *set = NULL;
+    tb_status st = corners ? tb_spread_corners(ckt, opt, diag, &set) : TB_OK;
+    for (size_t l = 0; !st && set && l < ckt->loop_count; l++) {
+        tb_spread_stats pm, gm;
+        st = tb_spreadset_stats(set, l, 2, &pm);
+        if (!st)
+            st = tb_spreadset_stats(set, l, 3, &gm);
+        out[l].has_corners = true;
+        out[l].has_pm = pm.present > 0;
+        out[l].pm_worst_deg = pm.min;
+        out[l].has_gm = gm.present > 0;
+        out[l].gm_worst_db = gm.min;
+    }
+    tb_spreadset_free(set);
+    set = NULL;
+    if (!st && samples)
+        st = tb_spread_monte_carlo(ckt, opt, diag, &set);
+    size_t analysed = 0;
+    size_t pass = set ? tb_spreadset_passed(set, &analysed) : 0;
+    for (size_t l = 0; !st && set && analysed > 0 && l < ckt->loop_count; l++) {
+        out[l].has_samples = true;
+        out[l].yield_pct = 100.0 * (double)pass / (double)analysed;
+    }
+    tb_spreadset_free(set);
+    return st;
+}

@@ -41,4 +41,10 @@ tb_status tb_spread_corners(const tb_circuit *ckt, const tb_spread_options *opt,
 tb_status tb_spread_monte_carlo(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag,
                                 tb_spreadset **out);
 
+/* The spread figures of every loop (out: ckt->loop_count entries) for 'tbeta check': the
+ * corners when corners is set, the Monte Carlo (opt->samples, opt->seed) when samples is
+ * set; without a .spread card they stay absent. Errors as tb_spread_corners. */
+tb_status tb_spread_figures_run(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag, bool corners,
+                                bool samples, tb_spread_figures *out);
+
 #endif

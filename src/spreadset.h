@@ -8,7 +8,9 @@
 
 #include "expect.h"
 
-/* The figures every run records, per loop, by their names in the figure table (docs/check.md). */
+/* The figures every run records, per loop, by their names in the figure table (docs/check.md):
+ * dc.T, unity_hz, phase_margin_deg, gain_margin_up_db, delay_margin_s, dc.A, dc.gain_error_pct,
+ * f3db_closed_hz, verdict. */
 #define TB_SPREAD_FIGURES 9
 /* Index i of the spread figures into the figure table. */
 int tb_spreadset_figure(size_t i);

@@ -244,6 +244,12 @@ expect spread-samples 2 $tb spread "$sp" --samples 0
 has spread-samples err "--samples takes a whole number from 1 to 1000000, not '0'"
 expect spread-bad 2 $tb spread tests/bad/spread_no_dist.net
 has spread-bad err "spread_no_dist.net:12:14: error: expected 'flat', 'gauss' or 'pick' on .spread"
+# tbeta check runs the spread for the corners.* and samples.* figures of .expect
+expect spread-check 0 $tb check "$sp"
+has spread-check out "pass   $sp (4 expectations)"
+sed 's/corners.phase_margin_deg >= 20/corners.phase_margin_deg >= 25/' "$sp" >"$tmp/spread_fail.net"
+expect spread-check-fail 1 $tb check "$tmp/spread_fail.net"
+has spread-check-fail out "G1.corners.phase_margin_deg is 21.4313 deg, expected >= 25 deg"
 if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/all"; then failed=$((failed + 1)); echo "FAIL spread: nan or inf in an output"
 else passed=$((passed + 1)); fi
 
