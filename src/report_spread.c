@@ -351,9 +351,15 @@ static json_t *spread_json(const tb_circuit *ckt, const tb_spreadset *set)
               put(root, "dimensions", json_integer((json_int_t)set->dimensions)) &&
               put(root, "passed", json_integer((json_int_t)pass)) &&
               put(root, "analysed", json_integer((json_int_t)analysed));
-    if (ok && set->kind == TB_SPREADSET_MONTE_CARLO)
+    if (ok && set->kind == TB_SPREADSET_MONTE_CARLO) {
+        double lo = 0, hi = 0;
+        if (analysed)
+            tb_spread_wilson(pass, analysed, &lo, &hi);
+        json_t *interval = analysed ? json_pack("[ff]", lo, hi) : json_null();
         ok = put(root, "seed", json_integer((json_int_t)set->seed)) &&
-             put(root, "yield", analysed ? num((double)pass / (double)analysed) : json_null());
+             put(root, "yield", analysed ? num((double)pass / (double)analysed) : json_null()) &&
+             put(root, "yield_interval_95", interval);
+    }
     if (ok && set->kind == TB_SPREADSET_CORNERS)
         ok = put(root, "reduced", json_boolean(set->reduced));
     for (size_t r = 0; ok && r < set->runs; r++)

@@ -11,7 +11,9 @@ computes each run's figures from the closed form of the loop gain with numpy/sci
   phase margin = 180 - atan(w RS1 CS1) - atan(w RS2 CS2) in degrees there
 
 and checks that tbeta ran exactly those corners (and the nominal run) with the same figures,
-and that its worst cases are the enumeration's. Usage: spread_check.py TBETA [netlists...]
+and that its worst cases are the enumeration's. Then the Monte Carlo statistics of the demo
+docs/examples/spread_buffer.net against numpy from its own runs, and its yield interval
+against scipy's Wilson interval. Usage: spread_check.py TBETA [netlists...]
 (the netlists are ignored).
 """
 import itertools
@@ -45,6 +47,41 @@ def figures(rs1, cs1, g2, cs2):
 
 def key(vals):
     return tuple(float("%.12g" % v) for v in vals)
+
+
+def check_statistics(tbeta):
+    """Monte Carlo statistics and yield of the demo against numpy and scipy from its own runs:
+    mean, sample sigma (ddof=1), min, max, percentiles (numpy's linear method = Hyndman and
+    Fan's type 7), the yield and its 95 % Wilson interval (scipy.stats.binomtest)."""
+    from scipy.stats import binomtest
+    out = subprocess.run([tbeta, "spread", "docs/examples/spread_buffer.net", "--samples", "120", "--seed", "9",
+                          "--json", "--jobs", "2"], capture_output=True, text=True)
+    doc = json.loads(out.stdout)
+    bad = 0
+    for name, st in doc["statistics"]["G1"].items():
+        if name == "desensitivity":
+            continue
+        x = np.array([r["loops"]["G1"][name] for r in doc["runs"] if r["loops"]["G1"][name] is not None])
+        want = {"mean": np.mean(x), "sigma": np.std(x, ddof=1), "min": np.min(x), "max": np.max(x),
+                "p1": np.percentile(x, 1), "p5": np.percentile(x, 5), "p50": np.percentile(x, 50),
+                "p95": np.percentile(x, 95), "p99": np.percentile(x, 99)}
+        if st["present"] != len(x):
+            bad += 1
+        for k, v in want.items():
+            if abs(st[k] - v) > 1e-12 * max(abs(v), np.max(np.abs(x))):
+                print("spread_check: %s %s: tbeta %r, numpy %r" % (name, k, st[k], v))
+                bad += 1
+    passed = sum(r["status"] == "pass" for r in doc["runs"])
+    analysed = sum(r["status"] != "not analysed" for r in doc["runs"])
+    ci = binomtest(passed, analysed).proportion_ci(confidence_level=0.95, method="wilson")
+    if abs(doc["yield"] - passed / analysed) > 1e-15 or abs(doc["yield_interval_95"][0] - ci.low) > 1e-12 \
+            or abs(doc["yield_interval_95"][1] - ci.high) > 1e-12:
+        print("spread_check: yield %r %r, want %r [%r, %r]" % (doc["yield"], doc["yield_interval_95"],
+                                                             passed / analysed, ci.low, ci.high))
+        bad += 1
+    print("spread_check: Monte Carlo statistics and yield of %d samples against numpy and scipy, %d mismatches"
+          % (len(doc["runs"]), bad))
+    return bad
 
 
 def main():
@@ -91,6 +128,7 @@ def main():
             bad += 1
     print("spread_check: %d corners and the nominal run against the enumeration, %d mismatches"
           % (len(want) - 1, bad))
+    bad += check_statistics(tbeta)
     return 1 if bad else 0
 
 
