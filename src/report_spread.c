@@ -400,13 +400,46 @@ tb_status tb_report_spread_json(const tb_circuit *ckt, const tb_spreadset *set, 
 
 /* ---- SVG and HTML ------------------------------------------------------------------- */
 
-/* Figure i of loop l against the scanned value, in a panel at top. */
-static tb_status scan_panel(tb_picture *pic, const tb_spreadset *set, size_t i, double top, const char *ylabel)
+/* The curves of a scan's picture: one per loop against the scanned value; with two axes, one
+ * per value of the second (loop 0's figures), the first axis along x. At most TB_STYLE_GUIDE. */
+typedef struct {
+    size_t inner;  /* runs per value of the first axis (1 with one axis) */
+    size_t points; /* points per curve */
+    size_t curves;
+} scan_shape;
+
+static scan_shape shape_of(const tb_spreadset *set)
 {
-    size_t n = set->runs;
-    double *x = tb_malloc(n, sizeof(double));
-    double *y = tb_malloc(n * (set->loops ? set->loops : 1), sizeof(double));
-    bool *ok = tb_malloc(n * (set->loops ? set->loops : 1), sizeof(bool));
+    scan_shape sh = {1, set->runs, set->loops};
+    if (set->params >= 2) {
+        while (sh.inner < set->runs && set->param_values[sh.inner * set->params] == set->param_values[0])
+            sh.inner++;
+        sh.points = set->runs / sh.inner;
+        sh.curves = sh.inner;
+    }
+    if (sh.curves > TB_STYLE_GUIDE)
+        sh.curves = TB_STYLE_GUIDE;
+    return sh;
+}
+
+/* Figure i of curve c's point k. */
+static const tb_figure_value *curve_value(const tb_spreadset *set, const scan_shape *sh, size_t c, size_t k, size_t i,
+                                          double *x)
+{
+    size_t r = set->params >= 2 ? k * sh->inner + c : k;
+    *x = set->param_values[r * set->params];
+    return &tb_spreadset_row(set, r, set->params >= 2 ? 0 : c)[i];
+}
+
+/* Figure i against the first scanned value, every curve, in a panel at top. */
+static tb_status scan_panel(tb_picture *pic, const tb_spreadset *set, size_t i, double top, const char *ylabel,
+                            double guide)
+{
+    scan_shape sh = shape_of(set);
+    size_t cells = sh.points * (sh.curves ? sh.curves : 1);
+    double *x = tb_malloc(cells, sizeof(double));
+    double *y = tb_malloc(cells, sizeof(double));
+    bool *ok = tb_malloc(cells, sizeof(bool));
     if (!x || !y || !ok) {
         tb_free(x);
         tb_free(y);
@@ -414,20 +447,19 @@ static tb_status scan_panel(tb_picture *pic, const tb_spreadset *set, size_t i, 
         return TB_ERR_NOMEM;
     }
     double x0 = INFINITY, x1 = -INFINITY, y0 = INFINITY, y1 = -INFINITY;
-    for (size_t r = 0; r < n; r++) {
-        x[r] = set->param_values[r * set->params];
-        x0 = fmin(x0, x[r]);
-        x1 = fmax(x1, x[r]);
-        for (size_t l = 0; l < set->loops; l++) {
-            const tb_figure_value *v = &tb_spreadset_row(set, r, l)[i];
-            ok[l * n + r] = v->present;
-            y[l * n + r] = v->value;
+    for (size_t c = 0; c < sh.curves; c++)
+        for (size_t k = 0; k < sh.points; k++) {
+            size_t at = c * sh.points + k;
+            const tb_figure_value *v = curve_value(set, &sh, c, k, i, &x[at]);
+            x0 = fmin(x0, x[at]);
+            x1 = fmax(x1, x[at]);
+            ok[at] = v->present;
+            y[at] = v->value;
             if (v->present) {
                 y0 = fmin(y0, v->value);
                 y1 = fmax(y1, v->value);
             }
         }
-    }
     bool log_x = x0 > 0 && x1 / x0 > 20;
     bool log_y = i == 1 && y0 > 0 && y1 / y0 > 20;
     if (!(y0 < y1)) {
@@ -441,28 +473,38 @@ static tb_status scan_panel(tb_picture *pic, const tb_spreadset *set, size_t i, 
         x1 = x0 + 1;
     tb_panel p = {x0, x1, y0, y1, log_x, log_y, 90, top, 560, 200};
     tb_plot_axes(pic, &p, set->param_names[0], ylabel);
-    for (size_t l = 0; l < set->loops && l < TB_STYLE_GUIDE; l++)
-        tb_plot_series(pic, &p, x, y + l * n, ok + l * n, n, (tb_style)l);
+    if (guide > y0 && guide < y1)
+        tb_plot_line(pic, &p, x0, guide, x1, guide, TB_STYLE_GUIDE);
+    for (size_t c = 0; c < sh.curves; c++)
+        tb_plot_series(pic, &p, x + c * sh.points, y + c * sh.points, ok + c * sh.points, sh.points, (tb_style)c);
     tb_free(x);
     tb_free(y);
     tb_free(ok);
     return TB_OK;
 }
 
-/* The phase margin and the unity crossing against the scanned value (one axis, or the first of two). */
+/* The phase margin (with its threshold) and the unity crossing against the (first) scanned value. */
 static tb_status scan_svg(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
 {
-    char title[512], name[256];
-    snprintf(title, sizeof title, "%s: phase margin and unity crossing over %s", ckt->file,
-             set->param_names[0]);
+    char title[512], name[256], value[32];
+    snprintf(title, sizeof title, "%s: phase margin and unity crossing over %s", ckt->file, set->param_names[0]);
     tb_picture pic;
     tb_plot_begin(&pic, out, 860, 560, title);
-    tb_status st = scan_panel(&pic, set, 2, 50, "phase margin (deg)");
+    /* the phase-margin threshold as a guide: the netlist's .margins, else 45 degrees (common practice) */
+    double pm_min = ckt->margins.has_pm ? ckt->margins.pm_min_deg : 45.0;
+    tb_status st = scan_panel(&pic, set, 2, 50, "phase margin (deg)", pm_min);
     if (!st)
-        st = scan_panel(&pic, set, 1, 310, "unity crossing (Hz)");
-    for (size_t l = 0; !st && l < set->loops && l < TB_STYLE_GUIDE; l++) {
-        snprintf(title, sizeof title, "loop at %s", tb_report_escape(tb_circuit_loop_name(ckt, l), name, sizeof name));
-        tb_plot_legend(&pic, (tb_style)l, title);
+        st = scan_panel(&pic, set, 1, 310, "unity crossing (Hz)", NAN);
+    scan_shape sh = shape_of(set);
+    for (size_t c = 0; !st && c < sh.curves; c++) {
+        if (set->params >= 2)
+            snprintf(title, sizeof title, "%s = %s (loop at %s)",
+                     tb_report_escape(set->param_names[1], name, sizeof name),
+                     tb_plot_eng(set->param_values[c * set->params + 1], "", value, sizeof value),
+                     tb_circuit_loop_name(ckt, 0));
+        else
+            snprintf(title, sizeof title, "loop at %s", tb_report_escape(tb_circuit_loop_name(ckt, c), name, sizeof name));
+        tb_plot_legend(&pic, (tb_style)c, title);
     }
     bool written = tb_plot_end(&pic);
     return st ? st : written ? TB_OK : TB_ERR_IO;
