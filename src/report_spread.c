@@ -68,6 +68,18 @@ static void kind_line(const tb_spreadset *set, FILE *out)
         fprintf(out, "; %zu not analysed (a singular matrix at their values)\n", set->runs - analysed);
 }
 
+/* The verdicts of loop l counted over the runs. */
+static void verdict_counts(const tb_spreadset *set, size_t l, FILE *out)
+{
+    size_t count[4] = {0};
+    for (size_t r = 0; r < set->runs; r++) {
+        const tb_figure_value *v = &tb_spreadset_row(set, r, l)[TB_SPREAD_FIGURES - 1];
+        count[v->present && v->value >= 0 && v->value <= 3 ? (size_t)v->value : 0]++;
+    }
+    fprintf(out, "  verdict    stable %zu, marginal %zu, unstable %zu, undecided or not analysed %zu\n", count[1],
+            count[2], count[3], count[0]);
+}
+
 /* "RF=10.01k C1=1.03n" for run r. */
 static void run_values(const tb_spreadset *set, size_t r, FILE *out)
 {
@@ -105,7 +117,7 @@ static tb_status corner_text(const tb_spreadset *set, size_t l, FILE *out)
     fprintf(out, "  %-10s %-12s %-22s %-22s\n", "figure", "nominal", "lowest (run)", "highest (run)");
     bool used[TB_SPREAD_FIGURES * 2] = {false};
     size_t which[TB_SPREAD_FIGURES * 2] = {0};
-    for (size_t i = 0; i < TB_SPREAD_FIGURES; i++) {
+    for (size_t i = 0; i + 1 < TB_SPREAD_FIGURES; i++) {
         tb_spread_stats s;
         tb_status st = tb_spreadset_stats(set, l, i, &s);
         if (st)
@@ -123,6 +135,7 @@ static tb_status corner_text(const tb_spreadset *set, size_t l, FILE *out)
         fprintf(out, "  %-10s %-12s %-22s %-22s%s\n", heads[i], cell(i, nom, c, sizeof c), lo, hi,
                 s.present < set->runs ? "  (absent in some runs)" : "");
     }
+    verdict_counts(set, l, out);
     fputs("  the runs named above:\n", out);
     for (size_t r = 0; r < set->runs; r++) {
         bool named = false;
@@ -176,13 +189,7 @@ static tb_status monte_carlo_text(const tb_spreadset *set, size_t l, FILE *out)
             fprintf(out, " (in %zu samples)", s.present);
         fputs("\n", out);
     }
-    size_t count[4] = {0};
-    for (size_t r = 0; r < set->runs; r++) {
-        const tb_figure_value *v = &tb_spreadset_row(set, r, l)[TB_SPREAD_FIGURES - 1];
-        count[v->present && v->value >= 0 && v->value <= 3 ? (size_t)v->value : 0]++;
-    }
-    fprintf(out, "  verdict    stable %zu, marginal %zu, unstable %zu, undecided or not analysed %zu\n", count[1],
-            count[2], count[3], count[0]);
+    verdict_counts(set, l, out);
     desens_text(set, l, out);
     return TB_OK;
 }
