@@ -68,6 +68,38 @@ static void kind_line(const tb_spreadset *set, FILE *out)
         fprintf(out, "; %zu not analysed (a singular matrix at their values)\n", set->runs - analysed);
 }
 
+/* "the phase margin moves most with CL (r = -0.81), process (-0.42) and C2 (-0.20)": the
+ * three parameter columns most correlated with figure i over the samples. */
+static void correlation_text(const tb_spreadset *set, size_t l, size_t i, const char *what, FILE *out)
+{
+    size_t best[3] = {SIZE_MAX, SIZE_MAX, SIZE_MAX};
+    double rb[3] = {0, 0, 0};
+    for (size_t p = 0; p < set->params; p++) {
+        double r = 0;
+        if (!tb_spreadset_correlation(set, l, i, p, &r))
+            continue;
+        for (size_t k = 0; k < 3; k++)
+            if (best[k] == SIZE_MAX || fabs(r) > fabs(rb[k])) {
+                for (size_t m = 2; m > k; m--) {
+                    best[m] = best[m - 1];
+                    rb[m] = rb[m - 1];
+                }
+                best[k] = p;
+                rb[k] = r;
+                break;
+            }
+    }
+    if (best[0] == SIZE_MAX)
+        return;
+    char name[128];
+    fprintf(out, "  %s moves most with %s (r = %+.2f)", what, tb_report_escape(set->param_names[best[0]], name, sizeof name),
+            rb[0]);
+    for (size_t k = 1; k < 3 && best[k] != SIZE_MAX; k++)
+        fprintf(out, "%s%s (%+.2f)", k + 1 < 3 && best[k + 1] != SIZE_MAX ? ", " : " and ",
+                tb_report_escape(set->param_names[best[k]], name, sizeof name), rb[k]);
+    fputs(" over the samples (correlation)\n", out);
+}
+
 /* The verdicts of loop l counted over the runs. */
 static void verdict_counts(const tb_spreadset *set, size_t l, FILE *out)
 {
@@ -190,6 +222,7 @@ static tb_status monte_carlo_text(const tb_spreadset *set, size_t l, FILE *out)
         fputs("\n", out);
     }
     verdict_counts(set, l, out);
+    correlation_text(set, l, 2, "the phase margin", out);
     desens_text(set, l, out);
     return TB_OK;
 }
@@ -311,6 +344,14 @@ static json_t *stats_json(const tb_spreadset *set, size_t l, bool *nomem)
                  put(o, "max_run", json_integer((json_int_t)s.max_run)) && put(o, "p1", num(s.p[0])) &&
                  put(o, "p5", num(s.p[1])) && put(o, "p50", num(s.p[2])) && put(o, "p95", num(s.p[3])) &&
                  put(o, "p99", num(s.p[4]));
+        }
+        json_t *corr = ok && set->kind == TB_SPREADSET_MONTE_CARLO ? json_object() : NULL;
+        if (corr)
+            ok = put(o, "correlation", corr);
+        for (size_t p = 0; corr && ok && p < set->params; p++) {
+            double r = 0;
+            ok = put(corr, set->param_names[p],
+                     tb_spreadset_correlation(set, l, i, p, &r) ? num(r) : json_null());
         }
     }
     if (!ok) {

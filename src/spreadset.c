@@ -183,3 +183,37 @@ bool tb_spreadset_desens(const tb_spreadset *set, size_t l, size_t i, tb_spread_
     *out = d;
     return isfinite(d.S);
 }
+
+bool tb_spreadset_correlation(const tb_spreadset *set, size_t l, size_t i, size_t p, double *r)
+{
+    if (!set || !r || l >= set->loops || i >= TB_SPREAD_FIGURES || p >= set->params)
+        return false;
+    double sx = 0, sy = 0;
+    size_t n = 0;
+    for (size_t k = 0; k < set->runs; k++) {
+        const tb_figure_value *v = &tb_spreadset_row(set, k, l)[i];
+        if (v->present) {
+            sx += set->param_values[k * set->params + p];
+            sy += v->value;
+            n++;
+        }
+    }
+    if (n < 3)
+        return false;
+    double mx = sx / (double)n, my = sy / (double)n;
+    double sxx = 0, syy = 0, sxy = 0;
+    for (size_t k = 0; k < set->runs; k++) {
+        const tb_figure_value *v = &tb_spreadset_row(set, k, l)[i];
+        if (v->present) {
+            double dx = set->param_values[k * set->params + p] - mx;
+            double dy = v->value - my;
+            sxx += dx * dx;
+            syy += dy * dy;
+            sxy += dx * dy;
+        }
+    }
+    if (!(sxx > 0 && syy > 0))
+        return false;
+    *r = sxy / sqrt(sxx * syy);
+    return isfinite(*r);
+}

@@ -95,6 +95,11 @@ typedef struct {
 } tb_spread_desens;
 bool tb_spreadset_desens(const tb_spreadset *set, size_t l, size_t i, tb_spread_desens *out);
 
+/* Pearson's correlation coefficient between parameter column p and figure i of loop l over
+ * the runs where the figure exists: which part moves the figure most over a Monte Carlo.
+ * false with fewer than three such runs or a column or figure that does not vary. */
+bool tb_spreadset_correlation(const tb_spreadset *set, size_t l, size_t i, size_t p, double *r);
+
 /* Runs that passed, and runs analysed. */
 size_t tb_spreadset_passed(const tb_spreadset *set, size_t *analysed);
 

@@ -52,7 +52,8 @@ def key(vals):
 def check_statistics(tbeta):
     """Monte Carlo statistics and yield of the demo against numpy and scipy from its own runs:
     mean, sample sigma (ddof=1), min, max, percentiles (numpy's linear method = Hyndman and
-    Fan's type 7), the yield and its 95 % Wilson interval (scipy.stats.binomtest)."""
+    Fan's type 7), each part's correlation with each figure (numpy.corrcoef), the yield and
+    its 95 % Wilson interval (scipy.stats.binomtest)."""
     from scipy.stats import binomtest
     out = subprocess.run([tbeta, "spread", "docs/examples/spread_buffer.net", "--samples", "120", "--seed", "9",
                           "--json", "--jobs", "2"], capture_output=True, text=True)
@@ -70,6 +71,16 @@ def check_statistics(tbeta):
         for k, v in want.items():
             if abs(st[k] - v) > 1e-12 * max(abs(v), np.max(np.abs(x))):
                 print("spread_check: %s %s: tbeta %r, numpy %r" % (name, k, st[k], v))
+                bad += 1
+        # Pearson's r of each drawn part with the figure (numpy.corrcoef), over the runs that have it
+        for dim, r in st["correlation"].items():
+            rows = [q for q in doc["runs"] if q["loops"]["G1"][name] is not None]
+            a = np.array([q["values"][dim] for q in rows])
+            b = np.array([q["loops"]["G1"][name] for q in rows])
+            want_r = np.corrcoef(a, b)[0, 1] if np.std(a) > 0 and np.std(b) > 0 else None
+            if (r is None) != (want_r is None or not np.isfinite(want_r)) or \
+                    (r is not None and abs(r - want_r) > 1e-9):
+                print("spread_check: correlation of %s with %s: tbeta %r, numpy %r" % (name, dim, r, want_r))
                 bad += 1
     passed = sum(r["status"] == "pass" for r in doc["runs"])
     analysed = sum(r["status"] != "not analysed" for r in doc["runs"])
