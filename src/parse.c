@@ -1803,7 +1803,7 @@ static bool body_directive(parser *p, subckt *def)
         tb_lex_is(&p->tok, ".margins") || tb_lex_is(&p->tok, ".include") ||
         tb_lex_is(&p->tok, ".expect") ||
         tb_lex_is(&p->tok, ".ideal") || tb_lex_is(&p->tok, ".zport") || tb_lex_is(&p->tok, ".break") ||
-        tb_lex_is(&p->tok, ".end"))
+        tb_lex_is(&p->tok, ".end") || tb_spreadcard_is(&p->tok))
         return error(p, &p->tok, "'%s' is not allowed inside .subckt %s", quote(&p->tok, text),
                      def->name);
     warning(p, &p->tok, "unknown directive '%s' skipped", quote(&p->tok, text));
