@@ -403,10 +403,9 @@ static json_t *spread_json(const tb_circuit *ckt, const tb_spreadset *set)
         double lo = 0, hi = 0;
         if (analysed)
             tb_spread_wilson(pass, analysed, &lo, &hi);
-        json_t *interval = analysed ? json_pack("[ff]", lo, hi) : json_null();
         ok = put(root, "seed", json_integer((json_int_t)set->seed)) &&
              put(root, "yield", analysed ? num((double)pass / (double)analysed) : json_null()) &&
-             put(root, "yield_interval_95", interval);
+             put(root, "yield_interval_95", analysed ? json_pack("[ff]", lo, hi) : json_null());
     }
     if (ok && set->kind == TB_SPREADSET_CORNERS)
         ok = put(root, "reduced", json_boolean(set->reduced));
