@@ -557,6 +557,52 @@ static tb_status scan_svg(const tb_circuit *ckt, const tb_spreadset *set, FILE *
     return st ? st : written ? TB_OK : TB_ERR_IO;
 }
 
+/* The histogram of loop 0's phase margin over the samples (20 bins between the extremes) as
+ * a step outline, with the phase-margin threshold as a guide. */
+#define HISTOGRAM_BINS 20
+static tb_status histogram_svg(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+{
+    tb_spread_stats s;
+    tb_status st = tb_spreadset_stats(set, 0, 2, &s);
+    if (st || s.present < 2 || !(s.max > s.min))
+        return st;
+    double x[2 * HISTOGRAM_BINS + 2], y[2 * HISTOGRAM_BINS + 2];
+    size_t count[HISTOGRAM_BINS] = {0};
+    double width = (s.max - s.min) / HISTOGRAM_BINS;
+    for (size_t r = 0; r < set->runs; r++) {
+        const tb_figure_value *v = &tb_spreadset_row(set, r, 0)[2];
+        if (v->present) {
+            size_t b = (size_t)((v->value - s.min) / width);
+            count[b < HISTOGRAM_BINS ? b : HISTOGRAM_BINS - 1]++;
+        }
+    }
+    size_t most = 1;
+    for (size_t b = 0; b < HISTOGRAM_BINS; b++) {
+        most = count[b] > most ? count[b] : most;
+        x[2 * b + 1] = x[2 * b + 2] = s.min + width * (double)b;
+        x[2 * b + 2] += width;
+        y[2 * b + 1] = y[2 * b + 2] = (double)count[b];
+    }
+    x[0] = s.min;
+    y[0] = 0;
+    x[2 * HISTOGRAM_BINS + 1] = s.max;
+    y[2 * HISTOGRAM_BINS + 1] = 0;
+    char title[512], name[256];
+    snprintf(title, sizeof title, "%s: phase margin at %s over %zu samples", ckt->file,
+             tb_report_escape(tb_circuit_loop_name(ckt, 0), name, sizeof name), s.present);
+    tb_picture pic;
+    tb_plot_begin(&pic, out, 860, 320, title);
+    tb_panel p = {s.min, s.max, 0, (double)most * 1.1, false, false, 90, 50, 560, 220};
+    tb_plot_axes(&pic, &p, "phase margin (deg)", "samples per bin");
+    double pm_min = ckt->margins.has_pm ? ckt->margins.pm_min_deg : 45.0;
+    if (pm_min > s.min && pm_min < s.max)
+        tb_plot_line(&pic, &p, pm_min, 0, pm_min, (double)most * 1.1, TB_STYLE_GUIDE);
+    tb_plot_series(&pic, &p, x, y, NULL, 2 * HISTOGRAM_BINS + 2, TB_STYLE_MAIN);
+    tb_plot_legend(&pic, TB_STYLE_MAIN, "samples");
+    tb_plot_legend(&pic, TB_STYLE_GUIDE, "phase-margin threshold");
+    return tb_plot_end(&pic) ? TB_OK : TB_ERR_IO;
+}
+
 static void html_escape(FILE *out, const char *s)
 {
     for (; *s; s++) {
@@ -588,15 +634,20 @@ tb_status tb_report_spread_html(const tb_circuit *ckt, const tb_spreadset *set, 
         return st;
     }
     char name[512];
+    const char *file = tb_report_escape(ckt->file, name, sizeof name);
     fputs("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>", out);
-    html_escape(out, tb_report_escape(ckt->file, name, sizeof name));
+    html_escape(out, file);
     fputs(": spread</title>\n<style>body{font-family:sans-serif;margin:2em}pre{font-size:13px}</style>"
           "</head><body>\n<h1>Spread of ", out);
-    html_escape(out, name);
+    html_escape(out, file);
     fputs("</h1>\n", out);
     if (set->kind == TB_SPREADSET_SCAN && set->params >= 1 && set->runs > 1) {
         fputs("<figure>\n", out);
         st = scan_svg(ckt, set, out);
+        fputs("</figure>\n", out);
+    } else if (set->kind == TB_SPREADSET_MONTE_CARLO && set->loops > 0) {
+        fputs("<figure>\n", out);
+        st = histogram_svg(ckt, set, out);
         fputs("</figure>\n", out);
     }
     fputs("<pre>", out);

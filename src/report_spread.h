@@ -17,8 +17,9 @@ tb_status tb_report_spread_csv(const tb_circuit *ckt, const tb_spreadset *set, F
 /* Everything as JSON (absent figures null). Errors: TB_ERR_NOMEM, TB_ERR_IO. */
 tb_status tb_report_spread_json(const tb_circuit *ckt, const tb_spreadset *set, FILE *out);
 
-/* A self-contained HTML page: the text table and, for a scan of one element, the phase
- * margin and unity crossing of every loop against the scanned value as SVG. */
+/* A self-contained HTML page: the text table and, for a scan, the phase margin and unity
+ * crossing against the (first) scanned value (a curve per loop, or per value of a second
+ * scanned element), for Monte Carlo the histogram of the first loop's phase margin, as SVG. */
 tb_status tb_report_spread_html(const tb_circuit *ckt, const tb_spreadset *set, FILE *out);
 
 /* The 95 % Wilson score interval of a proportion of k in n (E. B. Wilson, J. Am. Stat.

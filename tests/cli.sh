@@ -233,6 +233,9 @@ if cmp -s "$tmp/mc1" "$tmp/out"; then passed=$((passed + 1)); else failed=$((fai
 cat "$tmp/out" >>"$tmp/all"
 expect spread-html 0 $tb spread "$sp" --scan --html "$tmp/spread.html"
 if grep -q "<svg" "$tmp/spread.html"; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread-html: no plot"; fi
+expect spread-html-mc 1 $tb spread "$sp" --samples 30 --html "$tmp/mc.html"
+if grep -q "phase margin at G1 over 30 samples" "$tmp/mc.html" && /usr/bin/python3 -c 'import sys; open(sys.argv[1], encoding="utf-8").read()' "$tmp/mc.html"; then
+    passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread-html-mc: no histogram, or not UTF-8"; fi
 expect spread-gain 0 $tb spread docs/examples/spread_gain.net --samples 50
 has spread-gain out "desensitivity: the loop source's gain spreads"
 cat "$tmp/out" >>"$tmp/all"
