@@ -29,6 +29,7 @@ struct tb_sweep {
     pthread_t *threads; /* nlanes - 1 */
     double rcond_drop;
     tb_probe probe;
+    bool shared; /* lane 0 factors on another sweep's symbolic analysis (tb_sweep_new_on) */
 };
 
 size_t tb_sweep_chunk(size_t npoints)
@@ -118,7 +119,9 @@ tb_status tb_sweep_new_on(const tb_circuit *ckt, double rcond_drop, size_t lanes
     }
     for (size_t l = 0; l < lanes && !st; l++) {
         s->nlanes = l + 1;
-        st = lane_new(s, &s->lanes[l], l == 0 ? shared_analysis(base, s->mna) : s->lanes[0].solver);
+        const tb_solver *on = l == 0 ? shared_analysis(base, s->mna) : s->lanes[0].solver;
+        s->shared = s->shared || (l == 0 && on != NULL);
+        st = lane_new(s, &s->lanes[l], on);
     }
     if (st) {
         tb_sweep_free(s);
@@ -128,6 +131,11 @@ tb_status tb_sweep_new_on(const tb_circuit *ckt, double rcond_drop, size_t lanes
     s->probe = tb_probe_make(s->mna, ln->solver, ln->work, ln->Mx, ln->row, rcond_drop);
     *out = s;
     return TB_OK;
+}
+
+bool tb_sweep_shared(const tb_sweep *s)
+{
+    return s->shared;
 }
 
 const tb_mna *tb_sweep_mna(const tb_sweep *s)

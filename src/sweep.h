@@ -78,6 +78,9 @@ void tb_sweep_free(tb_sweep *sweep);
  * with another pattern, as tb_sweep_new. base must outlive the new sweep. */
 tb_status tb_sweep_new_on(const tb_circuit *ckt, double rcond_drop, size_t lanes, const tb_sweep *base,
                           tb_diag *diag, tb_sweep **out);
+/* true when the sweep was set up on another's symbolic analysis (tb_sweep_new_on found the
+ * same pattern). */
+bool tb_sweep_shared(const tb_sweep *sweep);
 
 const tb_mna *tb_sweep_mna(const tb_sweep *sweep);
 size_t tb_sweep_lanes(const tb_sweep *sweep);

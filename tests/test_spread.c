@@ -2,6 +2,7 @@
 #include "testutil.h"
 
 #include "circuit.h"
+#include "analyse.h"
 #include "spread.h"
 
 /* A divider R1/R2 read by a follower of loop gain K = 1000 (E1 drives OUT to K (mid - out)):
@@ -133,6 +134,43 @@ static void test_spread_desensitivity_over_frequency(void **state)
     tb_circuit_free(ckt);
 }
 
+/* A run at changed values factors on the nominal circuit's symbolic analysis (the same
+ * pattern), and gives the numbers of a fresh analysis of the changed netlist to rounding; a
+ * circuit with another pattern gets its own analysis. */
+static void test_spread_shares_symbolic(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = tu_parse(DIVIDER);
+    tb_circuit *other = tu_parse("divider, R2 at 30k\nVs in 0 AC 1\nR1 in mid 10k\nR2 mid 0 30k\n"
+                                 "E1 out 0 mid out 1000\nRL out 0 1meg\n.io Vs v(out)\n.loop E1\n.ac dec 2 1 1k\n");
+    tb_circuit *bigger = tu_parse("divider with an RC\nVs in 0 AC 1\nR1 in mid 10k\nR2 mid 0 10k\n"
+                                  "R3 mid x 1k\nC1 x 0 1n\nE1 out 0 mid out 1000\nRL out 0 1meg\n.io Vs v(out)\n.loop E1\n"
+                                  ".ac dec 2 1 1k\n");
+    tb_sweep *base = NULL, *same = NULL, *own = NULL;
+    assert_int_equal(tb_sweep_new(ckt, 1e-6, 1, NULL, &base), TB_OK);
+    assert_int_equal(tb_sweep_new_on(other, 1e-6, 2, base, NULL, &same), TB_OK);
+    assert_int_equal(tb_sweep_new_on(bigger, 1e-6, 1, base, NULL, &own), TB_OK);
+    assert_true(tb_sweep_shared(same));
+    assert_false(tb_sweep_shared(own));
+    assert_false(tb_sweep_shared(base));
+    tb_options opt;
+    tb_options_init(&opt);
+    tb_result *on = NULL, *fresh = NULL;
+    assert_int_equal(tb_analyse_on(other, &opt, base, NULL, &on), TB_OK);
+    assert_int_equal(tb_analyse(other, &opt, NULL, &fresh), TB_OK);
+    tb_point a, b;
+    assert_true(tb_result_dc(on, 0, &a) && tb_result_dc(fresh, 0, &b));
+    assert_true(cabs(a.A - b.A) < 1e-14 * cabs(b.A) && cabs(a.A - 0.75 * 1000.0 / 1001.0) < 1e-12);
+    tb_result_free(on);
+    tb_result_free(fresh);
+    tb_sweep_free(own);
+    tb_sweep_free(same);
+    tb_sweep_free(base);
+    tb_circuit_free(bigger);
+    tb_circuit_free(other);
+    tb_circuit_free(ckt);
+}
+
 /* A seeded run gives the same numbers for 1, 2 and 3 threads, and another seed others. */
 static void test_spread_reproducible(void **state)
 {
@@ -252,6 +290,7 @@ int main(void)
         cmocka_unit_test(test_spread_divider_gaussian),
         cmocka_unit_test(test_spread_desensitivity),
         cmocka_unit_test(test_spread_desensitivity_over_frequency),
+        cmocka_unit_test(test_spread_shares_symbolic),
         cmocka_unit_test(test_spread_reproducible),
         cmocka_unit_test(test_spread_scan_closed_form),
         cmocka_unit_test(test_spread_corners_extremes),
