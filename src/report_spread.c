@@ -57,7 +57,9 @@ static void kind_line(const tb_spreadset *set, FILE *out)
                 "per sample: the same numbers for any --jobs)\n", set->runs, set->seed, set->dimensions,
                 set->dimensions == 1 ? "" : "s");
     fprintf(out, "  %zu of %zu runs pass (every loop stable with its margins, every .expect held)", pass, set->runs);
-    if (analysed > 0 && set->kind != TB_SPREADSET_SCAN) {
+    if (analysed > 0 && set->kind == TB_SPREADSET_CORNERS)
+        fprintf(out, ": %.1f %% of the corners", 100.0 * (double)pass / (double)analysed);
+    if (analysed > 0 && set->kind == TB_SPREADSET_MONTE_CARLO) {
         double lo = 0, hi = 0;
         tb_spread_wilson(pass, analysed, &lo, &hi);
         fprintf(out, ": yield %.1f %% (95 %% interval %.1f to %.1f %%)", 100.0 * (double)pass / (double)analysed,
