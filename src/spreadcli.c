@@ -61,8 +61,9 @@ static int value_option(const char *opt, const char *val, spread_args *a)
         a->opt.samples = (size_t)v;
         a->modes |= MODE_MC;
     } else if (strcmp(opt, "--seed") == 0) {
-        if (!count_arg(val, 0, UINT64_MAX, &v))
-            return usage("--seed takes a whole number from 0 to 18446744073709551615, not", val);
+        /* at most 2^53 - 1, which every JSON reader holds exactly */
+        if (!count_arg(val, 0, 9007199254740991ull, &v))
+            return usage("--seed takes a whole number from 0 to 9007199254740991, not", val);
         a->opt.seed = v;
     } else if (strcmp(opt, "--jobs") == 0) {
         if (!count_arg(val, 1, 64, &v))
