@@ -11,7 +11,7 @@
  * the reduced design (docs/spread.md). */
 #define TB_SPREAD_FULL_CORNERS 10
 /* Monte Carlo samples, at most. */
-#define TB_SPREAD_MAX_SAMPLES ((size_t)1000000)
+#define TB_SPREAD_MAX_SAMPLES ((size_t)100000) /* a run keeps its figures and A at 25 frequencies: about 600 bytes */
 /* Frequencies where Monte Carlo records A (DC and grid points), at most. */
 #define TB_SPREAD_PROBES 25
 

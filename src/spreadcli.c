@@ -57,7 +57,7 @@ static int value_option(const char *opt, const char *val, spread_args *a)
     unsigned long long v = 0;
     if (strcmp(opt, "--samples") == 0) {
         if (!count_arg(val, 1, TB_SPREAD_MAX_SAMPLES, &v))
-            return usage("--samples takes a whole number from 1 to 1000000, not", val);
+            return usage("--samples takes a whole number from 1 to 100000, not", val);
         a->opt.samples = (size_t)v;
         a->modes |= MODE_MC;
     } else if (strcmp(opt, "--seed") == 0) {

@@ -244,7 +244,7 @@ has spread-no-cards err "the netlist has no .scan or .spread card"
 expect spread-two-modes 2 $tb spread "$sp" --json
 has spread-two-modes err "--csv, --json and --html take one mode"
 expect spread-samples 2 $tb spread "$sp" --samples 0
-has spread-samples err "--samples takes a whole number from 1 to 1000000, not '0'"
+has spread-samples err "--samples takes a whole number from 1 to 100000, not '0'"
 expect spread-seed 2 $tb spread "$sp" --samples 5 --seed 9007199254740992
 has spread-seed err "--seed takes a whole number from 0 to 9007199254740991, not '9007199254740992'"
 expect spread-bad 2 $tb spread tests/bad/spread_no_dist.net
