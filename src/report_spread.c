@@ -660,3 +660,86 @@ tb_status tb_report_spread_html(const tb_circuit *ckt, const tb_spreadset *set, 
         return st;
     return ferror(out) ? TB_ERR_IO : TB_OK;
 }
+
+/* ---- sensitivities at a chosen frequency ---------------------------------------------------- */
+
+/* Below 1e-12 a normalized sensitivity is rounding error: 0 in this table for people. */
+static double for_people(double x)
+{
+    return fabs(x) < 1e-12 ? 0.0 : x;
+}
+
+/* The three entries with the largest |phase| effect, into best (SIZE_MAX where fewer). */
+static void top_phase(const tb_sens_entry *e, size_t per, size_t best[3])
+{
+    best[0] = best[1] = best[2] = SIZE_MAX;
+    for (size_t i = 0; i < per; i++) {
+        if (!e[i].has_T)
+            continue;
+        for (size_t k = 0; k < 3; k++)
+            if (best[k] == SIZE_MAX || fabs(e[i].T_phase_deg) > fabs(e[best[k]].T_phase_deg)) {
+                for (size_t m = 2; m > k; m--)
+                    best[m] = best[m - 1];
+                best[k] = i;
+                break;
+            }
+    }
+}
+
+static void ranked(FILE *out, const tb_sens_entry *e, const size_t idx[3], bool phase)
+{
+    char name[128];
+    for (size_t k = 0; k < 3 && idx[k] != SIZE_MAX; k++)
+        fprintf(out, "%s%s (%+.3g %s)", k == 0 ? "" : k + 1 < 3 && idx[k + 1] != SIZE_MAX ? ", " : " and ",
+                tb_report_escape(e[idx[k]].element, name, sizeof name),
+                phase ? e[idx[k]].T_phase_deg : e[idx[k]].T_mag, phase ? "deg/%" : "%/%");
+}
+
+tb_status tb_report_sensitivities_at_text(const tb_circuit *ckt, double f, const tb_sens_entry *entries, size_t per,
+                                          FILE *out)
+{
+    if (!ckt || !out || (per > 0 && !entries))
+        return TB_ERR_USAGE;
+    char hz[32], name[512], v[32];
+    const char *at = f == 0 ? "DC" : tb_plot_eng(f, "Hz", hz, sizeof hz);
+    fprintf(out, "tbeta %s: sensitivities of %s at %s (adjoint; per 1 %% increase of each element)\n", TB_VERSION,
+            tb_report_escape(ckt->file, name, sizeof name), at);
+    for (size_t l = 0; l < ckt->loop_count; l++) {
+        const tb_sens_entry *e = entries + l * per;
+        fprintf(out, "\nloop at %s\n", tb_report_escape(tb_circuit_loop_name(ckt, l), name, sizeof name));
+        size_t mag[3] = {SIZE_MAX, SIZE_MAX, SIZE_MAX}, ph[3];
+        for (size_t k = 0; k < 3 && k < per; k++)
+            mag[k] = e[k].has_T ? k : SIZE_MAX;
+        top_phase(e, per, ph);
+        if (mag[0] != SIZE_MAX) {
+            fprintf(out, "  at %s |T| is set by ", at);
+            ranked(out, e, mag, false);
+            if (ph[0] != SIZE_MAX && fabs(e[ph[0]].T_phase_deg) > 1e-9) {
+                fputs(";\n  its phase by ", out);
+                ranked(out, e, ph, true);
+                fputs("\n", out);
+            } else {
+                fputs("; no element moves its phase\n", out);
+            }
+        } else {
+            fputs("  T is zero or infinite there: no sensitivities of T\n", out);
+        }
+        fprintf(out, "  %-14s %-11s %-11s %-12s %-11s %-11s\n", "element", "value", "|T| %/%", "phase deg/%",
+                "|A| %/%", "|A_inf| %/%");
+        for (size_t i = 0; i < per; i++) {
+            char a[32] = "--", b[32] = "--", c[32] = "--", d[32] = "--";
+            if (e[i].has_T) {
+                snprintf(a, sizeof a, "%+.4g", for_people(e[i].T_mag));
+                snprintf(b, sizeof b, "%+.4g", for_people(e[i].T_phase_deg));
+            }
+            if (e[i].has_A)
+                snprintf(c, sizeof c, "%+.4g", for_people(e[i].A_mag));
+            if (e[i].has_A_inf)
+                snprintf(d, sizeof d, "%+.4g", for_people(e[i].A_inf_mag));
+            fprintf(out, "  %-14s %-11s %-11s %-12s %-11s %-11s\n", tb_report_escape(e[i].element, name, sizeof name),
+                    tb_plot_eng(e[i].value, "", v, sizeof v), a, b, c, d);
+        }
+    }
+    fprintf(out, "\ncaution: %s\n", tb_report_caution);
+    return ferror(out) ? TB_ERR_IO : TB_OK;
+}

@@ -22,6 +22,12 @@ tb_status tb_report_spread_json(const tb_circuit *ckt, const tb_spreadset *set, 
  * scanned element), for Monte Carlo the histogram of the first loop's phase margin, as SVG. */
 tb_status tb_report_spread_html(const tb_circuit *ckt, const tb_spreadset *set, FILE *out);
 
+/* The sensitivities of every loop at frequency f (tb_spread_sensitivities_at: per entries per
+ * loop, ranked by |T|) for people: two ranked sentences per loop, "at 1 MHz |T| is set by C1
+ * (-0.98 %/%) and R1 (+0.02 %/%); its phase by ...", then the table. Errors: TB_ERR_IO. */
+tb_status tb_report_sensitivities_at_text(const tb_circuit *ckt, double f, const tb_sens_entry *entries, size_t per,
+                                          FILE *out);
+
 /* The 95 % Wilson score interval of a proportion of k in n (E. B. Wilson, J. Am. Stat.
  * Assoc. 22, 1927): *lo, *hi in 0..1. n > 0. */
 void tb_spread_wilson(size_t k, size_t n, double *lo, double *hi);

@@ -2,10 +2,13 @@
 #include "spread.h"
 
 #include <math.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "alloc.h"
 #include "rng.h"
+#include "sensitivity.h"
+#include "sweep.h"
 #include "spreadrun.h"
 
 void tb_spread_options_init(tb_spread_options *opt)
@@ -351,4 +354,39 @@ tb_status tb_spread_figures_run(const tb_circuit *ckt, const tb_spread_options *
     }
     tb_spreadset_free(set);
     return st;
+}
+
+/* ---- sensitivities at a chosen frequency ------------------------------------------------ */
+
+static int by_T(const void *pa, const void *pb)
+{
+    const tb_sens_entry *a = pa, *b = pb;
+    double ka = a->has_T ? fabs(a->T_mag) : -1, kb = b->has_T ? fabs(b->T_mag) : -1;
+    if (ka != kb)
+        return ka > kb ? -1 : 1;
+    return strcmp(a->element, b->element);
+}
+
+tb_status tb_spread_sensitivities_at(const tb_circuit *ckt, const tb_options *opt, double f, tb_diag *diag,
+                                     tb_sens_entry **out, size_t *per)
+{
+    if (!ckt || !opt || !out || !per || ckt->loop_count == 0 || !(f >= 0) || !isfinite(f))
+        return TB_ERR_USAGE;
+    size_t count = tb_sensitivity_count(ckt);
+    tb_sens_entry *all = tb_calloc(ckt->loop_count * (count ? count : 1), sizeof(tb_sens_entry));
+    tb_sweep *sw = NULL;
+    tb_status st = all ? tb_sweep_new(ckt, opt->refactor_rcond_drop, 1, diag, &sw) : TB_ERR_NOMEM;
+    for (size_t l = 0; !st && l < ckt->loop_count; l++) {
+        st = tb_sensitivity_at(ckt, tb_sweep_probe(sw), l, f, all + l * count);
+        if (!st)
+            qsort(all + l * count, count, sizeof(tb_sens_entry), by_T);
+    }
+    tb_sweep_free(sw);
+    if (st) {
+        tb_free(all);
+        return st;
+    }
+    *out = all;
+    *per = count;
+    return TB_OK;
 }

@@ -47,4 +47,11 @@ tb_status tb_spread_monte_carlo(const tb_circuit *ckt, const tb_spread_options *
 tb_status tb_spread_figures_run(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag, bool corners,
                                 bool samples, tb_spread_figures *out);
 
+/* The sensitivities of every loop at frequency f (Hz; 0: DC) to every element, by the
+ * adjoint method (tb_sensitivity_at), into *out (ckt->loop_count * *per entries, loop by
+ * loop, each loop's ranked by |T_mag|; free with tb_free). Errors: TB_ERR_USAGE (no loop,
+ * f < 0), TB_ERR_NOMEM, TB_ERR_SINGULAR (M singular at f), those of stamping (diag). */
+tb_status tb_spread_sensitivities_at(const tb_circuit *ckt, const tb_options *opt, double f, tb_diag *diag,
+                                     tb_sens_entry **out, size_t *per);
+
 #endif

@@ -6,26 +6,35 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "alloc.h"
+#include "lex.h"
 #include "report_spread.h"
 #include "spread.h"
 
 static const char usage_spread[] =
     "usage: tbeta spread NETLIST [--scan] [--corners] [--samples N] [--seed S] [--jobs N]\n"
     "                            [--csv | --json] [--html FILE]\n"
+    "       tbeta spread NETLIST --sens-at FREQ [--sens-at FREQ ...]\n"
     "  the netlist's .scan cards (--scan), its .spread cards at their corners (--corners) or\n"
     "  drawn N times (--samples N, Monte Carlo; seed S, default 1). Without a mode: every one\n"
     "  the netlist's cards allow (Monte Carlo with 200 samples). --csv and --json (stdout) and\n"
     "  --html take one mode. --jobs N: threads sharing the runs (default: one per core); the\n"
-    "  numbers do not depend on it. Cards: docs/netlist.md; method: docs/spread.md.\n"
+    "  numbers do not depend on it. --sens-at FREQ (Hz, 1meg, 0 for DC; up to 8): which\n"
+    "  element sets |T| and its phase there, ranked (adjoint sensitivities; needs no card).\n"
+    "  Cards: docs/netlist.md; method: docs/spread.md.\n"
     "exit codes: 0 done; 1 a corner or a sample fails its .expect cards or margins;\n"
     "2 usage error, unreadable or malformed netlist, or a circuit that cannot be solved.\n";
 
 enum { DONE = 0, FAILED = 1, BAD = 2 };
 enum { MODE_SCAN = 1, MODE_CORNERS = 2, MODE_MC = 4 };
 
+#define MAX_SENS_AT 8
+
 typedef struct {
     const char *netlist;
     unsigned modes;
+    double sens_at[MAX_SENS_AT];
+    size_t sens_count;
     bool csv, json;
     const char *html;
     tb_spread_options opt;
@@ -65,6 +74,13 @@ static int value_option(const char *opt, const char *val, spread_args *a)
         if (!count_arg(val, 0, 9007199254740991ull, &v))
             return usage("--seed takes a whole number from 0 to 9007199254740991, not", val);
         a->opt.seed = v;
+    } else if (strcmp(opt, "--sens-at") == 0) {
+        double f = 0;
+        if (a->sens_count >= MAX_SENS_AT)
+            return usage("at most 8 --sens-at frequencies, not another:", val);
+        if (tb_lex_value(val, strlen(val), &f) != TB_VALUE_OK || !(f >= 0) || !(f < 1e15))
+            return usage("--sens-at takes a frequency from 0 (DC) to 1e15 Hz (1k, 2.5meg), not", val);
+        a->sens_at[a->sens_count++] = f;
     } else if (strcmp(opt, "--jobs") == 0) {
         if (!count_arg(val, 1, 64, &v))
             return usage("--jobs takes a whole number from 1 to 64, not", val);
@@ -91,7 +107,7 @@ static int parse(int argc, char **argv, spread_args *a)
         } else if (strcmp(s, "--json") == 0) {
             a->json = true;
         } else if (strcmp(s, "--samples") == 0 || strcmp(s, "--seed") == 0 || strcmp(s, "--jobs") == 0 ||
-                   strcmp(s, "--html") == 0) {
+                   strcmp(s, "--html") == 0 || strcmp(s, "--sens-at") == 0) {
             if (i + 1 >= argc)
                 return usage("missing value after", s);
             int rc = value_option(s, argv[++i], a);
@@ -109,6 +125,9 @@ static int parse(int argc, char **argv, spread_args *a)
         return usage("no netlist given", NULL);
     if (a->csv && a->json)
         return usage("--csv and --json exclude each other", NULL);
+    if (a->sens_count > 0 && (a->modes || a->csv || a->json || a->html))
+        return usage("--sens-at prints its text alone: leave out --scan, --corners, --samples, --csv, --json "
+                     "and --html", NULL);
     return -1;
 }
 
@@ -189,6 +208,32 @@ static int run_modes(const spread_args *a, const tb_circuit *ckt, unsigned modes
     return rc;
 }
 
+/* --sens-at: the ranked sensitivities at each frequency asked. */
+static int sensitivities(const spread_args *a, const tb_circuit *ckt)
+{
+    tb_diag *diag = tb_diag_new();
+    int rc = diag ? DONE : BAD;
+    for (size_t k = 0; rc == DONE && k < a->sens_count; k++) {
+        tb_sens_entry *e = NULL;
+        size_t per = 0;
+        tb_status st = tb_spread_sensitivities_at(ckt, &a->opt.analysis, a->sens_at[k], diag, &e, &per);
+        print_diags(diag);
+        if (st == TB_ERR_USAGE) {
+            rc = usage("--sens-at needs a .loop in the netlist", NULL);
+        } else if (st) {
+            fprintf(stderr, "tbeta spread: %s: at %g Hz: %s\n", a->netlist, a->sens_at[k], tb_status_str(st));
+            rc = BAD;
+        } else {
+            if (k > 0)
+                fputs("\n", stdout);
+            rc = tb_report_sensitivities_at_text(ckt, a->sens_at[k], e, per, stdout) ? BAD : DONE;
+        }
+        tb_free(e);
+    }
+    tb_diag_free(diag);
+    return rc;
+}
+
 int tb_spread_command(int argc, char **argv)
 {
     spread_args a = {0};
@@ -211,6 +256,11 @@ int tb_spread_command(int argc, char **argv)
         if (st != TB_ERR_INPUT)
             fprintf(stderr, "tbeta spread: %s: %s\n", a.netlist, tb_status_str(st));
         return BAD;
+    }
+    if (a.sens_count > 0) {
+        rc = sensitivities(&a, ckt);
+        tb_circuit_free(ckt);
+        return rc;
     }
     const char *missing = NULL;
     unsigned modes = allowed(ckt, a.modes, &missing);

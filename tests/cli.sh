@@ -247,6 +247,14 @@ expect spread-samples 2 $tb spread "$sp" --samples 0
 has spread-samples err "--samples takes a whole number from 1 to 100000, not '0'"
 expect spread-seed 2 $tb spread "$sp" --samples 5 --seed 9007199254740992
 has spread-seed err "--seed takes a whole number from 0 to 9007199254740991, not '9007199254740992'"
+expect spread-sens 0 $tb spread "$sp" --sens-at 1.4meg --sens-at 0
+has spread-sens out "at 1.4MHz |T| is set by G2 (+1 %/%), E1 (+1 %/%) and G1 (+1 %/%);"
+has spread-sens out "its phase by R2 (-0.179 deg/%), C2 (-0.179 deg/%) and CL (-0.12 deg/%)"
+has spread-sens out "at DC |T| is set by G2 (+1 %/%), R2 (+1 %/%) and E1 (+1 %/%); no element moves its phase"
+cat "$tmp/out" >>"$tmp/all"
+expect spread-sens-bad 2 $tb spread "$sp" --sens-at -1
+has spread-sens-bad err "--sens-at takes a frequency from 0 (DC) to 1e15 Hz (1k, 2.5meg), not '-1'"
+expect spread-sens-mode 2 $tb spread "$sp" --sens-at 1k --json
 expect spread-bad 2 $tb spread tests/bad/spread_no_dist.net
 has spread-bad err "spread_no_dist.net:12:14: error: expected 'flat', 'gauss' or 'pick' on .spread"
 # tbeta check runs the spread for the corners.* and samples.* figures of .expect

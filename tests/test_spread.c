@@ -1,6 +1,7 @@
 /* tests/test_spread.c: scans, corners and Monte Carlo against closed forms, sampling error and thread counts */
 #include "testutil.h"
 
+#include "alloc.h"
 #include "circuit.h"
 #include "analyse.h"
 #include "spread.h"
@@ -171,6 +172,49 @@ static void test_spread_shares_symbolic(void **state)
     tb_circuit_free(ckt);
 }
 
+/* Sensitivities at chosen frequencies against the closed form of a two-pole loop,
+ *   T = gm1 R1/(1 + jw R1 C1) * gm2 R2/(1 + jw R2 C2)   (return ratio at G1, Bode 1945):
+ * d ln T/d ln C1 = -jw R1 C1/(1 + jw R1 C1), d ln T/d ln R1 = 1/(1 + jw R1 C1), and 1 for
+ * gm2 and the loop's own gm1; |T| moves by the real part (%/%), its phase by the imaginary
+ * part (rad per unit, so 180/pi/100 degrees per %). */
+static void test_spread_sensitivities_at(void **state)
+{
+    (void)state;
+    tb_circuit *ckt = tu_parse("two poles\nVs in 0 AC 1\nG1 0 x1 in out 1m\nR1 x1 0 1meg\nC1 x1 0 1.5n\n"
+                               "G2 0 x2 x1 0 10m\nR2 x2 0 1k\nC2 x2 0 150p\nE1 out 0 x2 0 1\n.io Vs v(out)\n"
+                               ".loop G1\n.ac dec 10 1 100meg\n");
+    tb_options opt;
+    tb_options_init(&opt);
+    static const double freqs[] = {0, 1e3, 3e5};
+    for (size_t k = 0; k < 3; k++) {
+        tb_sens_entry *e = NULL;
+        size_t per = 0;
+        assert_int_equal(tb_spread_sensitivities_at(ckt, &opt, freqs[k], NULL, &e, &per), TB_OK);
+        assert_int_equal(per, 7);
+        double w = 2 * TU_PI * freqs[k];
+        double complex p1 = 1.0 + I * w * 1e6 * 1.5e-9, p2 = 1.0 + I * w * 1e3 * 150e-12;
+        struct {
+            const char *name;
+            double complex want;
+        } cases[] = {{"C1", -I * w * 1e6 * 1.5e-9 / p1}, {"R1", 1.0 / p1}, {"C2", -I * w * 1e3 * 150e-12 / p2},
+                     {"R2", 1.0 / p2}, {"G2", 1.0}, {"G1", 1.0}, {"E1", 1.0}};
+        for (size_t c = 0; c < 7; c++) {
+            size_t i = 0;
+            while (i < per && strcmp(e[i].element, cases[c].name) != 0)
+                i++;
+            assert_true(i < per && e[i].has_T);
+            double mag = creal(cases[c].want), ph = cimag(cases[c].want) * 180.0 / TU_PI / 100.0;
+            if (fabs(e[i].T_mag - mag) > 1e-9 + 1e-9 * fabs(mag) || fabs(e[i].T_phase_deg - ph) > 1e-9)
+                fail_msg("%s at %g Hz: |T| %.12g (want %.12g), phase %.12g deg/%% (want %.12g)", cases[c].name,
+                         freqs[k], e[i].T_mag, mag, e[i].T_phase_deg, ph);
+            if (i > 0) /* ranked by |T_mag| */
+                assert_true(fabs(e[i - 1].T_mag) >= fabs(e[i].T_mag));
+        }
+        tb_free(e);
+    }
+    tb_circuit_free(ckt);
+}
+
 /* A seeded run gives the same numbers for 1, 2 and 3 threads, and another seed others. */
 static void test_spread_reproducible(void **state)
 {
@@ -291,6 +335,7 @@ int main(void)
         cmocka_unit_test(test_spread_desensitivity),
         cmocka_unit_test(test_spread_desensitivity_over_frequency),
         cmocka_unit_test(test_spread_shares_symbolic),
+        cmocka_unit_test(test_spread_sensitivities_at),
         cmocka_unit_test(test_spread_reproducible),
         cmocka_unit_test(test_spread_scan_closed_form),
         cmocka_unit_test(test_spread_corners_extremes),
