@@ -15,6 +15,7 @@
 
 #include "testutil.h"
 
+#include "alloc.h"
 #include "checkrun.h"
 #include "circuit.h"
 #include "expect.h"
@@ -223,7 +224,8 @@ static void test_oom_demo_netlists(void **state)
 }
 
 /* tbeta spread's three kinds of run on a small netlist (one scan axis of two values, one
- * dimension at its corners, two samples), each written as text, CSV and JSON. */
+ * dimension at its corners, two samples), each written as text, CSV and JSON; then the
+ * sensitivities at 1 kHz and their text. */
 static tb_status spread_once(const void *ctx)
 {
     (void)ctx;
@@ -252,6 +254,13 @@ static tb_status spread_once(const void *ctx)
             st = load_status(tb_report_spread_json(ckt, set, sink));
         tb_spreadset_free(set);
     }
+    tb_sens_entry *e = NULL;
+    size_t per = 0;
+    if (!st)
+        st = tb_spread_sensitivities_at(ckt, &opt.analysis, 1e3, diag, &e, &per);
+    if (!st)
+        st = tb_report_sensitivities_at_text(ckt, 1e3, e, per, sink);
+    tb_free(e);
     tb_circuit_free(ckt);
     tb_diag_free(diag);
     armed = false;
