@@ -1,4 +1,6 @@
 /* src/analyse.c: the analysis driver, the one file that knows every analysis and the order they run in */
+#include "analyse.h"
+
 #include "alloc.h"
 #include "census.h"
 #include "closedloop.h"
@@ -146,6 +148,12 @@ static void grid_stats(const tb_sweep *sw, tb_result *res)
 
 tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag, tb_result **out)
 {
+    return tb_analyse_on(ckt, opt, NULL, diag, out);
+}
+
+tb_status tb_analyse_on(const tb_circuit *ckt, const tb_options *opt, const tb_sweep *base, tb_diag *diag,
+                        tb_result **out)
+{
     if (!ckt || !out)
         return TB_ERR_USAGE;
     tb_options defaults;
@@ -166,7 +174,7 @@ tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag
     tb_sweep *sw = NULL;
     point_analyses pa = {0};
     size_t lanes = tb_sweep_lanes_for(opt->jobs, npoints);
-    tb_status st = tb_sweep_new(ckt, opt->refactor_rcond_drop, lanes, diag, &sw);
+    tb_status st = tb_sweep_new_on(ckt, opt->refactor_rcond_drop, lanes, base, diag, &sw);
     if (!st)
         tb_sweep_set_progress(sw, opt->progress, opt->progress_ctx);
     if (!st)

@@ -17,6 +17,7 @@
 #include "alloc.h"
 #include "circuit.h"
 #include "expect.h"
+#include "spread.h"
 
 /* Deepest directory nesting searched (a deeper folder is an ERROR entry; link cycles end
  * earlier, each folder being searched once). */
@@ -508,6 +509,45 @@ static tb_status measure(const tb_circuit *ckt, const tb_result *res, size_t l, 
     return rc;
 }
 
+/* The spread figures the .expect cards name (corners.*, samples.*): the .spread cards' corners
+ * and Monte Carlo run for them (docs/spread.md), into e's loops. */
+static tb_status spread_figures(const tb_circuit *ckt, const tb_check_options *opt, tb_diag *diag, tb_check_entry *e)
+{
+    int yield = tb_figure_find("samples.yield_pct", strlen("samples.yield_pct"));
+    bool corners = false;
+    bool samples = false;
+    for (const tb_expect *x = ckt->expects; x; x = x->next) {
+        samples = samples || x->figure == yield;
+        corners = corners || (tb_figure_is_spread(x->figure) && x->figure != yield);
+    }
+    if (!corners && !samples)
+        return TB_OK;
+    tb_spread_options so;
+    tb_spread_options_init(&so);
+    so.analysis = opt->analysis;
+    so.jobs = 1; /* the runner's threads share the netlists already */
+    tb_spread_figures *sf = tb_calloc(e->loop_count ? e->loop_count : 1, sizeof *sf);
+    tb_figure_value *v = tb_calloc(tb_figure_count(), sizeof *v);
+    tb_status st = sf && v ? tb_spread_figures_run(ckt, &so, diag, corners, samples, sf) : TB_ERR_NOMEM;
+    for (size_t l = 0; !st && l < e->loop_count; l++) {
+        tb_figure_measure_spread(&sf[l], v);
+        for (size_t f = 0; !st && f < tb_figure_count(); f++) {
+            if (!tb_figure_is_spread((int)f))
+                continue;
+            tb_check_figure *fig = &e->loops[l].figures[f];
+            tb_free(fig->why);
+            fig->why = NULL;
+            fig->present = v[f].present;
+            fig->value = v[f].value;
+            if (!fig->present && !(fig->why = tb_check_strdup(v[f].why)))
+                st = TB_ERR_NOMEM;
+        }
+    }
+    tb_free(sf);
+    tb_free(v);
+    return st;
+}
+
 /* Evaluates every .expect of ckt against the measured loops. */
 static tb_status evaluate(const tb_circuit *ckt, tb_check_entry *e)
 {
@@ -580,6 +620,8 @@ static tb_status run_one(const tb_check_options *opt, tb_check_entry *e)
         for (size_t l = 0; st == TB_OK && l < tb_result_loops(res); l++, e->loop_count++)
             st = measure(ckt, res, l, &e->loops[l]);
     }
+    if (st == TB_OK)
+        st = spread_figures(ckt, opt, diag, e);
     if (st == TB_OK)
         st = evaluate(ckt, e);
     if (st == TB_OK && opt->html_dir)

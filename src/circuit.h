@@ -185,6 +185,7 @@ struct tb_circuit {
     size_t source_cap;
     struct tb_strblock *strings; /* string arena */
     tb_volterra_spec volterra;   /* .volterra (distortion.c) */
+    struct tb_spread_cards *spread; /* .spread and .scan cards (spreadcard.h), in the arena; NULL: none */
 };
 
 tb_status tb_circuit_create(const char *file, tb_circuit **out);

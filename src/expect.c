@@ -366,6 +366,43 @@ static bool get_hd3_reduction(const tb_figure_src *s, double *x, const char **wh
     return s->dl->has_hd3_reduction;
 }
 
+static bool spread_ran(const tb_figure_src *s, bool ran, const char *what, const char **why)
+{
+    if (!s->spread) {
+        *why = "a spread figure: 'tbeta check' runs the .spread cards for it (docs/spread.md)";
+        return false;
+    }
+    if (!ran)
+        *why = what;
+    return ran;
+}
+
+static bool get_corner_pm(const tb_figure_src *s, double *x, const char **why)
+{
+    if (!spread_ran(s, s->spread && s->spread->has_corners, "no .spread card", why))
+        return false;
+    *why = "no corner has a phase margin";
+    *x = s->spread->pm_worst_deg;
+    return s->spread->has_pm;
+}
+
+static bool get_corner_gm(const tb_figure_src *s, double *x, const char **why)
+{
+    if (!spread_ran(s, s->spread && s->spread->has_corners, "no .spread card", why))
+        return false;
+    *why = "no corner has an upward gain margin";
+    *x = s->spread->gm_worst_db;
+    return s->spread->has_gm;
+}
+
+static bool get_yield(const tb_figure_src *s, double *x, const char **why)
+{
+    if (!spread_ran(s, s->spread && s->spread->has_samples, "no .spread card, or no sample analysed", why))
+        return false;
+    *x = s->spread->yield_pct;
+    return true;
+}
+
 /* ---- the table ------------------------------------------------------------ */
 
 /* Adding a figure is one row here (and one line in docs/check.md). */
@@ -417,7 +454,35 @@ static const tb_figure figures[] = {
      "HD2 without feedback over HD2 with it, at equal output amplitude"},
     {"hd3_reduction", "", TB_WORSE_LOWER, false, get_hd3_reduction,
      "HD3 without feedback over HD3 with it, at equal output amplitude"},
+    {"corners.phase_margin_deg", "deg", TB_WORSE_LOWER, false, get_corner_pm,
+     "lowest phase margin over the .spread corners"},
+    {"corners.gain_margin_up_db", "dB", TB_WORSE_LOWER, false, get_corner_gm,
+     "lowest upward gain margin over the .spread corners"},
+    {"samples.yield_pct", "%", TB_WORSE_LOWER, false, get_yield,
+     "Monte Carlo yield of the .spread cards (200 samples, seed 1), in percent"},
 };
+
+/* The first spread figure: the rows from here on need the spread runs. */
+#define FIRST_SPREAD_FIGURE 33
+_Static_assert(sizeof figures / sizeof figures[0] == FIRST_SPREAD_FIGURE + 3, "the spread figures end the table");
+
+bool tb_figure_is_spread(int figure)
+{
+    return figure >= FIRST_SPREAD_FIGURE && (size_t)figure < sizeof figures / sizeof figures[0];
+}
+
+void tb_figure_measure_spread(const tb_spread_figures *sf, tb_figure_value *out)
+{
+    tb_figure_src src = {NULL, NULL, NULL, NULL, NULL, NULL, sf};
+    for (size_t f = FIRST_SPREAD_FIGURE; f < sizeof figures / sizeof figures[0]; f++) {
+        tb_figure_value *v = &out[f];
+        const char *why = "absent";
+        v->present = figures[f].get(&src, &v->value, &why) && isfinite(v->value);
+        v->why = v->present ? NULL : why;
+        if (!v->present)
+            v->value = 0;
+    }
+}
 
 size_t tb_figure_count(void)
 {
@@ -462,7 +527,7 @@ tb_status tb_figure_measure(const tb_result *res, size_t l, tb_figure_value *out
         rc = tb_distortion_loop_get(res, l, &dl, NULL, NULL);
     if (rc != TB_OK)
         return rc;
-    tb_figure_src src = {&m, &st, &step, &fb, &dist, &dl};
+    tb_figure_src src = {&m, &st, &step, &fb, &dist, &dl, NULL};
     for (size_t f = 0; f < tb_figure_count(); f++) {
         tb_figure_value *v = &out[f];
         const char *why = "absent";

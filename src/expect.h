@@ -18,6 +18,20 @@ typedef enum {
 
 /* Everything a figure is read from: one loop's measures, stability and hand-estimate
  * breakdown, and the step response. */
+/* The spread figures of one loop: the worst margins over the .spread corners and the Monte
+ * Carlo yield (docs/spread.md); 'tbeta check' runs them when an .expect names one. */
+typedef struct {
+    bool has_corners;        /* the corners ran */
+    bool has_pm;
+    double pm_worst_deg;     /* lowest phase margin over the corners */
+    bool has_gm;
+    double gm_worst_db;      /* lowest upward gain margin over the corners */
+    bool has_samples;        /* the Monte Carlo ran (and analysed a sample) */
+    double yield_pct;        /* samples that pass, in percent of those analysed */
+} tb_spread_figures;
+
+/* Everything a figure is read from: one loop's measures, stability and hand-estimate
+ * breakdown, the step response, and its spread figures. */
 typedef struct {
     const tb_measures *m;
     const tb_stability *st;
@@ -25,6 +39,7 @@ typedef struct {
     const tb_feedback_summary *fb; /* the hand estimate (.ideal) of the loop; may be NULL */
     const tb_distortion *dist;      /* .volterra distortion; may be NULL */
     const tb_distortion_loop *dl;   /* the loop opened at equal output; may be NULL */
+    const tb_spread_figures *spread; /* NULL: the spread figures are absent */
 } tb_figure_src;
 
 /* One figure an expectation may name. get returns true with *x, or false with
@@ -46,6 +61,11 @@ typedef struct {
     double value; /* 0 when absent */
     const char *why; /* NULL when present */
 } tb_figure_value;
+
+/* true for the spread figures (corners.*, samples.*), which no single analysis has. */
+bool tb_figure_is_spread(int figure);
+/* The spread figures' rows of out (tb_figure_count() entries) from sf; the other rows are left. */
+void tb_figure_measure_spread(const tb_spread_figures *sf, tb_figure_value *out);
 
 /* Every figure of loop l of res, in table order; out has tb_figure_count() entries. This is
  * what every .expect card of the loop is evaluated against (tb_expect_holds). Errors:

@@ -13,6 +13,7 @@
 #include "lex.h"      /* tb_lex_value: --at reads frequencies as the netlist does */
 #include "progress.h" /* the progress line on a terminal */
 #include "report.h"   /* tb_report_escape and how odd bytes read */
+#include "spreadcli.h" /* tbeta spread */
 
 /* Exit codes, one table: 0 done; 1 done but an expectation or threshold
  * failed (used by later subcommands); 2 usage error, unreadable or malformed
@@ -61,7 +62,8 @@ static const char usage_main[] =
     "                                     one CSV row per sweep frequency\n"
     "       tbeta step NETLIST [--csv]       closed-loop step response, one CSV row per sample\n"
     "       tbeta plot NETLIST --svg DIR      the pictures (Bode, Nyquist, step, ports, breakdown) as SVG\n"
-    "       tbeta check PATH... [options]     run every netlist's .expect cards\n"
+    "       tbeta check PATH... [options]     run every netlist's .expect cards (tbeta check --help)\n"
+    "       tbeta spread NETLIST [options]    scans, corners, Monte Carlo (tbeta spread --help)\n"
     "       tbeta --help | --version\n"
     "  Every subcommand lists its options with --help (tbeta report --help, ...).\n"
     "  NETLIST - reads the netlist from standard input; a FILE of - is standard output.\n"
@@ -895,6 +897,8 @@ static int command(int argc, char **argv)
     }
     if (strcmp(argv[1], "check") == 0)
         return check_command(argc, argv);
+    if (strcmp(argv[1], "spread") == 0)
+        return tb_spread_command(argc, argv);
     if (strcmp(argv[1], "--version") == 0) {
         printf("tbeta %s\n", TB_VERSION);
         return EXIT_DONE;

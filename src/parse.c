@@ -21,6 +21,7 @@
 #include "lex.h"
 #include "netfile.h"
 #include "nonlinear.h"
+#include "spreadcard.h"
 #include "suggest.h"
 #include "tbeta.h"
 
@@ -1519,6 +1520,26 @@ static bool volterra_card(parser *p)
     return true;
 }
 
+/* spreadcard -> .SPREAD ... | .SCAN ...: the card's tokens are read by spreadcard.c */
+static bool spread_card(parser *p)
+{
+    tb_token keyword = p->tok;
+    advance(p);
+    p->word_count = 0;
+    for (; !at_end(p); advance(p)) {
+        if (p->tok.kind == TB_TOK_BAD)
+            return bad_char(p);
+        if (tb_grow(&p->words, &p->word_cap, p->word_count + 1, sizeof(tb_token), TB_MAX_NODES))
+            return nomem(p);
+        p->words[p->word_count++] = p->tok;
+    }
+    tb_card_error err;
+    tb_status st = tb_spreadcard_read(p->ckt, p->srcs[p->src].file, &keyword, p->words, p->word_count, &err);
+    if (st == TB_ERR_NOMEM)
+        return nomem(p);
+    return st == TB_OK || error(p, &err.at, "%s", err.message);
+}
+
 /* directive -> accard | loopcard | iocard | marginscard | endcard; any other is skipped with a warning */
 static bool directive(parser *p)
 {
@@ -1541,6 +1562,8 @@ static bool directive(parser *p)
         return break_card(p);
     if (tb_lex_is(&p->tok, ".volterra"))
         return volterra_card(p);
+    if (tb_spreadcard_is(&p->tok))
+        return spread_card(p);
     if (tb_lex_is(&p->tok, ".end")) {
         /* endcard -> .END */
         advance(p);
@@ -1915,7 +1938,7 @@ static bool body_directive(parser *p, subckt *def)
         tb_lex_is(&p->tok, ".margins") || tb_lex_is(&p->tok, ".include") ||
         tb_lex_is(&p->tok, ".expect") ||
         tb_lex_is(&p->tok, ".ideal") || tb_lex_is(&p->tok, ".zport") || tb_lex_is(&p->tok, ".break") ||
-        tb_lex_is(&p->tok, ".volterra") || tb_lex_is(&p->tok, ".end"))
+        tb_lex_is(&p->tok, ".volterra") || tb_lex_is(&p->tok, ".end") || tb_spreadcard_is(&p->tok))
         return error(p, &p->tok, "'%s' is not allowed inside .subckt %s", quote(&p->tok, text),
                      def->name);
     warning(p, &p->tok, "unknown directive '%s' skipped", quote(&p->tok, text));
@@ -2306,6 +2329,8 @@ static tb_status parse_owned(char *text, size_t len, const char *file, const cha
     st = p.status == TB_OK ? tb_circuit_finish(ckt, diag) : p.status;
     if (st == TB_OK)
         st = tb_expect_resolve(ckt, diag); /* .expect names a .loop: every command refuses a typo */
+    if (st == TB_OK)
+        st = tb_spreadcard_resolve(ckt, diag);
     if (st != TB_OK) {
         tb_circuit_free(ckt);
         return st;

@@ -216,3 +216,29 @@ tb_status tb_sensitivity_run(const tb_circuit *ckt, tb_probe *probe, tb_result *
     tb_free(pt.Y);
     return st;
 }
+
+size_t tb_sensitivity_count(const tb_circuit *ckt)
+{
+    size_t per = 0;
+    for (size_t e = 0; e < ckt->elem_count; e++)
+        per += ckt->elems[e].kind != TB_EL_V && ckt->elems[e].kind != TB_EL_I;
+    return per;
+}
+
+tb_status tb_sensitivity_at(const tb_circuit *ckt, tb_probe *probe, size_t l, double f, tb_sens_entry *out)
+{
+    const tb_mna *mna = probe->mna;
+    if (l >= mna->loop_count || !(f >= 0))
+        return TB_ERR_USAGE;
+    size_t n = mna->n;
+    point pt = {.probe = probe, .Y = tb_malloc((1 + mna->loop_count) * (n ? n : 1), sizeof(double complex)),
+                .io = mna->has_io};
+    if (!pt.Y)
+        return TB_ERR_NOMEM;
+    name_entries(ckt, out);
+    tb_status st = solve_at(&pt, f);
+    if (!st)
+        at_dc(ckt, &pt, l, TB_TWO_PI * f, out); /* the same forms hold at any frequency */
+    tb_free(pt.Y);
+    return st;
+}

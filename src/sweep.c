@@ -2,6 +2,7 @@
 #include "sweep.h"
 
 #include <pthread.h>
+#include <string.h>
 #include <unistd.h>
 
 #include "alloc.h"
@@ -30,6 +31,7 @@ struct tb_sweep {
     tb_probe probe;
     tb_progress_fn progress; /* told of the grid points started, or NULL */
     void *progress_ctx;
+    bool shared; /* lane 0 factors on another sweep's symbolic analysis (tb_sweep_new_on) */
 };
 
 size_t tb_sweep_chunk(size_t npoints)
@@ -85,6 +87,24 @@ static tb_status lane_new(const tb_sweep *s, lane *ln, const tb_solver *base)
 
 tb_status tb_sweep_new(const tb_circuit *ckt, double rcond_drop, size_t lanes, tb_diag *diag, tb_sweep **out)
 {
+    return tb_sweep_new_on(ckt, rcond_drop, lanes, NULL, diag, out);
+}
+
+/* base's symbolic analysis fits mna when both patterns are the same. */
+static const tb_solver *shared_analysis(const tb_sweep *base, const tb_mna *mna)
+{
+    if (!base)
+        return NULL;
+    const tb_mna *b = base->mna;
+    if (b->n != mna->n || b->nnz != mna->nnz || memcmp(b->Ap, mna->Ap, (mna->n + 1) * sizeof(int)) != 0 ||
+        memcmp(b->Ai, mna->Ai, mna->nnz * sizeof(int)) != 0)
+        return NULL;
+    return base->lanes[0].solver;
+}
+
+tb_status tb_sweep_new_on(const tb_circuit *ckt, double rcond_drop, size_t lanes, const tb_sweep *base,
+                          tb_diag *diag, tb_sweep **out)
+{
     if (lanes == 0 || lanes > TB_SWEEP_MAX_LANES)
         return TB_ERR_USAGE;
     tb_sweep *s = tb_calloc(1, sizeof(*s));
@@ -101,7 +121,9 @@ tb_status tb_sweep_new(const tb_circuit *ckt, double rcond_drop, size_t lanes, t
     }
     for (size_t l = 0; l < lanes && !st; l++) {
         s->nlanes = l + 1;
-        st = lane_new(s, &s->lanes[l], l == 0 ? NULL : s->lanes[0].solver);
+        const tb_solver *on = l == 0 ? shared_analysis(base, s->mna) : s->lanes[0].solver;
+        s->shared = s->shared || (l == 0 && on != NULL);
+        st = lane_new(s, &s->lanes[l], on);
     }
     if (st) {
         tb_sweep_free(s);
@@ -111,6 +133,11 @@ tb_status tb_sweep_new(const tb_circuit *ckt, double rcond_drop, size_t lanes, t
     s->probe = tb_probe_make(s->mna, ln->solver, ln->work, ln->Mx, ln->row, rcond_drop);
     *out = s;
     return TB_OK;
+}
+
+bool tb_sweep_shared(const tb_sweep *s)
+{
+    return s->shared;
 }
 
 const tb_mna *tb_sweep_mna(const tb_sweep *s)

@@ -73,6 +73,15 @@ tb_status tb_sweep_new(const tb_circuit *ckt, double rcond_drop, size_t lanes, t
                        tb_sweep **out);
 void tb_sweep_free(tb_sweep *sweep);
 
+/* tb_sweep_new on the symbolic analysis of base when ckt stamps the same pattern (the same
+ * circuit with other values): only the numeric factorizations are new. Without base, or
+ * with another pattern, as tb_sweep_new. base must outlive the new sweep. */
+tb_status tb_sweep_new_on(const tb_circuit *ckt, double rcond_drop, size_t lanes, const tb_sweep *base,
+                          tb_diag *diag, tb_sweep **out);
+/* true when the sweep was set up on another's symbolic analysis (tb_sweep_new_on found the
+ * same pattern). */
+bool tb_sweep_shared(const tb_sweep *sweep);
+
 const tb_mna *tb_sweep_mna(const tb_sweep *sweep);
 size_t tb_sweep_lanes(const tb_sweep *sweep);
 

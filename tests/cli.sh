@@ -291,6 +291,55 @@ if command -v script >/dev/null 2>&1; then
     CI=1 script -qec "$tb check netlists --output /dev/null" /dev/null >"$tmp/tty.txt" 2>&1
     if grep -q "netlists (" "$tmp/tty.txt"; then failed=$((failed + 1)); echo "FAIL progress-ci: a progress line with CI set"; else passed=$((passed + 1)); fi
 fi
+# tbeta spread: scans, corners and Monte Carlo (docs/spread.md): exit codes, valid JSON and CSV,
+# the same bytes for any --jobs, usage errors
+sp=docs/examples/spread_buffer.net
+expect spread-scan 0 $tb spread "$sp" --scan
+has spread-scan out "scan: 9 runs over 1 element"
+has spread-scan out "caution: tbeta is a small-signal, linear analysis"
+expect spread-corners 1 $tb spread "$sp" --corners --json
+if /usr/bin/python3 -c 'import json,sys; d=json.load(open(sys.argv[1])); assert d["kind"] == "corners" and len(d["runs"]) == 257' "$tmp/out"; then
+    passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread-corners: JSON"; fi
+cat "$tmp/out" >>"$tmp/all"
+expect spread-mc1 1 $tb spread "$sp" --samples 40 --seed 5 --csv --jobs 1
+cp "$tmp/out" "$tmp/mc1"
+expect spread-mc3 1 $tb spread "$sp" --samples 40 --seed 5 --csv --jobs 3
+if cmp -s "$tmp/mc1" "$tmp/out"; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread: CSV differs across --jobs"; fi
+cat "$tmp/out" >>"$tmp/all"
+expect spread-html 0 $tb spread "$sp" --scan --html "$tmp/spread.html"
+if grep -q "<svg" "$tmp/spread.html"; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread-html: no plot"; fi
+expect spread-html-mc 1 $tb spread "$sp" --samples 30 --html "$tmp/mc.html"
+if grep -q "phase margin at G1 over 30 samples" "$tmp/mc.html" && /usr/bin/python3 -c 'import sys; open(sys.argv[1], encoding="utf-8").read()' "$tmp/mc.html"; then
+    passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL spread-html-mc: no histogram, or not UTF-8"; fi
+expect spread-gain 0 $tb spread docs/examples/spread_gain.net --samples 50
+has spread-gain out "desensitivity: the loop source's gain spreads"
+cat "$tmp/out" >>"$tmp/all"
+expect spread-no-cards 2 $tb spread netlists/ota_gain_of_2.net
+has spread-no-cards err "the netlist has no .scan or .spread card"
+expect spread-two-modes 2 $tb spread "$sp" --json
+has spread-two-modes err "--csv, --json and --html take one mode"
+expect spread-samples 2 $tb spread "$sp" --samples 0
+has spread-samples err "--samples takes a whole number from 1 to 100000, not '0'"
+expect spread-seed 2 $tb spread "$sp" --samples 5 --seed 9007199254740992
+has spread-seed err "--seed takes a whole number from 0 to 9007199254740991, not '9007199254740992'"
+expect spread-sens 0 $tb spread "$sp" --sens-at 1.4meg --sens-at 0
+has spread-sens out "at 1.4MHz |T| is set by G2 (+1 %/%), E1 (+1 %/%) and G1 (+1 %/%);"
+has spread-sens out "its phase by R2 (-0.179 deg/%), C2 (-0.179 deg/%) and CL (-0.12 deg/%)"
+has spread-sens out "at DC |T| is set by G2 (+1 %/%), R2 (+1 %/%) and E1 (+1 %/%); no element moves its phase"
+cat "$tmp/out" >>"$tmp/all"
+expect spread-sens-bad 2 $tb spread "$sp" --sens-at -1
+has spread-sens-bad err "--sens-at takes a frequency from 0 (DC) to 1e15 Hz (1k, 2.5meg), not '-1'"
+expect spread-sens-mode 2 $tb spread "$sp" --sens-at 1k --json
+expect spread-bad 2 $tb spread tests/bad/spread_no_dist.net
+has spread-bad err "spread_no_dist.net:12:14: error: expected 'flat', 'gauss' or 'pick' on .spread"
+# tbeta check runs the spread for the corners.* and samples.* figures of .expect
+expect spread-check 0 $tb check "$sp"
+has spread-check out "pass   $sp (4 expectations)"
+sed 's/corners.phase_margin_deg >= 20/corners.phase_margin_deg >= 25/' "$sp" >"$tmp/spread_fail.net"
+expect spread-check-fail 1 $tb check "$tmp/spread_fail.net"
+has spread-check-fail out "G1.corners.phase_margin_deg is 21.4313 deg, expected >= 25 deg"
+if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/all"; then failed=$((failed + 1)); echo "FAIL spread: nan or inf in an output"
+else passed=$((passed + 1)); fi
 
 echo "cli: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]

@@ -15,9 +15,12 @@
 
 #include "testutil.h"
 
+#include "alloc.h"
 #include "checkrun.h"
 #include "circuit.h"
 #include "expect.h"
+#include "report_spread.h"
+#include "spread.h"
 
 void *__real_malloc(size_t size);
 void *__real_calloc(size_t count, size_t size);
@@ -227,6 +230,59 @@ static void test_oom_demo_netlists(void **state)
     };
     for (size_t i = 0; i < sizeof passes / sizeof passes[0]; i++)
         sweep(passes[i].path, netlist_once, &passes[i]);
+}
+
+/* tbeta spread's three kinds of run on a small netlist (one scan axis of two values, one
+ * dimension at its corners, two samples), each written as text, CSV and JSON; then the
+ * sensitivities at 1 kHz and their text. */
+static tb_status spread_once(const void *ctx)
+{
+    (void)ctx;
+    static const char text[] = "spread under failing allocations\nVs in 0 AC 1\nG1 0 x in out 1m\n"
+                               "R1 x 0 100k\nC1 x 0 1n\nE1 out 0 x 0 1\n.io Vs v(out)\n.loop G1\n"
+                               ".ac dec 2 1 1meg\n.spread C1 R1 flat 5% group=rc\n.scan C1 list 1n 2n\n";
+    FILE *sink = fopen("/dev/null", "w");
+    assert_non_null(sink);
+    armed = true;
+    tb_spread_options opt;
+    tb_spread_options_init(&opt);
+    opt.samples = 2;
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    tb_status st = diag ? tb_circuit_parse(text, sizeof text - 1, "oom.net", diag, &ckt) : TB_ERR_NOMEM;
+    for (int kind = 0; kind < 3 && !st; kind++) {
+        tb_spreadset *set = NULL;
+        st = kind == 0   ? tb_spread_scan(ckt, &opt, diag, &set)
+             : kind == 1 ? tb_spread_corners(ckt, &opt, diag, &set)
+                         : tb_spread_monte_carlo(ckt, &opt, diag, &set);
+        if (!st)
+            st = tb_report_spread_text(ckt, set, sink);
+        if (!st)
+            st = tb_report_spread_csv(ckt, set, sink);
+        if (!st)
+            st = load_status(tb_report_spread_json(ckt, set, sink));
+        tb_spreadset_free(set);
+    }
+    tb_sens_entry *e = NULL;
+    size_t per = 0;
+    if (!st)
+        st = tb_spread_sensitivities_at(ckt, &opt.analysis, 1e3, diag, &e, &per);
+    if (!st)
+        st = tb_report_sensitivities_at_text(ckt, 1e3, e, per, sink);
+    tb_free(e);
+    tb_circuit_free(ckt);
+    tb_diag_free(diag);
+    armed = false;
+    fclose(sink);
+    return st;
+}
+
+static void test_oom_spread(void **state)
+{
+    (void)state;
+    count_json = true;
+    sweep("tbeta spread", spread_once, NULL);
+    count_json = false;
 }
 
 /* The JSON report of an analysed netlist with every section (loops, stability, step,
@@ -514,6 +570,7 @@ int main(void)
         cmocka_unit_test(test_oom_demo_netlists),
         cmocka_unit_test(test_oom_malformed_netlist),
         cmocka_unit_test(test_oom_json_writer),
+        cmocka_unit_test(test_oom_spread),
         cmocka_unit_test(test_oom_runner),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
