@@ -210,6 +210,9 @@ typedef struct {
     size_t probe_factorizations; /* numeric factorizations at new frequencies and changed gains */
     size_t step_factorizations;  /* spent by the step response: fresh M(jw) that check the sum
                                   * over the modes, or real time-step matrices G + aC */
+    size_t probe_solve_columns;  /* right-hand sides solved at new frequencies and changed gains
+                                  * (before the step response): a loop's search solves for that
+                                  * loop alone, so this grows with the loops, not their square */
 } tb_stats;
 
 /* The counts of res. Errors: TB_ERR_USAGE (NULL). */

@@ -69,7 +69,7 @@ static void incomplete(scan *sc, tb_stab_note why)
 static tb_status eval(scan *sc, double f, const sample *from, sample *out)
 {
     size_t culprit = 0;
-    tb_status st = tb_probe_eval(sc->probe, f, &culprit);
+    tb_status st = tb_probe_eval_loop(sc->probe, f, sc->l, &culprit);
     if (st) {
         if (st != TB_ERR_NOMEM)
             incomplete(sc, TB_SNOTE_PROBE_FAILED);
