@@ -75,8 +75,9 @@ static const char usage_plot[] =
 static const char usage_sweep[] =
     "usage: tbeta sweep NETLIST [--csv] [--loop NAME] [--jobs N]\n"
     "  Prints one CSV row per .ac frequency (no DC row):\n"
-    "  freq_hz,T_re,T_im,A_re,A_im,Ainf_re,Ainf_im,A0_re,A0_im,aol_re,aol_im,T_db,T_phase_deg\n"
-    "  An empty field is a value that does not exist at that frequency.\n"
+    "  freq_hz,T_re,T_im,A_re,A_im,Ainf_re,Ainf_im,A0_re,A0_im,aol_re,aol_im,T_db,T_phase_deg,note\n"
+    "  An empty field is a value that does not exist at that frequency; the note says why\n"
+    "  (T infinite there, no .io, ...).\n"
     "  --csv         CSV output (the default and only format)\n"
     "  --loop NAME   the loop at controlled source NAME (default: the first .loop)\n"
     "  --table T     instead, a feedback table (docs/feedback.md): breakdown (needs .ideal),\n"

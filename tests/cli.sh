@@ -216,5 +216,25 @@ else passed=$((passed + 1)); fi
 expect odd-loop 2 $tb sweep netlists/ota_gain_of_2.net --loop "G$esc[2J"
 has odd-loop err "no .loop at 'G\x1B[2J'"
 
+# a lossless resonance exactly on a grid frequency (T infinite there; tests/stab/tank_on_grid_*.net,
+# closed forms in tests/test_resonance.c): the infinite point is said, both crossings found, one
+# phase-margin convention in every section, the sweep table's note column explains the empty row
+for g in dec dec_fine lin lin_fine; do
+    f=tests/stab/tank_on_grid_$g.net
+    expect "tank-$g" 0 $tb "$f"
+    has "tank-$g" out "T is infinite at 1 sweep point, the first at 1 kHz"
+    has "tank-$g" out "phase margin                   -90.00 deg"
+    has "tank-$g" out "|T| = 1 (falling) at 1.0031 kHz     phase   -90.000 deg   PM   90.000 deg"
+    if grep -q "never crosses 1" "$tmp/out"; then failed=$((failed + 1)); echo "FAIL tank-$g: 'never crosses 1'"
+    else passed=$((passed + 1)); fi
+    expect "tank-$g-grid" 0 $tb "$f" --no-stability
+    has "tank-$g-grid" out "phase margin                   90.00 deg"
+    expect "tank-$g-csv" 0 $tb sweep "$f"
+    has "tank-$g-csv" out "1000,,,"
+    has "tank-$g-csv" out ",T infinite here (a pole of T on the axis): no T or a or A0"
+    if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/out"; then
+        failed=$((failed + 1)); echo "FAIL tank-$g-csv: nan or inf"; else passed=$((passed + 1)); fi
+done
+
 echo "cli: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]
