@@ -216,6 +216,16 @@ else passed=$((passed + 1)); fi
 expect odd-loop 2 $tb sweep netlists/ota_gain_of_2.net --loop "G$esc[2J"
 has odd-loop err "no .loop at 'G\x1B[2J'"
 
+# 15. a resistive loop of three unknowns has no poles, and says so, never "more unknowns than
+# the pole limit"
+printf 'resistive loop\nV1 in 0 AC 1\nR1 in a 1k\nR2 a out 1k\nE1 out 0 0 a 100\n.loop E1\n.io V1 v(out)\n.ac dec 10 1 1k\n.end\n' \
+    >"$tmp/resistive.net"
+expect resistive 0 $tb "$tmp/resistive.net"
+has resistive out "closed-loop poles: 0 finite, 0 in the right half-plane"
+has resistive out "no finite closed-loop poles: the output follows the input at once, there is no time scale"
+if grep -q "pole limit" "$tmp/out"; then failed=$((failed + 1)); echo "FAIL resistive: 'pole limit'"
+else passed=$((passed + 1)); fi
+
 # a lossless resonance exactly on a grid frequency (T infinite there; tests/stab/tank_on_grid_*.net,
 # closed forms in tests/test_resonance.c): the infinite point is said, both crossings found, one
 # phase-margin convention in every section, the sweep table's note column explains the empty row
