@@ -16,8 +16,8 @@ TESTLIBS := -lcmocka
 
 # The program: the command line and the regression runner behind 'tbeta check', which
 # only main.c uses; libtbeta.a holds what include/tbeta.h publishes and its internals.
-RUNNER_SRC := src/checkrun.c src/checkjson.c src/checkload.c src/checkreport.c src/checkfile.c
-PROG_SRC := src/main.c $(RUNNER_SRC)
+RUNNER_SRC := src/checkrun.c src/checkjson.c src/checkload.c src/checkreport.c src/checkfile.c src/checkhtml.c
+PROG_SRC := src/main.c src/progress.c $(RUNNER_SRC)
 PROG_OBJ := $(PROG_SRC:src/%.c=$(BUILD)/obj/%.o)
 RUNNER_OBJ := $(RUNNER_SRC:src/%.c=$(BUILD)/obj/%.o)
 LIB_SRC  := $(filter-out $(PROG_SRC),$(wildcard src/*.c))
@@ -115,10 +115,11 @@ bench: $(BUILD)/tbeta $(BUILD)/libtbeta.a
 	@sh bench/run.sh $(BUILD)
 
 # fuzz: libFuzzer (clang) for SECONDS seconds in all: two thirds over read-parse-analyse-report-
-# .expect (tests/fuzz/fuzz_netlist.c, corpus in build/fuzz/corpus seeded from netlists/, tests/bad/,
-# tests/ref/ and tests/fb/), one third over the runner's saved runs as baselines and shards
-# (tests/fuzz/fuzz_runner.c, corpus in build/fuzz/corpus-runner seeded with --save and --json files
-# of tests/check and netlists/); crashes land in build/fuzz/.
+# .expect (tests/fuzz/fuzz_netlist.c, corpus in build/fuzz/corpus seeded from netlists/ (and
+# devices/), tests/device/, tests/bad/, tests/ref/, tests/fb/ and tests/dist/), one third over the
+# runner's saved runs as baselines and shards (tests/fuzz/fuzz_runner.c, corpus in
+# build/fuzz/corpus-runner seeded with --save and --json files of tests/check and netlists/);
+# crashes land in build/fuzz/.
 SECONDS  ?= 60
 FUZZ_CC  := clang
 FUZZ_FLAGS := -std=c11 -g -O1 -fsanitize=fuzzer,address,undefined -fno-sanitize-recover=all
@@ -132,7 +133,7 @@ fuzz: $(BUILD)/tbeta
 	$(FUZZ_CC) $(FUZZ_FLAGS) $(CPPFLAGS) $(LIB_SRC) tests/fuzz/fuzz_netlist.c $(LDLIBS) -o build/fuzz/fuzz_netlist
 	$(FUZZ_CC) $(FUZZ_FLAGS) $(CPPFLAGS) $(LIB_SRC) $(RUNNER_SRC) tests/fuzz/fuzz_runner.c $(LDLIBS) \
 	    -o build/fuzz/fuzz_runner
-	cp netlists/*.net tests/bad/*.net tests/ref/*.net tests/fb/*.net build/fuzz/corpus/ 2>/dev/null || true
+	cp netlists/*.net netlists/devices/*.net tests/device/*.net tests/bad/*.net tests/ref/*.net tests/fb/*.net tests/dist/*.net build/fuzz/corpus/ 2>/dev/null || true
 	cd build/fuzz && for lib in ../../tests/check ../../netlists; do n=$$(basename $$lib); \
 	    ../../$(BUILD)/tbeta check $$lib --save corpus-runner/$$n-save.json --json corpus-runner/$$n.json \
 	    >/dev/null 2>&1; ../../$(BUILD)/tbeta check $$lib --shard 1/2 --json corpus-runner/$$n-shard.json \

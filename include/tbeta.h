@@ -150,6 +150,9 @@ typedef struct {
     unsigned flags;
 } tb_point;
 
+/* Told how far a long computation has gone: done of total steps (tb_options.progress). */
+typedef void (*tb_progress_fn)(void *ctx, size_t done, size_t total);
+
 typedef struct {
     bool dc;              /* evaluate f = 0 exactly when the circuit allows (default true) */
     double refactor_rcond_drop; /* a refactor whose min/max |U_ii| falls below this times the
@@ -170,7 +173,18 @@ typedef struct {
     unsigned jobs;        /* threads sharing the frequency points of the sweep: 1 (the default)
                            * runs it in the calling thread, 0 one per online core; every
                            * figure is the same for any value */
+    const double *at_hz;  /* figures at these frequencies (Hz, finite, >= 0), each by a fresh
+                           * solve at exactly that frequency (tb_spot_get); NULL (the default):
+                           * none. Borrowed: read during tb_analyse only */
+    size_t at_count;      /* entries of at_hz, at most TB_AT_MAX */
+    tb_progress_fn progress; /* NULL (the default), or told of the sweep's grid points as they
+                              * start: progress(progress_ctx, done, points), from whichever
+                              * thread takes them, one call at a time; it must return quickly */
+    void *progress_ctx;
 } tb_options;
+
+/* The most frequencies tb_options.at_hz may hold (more: TB_ERR_USAGE). */
+#define TB_AT_MAX 1000
 
 /* Sets every field of *opt to its default. */
 TB_API void tb_options_init(tb_options *opt);
@@ -923,6 +937,129 @@ TB_API tb_status tb_report_html(const tb_circuit *ckt, const tb_result *res, FIL
  * TB_ERR_IO. */
 TB_API tb_status tb_report_feedback_csv(const tb_circuit *ckt, const tb_result *res, size_t l, const char *table,
                                         FILE *out);
+
+/* ---- distortion: weakly nonlinear, third-order Volterra series (docs/distortion.md) ---- */
+
+/* One distortion ratio: |output at the product's frequency| / |output at the tone|. */
+typedef struct {
+    bool present; /* computed */
+    double ratio; /* 0 when the product vanishes */
+    bool has_db;  /* ratio > 0 */
+    double db;    /* 20 log10 ratio */
+} tb_dist_ratio;
+
+/* The distortion of one configuration (the circuit as drawn, or one loop opened) at the
+ * .volterra amplitude and tones, by nonlinear currents on the circuit matrix. */
+typedef struct {
+    bool computed;
+    const char *why_absent;  /* a static phrase when !computed */
+    double drive;            /* amplitude per tone that drives it (peak): amp of the .io source for
+                              * the circuit as drawn; the injected controlling variable (V or A)
+                              * of the opened loop source, chosen so that fund is the same */
+    double fund;             /* |output| at freq (the .io output's unit) */
+    tb_dist_ratio hd2;       /* at 2 freq */
+    tb_dist_ratio hd3;       /* at 3 freq */
+    tb_dist_ratio hd3_direct; /* the part of HD3 driven by the k3 terms */
+    tb_dist_ratio hd3_inter; /* the part driven by second-order interaction (k2 times the
+                              * second-order response) */
+    tb_dist_ratio im2;       /* two tones of `drive` each: at freq + freq2 */
+    tb_dist_ratio im2_diff;  /* at freq2 - freq */
+    tb_dist_ratio im3;       /* at 2 freq - freq2 */
+    bool has_iip3;
+    double iip3;             /* input-referred third-order intercept: the drive per tone at which
+                              * IM3 extrapolates (slope 2) to 1, in the drive's unit */
+    double third;            /* the largest third-order term over the fundamental: max(HD3, IM3) */
+    bool valid;              /* third <= limit: the third-order series is trusted */
+} tb_dist_case;
+
+typedef struct {
+    bool computed;           /* .volterra, .io, a source with k2= or k3= */
+    const char *why_absent;
+    double amp;              /* as on .volterra */
+    double freq_hz;
+    double freq2_hz;
+    double limit_pct;
+    size_t nonlinear;        /* sources with k2= or k3= */
+    tb_dist_case closed;     /* the circuit as drawn */
+    size_t sweep_points;     /* HD2/HD3 over frequency: the .ac grid, thinned */
+} tb_distortion;
+
+/* Loop l opened (its source driven by an injected controlling variable, every other source
+ * as drawn, the input source at zero), at the same output amplitude, against the circuit
+ * as drawn; with the memoryless rules of thumb. */
+typedef struct {
+    bool computed;
+    const char *why_absent;
+    double complex T;            /* return ratio at freq (0 when infinite there) */
+    tb_dist_case open;
+    bool has_hd2_reduction;
+    double hd2_reduction;        /* HD2 open / HD2 closed */
+    bool has_hd3_reduction;
+    double hd3_reduction;        /* HD3 open / HD3 closed */
+    bool has_hd3_direct_reduction;
+    double hd3_direct_reduction; /* the k3-driven part of HD3, open over closed */
+    bool has_rule_hd2;           /* T finite at 2 freq */
+    double complex T_2f;         /* T at 2 freq */
+    double rule_hd2;             /* |1 + T(2f)|: the rule for HD2 at equal output amplitude (exact for
+                                  * a memoryless stage, where T is the same at every frequency) */
+    bool has_rule_hd3;           /* T finite at 3 freq */
+    double complex T_3f;         /* T at 3 freq */
+    double rule_hd3;             /* |1 + T(3f)|: the rule for the k3-driven part of HD3 at equal output
+                                  * amplitude (the second-order interaction moves the whole of HD3
+                                  * away from it; docs/distortion.md) */
+} tb_distortion_loop;
+
+/* HD2 and HD3 at one tone frequency of the sweep, as ratios (0: vanishes), with and
+ * without loop l's feedback, at the output amplitude of the stated tone (the input scaled). */
+typedef struct {
+    double freq_hz;
+    double amp;                  /* the input amplitude that gives that output here */
+    bool has_closed;
+    double hd2_closed;
+    double hd3_closed;
+    bool has_open;
+    double hd2_open;
+    double hd3_open;
+    bool has_T;
+    double T_mag;                /* |T| at the tone */
+    bool valid;                  /* both within the limit (below) */
+    bool valid_closed;           /* 3 HD3 with feedback within the .volterra limit (IM3 of a
+                                  * memoryless cubic is 3 HD3) */
+    bool valid_open;             /* likewise with the loop opened */
+} tb_dist_sweep_point;
+
+/* The distortion summary (computed false without .volterra, with why_absent). Errors:
+ * TB_ERR_USAGE (NULL). */
+TB_API tb_status tb_distortion_get(const tb_result *res, tb_distortion *out);
+/* Loop l's comparison and, when pts is not NULL, its sweep (*count points, owned by res).
+ * Errors: TB_ERR_USAGE (NULL, l out of range). */
+TB_API tb_status tb_distortion_loop_get(const tb_result *res, size_t l, tb_distortion_loop *out,
+                                        const tb_dist_sweep_point **pts, size_t *count);
+
+/* ---- figures at chosen frequencies (tb_options.at_hz) ------------------ */
+
+/* Loop l at one chosen frequency, from a fresh factorization of M there (not read
+ * off the sweep grid). */
+typedef struct {
+    double f_hz;
+    bool solved;            /* false: M is singular at f_hz (nothing below is set) */
+    tb_point pt;            /* T, A, A_inf, A0, a and the flags saying which do not exist */
+    bool has_T;             /* T finite */
+    double T_db;            /* 20 log10 |T| (has_T and T != 0) */
+    bool has_T_db;
+    double T_phase_deg;     /* arg T in degrees, on the branch nearest the sweep's unwrapped
+                             * phase at the closest grid point (has_T and T != 0) */
+    double return_difference; /* |1 + T| (has_T) */
+    tb_breakdown_point breakdown; /* the .ideal breakdown and desensitivity here */
+    size_t ports;           /* .zport ports (tb_zport_count) */
+    const tb_zpoint *zports; /* ports entries, port order, into res; NULL when ports is 0 */
+} tb_spot;
+
+/* Number of chosen frequencies analysed (tb_options.at_count; 0 when none). */
+TB_API size_t tb_spot_count(const tb_result *res);
+/* Loop l at chosen frequency i (in the order given). Errors: TB_ERR_USAGE (NULL, i or
+ * l out of range). Thread safety: as every accessor, reads res only. */
+TB_API tb_status tb_spot_get(const tb_result *res, size_t i, size_t l, tb_spot *out);
 
 #ifdef __cplusplus
 }

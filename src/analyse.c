@@ -2,12 +2,14 @@
 #include "alloc.h"
 #include "census.h"
 #include "closedloop.h"
+#include "distortion.h"
 #include "feedback.h"
 #include "feedback_type.h"
 #include "grid.h"
 #include "impedance.h"
 #include "measure.h"
 #include "sensitivity.h"
+#include "spot.h"
 #include "stability.h"
 #include "step.h"
 #include "sweep.h"
@@ -25,6 +27,10 @@ void tb_options_init(tb_options *opt)
     opt->sensitivity = false;
     opt->closed_loop = true;
     opt->jobs = 1;
+    opt->at_hz = NULL;
+    opt->at_count = 0;
+    opt->progress = NULL;
+    opt->progress_ctx = NULL;
 }
 
 /* Thresholds left negative in the options come from the netlist's .margins,
@@ -102,10 +108,14 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
         st = tb_census_judge(pa->census, probe, &limits, res);
     if (!st)
         st = tb_feedback_run(ckt, probe, res);
+    if (!st)
+        st = tb_spot_run(probe, pa->ports, ckt->zport_count, opt->at_hz, opt->at_count, res);
     if (!st && opt->closed_loop)
         st = tb_closed_loop_run(probe, res);
     if (!st && opt->sensitivity)
         st = tb_sensitivity_run(ckt, probe, res);
+    if (!st)
+        st = tb_distortion_run(ckt, probe, res);
     res->stats.probe_factorizations = probe->factorizations;
     res->stats.probe_solve_columns = tb_sweep_counts(sw).columns - res->stats.grid_solve_columns;
     size_t before = tb_sweep_counts(sw).numeric;
@@ -144,6 +154,8 @@ tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag
         tb_options_init(&defaults);
         opt = &defaults;
     }
+    if (tb_spot_check(opt->at_hz, opt->at_count))
+        return TB_ERR_USAGE;
     size_t npoints = tb_grid_count(&ckt->ac);
     if (npoints == 0)
         return TB_ERR_USAGE; /* the parser admits only usable grids */
@@ -156,6 +168,8 @@ tb_status tb_analyse(const tb_circuit *ckt, const tb_options *opt, tb_diag *diag
     point_analyses pa = {0};
     size_t lanes = tb_sweep_lanes_for(opt->jobs, npoints);
     tb_status st = tb_sweep_new(ckt, opt->refactor_rcond_drop, lanes, diag, &sw);
+    if (!st)
+        tb_sweep_set_progress(sw, opt->progress, opt->progress_ctx);
     if (!st)
         st = point_analyses_begin(&pa, ckt, sw, opt, res);
     if (!st)

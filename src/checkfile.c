@@ -1,5 +1,6 @@
-/* src/checkfile.c: the runner's output files (--save, --json, --junit) written whole or not at
- * all: a temporary file in the same folder, flushed and synced, then renamed over the old one */
+/* src/checkfile.c: output files (the runner's --save, --json, --junit; every --output, --html and
+ * picture) written whole or not at all: a temporary file in the same folder, flushed and synced,
+ * then renamed over the old one */
 #define _XOPEN_SOURCE 700 /* realpath */
 #include <errno.h>
 #include <fcntl.h>
@@ -32,13 +33,13 @@ static void unchanged(char *why, size_t why_size)
 
 /* A path that exists and is not a regular file (a terminal, /dev/null, a pipe): nothing
  * to replace, written as it is. */
-static tb_status write_direct(const char *path, const tb_check_run *run, tb_check_writer writer, char *why,
+static tb_status write_direct(const char *path, tb_file_writer writer, const void *ctx, char *why,
                               size_t why_size)
 {
     FILE *f = fopen(path, "w");
     if (!f)
         return failed(why, why_size, path, "cannot open it", errno);
-    tb_status st = writer(run, f);
+    tb_status st = writer(ctx, f);
     int err = st == TB_OK && fflush(f) != 0 ? errno : 0;
     if (fclose(f) != 0 && st == TB_OK)
         return failed(why, why_size, path, "writing it failed", errno);
@@ -56,10 +57,13 @@ static tb_status open_temp(const char *target, const struct stat *old, char **tm
     int dir_len = slash ? (int)(slash - target + 1) : 0;
     const char *name = slash ? slash + 1 : target;
     for (int k = 0; k < TEMP_TRIES; k++) {
-        /* the name cut to 200 bytes keeps the temporary one within the usual 255 */
-        char *path = tb_check_format("%.*s.%.200s.%ld-%d.tmp", dir_len, target, name, (long)getpid(), k);
+        /* the name cut to 200 bytes keeps the temporary one within the usual 255; with the pid
+         * and k it takes at most 240 bytes beyond the folder */
+        size_t size = (size_t)dir_len + 240;
+        char *path = tb_malloc(size, 1);
         if (!path)
             return TB_ERR_NOMEM;
+        snprintf(path, size, "%.*s.%.200s.%ld-%d.tmp", dir_len, target, name, (long)getpid(), k);
         int fd = open(path, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
         if (fd < 0) {
             int err = errno;
@@ -115,15 +119,14 @@ static void sync_folder(const char *target)
     }
 }
 
-tb_status tb_checkfile_write(const char *path, const tb_check_run *run, tb_check_writer writer, char *why,
-                             size_t why_size)
+tb_status tb_file_write(const char *path, tb_file_writer writer, const void *ctx, char *why, size_t why_size)
 {
-    if (!path || !run || !writer || !why || why_size == 0)
+    if (!path || !writer || !why || why_size == 0)
         return TB_ERR_USAGE;
     struct stat old;
     bool exists = stat(path, &old) == 0;
     if (exists && !S_ISREG(old.st_mode))
-        return write_direct(path, run, writer, why, why_size);
+        return write_direct(path, writer, ctx, why, why_size);
     /* a symbolic link to a file: replace the file it names, keep the link */
     char resolved[PATH_MAX];
     struct stat link;
@@ -134,7 +137,7 @@ tb_status tb_checkfile_write(const char *path, const tb_check_run *run, tb_check
     FILE *f = NULL;
     tb_status st = open_temp(target, exists ? &old : NULL, &tmp, &f, why, why_size);
     if (st == TB_OK) {
-        st = writer(run, f);
+        st = writer(ctx, f);
         tb_status closed = finish(f, target, why, why_size);
         if (st == TB_ERR_IO || (st == TB_OK && closed != TB_OK))
             st = closed != TB_OK ? closed : failed(why, why_size, target, "a write failed", 0);
@@ -151,4 +154,25 @@ tb_status tb_checkfile_write(const char *path, const tb_check_run *run, tb_check
         snprintf(why, why_size, "out of memory");
     tb_free(tmp);
     return st;
+}
+
+/* A runner writer called through tb_file_write's context. */
+typedef struct {
+    const tb_check_run *run;
+    tb_check_writer writer;
+} run_writer;
+
+static tb_status call_run_writer(const void *ctx, FILE *out)
+{
+    const run_writer *rw = ctx;
+    return rw->writer(rw->run, out);
+}
+
+tb_status tb_checkfile_write(const char *path, const tb_check_run *run, tb_check_writer writer, char *why,
+                             size_t why_size)
+{
+    if (!run || !writer)
+        return TB_ERR_USAGE;
+    run_writer rw = {run, writer};
+    return tb_file_write(path, call_run_writer, &rw, why, why_size);
 }

@@ -33,6 +33,9 @@ struct tb_check_run {
     size_t cap;
     atomic_size_t next; /* the next entry a worker takes */
     atomic_bool out_of_memory; /* a worker ran out of memory: the run is incomplete */
+    atomic_size_t done;  /* entries finished, for progress */
+    tb_progress_fn progress;
+    void *progress_ctx;
 };
 
 void tb_check_options_init(tb_check_options *opt)
@@ -46,7 +49,60 @@ void tb_check_options_init(tb_check_options *opt)
     opt->compared = false;
     opt->include_root = NULL;
     opt->include_anywhere = false;
+    opt->html_dir = NULL;
     tb_options_init(&opt->analysis);
+}
+
+void tb_check_set_progress(tb_check_run *run, tb_progress_fn fn, void *ctx)
+{
+    run->progress = fn;
+    run->progress_ctx = ctx;
+}
+
+/* The review page's context for tb_file_write. */
+typedef struct {
+    const tb_circuit *ckt;
+    const tb_result *res;
+} page_doc;
+
+static tb_status page_writer(const void *ctx, FILE *out)
+{
+    const page_doc *d = ctx;
+    return tb_report_html(d->ckt, d->res, out);
+}
+
+/* e's review page into opt->html_dir, named after e->rel with every character but letters,
+ * digits, '.', '-' and '_' written '_'; e->page then holds the link from beside the folder
+ * ("FOLDER/NAME.html"). A page that cannot be written is left out (no link). Errors:
+ * TB_ERR_NOMEM. */
+static tb_status write_page(const tb_check_options *opt, tb_check_entry *e, const tb_circuit *ckt,
+                            const tb_result *res)
+{
+    char *name = tb_check_format("%s.html", e->rel);
+    if (!name)
+        return TB_ERR_NOMEM;
+    for (char *c = name; *c; c++)
+        if (!((*c >= 'a' && *c <= 'z') || (*c >= 'A' && *c <= 'Z') || (*c >= '0' && *c <= '9') || *c == '.' ||
+              *c == '-' || *c == '_'))
+            *c = '_';
+    const char *slash = strrchr(opt->html_dir, '/');
+    char *path = tb_check_format("%s/%s", opt->html_dir, name);
+    e->page = tb_check_format("%s/%s", slash ? slash + 1 : opt->html_dir, name);
+    tb_free(name);
+    if (!path || !e->page) {
+        tb_free(path);
+        return TB_ERR_NOMEM;
+    }
+    char why[1024];
+    page_doc doc = {ckt, res};
+    (void)mkdir(opt->html_dir, 0777); /* several threads: EEXIST is fine */
+    tb_status st = tb_file_write(path, page_writer, &doc, why, sizeof why);
+    tb_free(path);
+    if (st != TB_OK) {
+        tb_free(e->page);
+        e->page = NULL;
+    }
+    return st == TB_ERR_NOMEM ? st : TB_OK;
 }
 
 uint64_t tb_check_hash(const char *s)
@@ -526,6 +582,8 @@ static tb_status run_one(const tb_check_options *opt, tb_check_entry *e)
     }
     if (st == TB_OK)
         st = evaluate(ckt, e);
+    if (st == TB_OK && opt->html_dir)
+        st = write_page(opt, e, ckt, res);
     if (st != TB_OK && st != TB_ERR_NOMEM) {
         e->status = TB_CHECK_ERROR;
         tb_status failed = st;
@@ -559,6 +617,9 @@ static void *worker(void *arg)
             e->status = TB_CHECK_ERROR;
             atomic_store(&run->out_of_memory, true);
         }
+        size_t done = atomic_fetch_add(&run->done, 1) + 1;
+        if (run->progress)
+            run->progress(run->progress_ctx, done, run->count);
     }
 }
 
@@ -570,6 +631,7 @@ tb_status tb_check_execute(tb_check_run *run)
     if (jobs > run->count)
         jobs = run->count ? (unsigned)run->count : 1u;
     atomic_store(&run->next, 0);
+    atomic_store(&run->done, 0);
     atomic_store(&run->out_of_memory, false);
     pthread_t *threads = tb_calloc(jobs, sizeof(pthread_t));
     if (!threads)
@@ -591,6 +653,7 @@ static void clear_results(tb_check_entry *e)
 {
     tb_free(e->errors);
     tb_free(e->warnings);
+    tb_free(e->page);
     for (size_t l = 0; l < e->loop_count; l++) {
         for (size_t f = 0; e->loops[l].figures && f < tb_figure_count(); f++)
             tb_free(e->loops[l].figures[f].why);

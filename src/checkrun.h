@@ -21,6 +21,8 @@ typedef struct {
                                * argument each netlist came from (the library tree) */
     bool include_anywhere; /* no confinement at all (default false) */
     bool compared;         /* set by tb_check_against */
+    const char *html_dir;  /* each netlist's review page is written into this folder (created
+                            * when missing), or NULL (the default): none */
 } tb_check_options;
 
 void tb_check_options_init(tb_check_options *opt);
@@ -80,6 +82,8 @@ typedef struct {
     tb_check_drift *drifts;
     size_t drift_count;
     bool in_baseline;     /* --against: the baseline has this netlist */
+    char *page;           /* the review page written (opt.html_dir), as a link from beside that
+                           * folder ("FOLDER/NAME.html"), or NULL */
 } tb_check_entry;
 
 typedef struct tb_check_run tb_check_run;
@@ -103,6 +107,9 @@ tb_status tb_check_against(tb_check_run *run, const char *path, char *why, size_
 /* Adds the entries of a --json file written by another shard, checked as above; a netlist
  * already in the run (the same shard's file merged twice) is refused (TB_ERR_INPUT). */
 tb_status tb_check_merge(tb_check_run *run, const char *path, char *why, size_t why_size);
+/* Tells fn(ctx, done, count) of the netlists finished while tb_check_execute runs; fn may be
+ * called from several threads at once (fn NULL: nothing is told). */
+void tb_check_set_progress(tb_check_run *run, tb_progress_fn fn, void *ctx);
 /* Sorts entries by path (after merging). */
 void tb_check_sort(tb_check_run *run);
 void tb_check_free(tb_check_run *run);
@@ -131,6 +138,16 @@ tb_status tb_check_write_save(const tb_check_run *run, FILE *out);
 tb_status tb_check_write_json(const tb_check_run *run, FILE *out);
 /* JUnit XML: one testsuite per netlist, one testcase per expectation. */
 tb_status tb_check_write_junit(const tb_check_run *run, FILE *out);
+/* A self-contained HTML summary page (src/checkhtml.c): counts, then one row per netlist
+ * with its status, its failures or errors, and a link to its review page when one was
+ * written (tb_check_entry.page). */
+tb_status tb_check_write_html(const tb_check_run *run, FILE *out);
+
+/* Any writer of one document to a stream, with its own context. */
+typedef tb_status (*tb_file_writer)(const void *ctx, FILE *out);
+/* Writes the file at path with writer(ctx, stream), whole or not at all, as tb_checkfile_write
+ * below does (the one place that does it). Errors as tb_checkfile_write. */
+tb_status tb_file_write(const char *path, tb_file_writer writer, const void *ctx, char *why, size_t why_size);
 
 /* A writer above, as tb_checkfile_write takes it. */
 typedef tb_status (*tb_check_writer)(const tb_check_run *run, FILE *out);

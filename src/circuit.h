@@ -53,6 +53,8 @@ typedef struct {
     long branch;            /* MNA branch index for V, L, E, H (set by tb_circuit_finish), else -1 */
     size_t first_same_name; /* index of an earlier element of the same name, or SIZE_MAX */
     tb_loc loc;             /* where the card starts */
+    double k2;              /* E, G, F, H: y = k x + k2 x^2 + k3 x^3 (k2=, k3= on the card; */
+    double k3;              /* nonlinear.c, docs/distortion.md), 0 when linear */
 } tb_element;
 
 typedef enum { TB_GRID_DEC, TB_GRID_OCT, TB_GRID_LIN } tb_grid_kind;
@@ -141,6 +143,16 @@ typedef struct {
     tb_loc loc;
 } tb_break_spec;
 
+/* .volterra: weakly nonlinear distortion at a stated input amplitude and tone (distortion.c). */
+typedef struct {
+    bool given;
+    double amp;       /* input amplitude per tone, peak, in the .io source's unit */
+    double freq_hz;   /* the tone (harmonics), and the first of the two tones (intermodulation) */
+    double freq2_hz;  /* the second tone, freq_hz < freq2_hz < 2 freq_hz */
+    double limit_pct; /* validity: a third-order output term above this % of the fundamental */
+    tb_loc loc;
+} tb_volterra_spec;
+
 struct tb_circuit {
     char *title;
     const char *file;       /* interned netlist name */
@@ -172,6 +184,7 @@ struct tb_circuit {
     size_t source_count;
     size_t source_cap;
     struct tb_strblock *strings; /* string arena */
+    tb_volterra_spec volterra;   /* .volterra (distortion.c) */
 };
 
 tb_status tb_circuit_create(const char *file, tb_circuit **out);

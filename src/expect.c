@@ -262,6 +262,110 @@ static bool get_verdict(const tb_figure_src *s, double *x, const char **why)
     return true;
 }
 
+/* ---- distortion (.volterra) ------------------------------------------------ */
+
+static bool dist_ok(const tb_figure_src *s, const char **why)
+{
+    if (!s->dist || !s->dist->computed) {
+        *why = s->dist && s->dist->why_absent ? s->dist->why_absent : "no .volterra directive";
+        return false;
+    }
+    return true;
+}
+
+/* A ratio in dB (db) or percent. */
+static bool ratio_fig(const tb_dist_ratio *r, bool db, double *x, const char **why)
+{
+    if (!r->present) {
+        *why = "not computed (see the report)";
+        return false;
+    }
+    if (db && !r->has_db) {
+        *why = "the product vanishes (no dB value)";
+        return false;
+    }
+    *x = db ? r->db : 100 * r->ratio;
+    return true;
+}
+
+static bool open_ok(const tb_figure_src *s, const char **why)
+{
+    if (!dist_ok(s, why))
+        return false;
+    if (!s->dl || !s->dl->computed) {
+        *why = s->dl && s->dl->why_absent ? s->dl->why_absent : "the loop could not be opened";
+        return false;
+    }
+    return true;
+}
+
+static bool get_hd2_db(const tb_figure_src *s, double *x, const char **why)
+{
+    return dist_ok(s, why) && ratio_fig(&s->dist->closed.hd2, true, x, why);
+}
+
+static bool get_hd3_db(const tb_figure_src *s, double *x, const char **why)
+{
+    return dist_ok(s, why) && ratio_fig(&s->dist->closed.hd3, true, x, why);
+}
+
+static bool get_hd2_pct(const tb_figure_src *s, double *x, const char **why)
+{
+    return dist_ok(s, why) && ratio_fig(&s->dist->closed.hd2, false, x, why);
+}
+
+static bool get_hd3_pct(const tb_figure_src *s, double *x, const char **why)
+{
+    return dist_ok(s, why) && ratio_fig(&s->dist->closed.hd3, false, x, why);
+}
+
+static bool get_im2_db(const tb_figure_src *s, double *x, const char **why)
+{
+    return dist_ok(s, why) && ratio_fig(&s->dist->closed.im2, true, x, why);
+}
+
+static bool get_im3_db(const tb_figure_src *s, double *x, const char **why)
+{
+    return dist_ok(s, why) && ratio_fig(&s->dist->closed.im3, true, x, why);
+}
+
+static bool get_iip3(const tb_figure_src *s, double *x, const char **why)
+{
+    if (!dist_ok(s, why))
+        return false;
+    *x = s->dist->closed.iip3;
+    *why = "IM3 vanishes";
+    return s->dist->closed.has_iip3;
+}
+
+static bool get_hd2_open_db(const tb_figure_src *s, double *x, const char **why)
+{
+    return open_ok(s, why) && ratio_fig(&s->dl->open.hd2, true, x, why);
+}
+
+static bool get_hd3_open_db(const tb_figure_src *s, double *x, const char **why)
+{
+    return open_ok(s, why) && ratio_fig(&s->dl->open.hd3, true, x, why);
+}
+
+static bool get_hd2_reduction(const tb_figure_src *s, double *x, const char **why)
+{
+    if (!open_ok(s, why))
+        return false;
+    *x = s->dl->hd2_reduction;
+    *why = "HD2 vanishes with or without feedback";
+    return s->dl->has_hd2_reduction;
+}
+
+static bool get_hd3_reduction(const tb_figure_src *s, double *x, const char **why)
+{
+    if (!open_ok(s, why))
+        return false;
+    *x = s->dl->hd3_reduction;
+    *why = "HD3 vanishes with or without feedback";
+    return s->dl->has_hd3_reduction;
+}
+
 /* ---- the table ------------------------------------------------------------ */
 
 /* Adding a figure is one row here (and one line in docs/check.md). */
@@ -297,6 +401,22 @@ static const tb_figure figures[] = {
      "lowest frequency where A leaves the .ideal estimate's tolerance"},
     {"verdict", "", TB_WORSE_ANY, true, get_verdict,
      "stable, marginal, unstable or undecided"},
+    {"hd2_db", "dB", TB_WORSE_HIGHER, false, get_hd2_db, "second harmonic at the .volterra tone, as drawn"},
+    {"hd3_db", "dB", TB_WORSE_HIGHER, false, get_hd3_db, "third harmonic at the .volterra tone, as drawn"},
+    {"hd2_pct", "%", TB_WORSE_HIGHER, false, get_hd2_pct, "second harmonic in percent of the fundamental"},
+    {"hd3_pct", "%", TB_WORSE_HIGHER, false, get_hd3_pct, "third harmonic in percent of the fundamental"},
+    {"im2_db", "dB", TB_WORSE_HIGHER, false, get_im2_db, "second-order intermodulation at f1 + f2"},
+    {"im3_db", "dB", TB_WORSE_HIGHER, false, get_im3_db, "third-order intermodulation at 2 f1 - f2"},
+    {"iip3", "", TB_WORSE_LOWER, false, get_iip3,
+     "input-referred third-order intercept, per tone, in the input source's unit"},
+    {"hd2_open_db", "dB", TB_WORSE_ANY, false, get_hd2_open_db,
+     "second harmonic with the loop opened, at the same output amplitude"},
+    {"hd3_open_db", "dB", TB_WORSE_ANY, false, get_hd3_open_db,
+     "third harmonic with the loop opened, at the same output amplitude"},
+    {"hd2_reduction", "", TB_WORSE_LOWER, false, get_hd2_reduction,
+     "HD2 without feedback over HD2 with it, at equal output amplitude"},
+    {"hd3_reduction", "", TB_WORSE_LOWER, false, get_hd3_reduction,
+     "HD3 without feedback over HD3 with it, at equal output amplitude"},
 };
 
 size_t tb_figure_count(void)
@@ -334,7 +454,15 @@ tb_status tb_figure_measure(const tb_result *res, size_t l, tb_figure_value *out
         rc = tb_feedback_loop(res, l, &fb);
     if (rc != TB_OK)
         return rc;
-    tb_figure_src src = {&m, &st, &step, &fb};
+    tb_distortion dist;
+    tb_distortion_loop dl;
+    if (rc == TB_OK)
+        rc = tb_distortion_get(res, &dist);
+    if (rc == TB_OK)
+        rc = tb_distortion_loop_get(res, l, &dl, NULL, NULL);
+    if (rc != TB_OK)
+        return rc;
+    tb_figure_src src = {&m, &st, &step, &fb, &dist, &dl};
     for (size_t f = 0; f < tb_figure_count(); f++) {
         tb_figure_value *v = &out[f];
         const char *why = "absent";

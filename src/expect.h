@@ -23,6 +23,8 @@ typedef struct {
     const tb_stability *st;
     const tb_step_figures *step;
     const tb_feedback_summary *fb; /* the hand estimate (.ideal) of the loop; may be NULL */
+    const tb_distortion *dist;      /* .volterra distortion; may be NULL */
+    const tb_distortion_loop *dl;   /* the loop opened at equal output; may be NULL */
 } tb_figure_src;
 
 /* One figure an expectation may name. get returns true with *x, or false with

@@ -15,8 +15,7 @@
 
 
 
-/* The breakdown of one point (design.md: A = A_inf T/(1+T) + A0/(1+T)). */
-static tb_breakdown_point breakdown(const tb_point *pt, bool has_estimate, double G)
+tb_breakdown_point tb_feedback_breakdown(const tb_point *pt, bool has_estimate, double G)
 {
     tb_breakdown_point b = {0};
     if (pt->flags & TB_PT_NO_IO)
@@ -96,7 +95,7 @@ static tb_status find_limit(tb_probe *probe, const tb_result *res, size_t l, tb_
             return st == TB_ERR_NOMEM ? st : TB_OK;
         s->has_limit = true;
         s->limit_hz = f;
-        s->at_limit = breakdown(&probe->row[l], true, s->estimate);
+        s->at_limit = tb_feedback_breakdown(&probe->row[l], true, s->estimate);
         s->dominant_limit = dominant(&s->at_limit);
         return TB_OK;
     }
@@ -176,12 +175,12 @@ static tb_status run_loop(const tb_circuit *ckt, tb_probe *probe, tb_result *res
     const tb_point *pts = tb_result_loop(res, l);
     tb_breakdown_point *out = fb->pts + l * res->npoints;
     for (size_t i = 0; i < res->npoints; i++) {
-        out[i] = breakdown(&pts[i], s->has_estimate, s->estimate);
+        out[i] = tb_feedback_breakdown(&pts[i], s->has_estimate, s->estimate);
         if (s->has_estimate && !out[i].has_parts)
             s->notes |= 1u << TB_FNOTE_POINTS_ABSENT;
     }
     tb_point dc = tb_result_dc_or_first(res, l, &s->dc_hz);
-    s->dc = breakdown(&dc, s->has_estimate, s->estimate);
+    s->dc = tb_feedback_breakdown(&dc, s->has_estimate, s->estimate);
     if (s->has_estimate && !s->dc.has_parts)
         s->notes |= 1u << TB_FNOTE_POINTS_ABSENT;
     tb_status st = TB_OK;

@@ -15,6 +15,7 @@ typedef struct {
     const tb_loop_work *work; /* the sweep's w_l = M^-1 u_l at the current point */
     double complex *Y0;  /* P x L + L columns: M0^-1 r_p of loop l, then w0_l = M0^-1 u_l */
     double complex *D;   /* as many columns: residuals, then corrections */
+    tb_zpoint *Z;        /* P x L, loop-major: the point's figures */
 } zlane;
 
 /* The pass's state and workspace, allocated before the point loop. */
@@ -169,10 +170,9 @@ static tb_zpoint evaluate(const zpass *z, const zlane *zl, size_t p, size_t l)
     return zp;
 }
 
-tb_status tb_impedance_at(void *self, const tb_sweep_point *pt)
+/* Every port seen by every loop at pt into zl->Z (loop-major), in pt->lane's workspace. */
+static tb_status ports_at(const zpass *z, zlane *zl, const tb_sweep_point *pt)
 {
-    zpass *z = self;
-    zlane *zl = &z->lane[pt->lane];
     size_t n = z->mna->n;
     memset(zl->Y, 0, z->P * n * sizeof(double complex));
     for (size_t p = 0; p < z->P; p++)
@@ -183,9 +183,35 @@ tb_status tb_impedance_at(void *self, const tb_sweep_point *pt)
         st = port_m0(z, zl, pt);
     if (st)
         return st;
+    for (size_t p = 0; p < z->P; p++)
+        for (size_t l = 0; l < z->L; l++)
+            zl->Z[l * z->P + p] = z->at_source[p] ? evaluate_source(z, zl, p, l) : evaluate(z, zl, p, l);
+    return TB_OK;
+}
+
+tb_status tb_impedance_eval(tb_impedance *z, tb_probe *probe, double f, tb_zpoint *out)
+{
+    if (!probe->held || probe->held_f != f || !probe->row_valid)
+        return TB_ERR_USAGE;
+    tb_sweep_point pt = {.index = TB_SWEEP_DC, .f = f, .omega = TB_TWO_PI * f, .mna = probe->mna,
+                         .solver = probe->solver, .Mx = probe->Mx, .loops = probe->row, .work = probe->work,
+                         .lane = 0};
+    tb_status st = ports_at(z, &z->lane[0], &pt);
+    if (!st)
+        memcpy(out, z->lane[0].Z, z->P * z->L * sizeof(tb_zpoint));
+    return st;
+}
+
+tb_status tb_impedance_at(void *self, const tb_sweep_point *pt)
+{
+    zpass *z = self;
+    zlane *zl = &z->lane[pt->lane];
+    tb_status st = ports_at(z, zl, pt);
+    if (st)
+        return st;
     for (size_t p = 0; p < z->P; p++) {
         for (size_t l = 0; l < z->L; l++) {
-            tb_zpoint zp = z->at_source[p] ? evaluate_source(z, zl, p, l) : evaluate(z, zl, p, l);
+            tb_zpoint zp = zl->Z[l * z->P + p];
             if (pt->index == TB_SWEEP_DC) {
                 tb_zport_summary *s = &z->zd->sum[p * z->L + l];
                 s->dc = zp;
@@ -244,6 +270,7 @@ void tb_impedance_free(tb_impedance *z)
         tb_free(z->lane[l].Y);
         tb_free(z->lane[l].Y0);
         tb_free(z->lane[l].D);
+        tb_free(z->lane[l].Z);
     }
     tb_free(z->lane);
     tb_free(z);
@@ -261,7 +288,8 @@ static bool lanes_new(zpass *z, size_t lanes)
         zl->Y = tb_malloc(P * n, sizeof(double complex));
         zl->Y0 = tb_malloc((P * L + L) * n, sizeof(double complex));
         zl->D = tb_malloc((P * L + L) * n, sizeof(double complex));
-        if (!zl->Y || !zl->Y0 || !zl->D)
+        zl->Z = tb_calloc(P * L > 0 ? P * L : 1, sizeof(tb_zpoint));
+        if (!zl->Y || !zl->Y0 || !zl->D || !zl->Z)
             return false;
     }
     return true;

@@ -25,6 +25,13 @@ tb_status tb_impedance_begin(const tb_circuit *ckt, const tb_mna *mna, size_t np
  * for different points on different lanes. Errors: TB_ERR_NUMERIC. */
 tb_status tb_impedance_at(void *self, const tb_sweep_point *pt);
 
+/* Every port seen by every loop at one chosen frequency f, after tb_probe_eval(probe, f)
+ * (the probe holds M(j 2 pi f) and every loop's point there): the figures of
+ * tb_impedance_at into out[l * ports + p] (ports x loops entries), in lane 0's workspace
+ * (call it after the point loop only). Errors: TB_ERR_USAGE (the probe holds another
+ * frequency), TB_ERR_NUMERIC. */
+tb_status tb_impedance_eval(tb_impedance *z, tb_probe *probe, double f, tb_zpoint *out);
+
 /* The DC summaries (the lowest point when DC was not solved), the largest
  * difference between Blackman's Z and Z over the points, and each port's side,
  * handed to res->zp. */

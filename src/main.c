@@ -10,12 +10,49 @@
 
 #include "tbeta.h"
 #include "checkrun.h" /* the regression runner (tbeta check) */
+#include "lex.h"      /* tb_lex_value: --at reads frequencies as the netlist does */
+#include "progress.h" /* the progress line on a terminal */
 #include "report.h"   /* tb_report_escape and how odd bytes read */
 
 /* Exit codes, one table: 0 done; 1 done but an expectation or threshold
  * failed (used by later subcommands); 2 usage error, unreadable or malformed
  * netlist, or a circuit that cannot be solved. */
 enum { EXIT_DONE = 0, EXIT_FAILED_CHECK = 1, EXIT_BAD_INPUT = 2 };
+
+/* Every option each subcommand accepts, one row each ("report" is also 'tbeta NETLIST'): the
+ * parsers refuse any other, and tests/help.sh reads this table and checks that every row
+ * appears in its subcommand's --help, so that help cannot fall behind the parser. */
+static const struct {
+    const char *command;
+    const char *option;
+} accepted_options[] = {
+    {"report", "--help"}, {"report", "--json"}, {"report", "--html"}, {"report", "--at"},
+    {"report", "--output"}, {"report", "--pm-min"}, {"report", "--gm-min"}, {"report", "--strict"},
+    {"report", "--pole-limit"}, {"report", "--no-stability"}, {"report", "--all-sources"},
+    {"report", "--sensitivities"}, {"report", "--include-root"}, {"report", "--jobs"},
+    {"sweep", "--help"}, {"sweep", "--csv"}, {"sweep", "--loop"}, {"sweep", "--table"}, {"sweep", "--output"},
+    {"sweep", "--jobs"}, {"sweep", "--include-root"},
+    {"step", "--help"}, {"step", "--csv"}, {"step", "--pole-limit"}, {"step", "--output"}, {"step", "--jobs"},
+    {"step", "--include-root"},
+    {"plot", "--help"}, {"plot", "--svg"}, {"plot", "--pm-min"}, {"plot", "--gm-min"}, {"plot", "--strict"},
+    {"plot", "--pole-limit"}, {"plot", "--no-stability"}, {"plot", "--all-sources"}, {"plot", "--jobs"},
+    {"plot", "--include-root"},
+    {"check", "--help"}, {"check", "--glob"}, {"check", "--jobs"}, {"check", "--shard"}, {"check", "--save"},
+    {"check", "--against"}, {"check", "--drift"}, {"check", "--json"}, {"check", "--junit"}, {"check", "--html"},
+    {"check", "--html-reports"}, {"check", "--output"}, {"check", "--merge"}, {"check", "--include-root"}, {"check", "--include-anywhere"},
+    {"check", "--pole-limit"}, {"check", "--no-stability"},
+};
+
+/* true when command accepts option (-h is --help everywhere). */
+static bool accepts(const char *command, const char *option)
+{
+    if (strcmp(option, "-h") == 0)
+        option = "--help";
+    for (size_t i = 0; i < sizeof accepted_options / sizeof accepted_options[0]; i++)
+        if (strcmp(accepted_options[i].command, command) == 0 && strcmp(accepted_options[i].option, option) == 0)
+            return true;
+    return false;
+}
 
 static const char usage_main[] =
     "usage: tbeta NETLIST                 feedback report (same as 'tbeta report NETLIST')\n"
@@ -24,8 +61,12 @@ static const char usage_main[] =
     "                                     one CSV row per sweep frequency\n"
     "       tbeta step NETLIST [--csv]       closed-loop step response, one CSV row per sample\n"
     "       tbeta plot NETLIST --svg DIR      the pictures (Bode, Nyquist, step, ports, breakdown) as SVG\n"
-    "       tbeta check PATH... [options]     run every netlist's .expect cards (tbeta check --help)\n"
+    "       tbeta check PATH... [options]     run every netlist's .expect cards\n"
     "       tbeta --help | --version\n"
+    "  Every subcommand lists its options with --help (tbeta report --help, ...).\n"
+    "  NETLIST - reads the netlist from standard input; a FILE of - is standard output.\n"
+    "  On a terminal, long runs show a progress line on stderr (never in a pipe or when CI is\n"
+    "  set); tbeta uses no colour.\n"
     "\n"
     "tbeta solves a linear netlist over frequency and, at each controlled source\n"
     "marked with .loop, extracts the loop gain T (return ratio), the ideal gain\n"
@@ -36,7 +77,8 @@ static const char usage_main[] =
     "unreadable or malformed netlist, or a circuit that cannot be solved.\n";
 
 static const char usage_report[] =
-    "usage: tbeta report NETLIST [--json] [--html FILE] [--pm-min DEG] [--gm-min DB] [--strict]\n"
+    "usage: tbeta report NETLIST [--json] [--html FILE] [--at F1,F2,...] [--output FILE]\n"
+    "                            [--pm-min DEG] [--gm-min DB] [--strict]\n"
     "                            [--pole-limit N] [--no-stability] [--all-sources] [--sensitivities]\n"
     "                            [--jobs N] [--include-root DIR]\n"
     "  Prints, for every .loop: T, a, beta = 1/A_inf, A_inf, A0 and A at DC, the gain\n"
@@ -47,7 +89,12 @@ static const char usage_report[] =
     "  count, the dominant pole pair and a verdict (stable, marginal, unstable).\n"
     "  --json            one JSON document instead of text (full precision, null when absent)\n"
     "  --html FILE       also write one self-contained HTML page (verdicts, tables, pictures)\n"
-    "                    for a design review\n"
+    "                    for a design review (FILE -: the page on stdout instead of the report)\n"
+    "  --at F1,F2,...    also T, |1 + T|, A, A_inf, A0, the .ideal breakdown and every .zport\n"
+    "                    at these frequencies (Hz, engineering notation as in the netlist:\n"
+    "                    1k,20k), each by a fresh solve there; may be given more than once\n"
+    "  --output FILE     write the report to FILE (replaced whole) instead of stdout\n"
+    "  --help            this text\n"
     "  --pm-min DEG      phase-margin threshold (default: the netlist's .margins pm=,\n"
     "                    else 45, common practice); implies --strict\n"
     "  --gm-min DB       gain-margin threshold (default: the netlist's .margins gm=,\n"
@@ -66,14 +113,26 @@ static const char usage_report[] =
     "                    of cores); the output is the same for any N\n";
 
 static const char usage_plot[] =
-    "usage: tbeta plot NETLIST --svg DIR [--pole-limit N] [--all-sources]\n"
+    "usage: tbeta plot NETLIST --svg DIR [--pole-limit N] [--no-stability] [--all-sources]\n"
+    "                          [--pm-min DEG] [--gm-min DB] [--strict] [--jobs N] [--include-root DIR]\n"
     "  Writes the pictures of every loop as SVG files into DIR (created when missing):\n"
     "  LOOP-bode.svg, LOOP-nyquist.svg, LOOP-breakdown.svg (with .ideal), LOOP-impedance-PORT.svg\n"
     "  (each .zport) and step.svg (the closed-loop step response); prints the files written.\n"
-    "  --svg DIR   the folder to write to\n";
+    "  Each file is replaced whole.\n"
+    "  --svg DIR           the folder to write to\n"
+    "  --pole-limit N      poles and the step response as a sum over the modes only up to N\n"
+    "                      unknowns (default 500)\n"
+    "  --no-stability      no margins, poles, verdict or step response in the pictures\n"
+    "  --all-sources       run the loop census too (its findings are in 'tbeta report')\n"
+    "  --pm-min DEG, --gm-min DB, --strict\n"
+    "                      exit 1 when a loop misses a threshold, as in 'tbeta report'\n"
+    "  --jobs N            threads sharing the sweep's frequency points\n"
+    "  --include-root DIR  .include only files inside DIR (default: anywhere)\n"
+    "  --help              this text\n";
 
 static const char usage_sweep[] =
-    "usage: tbeta sweep NETLIST [--csv] [--loop NAME] [--jobs N]\n"
+    "usage: tbeta sweep NETLIST [--csv] [--loop NAME] [--table T] [--output FILE] [--jobs N]\n"
+    "                           [--include-root DIR]\n"
     "  Prints one CSV row per .ac frequency (no DC row):\n"
     "  freq_hz,T_re,T_im,A_re,A_im,Ainf_re,Ainf_im,A0_re,A0_im,aol_re,aol_im,T_db,T_phase_deg,note\n"
     "  An empty field is a value that does not exist at that frequency; the note says why\n"
@@ -82,18 +141,24 @@ static const char usage_sweep[] =
     "  --loop NAME   the loop at controlled source NAME (default: the first .loop)\n"
     "  --table T     instead, a feedback table (docs/feedback.md): breakdown (needs .ideal),\n"
     "                zport:NAME (a .zport) or break (needs .break)\n"
+    "  --output FILE write the table to FILE (replaced whole) instead of stdout\n"
     "  --jobs N      threads sharing the frequency points (default: the number of cores);\n"
-    "                the output is the same for any N\n";
+    "                the output is the same for any N\n"
+    "  --include-root DIR  .include only files inside DIR (default: anywhere)\n"
+    "  --help        this text\n";
 
 static const char usage_step[] =
-    "usage: tbeta step NETLIST [--csv] [--pole-limit N] [--jobs N]\n"
+    "usage: tbeta step NETLIST [--csv] [--pole-limit N] [--output FILE] [--jobs N] [--include-root DIR]\n"
     "  Prints the response of the .io output to a unit step of the .io input,\n"
     "  G x + C dx/dt = b u(t), as CSV: t_s,y. Up to the pole limit it is the exact\n"
     "  sum over the closed-loop modes; above it, time stepping with error control\n"
     "  (docs/stability.md). Overshoot, rise and settling time are in 'tbeta report'.\n"
     "  --csv           CSV output (the default and only format)\n"
     "  --pole-limit N  the sum over the modes only up to N unknowns (default 500)\n"
-    "  --jobs N        threads sharing the sweep's frequency points (default: the number of cores)\n";
+    "  --output FILE   write the samples to FILE (replaced whole) instead of stdout\n"
+    "  --jobs N        threads sharing the sweep's frequency points (default: the number of cores)\n"
+    "  --include-root DIR  .include only files inside DIR (default: anywhere)\n"
+    "  --help          this text\n";
 
 typedef struct {
     const char *command; /* "report", "sweep" or "step" */
@@ -106,6 +171,9 @@ typedef struct {
     const char *html;  /* report --html FILE */
     const char *svg;   /* plot --svg DIR */
     const char *include_root; /* --include-root DIR: .include only inside DIR */
+    const char *output; /* --output FILE (NULL or "-": stdout) */
+    size_t at_count;    /* report --at: the chosen frequencies */
+    double at[TB_AT_MAX];
 } args;
 
 /* Text on stderr with every control character written \xHH (tb_report_escape), except, with
@@ -205,6 +273,24 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
     return -1;
 }
 
+/* "1k,20k" appended to a->at, each item an engineering value as the netlist reads them; false
+ * when an item is not one, is negative, or the list grows past TB_AT_MAX. */
+static bool at_arg(const char *text, args *a)
+{
+    for (const char *p = text;;) {
+        const char *comma = strchr(p, ',');
+        size_t len = comma ? (size_t)(comma - p) : strlen(p);
+        double x = 0;
+        if (len == 0 || tb_lex_value(p, len, &x) != TB_VALUE_OK || !isfinite(x) || x < 0 ||
+            a->at_count >= TB_AT_MAX)
+            return false;
+        a->at[a->at_count++] = x;
+        if (!comma)
+            return true;
+        p = comma + 1;
+    }
+}
+
 /* Parses argv from index `first`; returns -1 when done, or an exit code. */
 static int parse_args(int argc, char **argv, int first, args *a)
 {
@@ -215,9 +301,20 @@ static int parse_args(int argc, char **argv, int first, args *a)
     bool report_like = strcmp(a->command, "report") == 0 || strcmp(a->command, "plot") == 0;
     for (int i = first; i < argc; i++) {
         const char *s = argv[i];
-        if (strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0) {
+        if (s[0] == '-' && s[1] != '\0' && !accepts(a->command, s)) {
+            return usage_error("unknown option", s, usage);
+        } else if (strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0) {
             fputs(usage, stdout);
             return EXIT_DONE;
+        } else if (strcmp(s, "--at") == 0) {
+            if (i + 1 >= argc || !at_arg(argv[i + 1], a))
+                return usage_error("--at needs frequencies of 0 Hz or more such as 1k,20k (at most 1000), got",
+                                   i + 1 < argc ? argv[i + 1] : "nothing", usage);
+            i++;
+        } else if (strcmp(s, "--output") == 0) {
+            if (i + 1 >= argc)
+                return usage_error("--output needs a file name (- for stdout)", NULL, usage);
+            a->output = argv[++i];
         } else if (strcmp(s, "--json") == 0 && strcmp(a->command, "report") == 0) {
             a->json = true;
         } else if (strcmp(s, "--html") == 0 && strcmp(a->command, "report") == 0) {
@@ -263,6 +360,8 @@ static int parse_args(int argc, char **argv, int first, args *a)
     }
     if (!a->netlist)
         return usage_error("no netlist given", NULL, usage);
+    a->opt.at_hz = a->at_count ? a->at : NULL;
+    a->opt.at_count = a->at_count;
     if (strcmp(a->command, "plot") == 0 && !a->svg)
         return usage_error("plot needs --svg DIR", NULL, usage);
     return -1;
@@ -279,31 +378,49 @@ static void print_diags(const tb_diag *diag)
     }
 }
 
-/* Writes one picture to DIR/NAME.svg through a temporary file renamed into place, so a
- * failed write leaves no half picture; TB_ERR_NOT_FOUND (nothing written) when the
- * picture has nothing to show. */
+/* What one document writer needs: the command's arguments, the circuit and the result. */
+typedef struct {
+    const args *a;
+    const tb_circuit *ckt;
+    const tb_result *res;
+    tb_picture_kind kind; /* pictures: which, of which loop and port */
+    size_t l;
+    size_t port;
+} document;
+
+static tb_status picture_writer(const void *ctx, FILE *out)
+{
+    const document *d = ctx;
+    return tb_report_svg(d->ckt, d->res, d->kind, d->l, d->port, out);
+}
+
+/* Writes doc with writer to path, whole or not at all (tb_file_write), or to stdout when
+ * path is "-"; says on stderr what failed. TB_ERR_NOT_FOUND (nothing said, the old file kept)
+ * when the writer has nothing to write. */
+static tb_status write_document(const char *path, tb_file_writer writer, const document *doc)
+{
+    if (strcmp(path, "-") == 0)
+        return writer(doc, stdout);
+    char why[1024];
+    tb_status st = tb_file_write(path, writer, doc, why, sizeof why);
+    if (st == TB_ERR_NOMEM)
+        complain("out of memory");
+    else if (st != TB_OK && st != TB_ERR_NOT_FOUND)
+        complain("%s", why);
+    return st;
+}
+
+/* Writes one picture to DIR/NAME.svg, replaced whole; TB_ERR_NOT_FOUND (nothing written) when
+ * the picture has nothing to show. */
 static tb_status write_picture(const args *a, const tb_circuit *ckt, const tb_result *res, tb_picture_kind kind,
                                size_t l, size_t port, const char *name)
 {
-    char path[4096], tmp[4200];
+    char path[4096];
     snprintf(path, sizeof path, "%s/%s.svg", a->svg, name);
-    snprintf(tmp, sizeof tmp, "%s.part", path);
-    FILE *out = fopen(tmp, "w");
-    if (!out) {
-        complain("cannot write %s: %s", tmp, strerror(errno));
-        return TB_ERR_IO;
-    }
-    tb_status st = tb_report_svg(ckt, res, kind, l, port, out);
-    if (fclose(out) != 0 && st == TB_OK)
-        st = TB_ERR_IO;
-    if (st == TB_OK && rename(tmp, path) != 0)
-        st = TB_ERR_IO;
-    if (st != TB_OK)
-        remove(tmp);
+    document doc = {a, ckt, res, kind, l, port};
+    tb_status st = write_document(path, picture_writer, &doc);
     if (st == TB_OK)
         printf("%s\n", path);
-    else if (st != TB_ERR_NOT_FOUND)
-        complain("cannot write %s: %s", path, tb_status_str(st));
     return st;
 }
 
@@ -334,38 +451,21 @@ static tb_status write_pictures(const args *a, const tb_circuit *ckt, const tb_r
     return st == TB_ERR_NOT_FOUND ? TB_OK : st;
 }
 
-/* report --html FILE: the review page, written through a temporary file renamed into place. */
-static tb_status write_html(const args *a, const tb_circuit *ckt, const tb_result *res)
+static tb_status html_writer(const void *ctx, FILE *out)
 {
-    char tmp[4200];
-    snprintf(tmp, sizeof tmp, "%s.part", a->html);
-    FILE *out = fopen(tmp, "w");
-    if (!out) {
-        complain("cannot write %s: %s", a->html, strerror(errno));
-        return TB_ERR_IO;
-    }
-    tb_status st = tb_report_html(ckt, res, out);
-    if (fclose(out) != 0 && st == TB_OK)
-        st = TB_ERR_IO;
-    if (st == TB_OK && rename(tmp, a->html) != 0)
-        st = TB_ERR_IO;
-    if (st != TB_OK) {
-        remove(tmp);
-        complain("cannot write %s: %s", a->html, tb_status_str(st));
-    }
-    return st;
+    const document *d = ctx;
+    return tb_report_html(d->ckt, d->res, out);
 }
 
-static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_result *res)
+/* The command's main document (report, sweep table, step samples) to out. */
+static tb_status main_writer(const void *ctx, FILE *out)
 {
-    if (strcmp(a->command, "plot") == 0)
-        return write_pictures(a, ckt, res);
-    if (strcmp(a->command, "report") == 0) {
-        tb_status st = a->html ? write_html(a, ckt, res) : TB_OK;
-        if (st)
-            return st;
-        return a->json ? tb_report_json(ckt, res, stdout) : tb_report_text(ckt, res, stdout);
-    }
+    const document *d = ctx;
+    const args *a = d->a;
+    const tb_circuit *ckt = d->ckt;
+    const tb_result *res = d->res;
+    if (strcmp(a->command, "report") == 0)
+        return a->json ? tb_report_json(ckt, res, out) : tb_report_text(ckt, res, out);
     if (strcmp(a->command, "step") == 0) {
         tb_step_figures fig;
         tb_step_figures_get(res, &fig);
@@ -373,7 +473,7 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
             complain("%s: no step response: %s", a->netlist, fig.why_absent ? fig.why_absent : "not computed");
             return TB_ERR_NOT_FOUND;
         }
-        return tb_report_step_csv(res, stdout);
+        return tb_report_step_csv(res, out);
     }
     size_t l = 0;
     if (a->loop && tb_circuit_find_loop(ckt, a->loop, &l) != TB_OK) {
@@ -389,15 +489,29 @@ static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_res
         fputc('\n', stderr);
         return TB_ERR_NOT_FOUND;
     }
-    if (a->table && tb_report_feedback_csv(ckt, res, l, a->table, stdout) == TB_ERR_NOT_FOUND) {
+    if (a->table && tb_report_feedback_csv(ckt, res, l, a->table, out) == TB_ERR_NOT_FOUND) {
         complain("%s has no table '%s' (breakdown needs .ideal and .io, zport:NAME a .zport, break a .break)",
                  a->netlist, a->table);
         return TB_ERR_NOT_FOUND;
     }
     if (a->table)
-        return ferror(stdout) ? TB_ERR_IO : TB_OK;
-    return tb_report_csv(ckt, res, l, stdout);
+        return ferror(out) ? TB_ERR_IO : TB_OK;
+    return tb_report_csv(ckt, res, l, out);
 }
+
+static tb_status write_output(const args *a, const tb_circuit *ckt, const tb_result *res)
+{
+    if (strcmp(a->command, "plot") == 0)
+        return write_pictures(a, ckt, res);
+    document doc = {.a = a, .ckt = ckt, .res = res};
+    bool html_to_stdout = a->html && strcmp(a->html, "-") == 0;
+    tb_status st = a->html ? write_document(a->html, html_writer, &doc) : TB_OK;
+    if (st || (html_to_stdout && !a->output))
+        return st; /* the page took stdout's place */
+    return write_document(a->output ? a->output : "-", main_writer, &doc);
+}
+
+
 
 /* true when every loop is stable and meets the thresholds; says on stderr which does not. */
 static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const char *netlist)
@@ -436,6 +550,40 @@ static bool thresholds_met(const tb_circuit *ckt, const tb_result *res, const ch
     return ok;
 }
 
+/* The netlist on standard input (NETLIST -), named <stdin> in diagnostics; .include names
+ * are then taken from the current folder. */
+static tb_status read_stdin(const tb_read_options *ro, tb_diag *diag, tb_circuit **ckt)
+{
+    size_t cap = 1 << 16, len = 0;
+    char *text = malloc(cap);
+    while (text) {
+        len += fread(text + len, 1, cap - len, stdin);
+        if (len < cap || len > ro->max_bytes)
+            break;
+        char *grown = cap <= SIZE_MAX / 2 ? realloc(text, cap * 2) : NULL;
+        if (!grown)
+            free(text);
+        text = grown;
+        cap *= 2;
+    }
+    if (!text) {
+        complain("out of memory reading the netlist from standard input");
+        return TB_ERR_NOMEM;
+    }
+    tb_status st = TB_OK;
+    if (ferror(stdin)) {
+        complain("cannot read the netlist from standard input: %s", strerror(errno));
+        st = TB_ERR_INPUT;
+    } else if (len > ro->max_bytes) {
+        complain("the netlist on standard input is larger than %zu bytes", ro->max_bytes);
+        st = TB_ERR_INPUT;
+    } else {
+        st = tb_circuit_parse_with(text, len, "<stdin>", ro, diag, ckt);
+    }
+    free(text);
+    return st;
+}
+
 static int run(const args *a)
 {
     tb_diag *diag = tb_diag_new();
@@ -448,9 +596,15 @@ static int run(const args *a)
     tb_read_options ro;
     tb_read_options_init(&ro);
     ro.include_root = a->include_root;
-    tb_status st = tb_circuit_read_with(a->netlist, &ro, diag, &ckt);
+    tb_status st = strcmp(a->netlist, "-") == 0 ? read_stdin(&ro, diag, &ckt)
+                                                : tb_circuit_read_with(a->netlist, &ro, diag, &ckt);
+    tb_options opt = a->opt;
+    tb_progress *progress = tb_progress_new("sweep points");
+    opt.progress = progress ? tb_progress_update : NULL;
+    opt.progress_ctx = progress;
     if (st == TB_OK)
-        st = tb_analyse(ckt, &a->opt, diag, &res);
+        st = tb_analyse(ckt, &opt, diag, &res);
+    tb_progress_free(progress);
     print_diags(diag);
     if (st == TB_OK)
         st = write_output(a, ckt, res);
@@ -473,9 +627,10 @@ static int run(const args *a)
 
 static const char usage_check[] =
     "usage: tbeta check PATH... [--glob PATTERN] [--jobs N] [--shard I/N]\n"
-    "                   [--save FILE] [--against FILE] [--drift PCT]\n"
-    "                   [--json FILE] [--junit FILE] [--pole-limit N] [--no-stability]\n"
-    "       tbeta check --merge RESULTS.json... [--json FILE] [--junit FILE] [--save FILE]\n"
+    "                   [--save FILE] [--against FILE] [--drift PCT] [--json FILE] [--junit FILE]\n"
+    "                   [--html FILE [--html-reports]] [--output FILE] [--pole-limit N] [--no-stability]\n"
+    "                   [--include-root DIR | --include-anywhere]\n"
+    "       tbeta check --merge RESULTS.json... [--json FILE] [--junit FILE] [--save FILE] [--html FILE]\n"
     "  Reads every netlist (files as given, directories searched recursively for\n"
     "  PATTERN), analyses it and evaluates its .expect cards; prints one line per\n"
     "  netlist (the failing expectation with the value measured and the bound) and a\n"
@@ -490,6 +645,14 @@ static const char usage_check[] =
     "  --drift PCT     drift tolerance in percent (default 1)\n"
     "  --json FILE     write the full results as JSON\n"
     "  --junit FILE    write JUnit XML, one testcase per expectation\n"
+    "  --html FILE     write a self-contained summary page: every netlist's status, its\n"
+    "                  failures and figures (no script, nothing fetched)\n"
+    "  --html-reports  with --html: also each netlist's review page (as 'tbeta report\n"
+    "                  --html') into the folder STEM-reports beside FILE, linked from it\n"
+    "  --output FILE   write the text summary to FILE (replaced whole) instead of stdout\n"
+    "                  (a FILE of - for --save, --json, --junit or --html: that document on\n"
+    "                  stdout in place of the text summary)\n"
+    "  --help          this text\n"
     "  --merge         the PATHs are --json files of shards: merge them\n"
     "  --include-root DIR   .include only files inside DIR (default: the folder of the\n"
     "                  PATH each netlist came from, so a library cannot reach outside itself)\n"
@@ -511,6 +674,10 @@ typedef struct {
     const char *junit;
     bool merge;
     tb_check_options opt;
+    const char *html;   /* --html FILE: the summary page */
+    bool html_reports;  /* --html-reports: each netlist's page beside it */
+    const char *output; /* --output FILE: the text summary */
+    char pages[4096];   /* the folder of the netlists' pages */
 } check_args;
 
 /* "I/N" with 1 <= I <= N into a 0-based index and a count. */
@@ -546,6 +713,10 @@ static int check_value_option(const char *s, const char *v, check_args *a)
         a->json = v;
     else if (strcmp(s, "--junit") == 0)
         a->junit = v;
+    else if (strcmp(s, "--html") == 0)
+        a->html = v;
+    else if (strcmp(s, "--output") == 0)
+        a->output = v;
     else if (strcmp(s, "--shard") == 0 && !shard_arg(v, &a->opt))
         return usage_error("--shard needs I/N with 1 <= I <= N, got", v, usage_check);
     else if (strcmp(s, "--jobs") == 0 && (!number_arg(v, true, &x) || x < 1 || x > 1024))
@@ -567,8 +738,9 @@ static int check_value_option(const char *s, const char *v, check_args *a)
 
 static bool check_takes_value(const char *s)
 {
-    static const char *const names[] = {"--glob", "--save", "--against", "--json", "--junit",
-                                        "--shard", "--jobs", "--drift", "--pole-limit", "--include-root"};
+    static const char *const names[] = {"--glob",  "--save", "--against",    "--json",         "--junit",
+                                        "--shard", "--jobs", "--drift",      "--pole-limit",   "--include-root",
+                                        "--html",  "--output"};
     for (size_t i = 0; i < sizeof names / sizeof names[0]; i++)
         if (strcmp(s, names[i]) == 0)
             return true;
@@ -580,9 +752,13 @@ static int parse_check_args(int argc, char **argv, check_args *a)
 {
     for (int i = 2; i < argc; i++) {
         const char *s = argv[i];
-        if (strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0) {
+        if (s[0] == '-' && s[1] != '\0' && !accepts("check", s)) {
+            return usage_error("unknown option", s, usage_check);
+        } else if (strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0) {
             fputs(usage_check, stdout);
             return EXIT_DONE;
+        } else if (strcmp(s, "--html-reports") == 0) {
+            a->html_reports = true;
         } else if (strcmp(s, "--include-anywhere") == 0) {
             a->opt.include_anywhere = true;
         } else if (strcmp(s, "--merge") == 0) {
@@ -604,14 +780,31 @@ static int parse_check_args(int argc, char **argv, check_args *a)
     if (a->count == 0)
         return usage_error(a->merge ? "no result files to merge" : "no netlist or folder given",
                            NULL, usage_check);
-    if (a->merge && (a->against || a->opt.shard_count > 1))
-        return usage_error("--merge takes no --against or --shard", NULL, usage_check);
+    if (a->merge && (a->against || a->opt.shard_count > 1 || a->html_reports))
+        return usage_error("--merge takes no --against, --shard or --html-reports", NULL, usage_check);
+    if (a->html_reports && (!a->html || strcmp(a->html, "-") == 0))
+        return usage_error("--html-reports needs --html FILE (a file: the pages go beside it)", NULL, usage_check);
+    const char *outs[] = {a->save, a->json, a->junit, a->html, a->output};
+    int dashes = 0;
+    for (size_t k = 0; k < sizeof outs / sizeof outs[0]; k++)
+        dashes += outs[k] && strcmp(outs[k], "-") == 0;
+    if (dashes > 1)
+        return usage_error("only one document can go to stdout (-)", NULL, usage_check);
+    if (a->html_reports) { /* FILE's folder / STEM-reports: links from the page stay relative */
+        size_t n = strlen(a->html);
+        size_t stem = n > 5 && strcmp(a->html + n - 5, ".html") == 0 ? n - 5 : n;
+        snprintf(a->pages, sizeof a->pages, "%.*s-reports", (int)stem, a->html);
+        a->opt.html_dir = a->pages;
+    }
     return -1;
 }
 
-/* Writes one output file with writer, whole or not at all; false (said on stderr) when it fails. */
+/* Writes one output file with writer, whole or not at all (or to stdout for -); false (said
+ * on stderr) when it fails. */
 static bool write_file(const char *path, const tb_check_run *run, tb_check_writer writer)
 {
+    if (strcmp(path, "-") == 0)
+        return writer(run, stdout) == TB_OK; /* a failure is said by finish */
     char why[1024];
     tb_status st = tb_checkfile_write(path, run, writer, why, sizeof why);
     if (st != TB_OK)
@@ -633,8 +826,12 @@ static int check_fill(const check_args *a, tb_check_run **run)
         complain("no netlist matches '%s' under the paths given", a->opt.glob);
         return EXIT_BAD_INPUT;
     }
-    if (st == TB_OK && !a->merge)
+    if (st == TB_OK && !a->merge) {
+        tb_progress *progress = tb_progress_new("netlists");
+        tb_check_set_progress(*run, progress ? tb_progress_update : NULL, progress);
         st = tb_check_execute(*run);
+        tb_progress_free(progress);
+    }
     if (st == TB_OK && a->against && (st = tb_check_against(*run, a->against, why, sizeof why)) != TB_OK)
         complain("%s", why);
     else if (st == TB_ERR_NOMEM)
@@ -644,7 +841,7 @@ static int check_fill(const check_args *a, tb_check_run **run)
 
 static int check_command(int argc, char **argv)
 {
-    check_args a = {NULL, 0, NULL, NULL, NULL, NULL, false, {0}};
+    check_args a = {0};
     tb_check_options_init(&a.opt);
     a.paths = calloc((size_t)argc, sizeof(char *));
     if (!a.paths) {
@@ -659,10 +856,17 @@ static int check_command(int argc, char **argv)
         for (size_t i = 0; i < tb_check_count(run); i++)
             if (tb_check_get(run, i)->errors)
                 put_text(tb_check_get(run, i)->errors, true);
-        bool ok = tb_check_write_text(run, stdout) == TB_OK; /* a failure is said by finish */
+        bool to_stdout = false; /* a document took stdout's place */
+        const char *docs[] = {a.save, a.json, a.junit, a.html};
+        for (size_t k = 0; k < sizeof docs / sizeof docs[0]; k++)
+            to_stdout = to_stdout || (docs[k] && strcmp(docs[k], "-") == 0);
+        bool ok = true;
+        if (a.output || !to_stdout)
+            ok = write_file(a.output ? a.output : "-", run, tb_check_write_text);
         ok = (!a.save || write_file(a.save, run, tb_check_write_save)) && ok;
         ok = (!a.json || write_file(a.json, run, tb_check_write_json)) && ok;
         ok = (!a.junit || write_file(a.junit, run, tb_check_write_junit)) && ok;
+        ok = (!a.html || write_file(a.html, run, tb_check_write_html)) && ok;
         rc = ok ? tb_check_exit_code(run) : EXIT_BAD_INPUT;
     }
     tb_check_free(run);
@@ -696,7 +900,7 @@ static int command(int argc, char **argv)
         printf("tbeta %s\n", TB_VERSION);
         return EXIT_DONE;
     }
-    args a = {"report", NULL, NULL, false, false, {0}, NULL, NULL, NULL, NULL};
+    args a = {.command = "report"};
     tb_options_init(&a.opt);
     a.opt.stability = strcmp(argv[1], "sweep") != 0; /* the sweep table needs none of it */
     a.opt.closed_loop = a.opt.stability;

@@ -181,6 +181,13 @@ static size_t fewest_tokens(char letter)
     case 'c':
     case 'l':
     case 'k':
+    case 'q': /* Q c b e KEY=value: devices at a bias point (device.c) */
+    case 'm':
+    case 'd': /* D S W B J: refused by name, with what to write instead (device.c) */
+    case 's':
+    case 'w':
+    case 'b':
+    case 'j':
         return 4;
     case 'v':
     case 'i':

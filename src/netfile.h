@@ -54,7 +54,8 @@ const char *tb_netfile_why_text(const tb_file_why *why, char *buf, size_t size);
 
 /* Whether the text of an included file reads as netlist cards: each of its
  * first TB_NETFILE_SHAPE_CARDS cards starts with a directive word ('.' and
- * letters) or an element name (R C L V I E G F H K X) and has at least as many
+ * letters) or an element name (R C L V I E G F H K Q M X, and D S W B J, which are
+ * refused with a message of their own) and has at least as many
  * words as the shortest card of that kind, with no control character. 0 when it
  * does (an empty file does; a .end card ends the check, as it ends the file),
  * otherwise the line of the first card that does not:

@@ -13,12 +13,14 @@
 
 #include "alloc.h"
 #include "circuit.h"
+#include "device.h"
 #include "diag.h"
 #include "expect.h"
 #include "expr.h"
 #include "grid.h"
 #include "lex.h"
 #include "netfile.h"
+#include "nonlinear.h"
 #include "suggest.h"
 #include "tbeta.h"
 
@@ -892,18 +894,70 @@ static bool source(parser *p, tb_elem_kind kind)
     return element_end(p, &e, part ? part : "the nodes");
 }
 
-/* ecard -> ENAME node node node node value   (G cards alike) */
+/* keyed -> {KEY = value}: keys of keys[0..n) in any order, each at most once, up to the
+ * card's end (lenient: up to the first word that is not followed by '='), into vals[i]
+ * (seen[i] set, the value's token in at[i] when at is not NULL); `of` names the card in
+ * messages (nonlinear.c) */
+static bool keyed(parser *p, const tb_nl_key *keys, size_t n, const char *expected_text, const char *of,
+                  bool lenient, double *vals, bool *seen, tb_token *at)
+{
+    char text[QUOTE_SIZE];
+    while (!at_end(p)) {
+        size_t k = 0;
+        while (k < n && !tb_lex_is(&p->tok, keys[k].key))
+            k++;
+        if (k == n && lenient && peek_next(p).kind != TB_TOK_EQUALS)
+            return true; /* not a key: the card's end reports it */
+        if (k == n && p->tok.kind == TB_TOK_WORD && peek_next(p).kind == TB_TOK_EQUALS)
+            return error(p, &p->tok, "unknown key '%s' on %s: expected %s", quote(&p->tok, text), of,
+                         expected_text);
+        if (k == n)
+            return expected(p, expected_text);
+        tb_token key = p->tok;
+        if (seen[k])
+            return error(p, &key, "'%s' is given twice on %s", quote(&key, text), of);
+        advance(p);
+        const range r = {keys[k].lo, keys[k].hi, keys[k].zero, keys[k].range_text};
+        if (!expect(p, TB_TOK_EQUALS, "'='") || !value(p, keys[k].what, &vals[k]) ||
+            !check_range(p, &r, vals[k], keys[k].key, of))
+            return false;
+        if (keys[k].positive && vals[k] < 0)
+            return error(p, &p->prev, "%s of %s must be %s, got '%s'", keys[k].key, of, keys[k].range_text,
+                         quote(&p->prev, text));
+        seen[k] = true;
+        if (at)
+            at[k] = p->prev;
+    }
+    return true;
+}
+
+/* coefficients -> [keyed k2, k3]: the weak nonlinearity y = k x + k2 x^2 + k3 x^3 of a
+ * controlled source, after its gain */
+static bool coefficients(parser *p, tb_element *e)
+{
+    size_t n = 0;
+    const tb_nl_key *keys = tb_nl_coef_keys(&n);
+    double vals[TB_NL_COEF_COUNT] = {0, 0};
+    bool seen[TB_NL_COEF_COUNT] = {false, false};
+    if (!keyed(p, keys, n, tb_nl_coef_expected(), p->name, true, vals, seen, NULL))
+        return false;
+    e->k2 = vals[TB_NL_K2];
+    e->k3 = vals[TB_NL_K3];
+    return true;
+}
+
+/* ecard -> ENAME node node node node value [k2=VALUE] [k3=VALUE]   (G cards alike) */
 static bool vcontrolled(parser *p, tb_elem_kind kind)
 {
     tb_element e;
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]) ||
         !node(p, &e.node[2]) || !node(p, &e.node[3]) || !value(p, "a gain", &e.value) ||
-        !check_range(p, &GAIN_RANGE, e.value, "gain", p->name))
+        !check_range(p, &GAIN_RANGE, e.value, "gain", p->name) || !coefficients(p, &e))
         return false;
     return element_end(p, &e, "the gain");
 }
 
-/* fcard -> FNAME node node VNAME value   (H cards alike) */
+/* fcard -> FNAME node node VNAME value [k2=VALUE] [k3=VALUE]   (H cards alike) */
 static bool icontrolled(parser *p, tb_elem_kind kind)
 {
     tb_element e;
@@ -914,7 +968,8 @@ static bool icontrolled(parser *p, tb_elem_kind kind)
     if (!e.ctrl_name)
         return false;
     advance(p);
-    if (!value(p, "a gain", &e.value) || !check_range(p, &GAIN_RANGE, e.value, "gain", p->name))
+    if (!value(p, "a gain", &e.value) || !check_range(p, &GAIN_RANGE, e.value, "gain", p->name) ||
+        !coefficients(p, &e))
         return false;
     return element_end(p, &e, "the gain");
 }
@@ -954,11 +1009,60 @@ static size_t char_len(const char *s, size_t len)
     return n;
 }
 
-/* element -> rcard | vcard | ecard | fcard | kcard | xcard, chosen by the name's first letter */
+static bool card_words(parser *p);
+
+/* qcard -> QNAME node node node [node] NAME = value {NAME = value}   (M cards alike)
+ * Expanded into small-signal parts by device.c. */
+static bool device(parser *p)
+{
+    tb_device_card card = {.first = p->tok, .label = p->name};
+    tb_device_error err = {0};
+    tb_device_parts parts;
+    tb_element head;
+    if (!element_start(p, TB_EL_G, &head) || !card_words(p))
+        return false;
+    card.name = head.name;
+    card.loc = head.loc;
+    if (tb_device_shape(p->name, &card.first, p->words, p->word_count, !at_end(p), &err))
+        return error(p, &err.at, "%s", err.message);
+    card.node_count = p->word_count;
+    for (size_t i = 0; i < card.node_count; i++) {
+        card.node_tok[i] = p->words[i];
+        if (!resolve_node(p, &p->words[i], &card.node[i]))
+            return false;
+    }
+    while (!at_end(p)) {
+        if (card.key_count == TB_DEVICE_MAX_KEYS)
+            return error(p, &p->tok, "too many keys on %s (limit is %d)", p->name, TB_DEVICE_MAX_KEYS);
+        tb_device_key *k = &card.keys[card.key_count++];
+        if (!expect_word(p, "a key"))
+            return false;
+        k->key = p->tok;
+        advance(p);
+        if (!expect(p, TB_TOK_EQUALS, "'='"))
+            return false;
+        k->at = p->tok;
+        if (!value(p, "a value", &k->value))
+            return false;
+    }
+    tb_status st = tb_device_expand(p->ckt, &card, &parts, &err);
+    if (st == TB_ERR_NOMEM)
+        return nomem(p);
+    if (st)
+        return error(p, &err.at, "%s", err.message);
+    for (size_t i = 0; i < parts.count; i++)
+        if (!element_end(p, &parts.part[i], "the keys"))
+            return false;
+    return true;
+}
+
+/* element -> rcard | vcard | ecard | fcard | kcard | qcard | mcard | xcard, chosen by the
+ * name's first letter */
 static bool instance(parser *p);
 
 static bool element(parser *p)
 {
+    char refusal[TB_DEVICE_MESSAGE];
     switch (tb_lex_lower(p->tok.ptr[0])) {
     case 'r':
         return passive(p, TB_EL_R);
@@ -982,10 +1086,15 @@ static bool element(parser *p)
         return coupling(p);
     case 'x':
         return instance(p);
+    case 'q':
+    case 'm':
+        return device(p);
     default:
+        if (tb_device_refusal(p->name, p->tok.ptr[0], refusal, sizeof refusal))
+            return error(p, &p->tok, "%s", refusal);
         return error(p, &p->tok,
                      "unknown element '%s': '%.*s' is not one of the element letters "
-                     "R C L V I E G F H K X",
+                     "R C L V I E G F H K Q M X",
                      p->name, (int)char_len(p->tok.ptr, p->tok.len), p->tok.ptr);
     }
 }
@@ -1386,6 +1495,30 @@ static bool break_card(parser *p)
     return true;
 }
 
+/* volterracard -> .VOLTERRA keyed amp, freq, freq2, limit: the distortion request (docs/distortion.md) */
+static bool volterra_card(parser *p)
+{
+    size_t n = 0;
+    const tb_nl_key *keys = tb_nl_request_keys(&n);
+    double vals[TB_NL_REQ_COUNT] = {0, 0, 0, 0};
+    bool seen[TB_NL_REQ_COUNT] = {false, false, false, false};
+    tb_token card_tok = p->tok;
+    tb_token at[TB_NL_REQ_COUNT] = {card_tok, card_tok, card_tok, card_tok};
+    tb_volterra_spec spec = {.loc = loc_of(p, &p->tok)};
+    if (p->ckt->volterra.given)
+        return error(p, &p->tok, "second .volterra directive (the first is on line %d)",
+                     p->ckt->volterra.loc.line);
+    advance(p);
+    if (!keyed(p, keys, n, tb_nl_request_expected(), ".volterra", false, vals, seen, at))
+        return false;
+    int bad = -1;
+    const char *why = tb_nl_request_make(vals, seen, &spec, &bad);
+    if (why)
+        return error(p, bad < 0 ? &card_tok : &at[bad], "%s", why);
+    p->ckt->volterra = spec;
+    return true;
+}
+
 /* directive -> accard | loopcard | iocard | marginscard | endcard; any other is skipped with a warning */
 static bool directive(parser *p)
 {
@@ -1406,6 +1539,8 @@ static bool directive(parser *p)
         return zport_card(p);
     if (tb_lex_is(&p->tok, ".break"))
         return break_card(p);
+    if (tb_lex_is(&p->tok, ".volterra"))
+        return volterra_card(p);
     if (tb_lex_is(&p->tok, ".end")) {
         /* endcard -> .END */
         advance(p);
@@ -1780,7 +1915,7 @@ static bool body_directive(parser *p, subckt *def)
         tb_lex_is(&p->tok, ".margins") || tb_lex_is(&p->tok, ".include") ||
         tb_lex_is(&p->tok, ".expect") ||
         tb_lex_is(&p->tok, ".ideal") || tb_lex_is(&p->tok, ".zport") || tb_lex_is(&p->tok, ".break") ||
-        tb_lex_is(&p->tok, ".end"))
+        tb_lex_is(&p->tok, ".volterra") || tb_lex_is(&p->tok, ".end"))
         return error(p, &p->tok, "'%s' is not allowed inside .subckt %s", quote(&p->tok, text),
                      def->name);
     warning(p, &p->tok, "unknown directive '%s' skipped", quote(&p->tok, text));

@@ -17,6 +17,7 @@ static const struct {
     [TB_STYLE_THIRD] = {"#555555", "2 3", 2.2},
     [TB_STYLE_FOURTH] = {"#7a3d9a", "8 3 2 3", 2.0},
     [TB_STYLE_GUIDE] = {"#8c8c8c", "4 3", 1.0},
+    [TB_STYLE_MARGIN] = {"#b3001b", NULL, 3.0},
 };
 
 #define FONT "font-family=\"sans-serif\" font-size=\"12\""
@@ -226,6 +227,17 @@ void tb_plot_marker(tb_picture *pic, const tb_panel *p, double x, double y, cons
         tb_plot_escape(pic->out, text);
         fputs("</text>\n", pic->out);
     }
+}
+
+void tb_plot_label(tb_picture *pic, const tb_panel *p, double x, double y, const char *text)
+{
+    double px = 0, py = 0;
+    if (!place(p, x, y, &px, &py) || px < p->left || px > p->left + p->width || py < p->top ||
+        py > p->top + p->height)
+        return;
+    fprintf(pic->out, "<text x=\"%.2f\" y=\"%.2f\" " FONT " fill=\"#666666\" text-anchor=\"middle\">", px, py);
+    tb_plot_escape(pic->out, text);
+    fputs("</text>\n", pic->out);
 }
 
 void tb_plot_circle(tb_picture *pic, const tb_panel *p, double x, double y, double r, tb_style style)

@@ -14,6 +14,7 @@ typedef enum {
     TB_STYLE_THIRD,    /* grey, dots */
     TB_STYLE_FOURTH,   /* purple, dash-dot */
     TB_STYLE_GUIDE,    /* thin grey, short dashes: reference lines (0 dB, -180 deg, unit circle) */
+    TB_STYLE_MARGIN,   /* thick dark red, solid: a margin drawn as the distance to its limit */
     TB_STYLE_COUNT
 } tb_style;
 
@@ -51,6 +52,8 @@ void tb_plot_series(tb_picture *pic, const tb_panel *p, const double *x, const d
 void tb_plot_line(tb_picture *pic, const tb_panel *p, double xa, double ya, double xb, double yb, tb_style style);
 /* A marked point with a short label beside it (escaped). */
 void tb_plot_marker(tb_picture *pic, const tb_panel *p, double x, double y, const char *label);
+/* A short label at a data point, without a marker, centred on it (escaped). */
+void tb_plot_label(tb_picture *pic, const tb_panel *p, double x, double y, const char *text);
 /* A circle of radius r (data units) around (x, y), for a linear panel. */
 void tb_plot_circle(tb_picture *pic, const tb_panel *p, double x, double y, double r, tb_style style);
 /* A legend entry, placed in the legend column to the right of the panels. */

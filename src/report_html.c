@@ -5,6 +5,7 @@
 #include "diag.h"
 #include "plot.h"
 #include "report.h"
+#include "report_distortion.h"
 #include "units.h"
 
 static const char style_sheet[] =
@@ -155,6 +156,93 @@ static void breakdown_table(FILE *out, const tb_feedback_summary *fs)
     fputs("</table>\n", out);
 }
 
+/* One row of the table of chosen frequencies: a label, then one cell per frequency. */
+typedef enum { SPOT_T, SPOT_T_DB, SPOT_PHASE, SPOT_RD, SPOT_A, SPOT_AINF, SPOT_A0, SPOT_PART, SPOT_Z } spot_row;
+
+static const char *spot_cell(const tb_spot *s, spot_row row, size_t k, char *v, size_t size)
+{
+    const tb_point *p = &s->pt;
+    bool io = s->solved && !(p->flags & TB_PT_NO_IO);
+    switch (row) {
+    case SPOT_T:
+        return s->solved && !s->has_T ? "infinite" : fmt_complex(s->solved, p->T, v, size);
+    case SPOT_T_DB:
+        snprintf(v, size, s->solved && s->has_T_db ? "%+.2f dB" : "--", s->T_db);
+        return v;
+    case SPOT_PHASE:
+        snprintf(v, size, s->solved && s->has_T_db ? "%.2f deg" : "--", s->T_phase_deg);
+        return v;
+    case SPOT_RD:
+        snprintf(v, size, s->solved && s->has_T ? "%.6g" : "--", s->return_difference);
+        return v;
+    case SPOT_A:
+        return fmt_complex(io, p->A, v, size);
+    case SPOT_AINF:
+        return fmt_complex(io && !(p->flags & TB_PT_AINF_NONE), p->A_inf, v, size);
+    case SPOT_A0:
+        return fmt_complex(io && !(p->flags & TB_PT_A0_NONE), p->A0, v, size);
+    case SPOT_PART:
+        return fmt_complex(s->solved && s->breakdown.has_parts, s->breakdown.part[k], v, size);
+    case SPOT_Z:
+        return fmt_complex(s->solved && k < s->ports && s->zports[k].has_Z, s->zports[k].Z, v, size);
+    }
+    return "--";
+}
+
+static void spot_row_out(FILE *out, const tb_result *res, size_t l, const char *label, spot_row row, size_t k)
+{
+    char v[128];
+    fputs("<tr><th>", out);
+    text(out, label);
+    fputs("</th>", out);
+    for (size_t i = 0; i < tb_spot_count(res); i++) {
+        tb_spot s;
+        tb_spot_get(res, i, l, &s);
+        fputs("<td class=\"num\">", out);
+        text(out, spot_cell(&s, row, k, v, sizeof v));
+        fputs("</td>", out);
+    }
+    fputs("</tr>\n", out);
+}
+
+/* Loop l at every frequency of --at (fresh solves), one column per frequency. */
+static void spot_table(FILE *out, const tb_result *res, size_t l)
+{
+    static const struct {
+        const char *label;
+        spot_row row;
+    } rows[] = {{"loop gain T", SPOT_T},        {"|T|", SPOT_T_DB},          {"phase of T", SPOT_PHASE},
+                {"|1 + T|", SPOT_RD},           {"closed-loop gain A", SPOT_A}, {"ideal gain A_inf", SPOT_AINF},
+                {"feedthrough A0", SPOT_A0}};
+    char v[128], label[160];
+    if (tb_spot_count(res) == 0)
+        return;
+    fputs("<h3>At chosen frequencies (each by a fresh solve there)</h3>\n<table>\n<tr><th>frequency</th>", out);
+    for (size_t i = 0; i < tb_spot_count(res); i++) {
+        tb_spot s;
+        tb_spot_get(res, i, l, &s);
+        fputs("<th>", out);
+        text(out, s.f_hz > 0 ? fmt_hz(true, s.f_hz, v, sizeof v) : "DC");
+        fputs(s.solved ? "</th>" : " (singular)</th>", out);
+    }
+    fputs("</tr>\n", out);
+    for (size_t r = 0; r < sizeof rows / sizeof rows[0]; r++)
+        spot_row_out(out, res, l, rows[r].label, rows[r].row, 0);
+    tb_feedback_summary fs = {0};
+    tb_feedback_loop(res, l, &fs);
+    for (int k = 0; k < TB_PART_COUNT && fs.computed && fs.has_estimate; k++) {
+        snprintf(label, sizeof label, "part of A - G: %s", tb_part_str((tb_part)k));
+        spot_row_out(out, res, l, label, SPOT_PART, (size_t)k);
+    }
+    for (size_t p = 0; p < tb_zport_count(res); p++) {
+        tb_zport_summary zs;
+        tb_zport_loop(res, p, l, &zs, NULL);
+        snprintf(label, sizeof label, "Z at port %s (ohm)", zs.name);
+        spot_row_out(out, res, l, label, SPOT_Z, p);
+    }
+    fputs("</table>\n", out);
+}
+
 /* A picture as inline SVG inside a figure; nothing when it has nothing to show. */
 static tb_status figure(FILE *out, const tb_circuit *ckt, const tb_result *res, tb_picture_kind kind, size_t l,
                         size_t port, const char *caption)
@@ -186,17 +274,45 @@ static tb_status loop_section(FILE *out, const tb_circuit *ckt, const tb_result 
         verdict_box(out, &st, &m);
     dc_table(out, &m, tb_circuit_gain_unit(ckt), tb_circuit_beta_unit(ckt));
     frequency_table(out, res, &m, &st);
+    spot_table(out, res, l);
     breakdown_table(out, &fs);
-    if ((s = figure(out, ckt, res, TB_PIC_BODE, l, 0, "Loop gain T: magnitude with |A|, |A_inf| and the estimate; phase. Markers: crossings with their margins.")))
+    if ((s = figure(out, ckt, res, TB_PIC_BODE, l, 0,
+                    "How much the loop corrects, and until when. Where the loop gain |T| (solid) is large, the "
+                    "closed-loop gain |A| follows the ideal gain |A_inf| = 1/beta; where |T| falls through 0 dB "
+                    "the correction ends and |A| follows the amplifier alone. The phase margin (PM, red bar in "
+                    "the phase panel) is how far the phase of T stays above -180 deg where |T| = 1; the gain "
+                    "margin (GM, red bar in the magnitude panel) is how far |T| stays below 0 dB where the "
+                    "phase reaches -180 deg. A margin near zero or below means ringing or oscillation.")))
         return s;
-    if ((s = figure(out, ckt, res, TB_PIC_NYQUIST, l, 0, "Nyquist plot of T with the unit circle, -1 and the vector-margin circle.")))
+    if ((s = figure(out, ckt, res, TB_PIC_NYQUIST, l, 0,
+                    "The same T as one curve in the complex plane, from the start of the sweep (far out: large "
+                    "|T|) to its end (near the origin); the dashed curve is its mirror for negative "
+                    "frequencies. Beyond the unit circle the radius is compressed, one ring per 20 dB. What "
+                    "matters is the point -1: the closer the curve passes it, the smaller the vector margin "
+                    "(the circle around -1), and the count of turns around it decides stability.")))
         return s;
     if (fs.computed && fs.has_estimate &&
-        (s = figure(out, ckt, res, TB_PIC_BREAKDOWN, l, 0, "The parts of A - G over frequency.")))
+        (s = figure(out, ckt, res, TB_PIC_BREAKDOWN, l, 0,
+                    "Why the real gain A misses the hand estimate G, frequency by frequency: |A - G| (solid) "
+                    "is the sum of three parts, loading (the loaded network's 1/beta differs from G), finite "
+                    "loop gain (-A_inf/(1 + T), which grows as |T| falls) and feedthrough (signal that "
+                    "bypasses the amplifier). The highest curve at a frequency is the reason there; the marker "
+                    "shows where the error first exceeds the tolerance.")))
         return s;
-    for (size_t p = 0; p < tb_zport_count(res); p++)
-        if ((s = figure(out, ckt, res, TB_PIC_IMPEDANCE, l, p, "Port impedance with and without feedback (Blackman).")))
+    for (size_t p = 0; p < tb_zport_count(res); p++) {
+        tb_zport_summary zs;
+        char caption[512];
+        tb_zport_loop(res, p, l, &zs, NULL);
+        snprintf(caption, sizeof caption,
+                 "The impedance at port %s with the loop working (solid) and with the amplifier's gain at "
+                 "zero (dashed). %s Where |T| has fallen, the two meet: the feedback no longer acts.",
+                 zs.name,
+                 zs.side == TB_SIDE_SERIES  ? "Here the feedback is in series: it raises the impedance (by |1 + T| when pure)."
+                 : zs.side == TB_SIDE_SHUNT ? "Here the feedback is in shunt: it lowers the impedance (by |1 + T| when pure)."
+                                            : "Blackman's formula Z = Z0 (1 + T_sc)/(1 + T_oc) gives the change.");
+        if ((s = figure(out, ckt, res, TB_PIC_IMPEDANCE, l, p, caption)))
             return s;
+    }
     return TB_OK;
 }
 
@@ -219,6 +335,12 @@ tb_status tb_report_html(const tb_circuit *ckt, const tb_result *res, FILE *out)
         text(out, ckt->io.source);
     }
     fputs(".</p>\n", out);
+    fputs("<p>How to read this page: each loop opens with its verdict, then its figures at DC and over "
+          "frequency; the pictures then tell its story: the Bode plot shows how much the loop corrects and up "
+          "to what frequency, with its margins drawn as red bars; the Nyquist plot shows how close the loop "
+          "comes to oscillation (the point -1); the step response shows what the output does. Each picture's "
+          "caption says what to look for.</p>\n",
+          out);
     for (size_t l = 0; l < tb_result_loops(res); l++) {
         tb_status st = loop_section(out, ckt, res, l);
         if (st)
@@ -228,10 +350,16 @@ tb_status tb_report_html(const tb_circuit *ckt, const tb_result *res, FILE *out)
     tb_step_figures_get(res, &fig);
     if (fig.computed) {
         fputs("<h2>Closed-loop step response</h2>\n", out);
-        tb_status st = figure(out, ckt, res, TB_PIC_STEP, 0, 0, "Response of the output to a unit step of the input.");
+        tb_status st = figure(out, ckt, res, TB_PIC_STEP, 0, 0,
+                              "What the output does after a unit step at the input: overshoot, the 10-90 % "
+                              "rise and the time to settle within 2 % are marked. A small phase margin shows "
+                              "here as overshoot and ringing.");
         if (st)
             return st;
     }
+    tb_status dst = tb_report_distortion_html(ckt, res, out);
+    if (dst)
+        return dst;
     fputs("<h2>Caution</h2>\n<p class=\"caution\">", out);
     text(out, tb_report_caution);
     fputs("</p>\n</body>\n</html>\n", out);

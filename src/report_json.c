@@ -6,6 +6,7 @@
 #include "alloc.h"
 #include "units.h"
 #include "report.h"
+#include "report_distortion.h"
 
 /* Builds a document while remembering whether any allocation failed. */
 typedef struct {
@@ -640,6 +641,73 @@ static json_t *census_array(builder *b, const tb_result *res)
     return arr;
 }
 
+/* Loop l at chosen frequency i (--at): its gains, |1 + T|, the breakdown and the ports. */
+static json_t *spot_loop_object(builder *b, const tb_circuit *ckt, const tb_result *res, size_t i, size_t l)
+{
+    tb_spot s;
+    json_t *o = obj(b);
+    if (!o || tb_spot_get(res, i, l, &s) != TB_OK)
+        return o;
+    const tb_point *p = &s.pt;
+    bool io = s.solved && !(p->flags & TB_PT_NO_IO);
+    set(b, o, "loop", tb_report_json_text(tb_circuit_loop_name(ckt, l)));
+    set(b, o, "solved", json_boolean(s.solved));
+    set(b, o, "T", cnum(s.solved && s.has_T, p->T));
+    set(b, o, "T_db", s.solved && s.has_T_db ? num(s.T_db) : json_null());
+    set(b, o, "T_phase_deg", s.solved && s.has_T_db ? num(s.T_phase_deg) : json_null());
+    set(b, o, "return_difference", s.solved && s.has_T ? num(s.return_difference) : json_null());
+    set(b, o, "A", cnum(io, p->A));
+    set(b, o, "A_inf", cnum(io && !(p->flags & TB_PT_AINF_NONE), p->A_inf));
+    set(b, o, "A0", cnum(io && !(p->flags & TB_PT_A0_NONE), p->A0));
+    set(b, o, "a", cnum(io && s.has_T && !(p->flags & TB_PT_AINF_NONE), p->a));
+    tb_feedback_summary fs = {0};
+    tb_feedback_loop(res, l, &fs);
+    bool est = s.solved && fs.computed && fs.has_estimate;
+    set(b, o, "breakdown", s.solved ? breakdown_object(b, &s.breakdown, fs.estimate, est) : json_null());
+    json_t *ports = json_array();
+    if (!ports)
+        b->ok = false;
+    for (size_t q = 0; ports && q < s.ports; q++) {
+        tb_zport_summary zs;
+        tb_zport_loop(res, q, l, &zs, NULL);
+        json_t *zo = s.solved ? zpoint_object(b, &s.zports[q]) : obj(b);
+        if (zo)
+            set(b, zo, "name", tb_report_json_text(zs.name));
+        if (!zo || json_array_append_new(ports, zo))
+            b->ok = false;
+    }
+    set(b, o, "ports", ports);
+    return o;
+}
+
+/* Every chosen frequency (--at), each with every loop. */
+static json_t *spot_array(builder *b, const tb_circuit *ckt, const tb_result *res)
+{
+    json_t *arr = json_array();
+    if (!arr)
+        b->ok = false;
+    for (size_t i = 0; arr && i < tb_spot_count(res); i++) {
+        json_t *o = obj(b);
+        json_t *loops = json_array();
+        tb_spot s = {0};
+        tb_spot_get(res, i, 0, &s);
+        if (o)
+            set(b, o, "hz", num(s.f_hz));
+        for (size_t l = 0; loops && l < tb_result_loops(res); l++)
+            if (json_array_append_new(loops, spot_loop_object(b, ckt, res, i, l)))
+                b->ok = false;
+        if (!loops)
+            b->ok = false;
+        if (o)
+            set(b, o, "loops", loops);
+        else
+            json_decref(loops);
+        if (!o || json_array_append_new(arr, o))
+            b->ok = false;
+    }
+    return arr;
+}
+
 static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
 {
     json_t *root = json_object();
@@ -673,6 +741,10 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
         set(b, root, "step_response", step_object(b, res));
     if (tb_result_has_census(res))
         set(b, root, "census", census_array(b, res));
+    if (ckt->volterra.given)
+        set(b, root, "distortion", tb_report_distortion_json(ckt, res, tb_report_json_text));
+    if (tb_spot_count(res) > 0)
+        set(b, root, "at", spot_array(b, ckt, res));
     set(b, root, "caution", json_string(tb_report_caution));
     return root;
 }

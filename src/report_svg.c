@@ -88,26 +88,47 @@ static tb_status finish(tb_picture *pic, columns *c)
     return ok ? TB_OK : TB_ERR_IO;
 }
 
+/* What a reader calls the circuit: the netlist's title line, else its file name. */
+static const char *circuit_name(const tb_circuit *ckt)
+{
+    return tb_circuit_title(ckt)[0] ? tb_circuit_title(ckt) : ckt->file;
+}
+
+/* The circuit's name cut to fit a picture's title line ("..." when cut). */
+#define TITLE_NAME_MAX 72
+
 static void title_of(const tb_circuit *ckt, size_t l, const char *what, char *buf, size_t size)
 {
-    snprintf(buf, size, "%s: %s at %s", ckt->file, what, tb_circuit_loop_name(ckt, l));
+    const char *name = circuit_name(ckt);
+    snprintf(buf, size, "%.*s%s: %s at %s", TITLE_NAME_MAX, name, strlen(name) > TITLE_NAME_MAX ? "..." : "", what,
+             tb_circuit_loop_name(ckt, l));
 }
 
 /* ---- Bode -------------------------------------------------------------- */
 
+/* Each margin drawn where it is read: the phase margin in the phase panel as the distance
+ * from -180 deg up to the phase of T where |T| = 1 (marked on the magnitude too), the gain
+ * margin in the magnitude panel as the distance from |T| up to 0 dB where the phase reaches
+ * -180 deg (marked on the phase too). */
 static void bode_markers(tb_picture *pic, const tb_panel *mag, const tb_panel *ph, const tb_stability *st)
 {
     char buf[64];
     for (size_t i = 0; st->computed && i < st->unity_count; i++) {
-        snprintf(buf, sizeof buf, "PM %.1f deg", st->unity[i].margin);
-        tb_plot_marker(pic, mag, st->unity[i].hz, 0.0, buf);
-        tb_plot_marker(pic, ph, st->unity[i].hz, st->unity[i].phase_deg, NULL);
+        const tb_crossing *c = &st->unity[i];
+        snprintf(buf, sizeof buf, "PM %.1f deg", c->margin);
+        tb_plot_marker(pic, mag, c->hz, 0.0, NULL);
+        tb_plot_line(pic, ph, c->hz, c->phase_deg - c->margin, c->hz, c->phase_deg, TB_STYLE_MARGIN);
+        tb_plot_marker(pic, ph, c->hz, c->phase_deg, buf);
     }
     for (size_t i = 0; st->computed && i < st->phase_count; i++) {
-        snprintf(buf, sizeof buf, "GM %+.1f dB", st->phase[i].margin);
-        tb_plot_marker(pic, ph, st->phase[i].hz, st->phase[i].phase_deg, buf);
-        tb_plot_marker(pic, mag, st->phase[i].hz, st->phase[i].T_db, NULL);
+        const tb_crossing *c = &st->phase[i];
+        snprintf(buf, sizeof buf, "GM %+.1f dB", c->margin);
+        tb_plot_line(pic, mag, c->hz, c->T_db, c->hz, c->T_db + c->margin, TB_STYLE_MARGIN);
+        tb_plot_marker(pic, mag, c->hz, c->T_db, buf);
+        tb_plot_marker(pic, ph, c->hz, c->phase_deg, NULL);
     }
+    if (st->computed && st->unity_count + st->phase_count > 0)
+        tb_plot_legend(pic, TB_STYLE_MARGIN, "margin: distance to the limit");
 }
 
 static tb_status bode(tb_picture *pic, const tb_circuit *ckt, const tb_result *res, size_t l)
@@ -155,10 +176,15 @@ static tb_status bode(tb_picture *pic, const tb_circuit *ckt, const tb_result *r
         tb_plot_line(pic, &ph, f[0], d, f[n - 1], d, TB_STYLE_GUIDE);
     tb_plot_series(pic, &mag, c.x, c.y[0], c.ok[0], n, TB_STYLE_MAIN);
     tb_plot_legend(pic, TB_STYLE_MAIN, "|T|, loop gain");
+    tb_stability st;
+    tb_stability_loop(res, l, &st);
     if (io) {
         tb_plot_series(pic, &mag, c.x, c.y[1], c.ok[1], n, TB_STYLE_SECOND);
         tb_plot_series(pic, &mag, c.x, c.y[2], c.ok[2], n, TB_STYLE_THIRD);
-        tb_plot_legend(pic, TB_STYLE_SECOND, "|A|, closed-loop gain");
+        /* an unstable loop has no closed-loop frequency response to speak of */
+        tb_plot_legend(pic, TB_STYLE_SECOND,
+                       st.computed && st.verdict == TB_VERDICT_UNSTABLE ? "|A| (unstable: not a response)"
+                                                                        : "|A|, closed-loop gain");
         tb_plot_legend(pic, TB_STYLE_THIRD, "|A_inf| = 1/|beta|, loaded");
     }
     if (estimate) {
@@ -167,8 +193,6 @@ static tb_status bode(tb_picture *pic, const tb_circuit *ckt, const tb_result *r
     }
     tb_plot_series(pic, &ph, c.x, deg, NULL, n, TB_STYLE_MAIN);
     tb_plot_legend(pic, TB_STYLE_GUIDE, "0 dB, -180 deg");
-    tb_stability st;
-    tb_stability_loop(res, l, &st);
     bode_markers(pic, &mag, &ph, &st);
     return finish(pic, &c);
 }
@@ -181,6 +205,32 @@ static double complex squash(double complex T)
 {
     double m = cabs(T);
     return m > 1.0 ? (1.0 + log10(m)) * (T / m) : T;
+}
+
+/* What makes the compressed picture readable: a ring at each decade of |T| beyond 1 (20 dB,
+ * 40 dB, ...) labelled with its level, and the sweep's two ends labelled with their
+ * frequencies, so that the direction of travel and the size of T stay visible. */
+static void nyquist_guides(tb_picture *pic, const tb_panel *p, const tb_result *res, size_t l, double reach)
+{
+    char buf[64], f[32];
+    int rings = (int)floor(reach - 1.0), every = rings > 4 ? (rings + 3) / 4 : 1; /* at most 4 rings */
+    for (int k = every; k <= rings; k += every) {
+        tb_plot_circle(pic, p, 0, 0, 1.0 + k, TB_STYLE_GUIDE);
+        snprintf(buf, sizeof buf, "|T| %d dB", 20 * k);
+        double d = (1.0 + k) / sqrt(2.0);
+        tb_plot_label(pic, p, d, d, buf);
+    }
+    size_t n = tb_result_points(res);
+    const tb_point *pts = tb_result_loop(res, l);
+    const double *freqs = tb_result_freqs(res);
+    for (size_t e = 0; e < 2 && n > 0; e++) {
+        size_t i = e ? n - 1 : 0;
+        if (pts[i].flags & TB_PT_T_INF)
+            continue;
+        double complex z = squash(pts[i].T);
+        snprintf(buf, sizeof buf, "%s %s", e ? "sweep ends" : "sweep starts", tb_plot_eng(freqs[i], "Hz", f, sizeof f));
+        tb_plot_marker(pic, p, creal(z), cimag(z), buf);
+    }
 }
 
 static tb_status nyquist(tb_picture *pic, const tb_circuit *ckt, const tb_result *res, size_t l)
@@ -203,10 +253,10 @@ static tb_status nyquist(tb_picture *pic, const tb_circuit *ckt, const tb_result
     }
     reach = fmin(reach * 1.1, 8.0);
     char title[512];
-    title_of(ckt, l, "Nyquist plot of T (radius |T| up to 1, then 1 + log10 |T|)", title, sizeof title);
+    title_of(ckt, l, "Nyquist plot of T", title, sizeof title);
     tb_plot_begin(pic, pic->out, WIDTH, 700, title);
     tb_panel p = {-reach, reach, -reach, reach, false, false, PANEL_LEFT + 15, 50, 590, 590};
-    tb_plot_axes(pic, &p, "Re (compressed)", "Im (compressed)");
+    tb_plot_axes(pic, &p, "Re T (radius |T| up to 1, then 1 + log10 |T|)", "Im T (same scale)");
     tb_plot_circle(pic, &p, 0, 0, 1.0, TB_STYLE_GUIDE);
     tb_plot_series(pic, &p, c.x, c.y[0], c.ok[0], n, TB_STYLE_MAIN);
     tb_plot_series(pic, &p, c.x, c.y[1], c.ok[1], n, TB_STYLE_SECOND);
@@ -229,11 +279,22 @@ static tb_status nyquist(tb_picture *pic, const tb_circuit *ckt, const tb_result
         tb_plot_legend(pic, TB_STYLE_FOURTH, buf);
     }
     tb_plot_marker(pic, &p, -1.0, 0.0, "-1");
+    nyquist_guides(pic, &p, res, l, reach);
     if (st.computed && st.has_nyquist) {
         char buf[96];
         snprintf(buf, sizeof buf, "N = %ld clockwise", st.nyquist_n);
         tb_plot_text(pic, pic->legend_x, pic->legend_y + 10, buf);
         tb_plot_text(pic, pic->legend_x, pic->legend_y + 26, "encirclements of -1");
+        /* what the count means: N + P closed-loop poles in the right half-plane */
+        long z = st.nyquist_n + (long)st.ol_rhp;
+        if (z == 0)
+            snprintf(buf, sizeof buf, "N + P = 0: no closed-loop pole");
+        else
+            snprintf(buf, sizeof buf, "N + P = %ld closed-loop poles", z);
+        tb_plot_text(pic, pic->legend_x, pic->legend_y + 48, buf);
+        tb_plot_text(pic, pic->legend_x, pic->legend_y + 64, "in the right half-plane");
+        snprintf(buf, sizeof buf, "(P = %zu open-loop ones)%s", st.ol_rhp, z > 0 ? ": unstable" : "");
+        tb_plot_text(pic, pic->legend_x, pic->legend_y + 80, buf);
     }
     return finish(pic, &c);
 }
@@ -265,7 +326,7 @@ static tb_status step(tb_picture *pic, const tb_circuit *ckt, const tb_result *r
     }
     double pad = 0.08 * (hi - lo > 0 ? hi - lo : 1.0);
     char title[512];
-    snprintf(title, sizeof title, "%s: closed-loop step response", ckt->file);
+    snprintf(title, sizeof title, "%.*s: closed-loop step response", TITLE_NAME_MAX, circuit_name(ckt));
     tb_plot_begin(pic, pic->out, WIDTH, 480, title);
     tb_panel p = panel(50, 360, t[0], t[n - 1], lo - pad, hi + pad, false, false);
     tb_plot_axes(pic, &p, "time (s)", "output per unit input step");
@@ -277,7 +338,7 @@ static tb_status step(tb_picture *pic, const tb_circuit *ckt, const tb_result *r
     tb_plot_legend(pic, TB_STYLE_MAIN, "output");
     tb_plot_legend(pic, TB_STYLE_GUIDE, "final value A(0)");
     tb_plot_legend(pic, TB_STYLE_THIRD, "2 % band");
-    char buf[64];
+    char buf[64], ts[32];
     if (fig.has_overshoot && fig.has_peak) {
         snprintf(buf, sizeof buf, "overshoot %.3g %%", fig.overshoot_pct);
         tb_plot_marker(pic, &p, fig.peak_s, fig.peak_value, buf);
@@ -285,11 +346,11 @@ static tb_status step(tb_picture *pic, const tb_circuit *ckt, const tb_result *r
     if (fig.has_rise) {
         double t10 = first_at(t, y, n, 0.1 * fv), t90 = first_at(t, y, n, 0.9 * fv);
         tb_plot_marker(pic, &p, t10, 0.1 * fv, "10 %");
-        snprintf(buf, sizeof buf, "90 %%, rise %.3g s", fig.rise_s);
+        snprintf(buf, sizeof buf, "90 %%: rise 10-90 %% %s", tb_plot_eng(fig.rise_s, "s", ts, sizeof ts));
         tb_plot_marker(pic, &p, t90, 0.9 * fv, buf);
     }
     if (fig.has_settling) {
-        snprintf(buf, sizeof buf, "settled (2 %%) at %.3g s", fig.settling_s);
+        snprintf(buf, sizeof buf, "settled within 2 %% at %s", tb_plot_eng(fig.settling_s, "s", ts, sizeof ts));
         tb_plot_marker(pic, &p, fig.settling_s, fv, buf);
     }
     bool ok = tb_plot_end(pic);
@@ -323,7 +384,8 @@ static tb_status impedance(tb_picture *pic, const tb_circuit *ckt, const tb_resu
     lo = lo > 0 ? lo / 2 : 1e-3;
     hi = hi > lo ? hi * 2 : lo * 10;
     char title[512];
-    snprintf(title, sizeof title, "%s: impedance at port %s, loop %s", ckt->file, s.name, tb_circuit_loop_name(ckt, l));
+    snprintf(title, sizeof title, "%.*s: impedance at port %s, loop %s", TITLE_NAME_MAX, circuit_name(ckt), s.name,
+             tb_circuit_loop_name(ckt, l));
     tb_plot_begin(pic, pic->out, WIDTH, 480, title);
     tb_panel p = panel(50, 360, f[0], f[n - 1], lo, hi, true, true);
     tb_plot_axes(pic, &p, "frequency (Hz)", "|Z| (ohm)");

@@ -5,6 +5,7 @@
 #include "diag.h"
 #include "units.h"
 #include "report.h"
+#include "report_distortion.h"
 
 /* A frequency with an SI prefix: "1.2346 MHz". */
 static const char *fmt_hz(double f, char *buf, size_t size)
@@ -441,6 +442,62 @@ static void impedance_lines(FILE *out, const tb_result *res, size_t l)
                 tb_side_str(ft.output), tb_amp_type_str(ft.type));
 }
 
+/* One .zport at a chosen frequency. */
+static void spot_port_lines(FILE *out, const tb_result *res, size_t l, size_t p, const tb_zpoint *z)
+{
+    char v[96], e[256], a[64], b[64], c[64];
+    tb_zport_summary s;
+    names nm;
+    if (tb_zport_loop(res, p, l, &s, NULL) != TB_OK)
+        return;
+    snprintf(e, sizeof e, " ohm   (Z0 %s ohm, T_sc %s, T_oc %s)", z->has_Z0 ? fmt_value(z->Z0, a, sizeof a) : "--",
+             z->has_T_sc ? fmt_value(denoise(z->T_sc, cabs(z->T_oc)), b, sizeof b) : "--",
+             z->has_T_oc ? fmt_value(denoise(z->T_oc, cabs(z->T_sc)), c, sizeof c) : "--");
+    snprintf(a, sizeof a, "  Z at port %s", esc(&nm, 0, s.name));
+    line(out, a, z->has_Z, fmt_value(z->Z, v, sizeof v), e);
+}
+
+/* Loop l at every frequency of --at, each from a fresh solve there. */
+static void spot_lines(FILE *out, const tb_circuit *ckt, const tb_result *res, size_t l)
+{
+    char v[96], f[64], extra[96], gu[16];
+    if (tb_spot_count(res) == 0)
+        return;
+    unit_suffix(tb_circuit_gain_unit(ckt), gu, sizeof gu);
+    fprintf(out, "  at chosen frequencies (each by a fresh solve there)\n");
+    for (size_t i = 0; i < tb_spot_count(res); i++) {
+        tb_spot s;
+        if (tb_spot_get(res, i, l, &s) != TB_OK)
+            continue;
+        fprintf(out, "    at %s%s\n", s.f_hz > 0 ? fmt_hz(s.f_hz, f, sizeof f) : "DC",
+                s.solved ? "" : ": -- (the circuit matrix is singular at this frequency)");
+        if (!s.solved)
+            continue;
+        const tb_point *p = &s.pt;
+        bool io = !(p->flags & TB_PT_NO_IO);
+        snprintf(extra, sizeof extra, "   (%+.2f dB, %.2f deg)", s.T_db, s.T_phase_deg);
+        line(out, "  loop gain T", true, s.has_T ? fmt_value(p->T, v, sizeof v) : "infinite",
+             s.has_T_db ? extra : "");
+        snprintf(v, sizeof v, "%.6g", s.return_difference);
+        line(out, "  |1 + T|", s.has_T, v, "");
+        double scale = fmax(cabs(p->A), cabs(p->A_inf));
+        if (io) { /* without .io there are no gains to show */
+            line(out, "  closed-loop gain A", true, fmt_value(p->A, v, sizeof v), gu);
+            line(out, "  ideal gain A_inf", !(p->flags & TB_PT_AINF_NONE), fmt_value(p->A_inf, v, sizeof v), gu);
+            line(out, "  feedthrough A0", !(p->flags & TB_PT_A0_NONE), fmt_value(denoise(p->A0, scale), v, sizeof v),
+                 gu);
+        }
+        const tb_breakdown_point *bd = &s.breakdown;
+        for (int k = 0; k < TB_PART_COUNT && bd->has_parts; k++) {
+            char label[64];
+            snprintf(label, sizeof label, "  A - G from %s", tb_part_str((tb_part)k));
+            line(out, label, true, fmt_value(denoise(bd->part[k], scale), v, sizeof v), gu);
+        }
+        for (size_t q = 0; q < s.ports; q++)
+            spot_port_lines(out, res, l, q, &s.zports[q]);
+    }
+}
+
 /* The loop gain at the .break wire, next to loop l's return ratio. */
 static void break_lines(FILE *out, const tb_result *res, size_t l)
 {
@@ -543,6 +600,7 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
     dc_block(out, &m, ckt);
     crossing_block(out, &m, &stab);
     closed_loop_lines(out, res, &m);
+    spot_lines(out, ckt, res, l);
     feedback_block(out, ckt, res, l);
     sensitivity_block(out, res, l);
     if (stab.computed)
@@ -654,6 +712,7 @@ tb_status tb_report_text(const tb_circuit *ckt, const tb_result *res, FILE *out)
         step_block(out, res);
     if (tb_result_has_census(res))
         census_block(out, res);
+    tb_report_distortion_text(ckt, res, out);
     fprintf(out, "\ncaution: %s\n", tb_report_caution);
     return ferror(out) ? TB_ERR_IO : TB_OK;
 }

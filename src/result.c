@@ -40,6 +40,15 @@ static void zp_free(tb_z_data *zd)
     tb_free(zd);
 }
 
+void tb_spot_data_free(tb_spot_data *sd)
+{
+    if (!sd)
+        return;
+    tb_free(sd->spots);
+    tb_free(sd->zp);
+    tb_free(sd);
+}
+
 static void wb_free(tb_wb_data *wb)
 {
     if (!wb)
@@ -47,6 +56,15 @@ static void wb_free(tb_wb_data *wb)
     tb_free(wb->pts);
     tb_free(wb->vs);
     tb_free(wb);
+}
+
+static void dist_free(tb_dist_data *dd)
+{
+    if (!dd)
+        return;
+    tb_free(dd->loops);
+    tb_free(dd->pts);
+    tb_free(dd);
 }
 
 void tb_result_free(tb_result *res)
@@ -65,10 +83,12 @@ void tb_result_free(tb_result *res)
     fb_free(res->fb);
     zp_free(res->zp);
     wb_free(res->wb);
+    dist_free(res->dist);
     tb_free(res->ftype);
     tb_free(res->mid);
     tb_free(res->sens);
     tb_free(res->sens_entries);
+    tb_spot_data_free(res->spot);
     tb_free(res);
 }
 
@@ -264,5 +284,51 @@ tb_status tb_break_get(const tb_result *res, tb_break_summary *out, const tb_bre
     *out = res->wb->sum;
     if (pts)
         *pts = res->wb->pts;
+    return TB_OK;
+}
+
+tb_status tb_distortion_get(const tb_result *res, tb_distortion *out)
+{
+    if (!res || !out)
+        return TB_ERR_USAGE;
+    if (res->dist)
+        *out = res->dist->sum;
+    else
+        *out = (tb_distortion){.computed = false, .why_absent = "no .volterra directive"};
+    return TB_OK;
+}
+
+tb_status tb_distortion_loop_get(const tb_result *res, size_t l, tb_distortion_loop *out,
+                                 const tb_dist_sweep_point **pts, size_t *count)
+{
+    if (!res || !out || l >= res->nloops)
+        return TB_ERR_USAGE;
+    const tb_dist_data *dd = res->dist;
+    if (dd && dd->loops)
+        *out = dd->loops[l];
+    else
+        *out = (tb_distortion_loop){.computed = false,
+                                    .why_absent = dd ? dd->sum.why_absent : "no .volterra directive"};
+    size_t n = dd && dd->pts ? dd->sum.sweep_points : 0;
+    if (pts)
+        *pts = n ? dd->pts + l * n : NULL;
+    if (count)
+        *count = n;
+    return TB_OK;
+}
+
+size_t tb_spot_count(const tb_result *res)
+{
+    return res && res->spot ? res->spot->count : 0;
+}
+
+tb_status tb_spot_get(const tb_result *res, size_t i, size_t l, tb_spot *out)
+{
+    if (!res || !out || !res->spot || i >= res->spot->count || l >= res->spot->loops)
+        return TB_ERR_USAGE;
+    const tb_spot_data *sd = res->spot;
+    *out = sd->spots[i * sd->loops + l];
+    out->ports = sd->ports;
+    out->zports = sd->ports ? sd->zp + (i * sd->loops + l) * sd->ports : NULL;
     return TB_OK;
 }

@@ -25,6 +25,25 @@ typedef struct tb_wb_data {
     tb_break_vs_loop *vs; /* nloops: the break against each loop's return ratio */
 } tb_wb_data;
 
+/* Weakly nonlinear distortion (filled by distortion.c). */
+typedef struct tb_dist_data {
+    tb_distortion sum;
+    tb_distortion_loop *loops; /* nloops */
+    tb_dist_sweep_point *pts;  /* nloops x sum.sweep_points, loop-major */
+} tb_dist_data;
+
+/* Figures at chosen frequencies (filled by spot.c). */
+typedef struct tb_spot_data {
+    size_t count;
+    size_t loops;
+    size_t ports;
+    tb_spot *spots;   /* count x loops, frequency-major (zports left NULL: set by tb_spot_get) */
+    tb_zpoint *zp;    /* count x loops x ports */
+} tb_spot_data;
+
+/* Frees the figures at chosen frequencies (NULL is fine). */
+void tb_spot_data_free(tb_spot_data *sd);
+
 /* Everything tb_analyse found. The analyses fill their parts; the writers and
  * .expect read them through the accessors below and in include/tbeta.h. */
 struct tb_result {
@@ -53,6 +72,8 @@ struct tb_result {
     tb_sens_entry *sens_entries; /* nloops x sens_per_loop, each loop's ranked */
     size_t sens_per_loop;
     tb_point *mid;           /* nloops: every loop at cl.ref_hz when AC-coupled, else NULL */
+    tb_dist_data *dist;      /* .volterra distortion, or NULL (distortion.c) */
+    tb_spot_data *spot;      /* figures at chosen frequencies (spot.c), or NULL */
 };
 
 /* A result for npoints frequencies and nloops loops, freqs and the point table

@@ -28,6 +28,8 @@ struct tb_sweep {
     pthread_t *threads; /* nlanes - 1 */
     double rcond_drop;
     tb_probe probe;
+    tb_progress_fn progress; /* told of the grid points started, or NULL */
+    void *progress_ctx;
 };
 
 size_t tb_sweep_chunk(size_t npoints)
@@ -199,6 +201,8 @@ typedef struct {
     size_t fail_index;    /* the lowest grid point that failed; npoints while none */
     tb_status fail_status;
     size_t fail_culprit;
+    tb_progress_fn progress;
+    void *progress_ctx;
 } grid_run;
 
 typedef struct {
@@ -215,6 +219,8 @@ static bool take_chunk(grid_run *g, size_t *chunk)
     bool more = first < g->npoints && first < g->fail_index;
     if (more)
         *chunk = g->next_chunk++;
+    if (more && g->progress) /* under the lock: one call at a time */
+        g->progress(g->progress_ctx, first, g->npoints);
     if (g->threaded)
         pthread_mutex_unlock(&g->lock);
     return more;
@@ -331,6 +337,12 @@ static tb_status hand_to_probe(tb_sweep *s, const double *freqs, size_t npoints)
     return st;
 }
 
+void tb_sweep_set_progress(tb_sweep *s, tb_progress_fn fn, void *ctx)
+{
+    s->progress = fn;
+    s->progress_ctx = ctx;
+}
+
 tb_status tb_sweep_run(tb_sweep *s, const double *freqs, size_t npoints, bool dc,
                        const tb_sweep_hook *hooks, size_t nhooks, bool *has_dc)
 {
@@ -343,7 +355,8 @@ tb_status tb_sweep_run(tb_sweep *s, const double *freqs, size_t npoints, bool dc
     tb_status st = dc ? sweep_dc(s, hooks, nhooks, has_dc, &dc_culprit) : TB_OK;
     if (!st) {
         grid_run g = {.s = s, .freqs = freqs, .npoints = npoints, .chunk = tb_sweep_chunk(npoints),
-                      .hooks = hooks, .nhooks = nhooks, .fail_index = npoints};
+                      .hooks = hooks, .nhooks = nhooks, .fail_index = npoints,
+                      .progress = s->progress, .progress_ctx = s->progress_ctx};
         grid_run_all(s, &g);
         st = g.fail_index < npoints ? g.fail_status : TB_OK;
         if (st == TB_ERR_SINGULAR)

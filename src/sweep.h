@@ -91,6 +91,10 @@ size_t tb_sweep_lanes(const tb_sweep *sweep);
 tb_status tb_sweep_run(tb_sweep *sweep, const double *freqs, size_t npoints, bool dc,
                        const tb_sweep_hook *hooks, size_t nhooks, bool *has_dc);
 
+/* Tells fn(ctx, done, npoints) of the grid points started as tb_sweep_run takes each chunk
+ * (from whichever thread takes it, one call at a time); fn NULL: nothing is told. */
+void tb_sweep_set_progress(tb_sweep *sweep, tb_progress_fn fn, void *ctx);
+
 /* Fresh solves at new frequencies (root finding, the Nyquist path) on lane 0's
  * solver; valid while the sweep lives. */
 tb_probe *tb_sweep_probe(tb_sweep *sweep);

@@ -3,7 +3,7 @@
 # demo netlist: `tbeta report NET --html` and `tbeta plot NET --svg DIR`; every SVG and every
 # page must be well-formed XML (xmllint); each page is rendered by headless Chromium to a PNG,
 # which must have the expected width and be far from blank (tests/png_check.py), with no
-# console error.
+# console error. The same for the library summary page of `tbeta check --html --html-reports`.
 # Usage: sh tests/browser.sh BUILD [WRAPPER]
 build=$1
 tbeta=$build/tbeta
@@ -38,5 +38,20 @@ for net in netlists/*.net tests/fb/*.net; do
     /usr/bin/python3 tests/png_check.py "$tmp/$base.png" 1000 1400 || say "$net: the rendered page"
     pages=$((pages + 1))
 done
+# the library summary of tbeta check, with the netlists' own pages beside it
+"$tbeta" check netlists tests/fb --html "$tmp/library.html" --html-reports >/dev/null 2>&1
+rc=$?
+[ "$rc" -le 1 ] || say "check --html exit $rc"
+xmllint --noout "$tmp/library.html" 2>"$tmp/xml.txt" || { say "the summary page is not well-formed"; cat "$tmp/xml.txt"; }
+grep -q "<script" "$tmp/library.html" && say "the summary page has a script"
+grep -Eq "(src|href)=\"(https?:)?//" "$tmp/library.html" && say "the summary page fetches something"
+for page in "$tmp"/library-reports/*.html; do
+    xmllint --noout "$page" 2>/dev/null || say "$page: not well-formed"
+done
+timeout 120 "$browser" --headless --no-sandbox --disable-gpu --hide-scrollbars --window-size=1000,1400 \
+    --enable-logging=stderr --v=0 --screenshot="$tmp/library.png" "file://$tmp/library.html" >"$tmp/chrome.txt" 2>&1 || true
+grep -q "CONSOLE" "$tmp/chrome.txt" && { say "summary page: console messages"; grep CONSOLE "$tmp/chrome.txt" | head -3; }
+/usr/bin/python3 tests/png_check.py "$tmp/library.png" 1000 1400 || say "the rendered summary page"
+pages=$((pages + 1))
 [ "$fail" -eq 0 ] && echo "browser: $pages pages rendered, every page and picture well-formed"
 exit $fail

@@ -145,7 +145,7 @@ for f in docs/examples/*.net; do
 done
 
 # every demo: report, JSON and CSV run, JSON parses, nothing prints nan or inf
-for f in netlists/*.net tests/ref/*.net; do
+for f in netlists/*.net netlists/devices/*.net tests/ref/*.net; do
     expect "report $f" 0 $tb "$f"
     has "report $f" out "caution: tbeta is a small-signal, linear analysis"
     expect "json $f" 0 $tb report "$f" --json
@@ -245,6 +245,82 @@ for g in dec dec_fine lin lin_fine; do
     if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/out"; then
         failed=$((failed + 1)); echo "FAIL tank-$g-csv: nan or inf"; else passed=$((passed + 1)); fi
 done
+
+# --at: the figures at chosen frequencies in text and JSON (their values: tests/ref/at_check.py)
+expect at-text 0 $tb report tests/fb/noninverting_x20.net --at 1k,20kHz --no-stability
+has at-text out "at chosen frequencies (each by a fresh solve there)"
+has at-text out "    at 20 kHz"
+has at-text out "Z at port out"
+expect at-json 0 $tb report tests/fb/noninverting_x20.net --at 1k --at 0,3.3meg --json --no-stability
+if /usr/bin/python3 - "$tmp/out" <<'PY'; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL at-json: content"; fi
+import json, sys
+d = json.load(open(sys.argv[1]))
+assert [e["hz"] for e in d["at"]] == [1000.0, 0.0, 3.3e6], d["at"]
+lp = d["at"][0]["loops"][0]
+assert lp["loop"] == "EA" and lp["solved"] and lp["breakdown"]["loading"] is not None
+assert [p["name"] for p in lp["ports"]] == ["in", "out"]
+PY
+expect at-bad 2 $tb report tests/fb/noninverting_x20.net --at 1k,-5
+has at-bad err "tbeta: --at needs frequencies of 0 Hz or more such as 1k,20k (at most 1000), got 1k,-5"
+expect at-empty 2 $tb report tests/fb/noninverting_x20.net --at 1k,,2k
+expect at-word 2 $tb report tests/fb/noninverting_x20.net --at one
+expect at-html 0 $tb report tests/fb/noninverting_x20.net --at 1k --html -
+has at-html out "<h3>At chosen frequencies (each by a fresh solve there)</h3>"
+has at-html out "<!DOCTYPE html>"
+
+# - for the netlist (standard input) and for stdout; --output replaces a file whole
+expect stdin-sweep 0 sh -c "$tb sweep - <netlists/ota_gain_of_2.net"
+mv "$tmp/out" "$tmp/stdin.csv"
+expect file-sweep 0 $tb sweep netlists/ota_gain_of_2.net
+if cmp -s "$tmp/out" "$tmp/stdin.csv"; then passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL stdin-sweep: differs from the file's table"; fi
+expect stdin-bad 2 sh -c "printf 'title\nR1 a 0 1k\nQ9 x\n' | $tb report -"
+has stdin-bad err "<stdin>:3:1: error:"
+echo "old" >"$tmp/report.txt"
+expect output-report 0 $tb report netlists/ota_gain_of_2.net --output "$tmp/report.txt"
+if [ ! -s "$tmp/out" ] && grep -q "feedback report for netlists/ota_gain_of_2.net" "$tmp/report.txt"; then
+    passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL output-report: stdout not empty or file not written"; fi
+expect output-step 0 $tb step netlists/ota_gain_of_2.net --output "$tmp/step.csv"
+head -1 "$tmp/step.csv" | grep -q "^t_s,y" && passed=$((passed + 1)) || { failed=$((failed + 1)); echo "FAIL output-step: no table"; }
+expect output-dash 0 $tb sweep netlists/ota_gain_of_2.net --output -
+has output-dash out "freq_hz,"
+expect output-nodir 2 $tb report netlists/ota_gain_of_2.net --output "$tmp/no/such/dir/r.txt"
+has output-nodir err "cannot write '$tmp/no/such/dir/r.txt'"
+ls "$tmp"/no 2>/dev/null && { failed=$((failed + 1)); echo "FAIL output-nodir: something was made"; } || passed=$((passed + 1))
+expect output-missing 2 $tb report netlists/ota_gain_of_2.net --output
+has output-missing err "--output needs a file name"
+
+# tbeta check --html: the summary page (well-formed, no script, nothing fetched) and the
+# netlists' own pages beside it, linked from it
+expect check-html 0 $tb check netlists --html "$tmp/lib.html" --html-reports --jobs 2
+xmllint --noout "$tmp/lib.html" && passed=$((passed + 1)) || { failed=$((failed + 1)); echo "FAIL check-html: not well-formed"; }
+has check-html out "check: "
+if grep -q "<script" "$tmp/lib.html" || grep -Eq '(src|href)="(https?:)?//' "$tmp/lib.html"; then
+    failed=$((failed + 1)); echo "FAIL check-html: a script or a fetched resource"; else passed=$((passed + 1)); fi
+n=$(ls netlists/*.net | wc -l)
+links=$(grep -o 'href="lib-reports/[^"]*"' "$tmp/lib.html" | wc -l)
+pages=$(ls "$tmp/lib-reports"/*.html | wc -l)
+if [ "$links" -eq "$n" ] && [ "$pages" -eq "$n" ]; then passed=$((passed + 1)); else
+    failed=$((failed + 1)); echo "FAIL check-html: $links links, $pages pages for $n netlists"; fi
+for page in $(grep -o 'href="lib-reports/[^"]*"' "$tmp/lib.html" | sed 's/href="//; s/"$//'); do
+    [ -f "$tmp/$page" ] || { failed=$((failed + 1)); echo "FAIL check-html: link to a missing $page"; }
+done
+expect check-html-stdout 1 $tb check tests/check/regressed --html -
+has check-html-stdout out '<span class="status fail">FAIL</span>'
+if grep -q "^check: " "$tmp/out"; then failed=$((failed + 1)); echo "FAIL check-html-stdout: the text summary too"; else passed=$((passed + 1)); fi
+expect check-reports-alone 2 $tb check netlists --html-reports
+has check-reports-alone err "--html-reports needs --html FILE"
+expect check-two-stdout 2 $tb check netlists --json - --html -
+has check-two-stdout err "only one document can go to stdout"
+expect check-output 0 $tb check netlists --output "$tmp/check.txt"
+grep -q "^check: " "$tmp/check.txt" && [ ! -s "$tmp/out" ] && passed=$((passed + 1)) || { failed=$((failed + 1)); echo "FAIL check-output"; }
+
+# the progress line: never in a pipe, never with CI set (even on a terminal)
+expect progress-pipe 0 $tb sweep netlists/ota_gain_of_2.net
+if grep -q "sweep points" "$tmp/err"; then failed=$((failed + 1)); echo "FAIL progress-pipe: a progress line in a pipe"; else passed=$((passed + 1)); fi
+if command -v script >/dev/null 2>&1; then
+    CI=1 script -qec "$tb check netlists --output /dev/null" /dev/null >"$tmp/tty.txt" 2>&1
+    if grep -q "netlists (" "$tmp/tty.txt"; then failed=$((failed + 1)); echo "FAIL progress-ci: a progress line with CI set"; else passed=$((passed + 1)); fi
+fi
 
 echo "cli: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]

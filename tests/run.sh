@@ -12,6 +12,8 @@ for t in "$build"/tests/test_*; do
 done
 if sh tests/cli.sh "$build" "$wrap"; then passed=$((passed + 1)); else
     failed=$((failed + 1)); echo "FAILED: tests/cli.sh"; fi
+if sh tests/help.sh "$build" "$wrap"; then passed=$((passed + 1)); else
+    failed=$((failed + 1)); echo "FAILED: tests/help.sh"; fi
 if sh tests/check.sh "$build" "$wrap"; then passed=$((passed + 1)); else
     failed=$((failed + 1)); echo "FAILED: tests/check.sh"; fi
 if sh tests/install.sh "$build" "$wrap"; then passed=$((passed + 1)); else

@@ -225,7 +225,7 @@ static void test_expect_figures_closed_form(void **state)
     assert_int_equal(tb_measure_loop(res, 0, &m), TB_OK);
     assert_int_equal(tb_stability_loop(res, 0, &st), TB_OK);
     assert_int_equal(tb_step_figures_get(res, &step), TB_OK);
-    tb_figure_src src = {&m, &st, &step, NULL};
+    tb_figure_src src = {&m, &st, &step, NULL, NULL, NULL};
     double T0 = 1000.0;
     double fp = 1.0 / (2 * TU_PI * 1e6 * 15.9e-9);
     double fc = fp * sqrt(T0 * T0 - 1);
@@ -296,7 +296,7 @@ static void test_expect_ideal_figures(void **state)
     assert_int_equal(tb_stability_loop(res, 0, &st), TB_OK);
     assert_int_equal(tb_step_figures_get(res, &step), TB_OK);
     assert_int_equal(tb_feedback_loop(res, 0, &fb), TB_OK);
-    tb_figure_src src = {&m, &st, &step, &fb};
+    tb_figure_src src = {&m, &st, &step, &fb, NULL, NULL};
     double T0 = 1000.0;
     double fp = 1.0 / (2 * TU_PI * 1e6 * 15.9e-9);
     double x = 0;

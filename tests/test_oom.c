@@ -180,6 +180,11 @@ static tb_status netlist_once(const void *ctx)
     tb_options_init(&opt);
     opt.census = np->census;
     opt.sensitivity = np->census; /* the passes with the census also take the sensitivities */
+    static const double at[] = {1234.5, 0.0};
+    if (!np->census) { /* the others take figures at chosen frequencies */
+        opt.at_hz = at;
+        opt.at_count = 2;
+    }
     tb_diag *diag = tb_diag_new();
     tb_circuit *ckt = NULL;
     tb_result *res = NULL;
@@ -215,6 +220,10 @@ static void test_oom_demo_netlists(void **state)
         {"tests/fb/transistor_wirebreak.net", false},
         /* names with bytes that are not UTF-8, a title with an escape sequence */
         {"tests/cli/odd_bytes.net", true},
+        /* .volterra: two nonlinear sources, the loop opened, the sweep, distortion .expect cards */
+        {"docs/examples/distortion.net", false},
+        /* a device card with an internal node (device.c's names and nodes) */
+        {"tests/device/ce_closed.net", false},
     };
     for (size_t i = 0; i < sizeof passes / sizeof passes[0]; i++)
         sweep(passes[i].path, netlist_once, &passes[i]);
@@ -247,6 +256,9 @@ static void json_sweep(const char *path)
     tb_options opt;
     tb_options_init(&opt);
     opt.census = true;
+    static const double at[] = {1234.5};
+    opt.at_hz = at;
+    opt.at_count = 1;
     assert_int_equal(tb_circuit_read(path, diag, &ckt), TB_OK);
     assert_int_equal(tb_analyse(ckt, &opt, diag, &res), TB_OK);
     json_pass jp = {ckt, res};
@@ -265,6 +277,7 @@ static void test_oom_json_writer(void **state)
     (void)state;
     json_sweep("tests/fb/noninverting_x20.net");
     json_sweep("tests/cli/odd_bytes.net"); /* names made UTF-8 (tb_report_json_text) */
+    json_sweep("docs/examples/distortion.net"); /* the distortion object */
 }
 
 static void test_oom_malformed_netlist(void **state)

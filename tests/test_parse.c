@@ -354,12 +354,12 @@ static const struct {
     {"t\n(R1 a 0 1)\n", "t.net:2:1: error: expected an element or a directive, got '('"},
     {"t\n=\n", "t.net:2:1: error: expected an element or a directive, got '='"},
     {"t\nU1 a 0 1k\n",
-     "t.net:2:1: error: unknown element 'U1': 'U' is not one of the element letters R C L V I E G F H K X"},
+     "t.net:2:1: error: unknown element 'U1': 'U' is not one of the element letters R C L V I E G F H K Q M X"},
     {"t\n1R a 0 1\n",
-     "t.net:2:1: error: unknown element '1R': '1' is not one of the element letters R C L V I E G F H K X"},
+     "t.net:2:1: error: unknown element '1R': '1' is not one of the element letters R C L V I E G F H K Q M X"},
     {"t\n\xCE\xA9" "1 a 0 1\n",
      "t.net:2:1: error: unknown element '\xCE\xA9" "1': '\xCE\xA9' is not one of the element "
-     "letters R C L V I E G F H K X"},
+     "letters R C L V I E G F H K Q M X"},
     /* R, C, L */
     {"t\nR1\n", "t.net:2:3: error: expected a node name after 'R1'"},
     {"t\nR1 a\n", "t.net:2:5: error: expected a node name for R1 after 'a'"},
