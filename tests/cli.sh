@@ -296,7 +296,7 @@ xmllint --noout "$tmp/lib.html" && passed=$((passed + 1)) || { failed=$((failed 
 has check-html out "check: "
 if grep -q "<script" "$tmp/lib.html" || grep -Eq '(src|href)="(https?:)?//' "$tmp/lib.html"; then
     failed=$((failed + 1)); echo "FAIL check-html: a script or a fetched resource"; else passed=$((passed + 1)); fi
-n=$(ls netlists/*.net | wc -l)
+n=$(find netlists -name "*.net" | wc -l) # the library is searched recursively (netlists/devices/ too)
 links=$(grep -o 'href="lib-reports/[^"]*"' "$tmp/lib.html" | wc -l)
 pages=$(ls "$tmp/lib-reports"/*.html | wc -l)
 if [ "$links" -eq "$n" ] && [ "$pages" -eq "$n" ]; then passed=$((passed + 1)); else
