@@ -140,7 +140,7 @@ fuzz: $(BUILD)/tbeta
 	    >/dev/null 2>&1; true; done
 	cd build/fuzz && ./fuzz_netlist -max_total_time=$$(( $(SECONDS) * 2 / 3 )) -max_len=4096 $(FUZZ_OPTS) corpus
 	cd build/fuzz && ./fuzz_runner -max_total_time=$$(( $(SECONDS) - $(SECONDS) * 2 / 3 )) \
-	    -max_len=65536 $(FUZZ_OPTS) corpus-runner
+	    -max_len=131072 $(FUZZ_OPTS) corpus-runner
 
 clean:
 	rm -rf build
