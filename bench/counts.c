@@ -25,9 +25,9 @@ int main(int argc, char **argv)
         rc = tb_result_stats(res, &st);
     if (!rc) {
         printf("grid_points %zu\ngrid_factorizations %zu\ngrid_pivoted %zu\ngrid_solve_columns %zu\n"
-               "probe_factorizations %zu\nstep_factorizations %zu\n",
+               "probe_factorizations %zu\nstep_factorizations %zu\nprobe_solve_columns %zu\n",
                st.grid_points, st.grid_factorizations, st.grid_pivoted, st.grid_solve_columns,
-               st.probe_factorizations, st.step_factorizations);
+               st.probe_factorizations, st.step_factorizations, st.probe_solve_columns);
     } else {
         fprintf(stderr, "counts: %s: %s\n", argv[1], tb_status_str(rc));
     }

@@ -77,7 +77,8 @@ counts() {
     a=$("$DIR/counts" "$plain")
     b=$("$DIR/counts" "$1" --all-sources)
     printf '  %-34s %12s %12s\n' "$(basename "$1")" "plain" "all on"
-    for k in grid_points grid_factorizations grid_pivoted grid_solve_columns probe_factorizations step_factorizations; do
+    for k in grid_points grid_factorizations grid_pivoted grid_solve_columns probe_factorizations step_factorizations \
+             probe_solve_columns; do
         printf '  %-34s %12s %12s\n' "$k" "$(echo "$a" | awk -v k=$k '$1 == k { print $2 }')" \
             "$(echo "$b" | awk -v k=$k '$1 == k { print $2 }')"
     done

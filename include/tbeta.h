@@ -224,6 +224,9 @@ typedef struct {
     size_t probe_factorizations; /* numeric factorizations at new frequencies and changed gains */
     size_t step_factorizations;  /* spent by the step response: fresh M(jw) that check the sum
                                   * over the modes, or real time-step matrices G + aC */
+    size_t probe_solve_columns;  /* right-hand sides solved at new frequencies and changed gains
+                                  * (before the step response): a loop's search solves for that
+                                  * loop alone, so this grows with the loops, not their square */
 } tb_stats;
 
 /* The counts of res. Errors: TB_ERR_USAGE (NULL). */
@@ -242,6 +245,8 @@ typedef enum {
     TB_NOTE_NO_F3DB,         /* |A| never falls 3 dB below its DC value in the sweep */
     TB_NOTE_AINF_NONE_DC,    /* A_inf undefined at DC (T has a zero there) */
     TB_NOTE_FEEDTHROUGH,     /* A0 contributes more than 1 % of A at DC: A != a/(1+a*beta) */
+    TB_NOTE_T_INF_SWEEP,     /* T is infinite at sweep points (tb_measures.t_inf_points): a pole of T
+                              * on the j-omega axis, e.g. a lossless resonance on a grid frequency */
     TB_NOTE_COUNT
 } tb_note;
 
@@ -295,6 +300,8 @@ typedef struct {
     double max_sensitivity_db; /* largest |1/(1+T)| = 1/vector margin, in dB */
     double max_sensitivity_hz;
     unsigned notes;
+    size_t t_inf_points;    /* sweep points (DC not counted) where T is infinite */
+    double t_inf_first_hz;  /* the lowest of them (0 when none) */
 } tb_measures;
 
 /* Measures of loop l (computed once by tb_analyse). Errors: TB_ERR_USAGE (NULL,

@@ -119,6 +119,7 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
     if (!st)
         st = tb_distortion_run(ckt, probe, res);
     res->stats.probe_factorizations = probe->factorizations;
+    res->stats.probe_solve_columns = tb_sweep_counts(sw).columns - res->stats.grid_solve_columns;
     size_t before = tb_sweep_counts(sw).numeric;
     if (!st && opt->stability)
         st = tb_step_run(probe, res);

@@ -18,7 +18,7 @@ typedef struct {
 static tb_status gain_at(cl_eval *ce, double f, double complex *A)
 {
     size_t culprit = 0;
-    tb_status st = tb_probe_eval(ce->probe, f, &culprit);
+    tb_status st = tb_probe_eval_loop(ce->probe, f, 0, &culprit);
     if (st)
         return st;
     *A = ce->probe->row[0].A;

@@ -60,7 +60,7 @@ static tb_status excess(void *ctx, double f, double *y)
 {
     limit_ctx *lc = ctx;
     size_t culprit = 0;
-    tb_status st = tb_probe_eval(lc->probe, f, &culprit);
+    tb_status st = tb_probe_eval_loop(lc->probe, f, lc->l, &culprit);
     if (st)
         return st;
     *y = cabs(lc->probe->row[lc->l].A - lc->G) / fabs(lc->G) - lc->tol;
@@ -91,7 +91,7 @@ static tb_status find_limit(tb_probe *probe, const tb_result *res, size_t l, tb_
         if (st) /* a singular point in the bracket: the grid point stands */
             f = res->freqs[i];
         size_t culprit = 0;
-        if ((st = tb_probe_eval(probe, f, &culprit)))
+        if ((st = tb_probe_eval_loop(probe, f, l, &culprit)))
             return st == TB_ERR_NOMEM ? st : TB_OK;
         s->has_limit = true;
         s->limit_hz = f;

@@ -197,30 +197,55 @@ static void finish_loop(const tb_mna *mna, const tb_loop_work *work, size_t l, d
     }
 }
 
-tb_status tb_loop_eval(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
-                       tb_loop_work *work, tb_point *out)
+/* Loops lo..hi-1 from x and their w_l (solved): T, A, A_inf, a, then x0 and w0 refined
+ * against each loop's M0 where needed, A0 and the refined T. */
+static tb_status finish_points(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
+                               tb_loop_work *work, size_t lo, size_t hi, tb_point *out)
 {
     size_t n = mna->n;
-    size_t first = mna->has_io ? 0 : 1; /* column 0 is x, needed only with .io */
-    double complex *x = work->rhs;
-    if (mna->has_io)
-        scatter(&mna->b, x, n);
-    for (size_t l = 0; l < mna->loop_count; l++)
-        scatter(&mna->loops[l].u, work->rhs + (l + 1) * n, n);
-    if (tb_solver_solve(solver, work->rhs + first * n, mna->loop_count + 1 - first))
-        return TB_ERR_NUMERIC;
+    const double complex *x = work->rhs;
     size_t count = 0;
-    for (size_t l = 0; l < mna->loop_count; l++) {
+    for (size_t l = lo; l < hi; l++) {
         evaluate(mna, &mna->loops[l], x, work->rhs + (l + 1) * n, &out[l]);
         count = start_vectors(mna, work, l, &out[l], count);
     }
     for (int step = 0; step < TB_LOOP_REFINE_STEPS && count > 0; step++)
         if (refine(mna, solver, Mx, omega, work, count, &count))
             return TB_ERR_NUMERIC;
-    for (size_t l = 0; l < mna->loop_count; l++) {
+    for (size_t l = lo; l < hi; l++) {
         const tb_loopvec *lv = &mna->loops[l];
         double complex q = lv->k * tb_svec_dot(&lv->v, work->rhs + (l + 1) * n);
         finish_loop(mna, work, l, q, &out[l]);
     }
     return TB_OK;
+}
+
+tb_status tb_loop_eval(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
+                       tb_loop_work *work, tb_point *out)
+{
+    size_t n = mna->n;
+    size_t first = mna->has_io ? 0 : 1; /* column 0 is x, needed only with .io */
+    if (mna->has_io)
+        scatter(&mna->b, work->rhs, n);
+    for (size_t l = 0; l < mna->loop_count; l++)
+        scatter(&mna->loops[l].u, work->rhs + (l + 1) * n, n);
+    if (tb_solver_solve(solver, work->rhs + first * n, mna->loop_count + 1 - first))
+        return TB_ERR_NUMERIC;
+    return finish_points(mna, solver, Mx, omega, work, 0, mna->loop_count, out);
+}
+
+tb_status tb_loop_eval_one(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
+                           tb_loop_work *work, size_t l, tb_point *out)
+{
+    size_t n = mna->n;
+    double complex *w = work->rhs + (l + 1) * n;
+    scatter(&mna->loops[l].u, w, n);
+    if (mna->has_io) {
+        scatter(&mna->b, work->rhs, n);
+        if (tb_solver_solve(solver, work->rhs, 1))
+            return TB_ERR_NUMERIC;
+    }
+    if (tb_solver_solve(solver, w, 1))
+        return TB_ERR_NUMERIC;
+    return finish_points(mna, solver, Mx, omega, work, l, l + 1, out);
 }

@@ -49,4 +49,10 @@ const double complex *tb_loop_work_w(const tb_loop_work *work, size_t l);
 tb_status tb_loop_eval(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
                        tb_loop_work *work, tb_point *out);
 
+/* As tb_loop_eval for loop l alone (the same numbers for it): solves for x (with .io) and
+ * w_l only, writes out[l] only; afterwards tb_loop_work_w is valid for l alone. Work at a
+ * new frequency for one loop costs two solves, whatever the number of loops. */
+tb_status tb_loop_eval_one(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
+                           tb_loop_work *work, size_t l, tb_point *out);
+
 #endif

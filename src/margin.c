@@ -48,7 +48,8 @@ static void link_phase(const sample *from, sample *to)
         to->ret = from->ret;
         return;
     }
-    to->deg = from->deg + tb_wrap180(carg(to->T) * TB_DEG_PER_RAD - from->deg);
+    double d = carg(to->T) * TB_DEG_PER_RAD - from->deg;
+    to->deg = from->deg + (from->inf ? tb_phase_step_past_pole(d) : tb_wrap180(d));
     to->ret = from->ret + tb_wrap180(carg(1.0 + to->T) * TB_DEG_PER_RAD - from->ret);
 }
 
@@ -69,7 +70,7 @@ static void incomplete(scan *sc, tb_stab_note why)
 static tb_status eval(scan *sc, double f, const sample *from, sample *out)
 {
     size_t culprit = 0;
-    tb_status st = tb_probe_eval(sc->probe, f, &culprit);
+    tb_status st = tb_probe_eval_loop(sc->probe, f, sc->l, &culprit);
     if (st) {
         if (st != TB_ERR_NOMEM)
             incomplete(sc, TB_SNOTE_PROBE_FAILED);
@@ -167,12 +168,19 @@ static void append(scan *sc, tb_crossing *list, size_t *count, const tb_crossing
     list[(*count)++] = *c;
 }
 
+/* ln|T| of a sample for the unity search: an infinite T (a pole of T on the axis, at a
+ * lossless resonance) stands as |T| = 1e300, far above 1. */
+static double ln_mag(const sample *s)
+{
+    return s->inf ? log(1e300) : log(fmax(cabs(s->T), 1e-300));
+}
+
 /* Brent between a and b on the unity or phase function; records the crossing. */
 static tb_status refine_root(scan *sc, const sample *a, const sample *b, int kind, double level)
 {
     root_ctx rc = {sc, a, kind, level};
-    double fa = kind == ROOT_UNITY ? log(fmax(cabs(a->T), 1e-300)) : a->deg - level;
-    double fb = kind == ROOT_UNITY ? log(fmax(cabs(b->T), 1e-300)) : b->deg - level;
+    double fa = kind == ROOT_UNITY ? ln_mag(a) : a->deg - level;
+    double fb = kind == ROOT_UNITY ? ln_mag(b) : b->deg - level;
     double x = 0;
     sample s;
     tb_status st = tb_brent_root(root_fn, &rc, log(a->f), log(b->f), fa, fb, 1e-13, 100, &x);
@@ -184,7 +192,7 @@ static tb_status refine_root(scan *sc, const sample *a, const sample *b, int kin
         return st == TB_ERR_NOMEM ? st : TB_OK; /* noted; the crossing is skipped */
     tb_crossing c = {.hz = s.f, .T_db = db_of(s.T), .phase_deg = s.deg, .sweep = side_of(sc, s.f)};
     if (kind == ROOT_UNITY) {
-        c.direction = db_of(b->T) > db_of(a->T) ? 1 : -1;
+        c.direction = ln_mag(b) > ln_mag(a) ? 1 : -1;
         c.margin = tb_wrap180(s.deg + 180.0);
         c.delay_s = lag_deg(c.margin) / 360.0 / s.f;
         append(sc, sc->st->unity, &sc->st->unity_count, &c);
@@ -222,8 +230,12 @@ static void track_vector(scan *sc, const sample *a, const sample *b)
 static tb_status leaf(scan *sc, const sample *a, const sample *b)
 {
     track_vector(sc, a, b);
-    if (a->inf || b->inf)
+    if (a->inf && b->inf)
         return TB_OK;
+    if (a->inf || b->inf) { /* |T| rises without bound towards the infinite end: from below 1, it crosses 1 */
+        const sample *finite = a->inf ? b : a;
+        return cabs(finite->T) < 1.0 ? refine_root(sc, a, b, ROOT_UNITY, 0) : TB_OK;
+    }
     tb_status st = TB_OK;
     if ((cabs(a->T) < 1.0) != (cabs(b->T) < 1.0))
         st = refine_root(sc, a, b, ROOT_UNITY, 0);
@@ -573,7 +585,9 @@ void tb_margin_judge(tb_stability *st, double pm_min_deg, double gm_min_db)
     st->has_delay_margin = false;
     for (size_t i = 0; i < st->unity_count; i++) {
         const tb_crossing *c = &st->unity[i];
-        if (!st->has_phase_margin || pm_key(c, stable) < pm_key(&st->unity[st->phase_margin_index], stable)) {
+        /* a tie to rounding (a symmetric pair about a pole on the axis) keeps the lower crossing */
+        if (!st->has_phase_margin ||
+            pm_key(c, stable) < pm_key(&st->unity[st->phase_margin_index], stable) - TB_MARGIN_TIE_DEG) {
             st->has_phase_margin = true;
             st->phase_margin_index = i;
         }

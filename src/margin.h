@@ -9,6 +9,8 @@
  * refinement solves per loop (the roots come on top). */
 #define TB_MARGIN_MAX_DEPTH 12
 #define TB_MARGIN_BUDGET 4000
+/* Phase margins closer than this (degrees) are equally bad: the headline is the lower crossing. */
+#define TB_MARGIN_TIE_DEG 1e-9
 /* An interval is split when T's phase moves more than this many degrees, |T|
  * more than TB_MARGIN_SPLIT_DB, or the phase of 1 + T more than TB_MARGIN_SPLIT_RET.
  * Outside the sweep the |T| rule applies only within TB_MARGIN_NEAR_DB of 0 dB. */

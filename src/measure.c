@@ -21,9 +21,15 @@ static void unwrap_phase(const tb_result *res, size_t l, double *deg)
 {
     const tb_point *pts = tb_result_loop(res, l);
     double prev = start_phase(res, l, pts);
+    bool past_pole = false; /* a point where T is infinite lies since the last finite one */
     for (size_t i = 0; i < res->npoints; i++) {
-        if (!(pts[i].flags & TB_PT_T_INF))
-            prev += tb_wrap180(carg(pts[i].T) * TB_DEG_PER_RAD - prev);
+        if (pts[i].flags & TB_PT_T_INF) {
+            past_pole = i > 0 || res->has_dc;
+        } else {
+            double d = carg(pts[i].T) * TB_DEG_PER_RAD - prev;
+            prev += past_pole ? tb_phase_step_past_pole(d) : tb_wrap180(d);
+            past_pole = false;
+        }
         deg[i] = prev;
     }
 }
@@ -112,7 +118,7 @@ static void measure_unity(const tb_result *res, size_t l, tb_measures *m)
     }
     const double *deg = tb_result_phase(res, l);
     m->has_phase_margin = true;
-    m->phase_margin_deg = 180.0 + deg[i] + t * (deg[i + 1] - deg[i]);
+    m->phase_margin_deg = tb_wrap180(180.0 + deg[i] + t * (deg[i + 1] - deg[i])); /* as margin.c */
 }
 
 static void measure_f3db(const tb_result *res, tb_measures *m)
@@ -195,6 +201,13 @@ static void measure_dc(const tb_result *res, size_t l, tb_measures *m)
         loop_seen = loop_seen || !(pts[i].flags & TB_PT_AINF_NONE) || !res->has_io;
     if (!loop_seen)
         m->notes |= 1u << TB_NOTE_NOT_IN_LOOP;
+    for (size_t i = res->npoints; i-- > 0;)
+        if (pts[i].flags & TB_PT_T_INF) {
+            m->t_inf_points++;
+            m->t_inf_first_hz = res->freqs[i];
+        }
+    if (m->t_inf_points > 0)
+        m->notes |= 1u << TB_NOTE_T_INF_SWEEP;
     if (res->has_io && !(m->dc.flags & (TB_PT_T_INF | TB_PT_A0_NONE)) &&
         cabs(m->dc.A0 / (1.0 + m->dc.T)) > 0.01 * cabs(m->dc.A))
         m->notes |= 1u << TB_NOTE_FEEDTHROUGH;

@@ -15,6 +15,7 @@ tb_status tb_probe_factor(tb_probe *probe, double f, bool pivot, size_t *culprit
         return TB_OK;
     probe->held = false;
     probe->row_valid = false;
+    probe->one_valid = false;
     tb_mna_values(probe->mna, TB_TWO_PI * f, probe->Mx);
     probe->factorizations++;
     tb_status st = pivot ? tb_solver_factor(probe->solver, probe->Mx, culprit)
@@ -38,10 +39,23 @@ tb_status tb_probe_eval(tb_probe *probe, double f, size_t *culprit)
     return st;
 }
 
+tb_status tb_probe_eval_loop(tb_probe *probe, double f, size_t l, size_t *culprit)
+{
+    probe->evaluations++;
+    tb_status st = tb_probe_factor(probe, f, false, culprit);
+    if (st || probe->row_valid || (probe->one_valid && probe->one == l))
+        return st;
+    st = tb_loop_eval_one(probe->mna, probe->solver, probe->Mx, TB_TWO_PI * f, probe->work, l, probe->row);
+    probe->one_valid = st == TB_OK;
+    probe->one = l;
+    return st;
+}
+
 tb_status tb_probe_factor_gain(tb_probe *probe, double f, size_t l, double d, size_t *culprit)
 {
     probe->held = false;
     probe->row_valid = false;
+    probe->one_valid = false;
     const tb_loopvec *lv = &probe->mna->loops[l];
     tb_mna_values_gain(probe->mna, TB_TWO_PI * f, lv, lv->k * d, probe->Mx);
     probe->factorizations++;
@@ -52,5 +66,6 @@ tb_solver *tb_probe_take_solver(tb_probe *probe)
 {
     probe->held = false;
     probe->row_valid = false;
+    probe->one_valid = false;
     return probe->solver;
 }

@@ -19,6 +19,8 @@ typedef struct {
     double held_f;
     bool held_pivoted;
     bool row_valid;    /* row holds the loops at held_f */
+    bool one_valid;    /* row[one] holds loop `one` at held_f (tb_probe_eval_loop) */
+    size_t one;
 } tb_probe;
 
 /* A probe over borrowed pieces, holding nothing yet. */
@@ -35,6 +37,11 @@ tb_status tb_probe_factor(tb_probe *probe, double f, bool pivot, size_t *culprit
 /* tb_probe_factor(probe, f, false), then every loop into probe->row (kept while
  * the solver holds the same matrix). Errors as tb_probe_factor. */
 tb_status tb_probe_eval(tb_probe *probe, double f, size_t *culprit);
+
+/* As tb_probe_eval for loop l alone: tb_probe_factor(probe, f, false), then loop l into
+ * probe->row[l] (the same numbers as tb_probe_eval's), by two solves whatever the number of
+ * loops; the other entries of row are not current. Errors as tb_probe_factor. */
+tb_status tb_probe_eval_loop(tb_probe *probe, double f, size_t l, size_t *culprit);
 
 /* Factors, with pivoting, M(j 2 pi f) with loop l's source gain k changed to
  * k (1 + d) (tb_mna_values_gain). Errors as tb_probe_factor. */

@@ -496,6 +496,8 @@ static json_t *loop_object(builder *b, const tb_circuit *ckt, const tb_result *r
     if (st.computed)
         stability_keys(b, lp, &st);
     set(b, lp, "f3db_closed_hz", m.has_f3db ? num(m.f3db_closed_hz) : json_null());
+    set(b, lp, "t_infinite_points", json_integer((json_int_t)m.t_inf_points));
+    set(b, lp, "t_infinite_first_hz", m.t_inf_points ? num(m.t_inf_first_hz) : json_null());
     set(b, lp, "midband", midband_object(b, &m));
     set(b, lp, "stability_shown", json_boolean(m.stability_shown));
     set(b, lp, "oscillation_hz", m.has_oscillation ? num(m.oscillation_hz) : json_null());

@@ -612,6 +612,11 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
         for (int n = 0; n < TB_NOTE_COUNT; n++)
             if (m.notes & (1u << n))
                 fprintf(out, "    - %s\n", tb_note_str((tb_note)n));
+        if (m.t_inf_points > 0) {
+            char v[48];
+            fprintf(out, "      T is infinite at %zu sweep point%s, the first at %s\n", m.t_inf_points,
+                    m.t_inf_points == 1 ? "" : "s", fmt_hz(m.t_inf_first_hz, v, sizeof v));
+        }
         for (int n = 0; n < TB_SNOTE_COUNT; n++)
             if (stab.notes & (1u << n))
                 fprintf(out, "    - %s\n", tb_stab_note_str((tb_stab_note)n));

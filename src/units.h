@@ -11,6 +11,11 @@
 
 /* Wraps an angle difference in degrees into (-180, 180]. */
 double tb_wrap180(double deg);
+/* The step of the unwrapped phase of T from a point before to a point after one where T is
+ * infinite (a pole of T on the j-omega axis): in (-360, 0]. The Nyquist path passes such a pole
+ * on its right, where the phase of T falls (by 180 degrees for a simple pole), so the phase
+ * after it does not depend on the rounding of the two phases (docs/stability.md). */
+double tb_phase_step_past_pole(double deg);
 
 /* Magnitude in dB, 20 log10 |z| (-INFINITY for zero: writers print it as absent). */
 double tb_db(double complex z);

@@ -77,7 +77,7 @@ static tb_status sample_at(walk *w, double lnf, sample *out)
         w->evals++;
         double f = exp(lnf) * (1.0 + 1e-7 * attempt);
         size_t culprit = 0;
-        tb_status st = tb_probe_eval(w->probe, f, &culprit);
+        tb_status st = tb_probe_eval_loop(w->probe, f, w->l, &culprit);
         double L = 0, phi = 0;
         if (!st)
             st = tb_solver_log_det(w->probe->solver, &L, &phi);
@@ -210,7 +210,7 @@ static tb_status at_origin(walk *w, origin o[KINDS])
     w->evals++;
     size_t culprit = 0;
     double L = 0, phi = 0;
-    tb_status st = tb_probe_eval(w->probe, 0.0, &culprit);
+    tb_status st = tb_probe_eval_loop(w->probe, 0.0, w->l, &culprit);
     if (!st)
         st = tb_solver_log_det(w->probe->solver, &L, &phi);
     if (st)

@@ -115,7 +115,7 @@ static void unity(tb_wb_data *wb, const tb_result *res)
     s->has_unity = true;
     s->unity_hz = tb_grid_logf(res->freqs[seg], res->freqs[seg + 1], t);
     s->has_phase_margin = true;
-    s->phase_margin_deg = 180.0 + d0 + t * (d1 - d0);
+    s->phase_margin_deg = tb_wrap180(180.0 + d0 + t * (d1 - d0)); /* as margin.c */
 }
 
 void tb_wirebreak_free(tb_wirebreak *w)

@@ -11,6 +11,9 @@ static const char *const note_text[TB_NOTE_COUNT] = {
     [TB_NOTE_NO_F3DB] = "|A| never falls 3 dB below its DC value in the sweep",
     [TB_NOTE_AINF_NONE_DC] = "T has a zero at DC: A_inf is undefined there",
     [TB_NOTE_FEEDTHROUGH] = "the feedthrough A0/(1+T) is more than 1 % of A at DC: A differs from a/(1+a*beta)",
+    [TB_NOTE_T_INF_SWEEP] = "T is infinite at sweep points (a pole of T on the j-omega axis, e.g. a lossless resonance "
+                            "on a grid frequency): T, its dB and phase are absent there (the sweep table says so in "
+                            "its note column); crossings next to them are found on either side",
 };
 _Static_assert(sizeof(note_text) / sizeof(note_text[0]) == TB_NOTE_COUNT, "note_text in step");
 

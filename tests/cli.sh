@@ -216,6 +216,36 @@ else passed=$((passed + 1)); fi
 expect odd-loop 2 $tb sweep netlists/ota_gain_of_2.net --loop "G$esc[2J"
 has odd-loop err "no .loop at 'G\x1B[2J'"
 
+# 15. a resistive loop of three unknowns has no poles, and says so, never "more unknowns than
+# the pole limit"
+printf 'resistive loop\nV1 in 0 AC 1\nR1 in a 1k\nR2 a out 1k\nE1 out 0 0 a 100\n.loop E1\n.io V1 v(out)\n.ac dec 10 1 1k\n.end\n' \
+    >"$tmp/resistive.net"
+expect resistive 0 $tb "$tmp/resistive.net"
+has resistive out "closed-loop poles: 0 finite, 0 in the right half-plane"
+has resistive out "no finite closed-loop poles: the output follows the input at once, there is no time scale"
+if grep -q "pole limit" "$tmp/out"; then failed=$((failed + 1)); echo "FAIL resistive: 'pole limit'"
+else passed=$((passed + 1)); fi
+
+# a lossless resonance exactly on a grid frequency (T infinite there; tests/stab/tank_on_grid_*.net,
+# closed forms in tests/test_resonance.c): the infinite point is said, both crossings found, one
+# phase-margin convention in every section, the sweep table's note column explains the empty row
+for g in dec dec_fine lin lin_fine; do
+    f=tests/stab/tank_on_grid_$g.net
+    expect "tank-$g" 0 $tb "$f"
+    has "tank-$g" out "T is infinite at 1 sweep point, the first at 1 kHz"
+    has "tank-$g" out "phase margin                   -90.00 deg"
+    has "tank-$g" out "|T| = 1 (falling) at 1.0031 kHz     phase   -90.000 deg   PM   90.000 deg"
+    if grep -q "never crosses 1" "$tmp/out"; then failed=$((failed + 1)); echo "FAIL tank-$g: 'never crosses 1'"
+    else passed=$((passed + 1)); fi
+    expect "tank-$g-grid" 0 $tb "$f" --no-stability
+    has "tank-$g-grid" out "phase margin                   90.00 deg"
+    expect "tank-$g-csv" 0 $tb sweep "$f"
+    has "tank-$g-csv" out "1000,,,"
+    has "tank-$g-csv" out ",T infinite here (a pole of T on the axis): no T or a or A0"
+    if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/out"; then
+        failed=$((failed + 1)); echo "FAIL tank-$g-csv: nan or inf"; else passed=$((passed + 1)); fi
+done
+
 # --at: the figures at chosen frequencies in text and JSON (their values: tests/ref/at_check.py)
 expect at-text 0 $tb report tests/fb/noninverting_x20.net --at 1k,20kHz --no-stability
 has at-text out "at chosen frequencies (each by a fresh solve there)"
@@ -266,7 +296,7 @@ xmllint --noout "$tmp/lib.html" && passed=$((passed + 1)) || { failed=$((failed 
 has check-html out "check: "
 if grep -q "<script" "$tmp/lib.html" || grep -Eq '(src|href)="(https?:)?//' "$tmp/lib.html"; then
     failed=$((failed + 1)); echo "FAIL check-html: a script or a fetched resource"; else passed=$((passed + 1)); fi
-n=$(find netlists -name "*.net" | wc -l)
+n=$(find netlists -name "*.net" | wc -l) # the library is searched recursively (netlists/devices/ too)
 links=$(grep -o 'href="lib-reports/[^"]*"' "$tmp/lib.html" | wc -l)
 pages=$(ls "$tmp/lib-reports"/*.html | wc -l)
 if [ "$links" -eq "$n" ] && [ "$pages" -eq "$n" ]; then passed=$((passed + 1)); else

@@ -12,7 +12,7 @@ code with tbeta. On that function:
     |A| (scipy.optimize.minimize_scalar on a fine log grid's best bracket);
   - the -3 dB edges: scipy.optimize.brentq on ln|A| - ln(|A_ref|/sqrt 2) in log f,
     bracketed on a grid of 100 points per decade over the sweep and six decades
-    beyond it (the high edge: the lowest above the reference; the low edge of an
+    beyond it, with the sweep's own frequencies added (the high edge: the lowest above the reference; the low edge of an
     AC-coupled response: the highest below midband);
   - the peaking: the largest |A| over the sweep against |A_ref| (minimize_scalar).
 Compared with `tbeta report --json` ("closed_loop"): edges to 1e-6 relative (the
@@ -100,7 +100,9 @@ def fine_grid(f_lo, f_hi):
 def reference(resp, freqs):
     """The reference figures: ac_coupled, A_ref, low/high edge, peak (dB)."""
     out = {}
-    sweep = fine_grid(freqs[0], freqs[-1])
+    # the sweep's own frequencies too: a resonance narrower than the 100-per-decade spacing
+    # that lies on a sweep frequency (tests/stab/tank_on_grid_*.net) is seen there
+    sweep = np.union1d(fine_grid(freqs[0], freqs[-1]), freqs)
     mags = np.array([resp.lnabs(f) for f in sweep])
     a0 = resp.A(0.0) if mna_check.Dense(resp.mna.assemble(0.0)).solve(resp.b) is not None else None
     best = int(np.argmax(mags))
@@ -117,7 +119,7 @@ def reference(resp, freqs):
         if out["peak_db"] is not None and out["peak_db"] <= 0.001:
             out["peak_db"] = None
     level = math.log(out["A_ref"]) - 0.5 * math.log(2.0)
-    wide = fine_grid(freqs[0] * 10 ** -EXT_DECADES, freqs[-1] * 10 ** EXT_DECADES)
+    wide = np.union1d(fine_grid(freqs[0] * 10 ** -EXT_DECADES, freqs[-1] * 10 ** EXT_DECADES), freqs)
     lv = np.array([resp.lnabs(f) for f in wide]) - level
     out["high"] = None
     for i in range(len(wide) - 1):
