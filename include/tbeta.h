@@ -170,6 +170,9 @@ typedef struct {
     unsigned jobs;        /* threads sharing the frequency points of the sweep: 1 (the default)
                            * runs it in the calling thread, 0 one per online core; every
                            * figure is the same for any value */
+    bool rhp_count;       /* above the pole limit, right-half-plane counts by the argument
+                           * principle for the verdict (default true; about two
+                           * factorizations per reactive element) */
 } tb_options;
 
 /* Sets every field of *opt to its default. */
@@ -428,6 +431,13 @@ typedef enum {
     TB_DOMINANT_COUNT
 } tb_dominance;
 
+/* How a right-half-plane count was made. */
+typedef enum {
+    TB_COUNT_NONE = 0,       /* not made */
+    TB_COUNT_POLES,          /* from the poles (dense QZ, up to the pole limit) */
+    TB_COUNT_WINDING         /* by the argument principle on the determinant along the j-omega axis */
+} tb_count_method;
+
 /* Why the stability figures are as they are (bits 1u << tb_stab_note). */
 typedef enum {
     TB_SNOTE_NO_PHASE_CROSSING = 0, /* the phase never reaches -180 (mod 360), DC to far above the
@@ -455,6 +465,10 @@ typedef enum {
     TB_SNOTE_NO_GAIN_DOWN,          /* no -180 crossing where |T| > 1: no critical gain below */
     TB_SNOTE_COUNTS_DISAGREE,       /* pole count and Nyquist count disagree: the worse verdict taken */
     TB_SNOTE_PAIR_DISAGREES,        /* the dominant pair's predictions miss the computed figures by > 2x */
+    TB_SNOTE_RHP_BY_WINDING,        /* poles not computed: right-half-plane counts by the argument
+                                     * principle on det M(jw) and det M0(jw) */
+    TB_SNOTE_WINDING_FAILED,        /* poles not computed and the argument-principle count not made
+                                     * (winding_why says why) */
     TB_SNOTE_COUNT
 } tb_stab_note;
 
@@ -462,6 +476,8 @@ typedef enum {
 TB_API const char *tb_stab_note_str(tb_stab_note note);
 /* "stable", "marginal", "unstable", "undecided". */
 TB_API const char *tb_verdict_str(tb_verdict verdict);
+/* "poles", "argument principle", "none". */
+TB_API const char *tb_count_method_str(tb_count_method method);
 /* "left", "axis", "right". */
 TB_API const char *tb_pole_place_str(tb_pole_place place);
 /* Why there is no dominant pair (a sentence; "dominant" for TB_DOMINANT_PAIR). */
@@ -569,6 +585,14 @@ typedef struct {
     bool gm_ok;               /* both gain margins (where they exist) >= gm_min_db, in a stable
                                * loop; false when not determined */
     unsigned notes;
+    /* how cl_rhp/cl_axis/cl_finite and ol_rhp/ol_axis were counted: by the poles, or above
+     * the pole limit by the argument principle (then cl_finite is the degree of det M(s),
+     * cl_axis and ol_axis count zeros at s = 0 and elsewhere on the axis, and the
+     * closed-loop count is compared with N + P as the poles' is) */
+    tb_count_method cl_count_by;
+    tb_count_method ol_count_by;
+    size_t winding_evaluations; /* factorizations the argument-principle counts took */
+    const char *winding_why;    /* static text: why a count was not made, else NULL */
 } tb_stability;
 
 /* Stability figures of loop l (computed by tb_analyse when opt->stability).

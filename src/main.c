@@ -38,7 +38,7 @@ static const char usage_main[] =
 static const char usage_report[] =
     "usage: tbeta report NETLIST [--json] [--html FILE] [--pm-min DEG] [--gm-min DB] [--strict]\n"
     "                            [--pole-limit N] [--no-stability] [--all-sources] [--sensitivities]\n"
-    "                            [--jobs N] [--include-root DIR]\n"
+    "                            [--jobs N] [--include-root DIR] [--no-rhp-count]\n"
     "  Prints, for every .loop: T, a, beta = 1/A_inf, A_inf, A0 and A at DC, the gain\n"
     "  error (A - A_inf)/A_inf, the unity-loop-gain frequency, the phase margin and\n"
     "  the closed-loop -3 dB frequency; then the stability figures: every crossing of\n"
@@ -57,6 +57,9 @@ static const char usage_report[] =
     "  --pole-limit N    compute poles only up to N unknowns (default 500;\n"
     "                    dense QZ: about 1.5 s at 500, 18 s at 1000)\n"
     "  --no-stability    skip the stability analysis (foundation figures only)\n"
+    "  --no-rhp-count    above the pole limit, no right-half-plane count by the argument\n"
+    "                    principle (about two factorizations per capacitor or inductor):\n"
+    "                    the Nyquist verdict then assumes a stable open loop\n"
     "  --all-sources     loop census: the return ratio of every controlled source, ranked,\n"
     "                    flagging unmarked local loops whose |T| reaches 1\n"
     "  --sensitivities   how every loop's figures move with each element's value (adjoint\n"
@@ -146,7 +149,8 @@ static bool is_stability_option(const char *s)
 {
     return strcmp(s, "--pm-min") == 0 || strcmp(s, "--gm-min") == 0 || strcmp(s, "--strict") == 0 ||
            strcmp(s, "--pole-limit") == 0 || strcmp(s, "--no-stability") == 0 ||
-           strcmp(s, "--all-sources") == 0 || strcmp(s, "--sensitivities") == 0;
+           strcmp(s, "--all-sources") == 0 || strcmp(s, "--sensitivities") == 0 ||
+           strcmp(s, "--no-rhp-count") == 0;
 }
 
 /* A finite number (or, with whole, a non-negative integer) from text; false when malformed. */
@@ -173,6 +177,10 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
     }
     if (strcmp(s, "--no-stability") == 0) {
         a->opt.stability = false;
+        return -1;
+    }
+    if (strcmp(s, "--no-rhp-count") == 0) {
+        a->opt.rhp_count = false;
         return -1;
     }
     if (strcmp(s, "--all-sources") == 0) {
@@ -474,6 +482,7 @@ static const char usage_check[] =
     "usage: tbeta check PATH... [--glob PATTERN] [--jobs N] [--shard I/N]\n"
     "                   [--save FILE] [--against FILE] [--drift PCT]\n"
     "                   [--json FILE] [--junit FILE] [--pole-limit N] [--no-stability]\n"
+    "                   [--no-rhp-count]\n"
     "       tbeta check --merge RESULTS.json... [--json FILE] [--junit FILE] [--save FILE]\n"
     "  Reads every netlist (files as given, directories searched recursively for\n"
     "  PATTERN), analyses it and evaluates its .expect cards; prints one line per\n"
@@ -497,6 +506,8 @@ static const char usage_check[] =
     "                  as N^3: lower it for large netlists; the step response then\n"
     "                  comes from time stepping)\n"
     "  --no-stability  foundation figures only (no margins, poles or verdict)\n"
+    "  --no-rhp-count  above the pole limit, no right-half-plane count by the argument\n"
+    "                  principle: the Nyquist verdict then assumes a stable open loop\n"
     "  The .expect grammar and the figures an expectation may name: docs/check.md.\n"
     "  exit codes: 0 all pass; 1 an expectation failed or a figure drifted;\n"
     "  2 usage error, or a netlist could not be read or analysed.\n";
@@ -588,6 +599,8 @@ static int parse_check_args(int argc, char **argv, check_args *a)
             a->merge = true;
         } else if (strcmp(s, "--no-stability") == 0) {
             a->opt.analysis.stability = false;
+        } else if (strcmp(s, "--no-rhp-count") == 0) {
+            a->opt.analysis.rhp_count = false;
         } else if (check_takes_value(s)) {
             if (i + 1 >= argc)
                 return usage_error(s, "needs a value", usage_check);

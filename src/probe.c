@@ -38,6 +38,13 @@ tb_status tb_probe_eval(tb_probe *probe, double f, size_t *culprit)
     return st;
 }
 
+tb_status tb_probe_q(tb_probe *probe, double f, size_t l, double complex *q, size_t *culprit)
+{
+    probe->evaluations++;
+    tb_status st = tb_probe_factor(probe, f, false, culprit);
+    return st ? st : tb_loop_q(probe->mna, probe->solver, probe->work, l, q);
+}
+
 tb_status tb_probe_factor_gain(tb_probe *probe, double f, size_t l, double d, size_t *culprit)
 {
     probe->held = false;

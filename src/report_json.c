@@ -212,6 +212,36 @@ static json_t *poles_object(builder *b, const tb_stability *st)
     return o;
 }
 
+/* One right-half-plane count: how it was made and what it found. */
+static json_t *count_object(builder *b, tb_count_method by, size_t rhp, size_t axis)
+{
+    if (by == TB_COUNT_NONE)
+        return json_null();
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "method", json_string(tb_count_method_str(by)));
+    set(b, o, "rhp", json_integer((json_int_t)rhp));
+    set(b, o, "axis", json_integer((json_int_t)axis));
+    return o;
+}
+
+/* The right-half-plane counts the verdict rests on (by the poles, or above the
+ * pole limit by the argument principle). */
+static json_t *counts_object(builder *b, const tb_stability *st)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "closed_loop", count_object(b, st->cl_count_by, st->cl_rhp, st->cl_axis));
+    set(b, o, "open_loop", count_object(b, st->ol_count_by, st->ol_rhp, st->ol_axis));
+    set(b, o, "closed_loop_degree",
+        st->cl_count_by == TB_COUNT_WINDING ? json_integer((json_int_t)st->cl_finite) : json_null());
+    set(b, o, "evaluations", json_integer((json_int_t)st->winding_evaluations));
+    set(b, o, "not_counted_because", st->winding_why ? json_string(st->winding_why) : json_null());
+    return o;
+}
+
 static json_t *dominant_object(builder *b, const tb_stability *st)
 {
     if (!st->has_dominant)
@@ -266,13 +296,15 @@ static void stability_keys(builder *b, json_t *lp, const tb_stability *st)
     set(b, lp, "searched_to_hz", num(st->search_hi_hz));
     set(b, lp, "crossings", crossings_object(b, st));
     set(b, lp, "poles", poles_object(b, st));
+    set(b, lp, "rhp_counts", counts_object(b, st));
     set(b, lp, "nyquist_encirclements", st->has_nyquist ? json_integer(st->nyquist_n) : json_null());
     set(b, lp, "dominant_pair", dominant_object(b, st));
     set(b, lp, "dominance", json_string(tb_dominance_str(st->dominance)));
     set(b, lp, "closed_loop_peaking_db", st->has_cl_peaking ? num(st->cl_peaking_db) : json_null());
     set(b, lp, "closed_loop_peaking_hz", st->has_cl_peaking ? num(st->cl_peaking_hz) : json_null());
     set(b, lp, "verdict", json_string(tb_verdict_str(st->verdict)));
-    set(b, lp, "pole_verdict", st->has_poles ? json_string(tb_verdict_str(st->pole_verdict)) : json_null());
+    set(b, lp, "pole_verdict", st->cl_count_by != TB_COUNT_NONE ? json_string(tb_verdict_str(st->pole_verdict))
+                                                                 : json_null());
     set(b, lp, "counts_disagree", json_boolean(st->counts_disagree));
     set(b, lp, "verdict_reason", json_string(tb_report_reason(st, reason, sizeof reason)));
     set(b, lp, "thresholds", thresholds_object(b, st));

@@ -12,6 +12,7 @@
 #include "nyquist.h"
 #include "poles.h"
 #include "units.h"
+#include "winding.h"
 
 static const double PI = 3.14159265358979323846264338327950288;
 
@@ -328,6 +329,7 @@ static tb_status loop_poles(stab_work *w, const tb_result *res, size_t l, tb_sta
         st->notes |= 1u << TB_SNOTE_POLES_FAILED;
     if (!st->has_poles)
         return TB_OK;
+    st->cl_count_by = st->ol_count_by = TB_COUNT_POLES;
     st->ol_rhp = w->ol.rhp;
     st->ol_axis = w->ol.axis;
     st->ol_checked = w->ol.checked;
@@ -336,6 +338,47 @@ static tb_status loop_poles(stab_work *w, const tb_result *res, size_t l, tb_sta
     *weights = sort_poles(&w->cl, col, w->kept);
     st->weights_of_a = mna->has_io;
     keep_poles(&w->cl, w->kept, *weights, st);
+    return TB_OK;
+}
+
+/* Above the pole limit: the right-half-plane counts of det M and det M0 by the
+ * argument principle along the sweep's range and beyond (tb_winding_run), then a
+ * pivoted factorization at the lowest sweep frequency, as after the poles' checks. */
+static tb_status loop_winding(stab_work *w, const tb_result *res, size_t l, tb_stability *st, bool *ol_axis_away)
+{
+    if (res->npoints < 2 || !(res->freqs[0] > 0)) {
+        st->winding_why = "the sweep has no range to start the walk on";
+        st->notes |= 1u << TB_SNOTE_WINDING_FAILED;
+        return TB_OK;
+    }
+    tb_winding wd;
+    tb_status s = tb_winding_run(w->probe, l, res->freqs[0], res->freqs[res->npoints - 1], &wd);
+    if (s == TB_ERR_NOMEM)
+        return s;
+    size_t culprit = 0;
+    tb_status again = tb_probe_factor(w->probe, res->freqs[0], true, &culprit);
+    if (again == TB_ERR_NOMEM)
+        return again;
+    if (s) {
+        st->winding_why = "a factorization of the walk failed";
+        st->notes |= 1u << TB_SNOTE_WINDING_FAILED;
+        return TB_OK;
+    }
+    st->winding_evaluations = wd.evaluations;
+    if (wd.closed.counted) {
+        st->cl_count_by = TB_COUNT_WINDING;
+        st->cl_rhp = wd.closed.rhp;
+        st->cl_axis = wd.closed.on_axis + wd.closed.at_origin;
+        st->cl_finite = wd.closed.degree;
+    }
+    if (wd.open.counted) {
+        st->ol_count_by = TB_COUNT_WINDING;
+        st->ol_rhp = wd.open.rhp;
+        st->ol_axis = wd.open.on_axis + wd.open.at_origin;
+        *ol_axis_away = wd.open.on_axis > 0;
+    }
+    st->winding_why = !wd.closed.counted ? wd.closed.why : !wd.open.counted ? wd.open.why : NULL;
+    st->notes |= 1u << (st->winding_why ? TB_SNOTE_WINDING_FAILED : TB_SNOTE_RHP_BY_WINDING);
     return TB_OK;
 }
 
@@ -354,6 +397,8 @@ static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *
         s = loop_poles(w, res, l, st, &weights, &ol_axis_away);
     else
         st->notes |= 1u << w->why_none;
+    if (!s && !st->has_poles && w->opt->rhp_count)
+        s = loop_winding(w, res, l, st, &ol_axis_away);
     if (s)
         return s;
     st->has_nyquist = tb_nyquist_count(&path, &st->nyquist_n);

@@ -77,14 +77,14 @@ static tb_status sample_at(walk *w, double lnf, sample *out)
         w->evals++;
         double f = exp(lnf) * (1.0 + 1e-7 * attempt);
         size_t culprit = 0;
-        tb_status st = tb_probe_eval(w->probe, f, &culprit);
+        double complex q = 0;
+        tb_status st = tb_probe_q(w->probe, f, w->l, &q, &culprit);
         double L = 0, phi = 0;
         if (!st)
             st = tb_solver_log_det(w->probe->solver, &L, &phi);
-        const tb_point *pt = &w->probe->row[w->l];
-        double complex diff = 1.0 + pt->T; /* return difference: det M / det M0 */
-        *out = (sample){log(f), {L, L - log(cabs(diff))}, {phi, wrap(phi - carg(diff))}};
-        if (!st && (pt->flags & TB_PT_T_INF))
+        double complex diff = 1.0 - q; /* det M0 / det M: the inverse of the return difference */
+        *out = (sample){log(f), {L, L + log(cabs(diff))}, {phi, wrap(phi + carg(diff))}};
+        if (!st && !(cabs(diff) > TB_LOOP_INF_TOL))
             st = open_direct(w, f, &out->L[OPEN], &out->phi[OPEN]);
         if (st == TB_ERR_SINGULAR)
             continue;

@@ -312,8 +312,24 @@ static void test_stability_thresholds_and_limit(void **state)
     assert_false(st.pm_ok);
     assert_false(st.has_poles);
     assert_true(st.notes & (1u << TB_SNOTE_POLES_TOO_BIG));
-    assert_true(st.notes & (1u << TB_SNOTE_NYQUIST_ASSUMES_P0));
+    /* above the limit the counts come from the argument principle, not an assumed P = 0:
+     * wn^2/(s(s + 2 zeta wn)) closes to two left-half-plane poles (references.md section 4);
+     * with G1 at zero, C1 floats: det M0 has a zero at s = 0 and one at -1/(R2 C2) (RC algebra) */
+    assert_false(st.notes & (1u << TB_SNOTE_NYQUIST_ASSUMES_P0));
+    assert_true(st.notes & (1u << TB_SNOTE_RHP_BY_WINDING));
+    assert_int_equal(st.cl_count_by, TB_COUNT_WINDING);
+    assert_int_equal(st.ol_count_by, TB_COUNT_WINDING);
+    assert_int_equal(st.cl_finite, 2);
+    assert_int_equal(st.cl_rhp, 0);
+    assert_int_equal(st.cl_axis, 0);
+    assert_int_equal(st.ol_rhp, 0);
+    assert_int_equal(st.ol_axis, 1);
+    assert_true(st.winding_evaluations > 0);
     assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    opt.pole_limit = 500;
+    st = stability_of(integrator_loop, &opt);
+    assert_int_equal(st.cl_count_by, TB_COUNT_POLES);
+    assert_int_equal(st.winding_evaluations, 0);
     opt.stability = false;
     tb_circuit *ckt = tu_parse(integrator_loop);
     tb_result *res = NULL;
