@@ -375,6 +375,7 @@ TB_API tb_status tb_closed_loop_get(const tb_result *res, tb_closed_loop *out);
 /* Thresholds and limits of the stability analysis (part of tb_options). */
 #define TB_MAX_CROSSINGS 16  /* crossings kept per kind and loop (more: truncated, said so) */
 #define TB_MAX_POLES 16      /* closed-loop poles kept per loop, largest real part first */
+#define TB_MAX_NEAR_POLES 24 /* poles near the shifts kept per loop, above the pole limit */
 
 /* Where a crossing lies against the .ac range: the search follows T from DC to far
  * above the sweep, so margins outside the range are found and checked too. */
@@ -593,6 +594,17 @@ typedef struct {
     tb_count_method ol_count_by;
     size_t winding_evaluations; /* factorizations the argument-principle counts took */
     const char *winding_why;    /* static text: why a count was not made, else NULL */
+    /* above the pole limit: the poles nearest s = 0 and nearest the headline unity
+     * crossing, of the closed loop and of this loop's open loop (its source at gain zero),
+     * by shift-invert Krylov-Schur on KLU's factors (docs/stability.md); nearest first
+     * within each run, runs in the order closed near 0, open near 0, closed near the
+     * crossing, open near the crossing, a pole found twice kept once */
+    size_t near_count;
+    double complex near_poles[TB_MAX_NEAR_POLES];
+    bool near_open[TB_MAX_NEAR_POLES];        /* open loop */
+    double near_shift_hz[TB_MAX_NEAR_POLES];  /* the shift it was found near (Hz, on the axis) */
+    size_t near_solves;       /* right-hand sides the searches solved */
+    bool near_complete;       /* every search found the poles it looked for */
 } tb_stability;
 
 /* Stability figures of loop l (computed by tb_analyse when opt->stability).

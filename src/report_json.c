@@ -242,6 +242,37 @@ static json_t *counts_object(builder *b, const tb_stability *st)
     return o;
 }
 
+/* Above the pole limit: the poles found near s = 0 and near the unity crossing. */
+static json_t *near_object(builder *b, const tb_stability *st)
+{
+    if (st->has_poles || (st->near_count == 0 && st->near_solves == 0))
+        return json_null();
+    json_t *o = obj(b);
+    json_t *list = json_array();
+    if (!o || !list) {
+        json_decref(list);
+        b->ok = false;
+        return o;
+    }
+    set(b, o, "method", json_string("shift-invert Krylov-Schur"));
+    set(b, o, "complete", json_boolean(st->near_complete));
+    set(b, o, "solves", json_integer((json_int_t)st->near_solves));
+    for (size_t i = 0; i < st->near_count; i++) {
+        json_t *p = obj(b);
+        if (!p)
+            break;
+        set(b, p, "loop", json_string(st->near_open[i] ? "open" : "closed"));
+        set(b, p, "re", num(creal(st->near_poles[i])));
+        set(b, p, "im", num(cimag(st->near_poles[i])));
+        set(b, p, "hz", num(cabs(st->near_poles[i]) / TB_TWO_PI));
+        set(b, p, "near_hz", num(st->near_shift_hz[i]));
+        if (json_array_append_new(list, p))
+            b->ok = false;
+    }
+    set(b, o, "poles", list);
+    return o;
+}
+
 static json_t *dominant_object(builder *b, const tb_stability *st)
 {
     if (!st->has_dominant)
@@ -297,6 +328,7 @@ static void stability_keys(builder *b, json_t *lp, const tb_stability *st)
     set(b, lp, "crossings", crossings_object(b, st));
     set(b, lp, "poles", poles_object(b, st));
     set(b, lp, "rhp_counts", counts_object(b, st));
+    set(b, lp, "poles_near", near_object(b, st));
     set(b, lp, "nyquist_encirclements", st->has_nyquist ? json_integer(st->nyquist_n) : json_null());
     set(b, lp, "dominant_pair", dominant_object(b, st));
     set(b, lp, "dominance", json_string(tb_dominance_str(st->dominance)));

@@ -188,6 +188,16 @@ static void winding_lines(FILE *out, const tb_stability *st)
         fprintf(out, "    no count by the argument principle: %s\n", st->winding_why);
     if (st->winding_evaluations > 0)
         fprintf(out, "      (%zu factorizations along the j-omega axis)\n", st->winding_evaluations);
+    if (st->near_count > 0 || st->near_solves > 0)
+        fprintf(out, "    poles nearest 0 Hz and the unity crossing (shift-invert Krylov-Schur, %zu solves%s):\n",
+                st->near_solves, st->near_complete ? "" : "; some searches did not converge");
+    for (size_t i = 0; i < st->near_count; i++) {
+        double complex s = st->near_poles[i];
+        char f[64], g[64];
+        fprintf(out, "      %-6s s = %.6g %c j%.6g rad/s  (%s)  near %s\n", st->near_open[i] ? "open" : "closed",
+                creal(s), cimag(s) < 0 ? '-' : '+', fabs(cimag(s)), fmt_hz(cabs(s) / TB_TWO_PI, f, sizeof f),
+                fmt_hz_or_dc(st->near_shift_hz[i], g, sizeof g));
+    }
 }
 
 static void pole_lines(FILE *out, const tb_stability *st)

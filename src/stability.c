@@ -13,8 +13,12 @@
 #include "poles.h"
 #include "units.h"
 #include "winding.h"
+#include "krylov.h"
 
 static const double PI = 3.14159265358979323846264338327950288;
+
+/* Poles wanted near each shift above the pole limit. */
+#define TB_NEAR_WANT 6
 
 /* Dominance (docs/stability.md): a pole whose weight is at most this fraction of
  * the pair's is negligible; one of larger weight must lie at least this many
@@ -382,6 +386,49 @@ static tb_status loop_winding(stab_work *w, const tb_result *res, size_t l, tb_s
     return TB_OK;
 }
 
+/* Poles found near one shift join st's list, each once. */
+static void keep_near(const tb_krylov_found *k, bool open, tb_stability *st)
+{
+    for (size_t i = 0; i < k->count && st->near_count < TB_MAX_NEAR_POLES; i++) {
+        double complex s = k->poles[i].s;
+        bool seen = false;
+        for (size_t j = 0; j < st->near_count && !seen; j++)
+            seen = st->near_open[j] == open && cabs(st->near_poles[j] - s) <= 1e-9 * cabs(s);
+        if (seen)
+            continue;
+        st->near_poles[st->near_count] = s;
+        st->near_open[st->near_count] = open;
+        st->near_shift_hz[st->near_count] = k->shift_hz;
+        st->near_count++;
+    }
+}
+
+/* Above the pole limit: the closed- and open-loop poles nearest s = 0 and the
+ * headline unity crossing (tb_krylov_near), then a pivoted factorization at the
+ * lowest sweep frequency, as after the poles' checks. A search that fails leaves
+ * its poles out (near_complete false). */
+static tb_status near_poles(stab_work *w, const tb_result *res, size_t l, tb_stability *st)
+{
+    double shifts[2] = {0, st->has_phase_margin ? st->phase_margin_hz : -1};
+    st->near_complete = true;
+    for (int i = 0; i < 2; i++) {
+        for (int open = 0; open < 2 && shifts[i] >= 0; open++) {
+            tb_krylov_found k;
+            tb_status s = tb_krylov_near(w->probe, shifts[i], open ? l : SIZE_MAX, TB_NEAR_WANT, &k);
+            if (s == TB_ERR_NOMEM)
+                return s;
+            st->near_complete = st->near_complete && !s && k.converged;
+            if (s)
+                continue;
+            st->near_solves += k.solves;
+            keep_near(&k, open, st);
+        }
+    }
+    size_t culprit = 0;
+    tb_status s = res->npoints ? tb_probe_factor(w->probe, res->freqs[0], true, &culprit) : TB_OK;
+    return s == TB_ERR_NOMEM ? s : TB_OK;
+}
+
 /* One loop: margins by the scan, open-loop poles, Nyquist count, verdict, dominant pair. */
 static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *st)
 {
@@ -399,6 +446,8 @@ static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *
         st->notes |= 1u << w->why_none;
     if (!s && !st->has_poles && w->opt->rhp_count)
         s = loop_winding(w, res, l, st, &ol_axis_away);
+    if (!s && !st->has_poles && w->probe->mna->n > w->opt->pole_limit)
+        s = near_poles(w, res, l, st);
     if (s)
         return s;
     st->has_nyquist = tb_nyquist_count(&path, &st->nyquist_n);

@@ -39,7 +39,7 @@ static const char *const snote_text[TB_SNOTE_COUNT] = {
     [TB_SNOTE_COUNTS_DISAGREE] = "the poles and the Nyquist count give different numbers of right-half-plane poles: the worse verdict is taken",
     [TB_SNOTE_PAIR_DISAGREES] = "the dominant pair's second-order predictions miss the computed step response or closed-loop peaking by more than 2x",
     [TB_SNOTE_RHP_BY_WINDING] = "poles not computed: the right-half-plane counts come from the argument principle on det M(jw) along the j-omega axis",
-    [TB_SNOTE_WINDING_FAILED] = "poles not computed and no right-half-plane count by the argument principle: the verdict assumes the circuit with this source's gain at zero is stable",
+    [TB_SNOTE_WINDING_FAILED] = "poles not computed and no right-half-plane count by the argument principle either",
 };
 _Static_assert(sizeof(snote_text) / sizeof(snote_text[0]) == TB_SNOTE_COUNT, "snote_text in step");
 
