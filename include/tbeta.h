@@ -170,9 +170,10 @@ typedef struct {
     unsigned jobs;        /* threads sharing the frequency points of the sweep: 1 (the default)
                            * runs it in the calling thread, 0 one per online core; every
                            * figure is the same for any value */
-    bool rhp_count;       /* above the pole limit, right-half-plane counts by the argument
-                           * principle for the verdict (default true; about two
-                           * factorizations per reactive element) */
+    size_t rhp_count_limit; /* above the pole limit, right-half-plane counts by the argument
+                             * principle for the verdict, within this many factorizations
+                             * (about two per capacitor or inductor; default 5000, about
+                             * 3 000 reactive elements; 0: no count, P = 0 assumed) */
 } tb_options;
 
 /* Sets every field of *opt to its default. */

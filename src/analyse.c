@@ -25,7 +25,7 @@ void tb_options_init(tb_options *opt)
     opt->sensitivity = false;
     opt->closed_loop = true;
     opt->jobs = 1;
-    opt->rhp_count = true;
+    opt->rhp_count_limit = 5000;
 }
 
 /* Thresholds left negative in the options come from the netlist's .margins,

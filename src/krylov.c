@@ -274,12 +274,7 @@ static tb_status refine_pole(kwork *k, double complex *x, double complex *s, dou
     }
     double complex *w = k->V + (size_t)(M + 2) * k->n;
     for (int step = 0; !st && step < 4; step++) {
-        memset(w, 0, k->n * sizeof(double complex));
-        for (size_t j = 0; j < k->n; j++)
-            for (int p = mna->Ap[j]; p < mna->Ap[j + 1]; p++)
-                w[mna->Ai[p]] += mna->Cx[p] * x[j];
-        k->solves++;
-        if (tb_solver_solve(solver, w, 1))
+        if (apply(k, x, w)) /* on the factorization of G + s0 C: k->solver is the probe's */
             return TB_ERR_NUMERIC;
         size_t m = 0;
         for (size_t r = 1; r < k->n; r++)
@@ -300,11 +295,12 @@ static tb_status refine_pole(kwork *k, double complex *x, double complex *s, dou
 
 /* The converged poles among the want largest |mu| of T's leading kept Ritz
  * values (ztrsen keeps their order), nearest sigma first: Ritz residual at most
- * TB_KRYLOV_TOL, and the pencil's backward error at most TB_KRYLOV_BACKWARD; in
- * the final round (final true) a pair above that but below TB_KRYLOV_REFINE is
- * refined by inverse iteration on the pencil and kept if it then meets it. */
+ * TB_KRYLOV_TOL; in the final round (final true) also the pencil's backward error
+ * at most TB_KRYLOV_BACKWARD, a pair above that but below TB_KRYLOV_REFINE being
+ * refined by inverse iteration on the pencil first; *refused counts those that
+ * fail it. */
 static tb_status harvest(kwork *k, int dim, int kept, size_t want, double beta, double complex sigma, bool final,
-                         tb_krylov_found *out)
+                         size_t *refused, tb_krylov_found *out)
 {
     out->count = 0;
     double largest = 0;
@@ -325,15 +321,19 @@ static tb_status harvest(kwork *k, int dim, int kept, size_t want, double beta, 
         if (!(res <= TB_KRYLOV_TOL))
             continue;
         tb_krylov_pole p = {sigma - 1.0 / mu, res, 0};
-        ritz_vector(k, dim, i, t, x);
-        p.backward = backward_error(k, x, p.s);
-        if (final && p.backward > TB_KRYLOV_BACKWARD && p.backward <= TB_KRYLOV_REFINE) {
-            tb_status st = refine_pole(k, x, &p.s, &p.backward);
-            if (st)
-                return st;
+        if (final) {
+            ritz_vector(k, dim, i, t, x);
+            p.backward = backward_error(k, x, p.s);
+            if (p.backward > TB_KRYLOV_BACKWARD && p.backward <= TB_KRYLOV_REFINE) {
+                tb_status st = refine_pole(k, x, &p.s, &p.backward);
+                if (st)
+                    return st;
+            }
+            if (!(p.backward <= TB_KRYLOV_BACKWARD)) {
+                (*refused)++;
+                continue; /* a Ritz value of OP that is no pole of the circuit */
+            }
         }
-        if (!(p.backward <= (final ? TB_KRYLOV_BACKWARD : TB_KRYLOV_REFINE)))
-            continue; /* a Ritz value of OP that is no pole of the circuit */
         size_t at = out->count++;
         while (at > 0 && cabs(out->poles[at - 1].s - sigma) > cabs(p.s - sigma)) {
             out->poles[at] = out->poles[at - 1];
@@ -373,13 +373,15 @@ static tb_status iterate(kwork *k, size_t want, double complex sigma, tb_krylov_
         if ((st = schur(k, d, kept)))
             return st;
         size_t wanted = want < dim ? want : dim;
-        if ((st = harvest(k, d, kept, wanted, beta, sigma, false, out)))
+        size_t refused = 0;
+        if ((st = harvest(k, d, kept, wanted, beta, sigma, false, &refused, out)))
             return st;
         out->restarts = round;
         bool last = out->count == wanted || beta == 0 || round + 1 >= TB_KRYLOV_RESTARTS || kept >= d;
         if (last) {
-            st = harvest(k, d, kept, wanted, beta, sigma, true, out);
-            out->converged = out->count == wanted || beta == 0; /* or every pole of an invariant subspace */
+            st = harvest(k, d, kept, wanted, beta, sigma, true, &refused, out);
+            /* or every pole of an invariant subspace, none refused */
+            out->converged = out->count == wanted || (beta == 0 && refused == 0);
             return st;
         }
         restart(k, d, kept, beta);

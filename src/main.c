@@ -58,8 +58,8 @@ static const char usage_report[] =
     "                    dense QZ: about 1.5 s at 500, 18 s at 1000)\n"
     "  --no-stability    skip the stability analysis (foundation figures only)\n"
     "  --no-rhp-count    above the pole limit, no right-half-plane count by the argument\n"
-    "                    principle (about two factorizations per capacitor or inductor):\n"
-    "                    the Nyquist verdict then assumes a stable open loop\n"
+    "                    principle (about two factorizations per capacitor or inductor, at\n"
+    "                    most 5000): the Nyquist verdict then assumes a stable open loop\n"
     "  --all-sources     loop census: the return ratio of every controlled source, ranked,\n"
     "                    flagging unmarked local loops whose |T| reaches 1\n"
     "  --sensitivities   how every loop's figures move with each element's value (adjoint\n"
@@ -180,7 +180,7 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
         return -1;
     }
     if (strcmp(s, "--no-rhp-count") == 0) {
-        a->opt.rhp_count = false;
+        a->opt.rhp_count_limit = 0;
         return -1;
     }
     if (strcmp(s, "--all-sources") == 0) {
@@ -600,7 +600,7 @@ static int parse_check_args(int argc, char **argv, check_args *a)
         } else if (strcmp(s, "--no-stability") == 0) {
             a->opt.analysis.stability = false;
         } else if (strcmp(s, "--no-rhp-count") == 0) {
-            a->opt.analysis.rhp_count = false;
+            a->opt.analysis.rhp_count_limit = 0;
         } else if (check_takes_value(s)) {
             if (i + 1 >= argc)
                 return usage_error(s, "needs a value", usage_check);

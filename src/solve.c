@@ -245,6 +245,20 @@ tb_status tb_solver_solve(tb_solver *s, double complex *B, size_t nrhs)
     return ok ? TB_OK : TB_ERR_NUMERIC;
 }
 
+/* Scales re + j im by a power of 2 when its larger part lies outside [lo, hi];
+ * returns the exponent taken out. */
+static long rescale(double *re, double *im, double lo, double hi)
+{
+    double m = fmax(fabs(*re), fabs(*im));
+    if (m >= lo && m <= hi)
+        return 0;
+    int k = 0;
+    frexp(m, &k);
+    *re = ldexp(*re, -k);
+    *im = ldexp(*im, -k);
+    return k;
+}
+
 tb_status tb_solver_log_det(tb_solver *s, double *log_abs, double *arg)
 {
     const klu_numeric *numeric = current(s)->numeric;
@@ -263,25 +277,11 @@ tb_status tb_solver_log_det(tb_solver *s, double *log_abs, double *arg)
         double re = U[2 * i] * r, im = U[2 * i + 1] * r;
         if (re == 0 && im == 0)
             return TB_ERR_SINGULAR;
-        double m = fmax(fabs(re), fabs(im));
-        if (!(m >= 0x1p-500 && m <= 0x1p500)) {
-            int k = 0;
-            frexp(m, &k);
-            re = ldexp(re, -k);
-            im = ldexp(im, -k);
-            e += k;
-        }
+        e += rescale(&re, &im, 0x1p-500, 0x1p500);
         double pr = zr * re - zi * im;
         zi = zr * im + zi * re;
         zr = pr;
-        double mz = fmax(fabs(zr), fabs(zi));
-        if (!(mz >= 0x1p-400 && mz <= 0x1p400)) {
-            int k = 0;
-            frexp(mz, &k);
-            zr = ldexp(zr, -k);
-            zi = ldexp(zi, -k);
-            e += k;
-        }
+        e += rescale(&zr, &zi, 0x1p-400, 0x1p400);
     }
     double mag = log(hypot(zr, zi)) + (double)e * 0.69314718055994530941723212145817657;
     double phase = atan2(zi, zr);

@@ -356,7 +356,8 @@ static tb_status loop_winding(stab_work *w, const tb_result *res, size_t l, tb_s
         return TB_OK;
     }
     tb_winding wd;
-    tb_status s = tb_winding_run(w->probe, l, res->freqs[0], res->freqs[res->npoints - 1], &wd);
+    tb_status s = tb_winding_run_budget(w->probe, l, res->freqs[0], res->freqs[res->npoints - 1],
+                                        w->opt->rhp_count_limit, &wd);
     if (s == TB_ERR_NOMEM)
         return s;
     size_t culprit = 0;
@@ -444,7 +445,7 @@ static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *
         s = loop_poles(w, res, l, st, &weights, &ol_axis_away);
     else
         st->notes |= 1u << w->why_none;
-    if (!s && !st->has_poles && w->opt->rhp_count)
+    if (!s && !st->has_poles && w->opt->rhp_count_limit > 0)
         s = loop_winding(w, res, l, st, &ol_axis_away);
     if (!s && !st->has_poles && w->probe->mna->n > w->opt->pole_limit)
         s = near_poles(w, res, l, st);

@@ -39,6 +39,7 @@ typedef struct {
     tb_probe *probe;
     size_t l;
     size_t evals;
+    size_t max_evals;    /* the budget */
     size_t jumps[KINDS]; /* phase jumps of about pi no halving resolved: zeros on the axis */
     double slope_width;  /* halves at least this wide (ln f) are also judged by their slopes */
     bool rate_known;     /* rate holds the phases' rate over the last step taken */
@@ -64,7 +65,7 @@ static double wrap(double a)
  * gain at zero): where 1 - q vanishes to rounding, det M / (1 + T) is lost. */
 static tb_status open_direct(walk *w, double f, double *L, double *phi)
 {
-    if (w->evals >= TB_WINDING_MAX_EVALS)
+    if (w->evals >= w->max_evals)
         return GAVE_UP;
     w->evals++;
     size_t culprit = 0;
@@ -77,7 +78,7 @@ static tb_status open_direct(walk *w, double f, double *L, double *phi)
 static tb_status sample_at(walk *w, double lnf, sample *out)
 {
     for (int attempt = 0; attempt < 4; attempt++) {
-        if (w->evals >= TB_WINDING_MAX_EVALS)
+        if (w->evals >= w->max_evals)
             return GAVE_UP;
         w->evals++;
         double f = exp(lnf) * (1.0 + 1e-7 * attempt);
@@ -210,7 +211,7 @@ typedef struct {
 static tb_status at_origin(walk *w, origin o[KINDS])
 {
     o[CLOSED] = o[OPEN] = (origin){false, 0, 0};
-    if (w->evals >= TB_WINDING_MAX_EVALS)
+    if (w->evals >= w->max_evals)
         return GAVE_UP;
     w->evals++;
     size_t culprit = 0;
@@ -353,9 +354,16 @@ static void give_up(tb_winding *out, const char *why)
 
 tb_status tb_winding_run(tb_probe *probe, size_t l, double f_start, double f_stop, tb_winding *out)
 {
-    if (!probe || !out || l >= probe->mna->loop_count || !(f_start > 0) || !(f_stop > f_start) || !isfinite(f_stop))
+    return tb_winding_run_budget(probe, l, f_start, f_stop, TB_WINDING_MAX_EVALS, out);
+}
+
+tb_status tb_winding_run_budget(tb_probe *probe, size_t l, double f_start, double f_stop, size_t budget,
+                                tb_winding *out)
+{
+    if (!probe || !out || l >= probe->mna->loop_count || !(f_start > 0) || !(f_stop > f_start) ||
+        !isfinite(f_stop) || budget == 0)
         return TB_ERR_USAGE;
-    walk w = {.probe = probe, .l = l};
+    walk w = {.probe = probe, .l = l, .max_evals = budget};
     sample lo = {0}, hi = {0};
     origin o[KINDS];
     double total[KINDS] = {0, 0};
@@ -366,7 +374,7 @@ tb_status tb_winding_run(tb_probe *probe, size_t l, double f_start, double f_sto
     if (!st)
         st = degree_guess(&w, log(f_stop), &d);
     w.slope_width = d > 0 ? fmin(1e-4, SLOPE_WIDTH / (d * d)) : 1e-4;
-    if (!st && d * EVALS_PER_ZERO > TB_WINDING_MAX_EVALS)
+    if (!st && d * EVALS_PER_ZERO > (double)w.max_evals)
         st = TOO_MANY; /* the walk would give up after spending its whole budget */
     if (!st)
         st = sample_at(&w, log(f_start), &lo);

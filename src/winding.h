@@ -74,4 +74,9 @@ typedef struct {
  * singular M at a frequency of the walk is stepped around, not an error. */
 tb_status tb_winding_run(tb_probe *probe, size_t l, double f_start, double f_stop, tb_winding *out);
 
+/* tb_winding_run with a budget of evaluations other than TB_WINDING_MAX_EVALS
+ * (budget > 0; TB_ERR_USAGE otherwise). */
+tb_status tb_winding_run_budget(tb_probe *probe, size_t l, double f_start, double f_stop, size_t budget,
+                                tb_winding *out);
+
 #endif
