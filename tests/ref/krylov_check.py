@@ -25,7 +25,8 @@ middle of the .ac range, the closed loop and every open loop:
     defective eigenvalue by a perturbation eta, from memory), else at most 1e-3,
   - no QZ eigenvalue lies nearer the shift than the farthest one found without being
     found (the poles are the nearest ones),
-  - a run that says it converged found as many as asked for (or every finite one).
+  - a run that says it converged found as many as asked for (or every finite one not
+    1e10 times farther from the shift than the nearest).
 Prints "krylov_check: N passed, M failed"; exit 1 when any failed.
 """
 
@@ -100,8 +101,11 @@ def check_run(where, run, eigs, kappa):
         for i, e in enumerate(eigs):
             if abs(e - sigma) < 0.999 * reach and min(abs(e - s) for s in found) > tol(i, 1e-12):
                 bad.append("%s: QZ eigenvalue %s is nearer the shift than poles found, and missed" % (where, e))
-    if run["converged"] and len(found) < min(WANT, len(eigs)):
-        bad.append("%s: converged with %d poles of %d wanted" % (where, len(found), min(WANT, len(eigs))))
+    # poles more than 1e10 times farther from the shift than the nearest are not near
+    # (src/krylov.h, TB_KRYLOV_FAR): a converged run owes only the others
+    near = [e for e in eigs if len(eigs) and abs(e - sigma) <= 1e10 * min(abs(eigs - sigma))]
+    if run["converged"] and len(found) < min(WANT, len(near)):
+        bad.append("%s: converged with %d poles of %d wanted" % (where, len(found), min(WANT, len(near))))
     return bad
 
 
