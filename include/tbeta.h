@@ -181,6 +181,10 @@ typedef struct {
                               * start: progress(progress_ctx, done, points), from whichever
                               * thread takes them, one call at a time; it must return quickly */
     void *progress_ctx;
+    size_t rhp_count_limit; /* above the pole limit, right-half-plane counts by the argument
+                             * principle for the verdict, within this many factorizations
+                             * (about two per capacitor or inductor; default 5000, about
+                             * 3 000 reactive elements; 0: no count, P = 0 assumed) */
 } tb_options;
 
 /* The most frequencies tb_options.at_hz may hold (more: TB_ERR_USAGE). */
@@ -393,6 +397,7 @@ TB_API tb_status tb_closed_loop_get(const tb_result *res, tb_closed_loop *out);
 /* Thresholds and limits of the stability analysis (part of tb_options). */
 #define TB_MAX_CROSSINGS 16  /* crossings kept per kind and loop (more: truncated, said so) */
 #define TB_MAX_POLES 16      /* closed-loop poles kept per loop, largest real part first */
+#define TB_MAX_NEAR_POLES 24 /* poles near the shifts kept per loop, above the pole limit */
 
 /* Where a crossing lies against the .ac range: the search follows T from DC to far
  * above the sweep, so margins outside the range are found and checked too. */
@@ -449,6 +454,13 @@ typedef enum {
     TB_DOMINANT_COUNT
 } tb_dominance;
 
+/* How a right-half-plane count was made. */
+typedef enum {
+    TB_COUNT_NONE = 0,       /* not made */
+    TB_COUNT_POLES,          /* from the poles (dense QZ, up to the pole limit) */
+    TB_COUNT_WINDING         /* by the argument principle on the determinant along the j-omega axis */
+} tb_count_method;
+
 /* Why the stability figures are as they are (bits 1u << tb_stab_note). */
 typedef enum {
     TB_SNOTE_NO_PHASE_CROSSING = 0, /* the phase never reaches -180 (mod 360), DC to far above the
@@ -476,6 +488,10 @@ typedef enum {
     TB_SNOTE_NO_GAIN_DOWN,          /* no -180 crossing where |T| > 1: no critical gain below */
     TB_SNOTE_COUNTS_DISAGREE,       /* pole count and Nyquist count disagree: the worse verdict taken */
     TB_SNOTE_PAIR_DISAGREES,        /* the dominant pair's predictions miss the computed figures by > 2x */
+    TB_SNOTE_RHP_BY_WINDING,        /* poles not computed: right-half-plane counts by the argument
+                                     * principle on det M(jw) and det M0(jw) */
+    TB_SNOTE_WINDING_FAILED,        /* poles not computed and the argument-principle count not made
+                                     * (winding_why says why) */
     TB_SNOTE_COUNT
 } tb_stab_note;
 
@@ -483,6 +499,8 @@ typedef enum {
 TB_API const char *tb_stab_note_str(tb_stab_note note);
 /* "stable", "marginal", "unstable", "undecided". */
 TB_API const char *tb_verdict_str(tb_verdict verdict);
+/* "poles", "argument principle", "none". */
+TB_API const char *tb_count_method_str(tb_count_method method);
 /* "left", "axis", "right". */
 TB_API const char *tb_pole_place_str(tb_pole_place place);
 /* Why there is no dominant pair (a sentence; "dominant" for TB_DOMINANT_PAIR). */
@@ -590,6 +608,25 @@ typedef struct {
     bool gm_ok;               /* both gain margins (where they exist) >= gm_min_db, in a stable
                                * loop; false when not determined */
     unsigned notes;
+    /* how cl_rhp/cl_axis/cl_finite and ol_rhp/ol_axis were counted: by the poles, or above
+     * the pole limit by the argument principle (then cl_finite is the degree of det M(s),
+     * cl_axis and ol_axis count zeros at s = 0 and elsewhere on the axis, and the
+     * closed-loop count is compared with N + P as the poles' is) */
+    tb_count_method cl_count_by;
+    tb_count_method ol_count_by;
+    size_t winding_evaluations; /* factorizations the argument-principle counts took */
+    const char *winding_why;    /* static text: why a count was not made, else NULL */
+    /* above the pole limit: the poles nearest s = 0 and nearest the headline unity
+     * crossing, of the closed loop and of this loop's open loop (its source at gain zero),
+     * by shift-invert Krylov-Schur on KLU's factors (docs/stability.md); nearest first
+     * within each run, runs in the order closed near 0, open near 0, closed near the
+     * crossing, open near the crossing, a pole found twice kept once */
+    size_t near_count;
+    double complex near_poles[TB_MAX_NEAR_POLES];
+    bool near_open[TB_MAX_NEAR_POLES];        /* open loop */
+    double near_shift_hz[TB_MAX_NEAR_POLES];  /* the shift it was found near (Hz, on the axis) */
+    size_t near_solves;       /* right-hand sides the searches solved */
+    bool near_complete;       /* every search found the poles it looked for */
 } tb_stability;
 
 /* Stability figures of loop l (computed by tb_analyse when opt->stability).

@@ -33,6 +33,7 @@ void tb_options_init(tb_options *opt)
     opt->at_count = 0;
     opt->progress = NULL;
     opt->progress_ctx = NULL;
+    opt->rhp_count_limit = 5000;
 }
 
 /* Thresholds left negative in the options come from the netlist's .margins,

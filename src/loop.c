@@ -249,3 +249,14 @@ tb_status tb_loop_eval_one(const tb_mna *mna, tb_solver *solver, const double *M
         return TB_ERR_NUMERIC;
     return finish_points(mna, solver, Mx, omega, work, l, l + 1, out);
 }
+
+tb_status tb_loop_q(const tb_mna *mna, tb_solver *solver, tb_loop_work *work, size_t l, double complex *q)
+{
+    size_t n = mna->n;
+    double complex *w = work->rhs + (l + 1) * n;
+    scatter(&mna->loops[l].u, w, n);
+    if (tb_solver_solve(solver, w, 1))
+        return TB_ERR_NUMERIC;
+    *q = mna->loops[l].k * tb_svec_dot(&mna->loops[l].v, w);
+    return TB_OK;
+}

@@ -55,4 +55,10 @@ tb_status tb_loop_eval(const tb_mna *mna, tb_solver *solver, const double *Mx, d
 tb_status tb_loop_eval_one(const tb_mna *mna, tb_solver *solver, const double *Mx, double omega,
                            tb_loop_work *work, size_t l, tb_point *out);
 
+/* q = k v'M^-1 u of loop l (l < mna->loop_count) from one solve on the factorization
+ * solver holds, so that 1 - q = det M0 / det M (the return difference 1 + T = 1/(1 - q)),
+ * without refinement: for work that needs only the determinants. Overwrites work's
+ * column of w_l. Errors: TB_ERR_NUMERIC. */
+tb_status tb_loop_q(const tb_mna *mna, tb_solver *solver, tb_loop_work *work, size_t l, double complex *q);
+
 #endif

@@ -30,18 +30,18 @@ static const struct {
     {"report", "--help"}, {"report", "--json"}, {"report", "--html"}, {"report", "--at"},
     {"report", "--output"}, {"report", "--pm-min"}, {"report", "--gm-min"}, {"report", "--strict"},
     {"report", "--pole-limit"}, {"report", "--no-stability"}, {"report", "--all-sources"},
-    {"report", "--sensitivities"}, {"report", "--include-root"}, {"report", "--jobs"},
+    {"report", "--sensitivities"}, {"report", "--include-root"}, {"report", "--jobs"}, {"report", "--no-rhp-count"},
     {"sweep", "--help"}, {"sweep", "--csv"}, {"sweep", "--loop"}, {"sweep", "--table"}, {"sweep", "--output"},
     {"sweep", "--jobs"}, {"sweep", "--include-root"},
     {"step", "--help"}, {"step", "--csv"}, {"step", "--pole-limit"}, {"step", "--output"}, {"step", "--jobs"},
     {"step", "--include-root"},
     {"plot", "--help"}, {"plot", "--svg"}, {"plot", "--pm-min"}, {"plot", "--gm-min"}, {"plot", "--strict"},
     {"plot", "--pole-limit"}, {"plot", "--no-stability"}, {"plot", "--all-sources"}, {"plot", "--jobs"},
-    {"plot", "--include-root"},
+    {"plot", "--include-root"}, {"plot", "--no-rhp-count"},
     {"check", "--help"}, {"check", "--glob"}, {"check", "--jobs"}, {"check", "--shard"}, {"check", "--save"},
     {"check", "--against"}, {"check", "--drift"}, {"check", "--json"}, {"check", "--junit"}, {"check", "--html"},
     {"check", "--html-reports"}, {"check", "--output"}, {"check", "--merge"}, {"check", "--include-root"}, {"check", "--include-anywhere"},
-    {"check", "--pole-limit"}, {"check", "--no-stability"},
+    {"check", "--pole-limit"}, {"check", "--no-stability"}, {"check", "--no-rhp-count"},
 };
 
 /* true when command accepts option (-h is --help everywhere). */
@@ -82,7 +82,7 @@ static const char usage_report[] =
     "usage: tbeta report NETLIST [--json] [--html FILE] [--at F1,F2,...] [--output FILE]\n"
     "                            [--pm-min DEG] [--gm-min DB] [--strict]\n"
     "                            [--pole-limit N] [--no-stability] [--all-sources] [--sensitivities]\n"
-    "                            [--jobs N] [--include-root DIR]\n"
+    "                            [--jobs N] [--include-root DIR] [--no-rhp-count]\n"
     "  Prints, for every .loop: T, a, beta = 1/A_inf, A_inf, A0 and A at DC, the gain\n"
     "  error (A - A_inf)/A_inf, the unity-loop-gain frequency, the phase margin and\n"
     "  the closed-loop -3 dB frequency; then the stability figures: every crossing of\n"
@@ -106,6 +106,9 @@ static const char usage_report[] =
     "  --pole-limit N    compute poles only up to N unknowns (default 500;\n"
     "                    dense QZ: about 1.5 s at 500, 18 s at 1000)\n"
     "  --no-stability    skip the stability analysis (foundation figures only)\n"
+    "  --no-rhp-count    above the pole limit, no right-half-plane count by the argument\n"
+    "                    principle (about two factorizations per capacitor or inductor, at\n"
+    "                    most 5000): the Nyquist verdict then assumes a stable open loop\n"
     "  --all-sources     loop census: the return ratio of every controlled source, ranked,\n"
     "                    flagging unmarked local loops whose |T| reaches 1\n"
     "  --sensitivities   how every loop's figures move with each element's value (adjoint\n"
@@ -117,6 +120,7 @@ static const char usage_report[] =
 static const char usage_plot[] =
     "usage: tbeta plot NETLIST --svg DIR [--pole-limit N] [--no-stability] [--all-sources]\n"
     "                          [--pm-min DEG] [--gm-min DB] [--strict] [--jobs N] [--include-root DIR]\n"
+    "                          [--no-rhp-count]\n"
     "  Writes the pictures of every loop as SVG files into DIR (created when missing):\n"
     "  LOOP-bode.svg, LOOP-nyquist.svg, LOOP-breakdown.svg (with .ideal), LOOP-impedance-PORT.svg\n"
     "  (each .zport) and step.svg (the closed-loop step response); prints the files written.\n"
@@ -125,6 +129,7 @@ static const char usage_plot[] =
     "  --pole-limit N      poles and the step response as a sum over the modes only up to N\n"
     "                      unknowns (default 500)\n"
     "  --no-stability      no margins, poles, verdict or step response in the pictures\n"
+    "  --no-rhp-count      above the pole limit, no right-half-plane count for the verdict\n"
     "  --all-sources       run the loop census too (its findings are in 'tbeta report')\n"
     "  --pm-min DEG, --gm-min DB, --strict\n"
     "                      exit 1 when a loop misses a threshold, as in 'tbeta report'\n"
@@ -217,7 +222,8 @@ static bool is_stability_option(const char *s)
 {
     return strcmp(s, "--pm-min") == 0 || strcmp(s, "--gm-min") == 0 || strcmp(s, "--strict") == 0 ||
            strcmp(s, "--pole-limit") == 0 || strcmp(s, "--no-stability") == 0 ||
-           strcmp(s, "--all-sources") == 0 || strcmp(s, "--sensitivities") == 0;
+           strcmp(s, "--all-sources") == 0 || strcmp(s, "--sensitivities") == 0 ||
+           strcmp(s, "--no-rhp-count") == 0;
 }
 
 /* A finite number (or, with whole, a non-negative integer) from text; false when malformed. */
@@ -244,6 +250,10 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
     }
     if (strcmp(s, "--no-stability") == 0) {
         a->opt.stability = false;
+        return -1;
+    }
+    if (strcmp(s, "--no-rhp-count") == 0) {
+        a->opt.rhp_count_limit = 0;
         return -1;
     }
     if (strcmp(s, "--all-sources") == 0) {
@@ -631,7 +641,7 @@ static const char usage_check[] =
     "usage: tbeta check PATH... [--glob PATTERN] [--jobs N] [--shard I/N]\n"
     "                   [--save FILE] [--against FILE] [--drift PCT] [--json FILE] [--junit FILE]\n"
     "                   [--html FILE [--html-reports]] [--output FILE] [--pole-limit N] [--no-stability]\n"
-    "                   [--include-root DIR | --include-anywhere]\n"
+    "                   [--include-root DIR | --include-anywhere] [--no-rhp-count]\n"
     "       tbeta check --merge RESULTS.json... [--json FILE] [--junit FILE] [--save FILE] [--html FILE]\n"
     "  Reads every netlist (files as given, directories searched recursively for\n"
     "  PATTERN), analyses it and evaluates its .expect cards; prints one line per\n"
@@ -663,6 +673,8 @@ static const char usage_check[] =
     "                  as N^3: lower it for large netlists; the step response then\n"
     "                  comes from time stepping)\n"
     "  --no-stability  foundation figures only (no margins, poles or verdict)\n"
+    "  --no-rhp-count  above the pole limit, no right-half-plane count by the argument\n"
+    "                  principle: the Nyquist verdict then assumes a stable open loop\n"
     "  The .expect grammar and the figures an expectation may name: docs/check.md.\n"
     "  exit codes: 0 all pass; 1 an expectation failed or a figure drifted;\n"
     "  2 usage error, or a netlist could not be read or analysed.\n";
@@ -767,6 +779,8 @@ static int parse_check_args(int argc, char **argv, check_args *a)
             a->merge = true;
         } else if (strcmp(s, "--no-stability") == 0) {
             a->opt.analysis.stability = false;
+        } else if (strcmp(s, "--no-rhp-count") == 0) {
+            a->opt.analysis.rhp_count_limit = 0;
         } else if (check_takes_value(s)) {
             if (i + 1 >= argc)
                 return usage_error(s, "needs a value", usage_check);

@@ -15,7 +15,9 @@ bool tb_nyquist_count(const tb_nyquist_path *path, long *n);
  * verdict in pole_verdict; when Z = cl_rhp differs from N + P, counts_disagree
  * and the worse of the two verdicts. ol_axis_away tells that the open loop has
  * poles on the axis other than s = 0 (the path's small arc goes round s = 0
- * only): then, as with closed-loop poles on the axis, the counts are not compared. */
+ * only): then, as with closed-loop poles on the axis, the counts are not compared.
+ * Without poles, the counts of the argument principle (cl_count_by, ol_count_by
+ * TB_COUNT_WINDING) take their place; with neither, P = 0 is assumed and noted. */
 void tb_nyquist_verdict(tb_stability *st, bool ol_axis_away);
 
 #endif

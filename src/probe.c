@@ -51,6 +51,18 @@ tb_status tb_probe_eval_loop(tb_probe *probe, double f, size_t l, size_t *culpri
     return st;
 }
 
+tb_status tb_probe_q(tb_probe *probe, double f, size_t l, double complex *q, size_t *culprit)
+{
+    probe->evaluations++;
+    tb_status st = tb_probe_factor(probe, f, false, culprit);
+    if (st)
+        return st;
+    /* the loop's w column is overwritten (unrefined): no cached evaluation stays valid */
+    probe->row_valid = false;
+    probe->one_valid = false;
+    return tb_loop_q(probe->mna, probe->solver, probe->work, l, q);
+}
+
 tb_status tb_probe_factor_gain(tb_probe *probe, double f, size_t l, double d, size_t *culprit)
 {
     probe->held = false;

@@ -43,6 +43,10 @@ tb_status tb_probe_eval(tb_probe *probe, double f, size_t *culprit);
  * loops; the other entries of row are not current. Errors as tb_probe_factor. */
 tb_status tb_probe_eval_loop(tb_probe *probe, double f, size_t l, size_t *culprit);
 
+/* tb_probe_factor(probe, f, false), then loop l's q = k v'M^-1 u from one solve
+ * (tb_loop_q: 1 - q = det M0 / det M), for the argument principle. probe->row is
+ * left as it was; the loops' w is not. Errors as tb_probe_factor, TB_ERR_NUMERIC. */
+tb_status tb_probe_q(tb_probe *probe, double f, size_t l, double complex *q, size_t *culprit);
 /* Factors, with pivoting, M(j 2 pi f) with loop l's source gain k changed to
  * k (1 + d) (tb_mna_values_gain). Errors as tb_probe_factor. */
 tb_status tb_probe_factor_gain(tb_probe *probe, double f, size_t l, double d, size_t *culprit);

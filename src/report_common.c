@@ -57,11 +57,17 @@ static const char *first_pole(const tb_stability *st, tb_pole_place place, char 
     return buf;
 }
 
+/* Whether P (the open-loop right-half-plane count) is known, by the poles or the argument principle. */
+static bool p_known(const tb_stability *st)
+{
+    return st->has_poles || st->ol_count_by != TB_COUNT_NONE;
+}
+
 static const char *nyquist_words(const tb_stability *st, char *buf, size_t size)
 {
     if (!st->has_nyquist)
         snprintf(buf, size, "; no Nyquist count (path broken or through -1)");
-    else if (st->has_poles)
+    else if (p_known(st))
         snprintf(buf, size, "; Nyquist: N = %ld encirclements of -1, P = %zu, N + P = %ld", st->nyquist_n,
                  st->ol_rhp, st->nyquist_n + (long)st->ol_rhp);
     else
@@ -73,15 +79,17 @@ static const char *nyquist_words(const tb_stability *st, char *buf, size_t size)
 static const char *disagree_words(const tb_stability *st, char *buf, size_t size)
 {
     long z = st->nyquist_n + (long)st->ol_rhp;
+    const char *who = st->has_poles ? "the poles" : "the argument principle";
     buf[0] = '\0';
     if (!st->counts_disagree)
         return buf;
     if (z > 0)
-        snprintf(buf, size, "; the poles say %s, but N + P = %ld says %ld in the right half-plane: the counts "
-                 "disagree and the worse verdict is taken", tb_verdict_str(st->pole_verdict), z, z);
+        snprintf(buf, size, "; %s say%s %s, but N + P = %ld says %ld in the right half-plane: the counts "
+                 "disagree and the worse verdict is taken", who, st->has_poles ? "" : "s",
+                 tb_verdict_str(st->pole_verdict), z, z);
     else
-        snprintf(buf, size, "; N + P = %ld is no count of right-half-plane poles: the counts disagree and the "
-                 "poles decide", z);
+        snprintf(buf, size, "; N + P = %ld is no count of right-half-plane poles: the counts disagree and %s "
+                 "decide%s", z, who, st->has_poles ? "" : "s");
     return buf;
 }
 
@@ -104,6 +112,21 @@ static void pole_reason(const tb_stability *st, const char *nyq, const char *dis
                  checked, nyq, dis);
 }
 
+/* The sentence for a verdict reached with the closed-loop count of the argument principle. */
+static void winding_reason(const tb_stability *st, const char *nyq, const char *dis, char *buf, size_t size)
+{
+    const char *by = "counted by the argument principle on det M(jw)";
+    if (st->verdict == TB_VERDICT_UNSTABLE && st->cl_rhp > 0)
+        snprintf(buf, size, "%zu closed-loop poles in the right half-plane, %s%s%s", st->cl_rhp, by, nyq, dis);
+    else if (st->verdict == TB_VERDICT_UNSTABLE)
+        snprintf(buf, size, "no closed-loop pole in the right half-plane, %s%s%s", by, nyq, dis);
+    else if (st->verdict == TB_VERDICT_MARGINAL)
+        snprintf(buf, size, "%zu closed-loop poles on the j-omega axis and none to its right, %s", st->cl_axis, by);
+    else
+        snprintf(buf, size, "none of the %zu finite closed-loop poles in the right half-plane or on the axis, %s%s%s",
+                 st->cl_finite, by, nyq, dis);
+}
+
 const char *tb_report_reason(const tb_stability *st, char *buf, size_t size)
 {
     char nyq[128], dis[256];
@@ -111,6 +134,12 @@ const char *tb_report_reason(const tb_stability *st, char *buf, size_t size)
     disagree_words(st, dis, sizeof dis);
     if (st->has_poles && st->verdict != TB_VERDICT_UNKNOWN)
         pole_reason(st, nyq, dis, buf, size);
+    else if (st->cl_count_by == TB_COUNT_WINDING && st->verdict != TB_VERDICT_UNKNOWN)
+        winding_reason(st, nyq, dis, buf, size);
+    else if (p_known(st) && st->verdict != TB_VERDICT_UNKNOWN)
+        snprintf(buf, size, "Nyquist: N = %ld clockwise encirclements of -1, P = %zu open-loop right-half-plane "
+                 "poles by the argument principle on det M0(jw), N + P = %ld", st->nyquist_n, st->ol_rhp,
+                 st->nyquist_n + (long)st->ol_rhp);
     else if (st->verdict == TB_VERDICT_STABLE)
         snprintf(buf, size, "Nyquist: N = 0 encirclements of -1, open loop assumed stable");
     else if (st->verdict == TB_VERDICT_UNSTABLE)

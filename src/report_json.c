@@ -213,6 +213,67 @@ static json_t *poles_object(builder *b, const tb_stability *st)
     return o;
 }
 
+/* One right-half-plane count: how it was made and what it found. */
+static json_t *count_object(builder *b, tb_count_method by, size_t rhp, size_t axis)
+{
+    if (by == TB_COUNT_NONE)
+        return json_null();
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "method", json_string(tb_count_method_str(by)));
+    set(b, o, "rhp", json_integer((json_int_t)rhp));
+    set(b, o, "axis", json_integer((json_int_t)axis));
+    return o;
+}
+
+/* The right-half-plane counts the verdict rests on (by the poles, or above the
+ * pole limit by the argument principle). */
+static json_t *counts_object(builder *b, const tb_stability *st)
+{
+    json_t *o = obj(b);
+    if (!o)
+        return NULL;
+    set(b, o, "closed_loop", count_object(b, st->cl_count_by, st->cl_rhp, st->cl_axis));
+    set(b, o, "open_loop", count_object(b, st->ol_count_by, st->ol_rhp, st->ol_axis));
+    set(b, o, "closed_loop_degree",
+        st->cl_count_by == TB_COUNT_WINDING ? json_integer((json_int_t)st->cl_finite) : json_null());
+    set(b, o, "evaluations", json_integer((json_int_t)st->winding_evaluations));
+    set(b, o, "not_counted_because", st->winding_why ? json_string(st->winding_why) : json_null());
+    return o;
+}
+
+/* Above the pole limit: the poles found near s = 0 and near the unity crossing. */
+static json_t *near_object(builder *b, const tb_stability *st)
+{
+    if (st->has_poles || (st->near_count == 0 && st->near_solves == 0))
+        return json_null();
+    json_t *o = obj(b);
+    json_t *list = json_array();
+    if (!o || !list) {
+        json_decref(list);
+        b->ok = false;
+        return o;
+    }
+    set(b, o, "method", json_string("shift-invert Krylov-Schur"));
+    set(b, o, "complete", json_boolean(st->near_complete));
+    set(b, o, "solves", json_integer((json_int_t)st->near_solves));
+    for (size_t i = 0; i < st->near_count; i++) {
+        json_t *p = obj(b);
+        if (!p)
+            break;
+        set(b, p, "loop", json_string(st->near_open[i] ? "open" : "closed"));
+        set(b, p, "re", num(creal(st->near_poles[i])));
+        set(b, p, "im", num(cimag(st->near_poles[i])));
+        set(b, p, "hz", num(cabs(st->near_poles[i]) / TB_TWO_PI));
+        set(b, p, "near_hz", num(st->near_shift_hz[i]));
+        if (json_array_append_new(list, p))
+            b->ok = false;
+    }
+    set(b, o, "poles", list);
+    return o;
+}
+
 static json_t *dominant_object(builder *b, const tb_stability *st)
 {
     if (!st->has_dominant)
@@ -267,13 +328,16 @@ static void stability_keys(builder *b, json_t *lp, const tb_stability *st)
     set(b, lp, "searched_to_hz", num(st->search_hi_hz));
     set(b, lp, "crossings", crossings_object(b, st));
     set(b, lp, "poles", poles_object(b, st));
+    set(b, lp, "rhp_counts", counts_object(b, st));
+    set(b, lp, "poles_near", near_object(b, st));
     set(b, lp, "nyquist_encirclements", st->has_nyquist ? json_integer(st->nyquist_n) : json_null());
     set(b, lp, "dominant_pair", dominant_object(b, st));
     set(b, lp, "dominance", json_string(tb_dominance_str(st->dominance)));
     set(b, lp, "closed_loop_peaking_db", st->has_cl_peaking ? num(st->cl_peaking_db) : json_null());
     set(b, lp, "closed_loop_peaking_hz", st->has_cl_peaking ? num(st->cl_peaking_hz) : json_null());
     set(b, lp, "verdict", json_string(tb_verdict_str(st->verdict)));
-    set(b, lp, "pole_verdict", st->has_poles ? json_string(tb_verdict_str(st->pole_verdict)) : json_null());
+    set(b, lp, "pole_verdict", st->cl_count_by != TB_COUNT_NONE ? json_string(tb_verdict_str(st->pole_verdict))
+                                                                 : json_null());
     set(b, lp, "counts_disagree", json_boolean(st->counts_disagree));
     set(b, lp, "verdict_reason", json_string(tb_report_reason(st, reason, sizeof reason)));
     set(b, lp, "thresholds", thresholds_object(b, st));

@@ -176,6 +176,31 @@ static void crossing_lines(FILE *out, const tb_stability *st)
     }
 }
 
+/* The right-half-plane counts by the argument principle, above the pole limit. */
+static void winding_lines(FILE *out, const tb_stability *st)
+{
+    if (st->cl_count_by == TB_COUNT_WINDING)
+        fprintf(out, "    closed loop by the argument principle on det M(jw): %zu poles, %zu in the right "
+                     "half-plane, %zu on the axis\n", st->cl_finite, st->cl_rhp, st->cl_axis);
+    if (st->ol_count_by == TB_COUNT_WINDING)
+        fprintf(out, "    open loop by the argument principle on det M0(jw): %zu in the right half-plane, "
+                     "%zu on the axis\n", st->ol_rhp, st->ol_axis);
+    if (st->winding_why)
+        fprintf(out, "    no count by the argument principle: %s\n", st->winding_why);
+    if (st->winding_evaluations > 0)
+        fprintf(out, "      (%zu factorizations along the j-omega axis)\n", st->winding_evaluations);
+    if (st->near_count > 0 || st->near_solves > 0)
+        fprintf(out, "    poles nearest 0 Hz and the unity crossing (shift-invert Krylov-Schur, %zu solves%s):\n",
+                st->near_solves, st->near_complete ? "" : "; some searches did not converge");
+    for (size_t i = 0; i < st->near_count; i++) {
+        double complex s = st->near_poles[i];
+        char f[64], g[64];
+        fprintf(out, "      %-6s s = %.6g %c j%.6g rad/s  (%s)  near %s\n", st->near_open[i] ? "open" : "closed",
+                creal(s), cimag(s) < 0 ? '-' : '+', fabs(cimag(s)), fmt_hz(cabs(s) / TB_TWO_PI, f, sizeof f),
+                fmt_hz_or_dc(st->near_shift_hz[i], g, sizeof g));
+    }
+}
+
 static void pole_lines(FILE *out, const tb_stability *st)
 {
     char f[64], checked[64] = "", weight[48] = "";
@@ -183,6 +208,7 @@ static void pole_lines(FILE *out, const tb_stability *st)
         if (st->notes & (1u << TB_SNOTE_POLES_TOO_BIG))
             fprintf(out, "    poles not computed (%zu unknowns > limit %zu; --pole-limit N)\n", st->unknowns,
                     st->pole_limit);
+        winding_lines(out, st);
         return;
     }
     if (st->cl_checked + st->ol_checked > 0)

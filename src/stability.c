@@ -12,8 +12,13 @@
 #include "nyquist.h"
 #include "poles.h"
 #include "units.h"
+#include "winding.h"
+#include "krylov.h"
 
 static const double PI = 3.14159265358979323846264338327950288;
+
+/* Poles wanted near each shift above the pole limit. */
+#define TB_NEAR_WANT 6
 
 /* Dominance (docs/stability.md): a pole whose weight is at most this fraction of
  * the pair's is negligible; one of larger weight must lie at least this many
@@ -328,6 +333,7 @@ static tb_status loop_poles(stab_work *w, const tb_result *res, size_t l, tb_sta
         st->notes |= 1u << TB_SNOTE_POLES_FAILED;
     if (!st->has_poles)
         return TB_OK;
+    st->cl_count_by = st->ol_count_by = TB_COUNT_POLES;
     st->ol_rhp = w->ol.rhp;
     st->ol_axis = w->ol.axis;
     st->ol_checked = w->ol.checked;
@@ -337,6 +343,91 @@ static tb_status loop_poles(stab_work *w, const tb_result *res, size_t l, tb_sta
     st->weights_of_a = mna->has_io;
     keep_poles(&w->cl, w->kept, *weights, st);
     return TB_OK;
+}
+
+/* Above the pole limit: the right-half-plane counts of det M and det M0 by the
+ * argument principle along the sweep's range and beyond (tb_winding_run), then a
+ * pivoted factorization at the lowest sweep frequency, as after the poles' checks. */
+static tb_status loop_winding(stab_work *w, const tb_result *res, size_t l, tb_stability *st, bool *ol_axis_away)
+{
+    if (res->npoints < 2 || !(res->freqs[0] > 0)) {
+        st->winding_why = "the sweep has no range to start the walk on";
+        st->notes |= 1u << TB_SNOTE_WINDING_FAILED;
+        return TB_OK;
+    }
+    tb_winding wd;
+    tb_status s = tb_winding_run_budget(w->probe, l, res->freqs[0], res->freqs[res->npoints - 1],
+                                        w->opt->rhp_count_limit, &wd);
+    if (s == TB_ERR_NOMEM)
+        return s;
+    size_t culprit = 0;
+    tb_status again = tb_probe_factor(w->probe, res->freqs[0], true, &culprit);
+    if (again == TB_ERR_NOMEM)
+        return again;
+    if (s) {
+        st->winding_why = "a factorization of the walk failed";
+        st->notes |= 1u << TB_SNOTE_WINDING_FAILED;
+        return TB_OK;
+    }
+    st->winding_evaluations = wd.evaluations;
+    if (wd.closed.counted) {
+        st->cl_count_by = TB_COUNT_WINDING;
+        st->cl_rhp = wd.closed.rhp;
+        st->cl_axis = wd.closed.on_axis + wd.closed.at_origin;
+        st->cl_finite = wd.closed.degree;
+    }
+    if (wd.open.counted) {
+        st->ol_count_by = TB_COUNT_WINDING;
+        st->ol_rhp = wd.open.rhp;
+        st->ol_axis = wd.open.on_axis + wd.open.at_origin;
+        *ol_axis_away = wd.open.on_axis > 0;
+    }
+    st->winding_why = !wd.closed.counted ? wd.closed.why : !wd.open.counted ? wd.open.why : NULL;
+    st->notes |= 1u << (st->winding_why ? TB_SNOTE_WINDING_FAILED : TB_SNOTE_RHP_BY_WINDING);
+    return TB_OK;
+}
+
+/* Poles found near one shift join st's list, each once. */
+static void keep_near(const tb_krylov_found *k, bool open, tb_stability *st)
+{
+    for (size_t i = 0; i < k->count && st->near_count < TB_MAX_NEAR_POLES; i++) {
+        double complex s = k->poles[i].s;
+        bool seen = false;
+        for (size_t j = 0; j < st->near_count && !seen; j++)
+            seen = st->near_open[j] == open && cabs(st->near_poles[j] - s) <= 1e-9 * cabs(s);
+        if (seen)
+            continue;
+        st->near_poles[st->near_count] = s;
+        st->near_open[st->near_count] = open;
+        st->near_shift_hz[st->near_count] = k->shift_hz;
+        st->near_count++;
+    }
+}
+
+/* Above the pole limit: the closed- and open-loop poles nearest s = 0 and the
+ * headline unity crossing (tb_krylov_near), then a pivoted factorization at the
+ * lowest sweep frequency, as after the poles' checks. A search that fails leaves
+ * its poles out (near_complete false). */
+static tb_status near_poles(stab_work *w, const tb_result *res, size_t l, tb_stability *st)
+{
+    double shifts[2] = {0, st->has_phase_margin ? st->phase_margin_hz : -1};
+    st->near_complete = true;
+    for (int i = 0; i < 2; i++) {
+        for (int open = 0; open < 2 && shifts[i] >= 0; open++) {
+            tb_krylov_found k;
+            tb_status s = tb_krylov_near(w->probe, shifts[i], open ? l : SIZE_MAX, TB_NEAR_WANT, &k);
+            if (s == TB_ERR_NOMEM)
+                return s;
+            st->near_complete = st->near_complete && !s && k.converged;
+            if (s)
+                continue;
+            st->near_solves += k.solves;
+            keep_near(&k, open, st);
+        }
+    }
+    size_t culprit = 0;
+    tb_status s = res->npoints ? tb_probe_factor(w->probe, res->freqs[0], true, &culprit) : TB_OK;
+    return s == TB_ERR_NOMEM ? s : TB_OK;
 }
 
 /* One loop: margins by the scan, open-loop poles, Nyquist count, verdict, dominant pair. */
@@ -354,6 +445,10 @@ static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *
         s = loop_poles(w, res, l, st, &weights, &ol_axis_away);
     else
         st->notes |= 1u << w->why_none;
+    if (!s && !st->has_poles && w->opt->rhp_count_limit > 0)
+        s = loop_winding(w, res, l, st, &ol_axis_away);
+    if (!s && !st->has_poles && w->probe->mna->n > w->opt->pole_limit)
+        s = near_poles(w, res, l, st);
     if (s)
         return s;
     st->has_nyquist = tb_nyquist_count(&path, &st->nyquist_n);

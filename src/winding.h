@@ -68,9 +68,15 @@ typedef struct {
  * damping is below about 1e-4 can be missed. Cost: about TB_WINDING_STEPS
  * evaluations a decade plus about two per zero of det M (a 10^4-section RC
  * line: 16 800 evaluations), so TB_WINDING_MAX_EVALS stops it near 10^4
- * reactive elements.
+ * reactive elements; where the degree found first (from the slope at the top of
+ * the range) says the walk would need more than that, it gives up before walking.
  * Errors: TB_ERR_USAGE (bad l or range), TB_ERR_NOMEM, TB_ERR_NUMERIC; a
  * singular M at a frequency of the walk is stepped around, not an error. */
 tb_status tb_winding_run(tb_probe *probe, size_t l, double f_start, double f_stop, tb_winding *out);
+
+/* tb_winding_run with a budget of evaluations other than TB_WINDING_MAX_EVALS
+ * (budget > 0; TB_ERR_USAGE otherwise). */
+tb_status tb_winding_run_budget(tb_probe *probe, size_t l, double f_start, double f_stop, size_t budget,
+                                tb_winding *out);
 
 #endif

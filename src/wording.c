@@ -41,6 +41,8 @@ static const char *const snote_text[TB_SNOTE_COUNT] = {
     [TB_SNOTE_NO_GAIN_DOWN] = "the phase never reaches -180 degrees (mod 360) where |T| > 1: no critical gain below the present one",
     [TB_SNOTE_COUNTS_DISAGREE] = "the poles and the Nyquist count give different numbers of right-half-plane poles: the worse verdict is taken",
     [TB_SNOTE_PAIR_DISAGREES] = "the dominant pair's second-order predictions miss the computed step response or closed-loop peaking by more than 2x",
+    [TB_SNOTE_RHP_BY_WINDING] = "poles not computed: the right-half-plane counts come from the argument principle on det M(jw) along the j-omega axis",
+    [TB_SNOTE_WINDING_FAILED] = "poles not computed and no right-half-plane count by the argument principle either",
 };
 _Static_assert(sizeof(snote_text) / sizeof(snote_text[0]) == TB_SNOTE_COUNT, "snote_text in step");
 
@@ -62,6 +64,13 @@ const char *tb_verdict_str(tb_verdict verdict)
         break;
     }
     return "undecided";
+}
+
+const char *tb_count_method_str(tb_count_method method)
+{
+    static const char *const method_text[] = {[TB_COUNT_NONE] = "none", [TB_COUNT_POLES] = "poles",
+                                              [TB_COUNT_WINDING] = "argument principle"};
+    return (unsigned)method <= TB_COUNT_WINDING ? method_text[method] : "unknown";
 }
 
 const char *tb_pole_place_str(tb_pole_place place)

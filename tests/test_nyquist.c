@@ -88,6 +88,35 @@ static void test_nyquist_alone(void **state)
     assert_int_equal(st.verdict, TB_VERDICT_UNKNOWN);
 }
 
+/* Without poles, the argument principle's counts take their place: an open-loop
+ * right-half-plane pole encircled once counterclockwise (Z = N + P = 0) is stable and
+ * assumes nothing; a closed-loop count that N + P contradicts takes the worse verdict. */
+static void test_nyquist_winding_counts(void **state)
+{
+    (void)state;
+    tb_stability st = {0};
+    st.has_nyquist = true;
+    st.nyquist_n = -1;
+    st.ol_count_by = TB_COUNT_WINDING;
+    st.ol_rhp = 1;
+    tb_nyquist_verdict(&st, false);
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    assert_false(st.notes & (1u << TB_SNOTE_NYQUIST_ASSUMES_P0));
+    st.cl_count_by = TB_COUNT_WINDING;
+    st.nyquist_n = 1; /* N + P = 2, but the closed-loop count says 0 */
+    st.notes = 0;
+    tb_nyquist_verdict(&st, false);
+    assert_int_equal(st.verdict, TB_VERDICT_UNSTABLE);
+    assert_true(st.counts_disagree);
+    assert_int_equal(st.pole_verdict, TB_VERDICT_STABLE);
+    st = (tb_stability){0};
+    st.has_nyquist = true;
+    st.nyquist_n = 0;
+    st.ol_count_by = TB_COUNT_WINDING;
+    tb_nyquist_verdict(&st, true); /* open-loop zeros on the axis: N + P is no count */
+    assert_int_equal(st.verdict, TB_VERDICT_UNKNOWN);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -95,6 +124,7 @@ int main(void)
         cmocka_unit_test(test_nyquist_counts_disagree_take_the_worse),
         cmocka_unit_test(test_nyquist_axis_poles_not_compared),
         cmocka_unit_test(test_nyquist_alone),
+        cmocka_unit_test(test_nyquist_winding_counts),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -117,6 +117,74 @@ static void test_stability_rc_ladder_poles(void **state)
     assert_int_equal(st.verdict, TB_VERDICT_STABLE);
 }
 
+static tb_stability stability_of_file(const char *path)
+{
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    tb_result *res = NULL;
+    assert_int_equal(tb_circuit_read(path, diag, &ckt), TB_OK);
+    assert_int_equal(tb_analyse(ckt, NULL, diag, &res), TB_OK);
+    tb_stability out;
+    assert_int_equal(tb_stability_loop(res, 0, &out), TB_OK);
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+    tb_diag_free(diag);
+    return out;
+}
+
+/* The nearest |s| among the kept near poles of one kind (closed or open) matching s to rel. */
+static bool near_has(const tb_stability *st, bool open, double complex s, double rel)
+{
+    for (size_t i = 0; i < st->near_count; i++)
+        if (st->near_open[i] == open && cabs(st->near_poles[i] - s) <= rel * cabs(s))
+            return true;
+    return false;
+}
+
+/* Above the pole limit the poles nearest s = 0 and the unity crossing come from
+ * shift-invert Krylov-Schur on KLU's factors: references.md checks 8a (both ladder
+ * poles, -(3 -+ sqrt 5)/(2RC)) and 8b (open loop -1/(RC), closed loop -(1 + T0)/(RC));
+ * and on the three-pole loop of check 4c every near pole is one of the dense QZ
+ * poles of the same circuit (tb_poles, up to the limit). */
+static void test_stability_near_poles_above_limit(void **state)
+{
+    (void)state;
+    tb_options opt;
+    tb_options_init(&opt);
+    opt.pole_limit = 0;
+    tb_stability st = stability_of("rc ladder\nVS in 0 AC 1\nR1 in a 1k\nC1 a 0 1u\nR2 a b 1k\n"
+                                   "C2 b 0 1u\nE1 o 0 b 0 1\nRL o 0 1k\n.loop E1\n.ac dec 10 1 1meg\n",
+                                   &opt);
+    assert_false(st.has_poles);
+    assert_true(near_has(&st, false, -(3 - sqrt(5.0)) / 2e-3, 1e-10));
+    assert_true(near_has(&st, false, -(3 + sqrt(5.0)) / 2e-3, 1e-10));
+    assert_true(st.near_complete);
+    st = stability_of("pole moved by feedback\nVS in 0 AC 1\nE1 x 0 in out 99\n"
+                      "R x out 1k\nC out 0 1u\n.io VS v(out)\n.loop E1\n.ac dec 20 1 100meg\n", &opt);
+    assert_true(near_has(&st, false, -1e5, 1e-10));
+    assert_true(near_has(&st, true, -1e3, 1e-10));
+    tb_stability dense = stability_of_file("tests/stab/stab_threepole_unstable.net");
+    opt.pole_limit = 0;
+    tb_circuit *ckt = NULL;
+    tb_result *res = NULL;
+    tb_diag *diag = tb_diag_new();
+    assert_int_equal(tb_circuit_read("tests/stab/stab_threepole_unstable.net", diag, &ckt), TB_OK);
+    assert_int_equal(tb_analyse(ckt, &opt, diag, &res), TB_OK);
+    assert_int_equal(tb_stability_loop(res, 0, &st), TB_OK);
+    assert_true(st.near_count >= 3);
+    for (size_t i = 0; i < st.near_count; i++) {
+        if (st.near_open[i])
+            continue;
+        bool found = false;
+        for (size_t j = 0; j < dense.pole_count; j++)
+            found = found || cabs(dense.poles[j] - st.near_poles[i]) <= 1e-8 * cabs(dense.poles[j]);
+        assert_true(found);
+    }
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+    tb_diag_free(diag);
+}
+
 /* references.md check 8b: VCVS v_x = 99 (v_in - v_out), R = 1k x-out, C = 1u out-0:
  * open-loop pole -1/(RC) = -1000 rad/s, closed-loop pole -(1 + T0)/(RC) = -1e5 rad/s. */
 static void test_stability_feedback_moves_pole(void **state)
@@ -149,20 +217,6 @@ static void test_stability_lc_tank_marginal(void **state)
     assert_int_equal(st.verdict, TB_VERDICT_MARGINAL);
 }
 
-static tb_stability stability_of_file(const char *path)
-{
-    tb_diag *diag = tb_diag_new();
-    tb_circuit *ckt = NULL;
-    tb_result *res = NULL;
-    assert_int_equal(tb_circuit_read(path, diag, &ckt), TB_OK);
-    assert_int_equal(tb_analyse(ckt, NULL, diag, &res), TB_OK);
-    tb_stability out;
-    assert_int_equal(tb_stability_loop(res, 0, &out), TB_OK);
-    tb_result_free(res);
-    tb_circuit_free(ckt);
-    tb_diag_free(diag);
-    return out;
-}
 
 /* references.md section 4, check 4b: T = T0/((1 + s/p1)(1 + s/p2)), exact crossover
  * u = fc^2 = [-(f1^2 + f2^2) + sqrt((f1^2 + f2^2)^2 + 4 f1^2 f2^2 (T0^2 - 1))]/2,
@@ -312,8 +366,24 @@ static void test_stability_thresholds_and_limit(void **state)
     assert_false(st.pm_ok);
     assert_false(st.has_poles);
     assert_true(st.notes & (1u << TB_SNOTE_POLES_TOO_BIG));
-    assert_true(st.notes & (1u << TB_SNOTE_NYQUIST_ASSUMES_P0));
+    /* above the limit the counts come from the argument principle, not an assumed P = 0:
+     * wn^2/(s(s + 2 zeta wn)) closes to two left-half-plane poles (references.md section 4);
+     * with G1 at zero, C1 floats: det M0 has a zero at s = 0 and one at -1/(R2 C2) (RC algebra) */
+    assert_false(st.notes & (1u << TB_SNOTE_NYQUIST_ASSUMES_P0));
+    assert_true(st.notes & (1u << TB_SNOTE_RHP_BY_WINDING));
+    assert_int_equal(st.cl_count_by, TB_COUNT_WINDING);
+    assert_int_equal(st.ol_count_by, TB_COUNT_WINDING);
+    assert_int_equal(st.cl_finite, 2);
+    assert_int_equal(st.cl_rhp, 0);
+    assert_int_equal(st.cl_axis, 0);
+    assert_int_equal(st.ol_rhp, 0);
+    assert_int_equal(st.ol_axis, 1);
+    assert_true(st.winding_evaluations > 0);
     assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    opt.pole_limit = 500;
+    st = stability_of(integrator_loop, &opt);
+    assert_int_equal(st.cl_count_by, TB_COUNT_POLES);
+    assert_int_equal(st.winding_evaluations, 0);
     opt.stability = false;
     tb_circuit *ckt = tu_parse(integrator_loop);
     tb_result *res = NULL;
@@ -458,6 +528,7 @@ int main(void)
         cmocka_unit_test(test_stability_brent_and_golden),
         cmocka_unit_test(test_stability_second_order_relations),
         cmocka_unit_test(test_stability_rc_ladder_poles),
+        cmocka_unit_test(test_stability_near_poles_above_limit),
         cmocka_unit_test(test_stability_feedback_moves_pole),
         cmocka_unit_test(test_stability_lc_tank_marginal),
         cmocka_unit_test(test_stability_two_pole_closed_form),

@@ -18,11 +18,17 @@ right-half-plane pair open loop only, in both, a pair on the axis), and every lo
   - the degree: the number of finite eigenvalues,
   - the zeros at the origin (the nullity of G, by numpy's rank of the scaled matrix),
   - the zeros on the axis away from the origin,
-of the closed loop and of the open loop must agree exactly.
+of the closed loop and of the open loop must agree exactly. The same counts must reach
+the report above the pole limit (`tbeta report NET --json --pole-limit 0`: JSON
+rhp_counts, method "argument principle"; axis = at the origin + elsewhere on the axis),
+and its verdict must be the one QZ's closed-loop count gives (unstable with a zero of
+det M right of the axis, else marginal with one on it, else stable), whatever the open
+loop's count: the Nyquist verdict no longer assumes a stable open loop.
 Prints "winding_check: N passed, M failed"; exit 1 when any failed.
 """
 
 import glob
+import json
 import importlib.util
 import os
 import subprocess
@@ -75,6 +81,38 @@ def tool_counts(tool, fname):
     return counts
 
 
+def report_counts(tbeta, fname):
+    """Each loop's JSON stability keys from `tbeta report NET --json --pole-limit 0`."""
+    out = subprocess.run([tbeta, "report", fname, "--json", "--pole-limit", "0"], capture_output=True,
+                         text=True, check=False)
+    if out.returncode not in (0, 1):
+        raise RuntimeError("%s: tbeta exit %d: %s" % (fname, out.returncode, out.stderr.strip()))
+    return {lp["source"].lower(): lp for lp in json.loads(out.stdout)["loops"]}
+
+
+def qz_verdict(cl):
+    """The verdict of the closed-loop QZ count (rhp, degree, origin, axis)."""
+    return "unstable" if cl[0] > 0 else "marginal" if cl[2] + cl[3] > 0 else "stable"
+
+
+def check_report(where, loop, cl, ol):
+    """The report's counts and verdict above the pole limit against QZ; a list of failures."""
+    bad = []
+    counts = loop["rhp_counts"]
+    for kind, want in (("closed_loop", cl), ("open_loop", ol)):
+        got = counts[kind]
+        have = None if got is None else (got["method"], got["rhp"], got["axis"])
+        if have != ("argument principle", want[0], want[2] + want[3]):
+            bad.append("%s %s: report count (method, rhp, axis) = %s, QZ (rhp, axis) = (%d, %d)"
+                       % (where, kind, have, want[0], want[2] + want[3]))
+    if counts["closed_loop_degree"] != cl[1]:
+        bad.append("%s: report degree %s, QZ %d" % (where, counts["closed_loop_degree"], cl[1]))
+    if loop["verdict"] != qz_verdict(cl):
+        bad.append("%s: report verdict %s above the pole limit, QZ's count says %s"
+                   % (where, loop["verdict"], qz_verdict(cl)))
+    return bad
+
+
 def main(argv):
     if not argv:
         print("usage: winding_check.py TBETA [NETLIST...]", file=sys.stderr)
@@ -89,6 +127,7 @@ def main(argv):
                 ckt = mna_check.read_netlist(handle.read())
             mna = mna_check.Mna(ckt)
             counts = tool_counts(tool, fname)
+            report = report_counts(argv[0], fname)
         except (OSError, RuntimeError, ValueError, mna_check.NetlistError) as exc:
             failed += 1
             print("FAIL %s: %s" % (where, exc))
@@ -106,6 +145,12 @@ def main(argv):
                     failed += 1
                     print("FAIL %s %s %s: winding (rhp, degree, origin, axis) = %s, QZ %s"
                           % (where, name, kind, have, want))
+            bad = check_report("%s %s" % (where, name), report[name], cl, ol) if name in report \
+                else ["%s %s: no such loop in the report" % (where, name)]
+            passed += not bad
+            failed += len(bad)
+            for line in bad:
+                print("FAIL " + line)
         print("ok %s: %d loop(s), closed loop %d right-half-plane zero(s) of %d" % (where, len(counts), cl[0], cl[1]))
     print("winding_check: %d passed, %d failed" % (passed, failed))
     return 1 if failed else 0
