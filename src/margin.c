@@ -103,17 +103,21 @@ static bool phase_matters(const scan *sc, const sample *a, const sample *b)
     return !(sc->has_up && hi * far < sc->up_mag) && !(sc->has_down && lo > sc->down_mag * far);
 }
 
-/* Between grid points every rule applies; outside the sweep the |T| rule only
- * near 0 dB, where it sharpens the brackets of unity crossings. The phase of T
- * only where it matters (the phase of 1 + T always, for the Nyquist count). */
+/* Between grid points every rule applies, coarser where |T| is far from 0 dB;
+ * outside the sweep the |T| rule only near 0 dB, where it sharpens the brackets
+ * of unity crossings. The phase of T only where it matters (the phase of 1 + T
+ * always, for the Nyquist count). */
 static bool needs_split(const scan *sc, const sample *a, const sample *b)
 {
     if (a->inf || b->inf)
         return false;
     double da = db_of(a->T), db = db_of(b->T);
-    bool near = sc->in_sweep || fmin(fabs(da), fabs(db)) < TB_MARGIN_NEAR_DB || (da < 0) != (db < 0);
-    return (fabs(b->deg - a->deg) > TB_MARGIN_SPLIT_DEG && phase_matters(sc, a, b)) ||
-           fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET || (near && fabs(db - da) > TB_MARGIN_SPLIT_DB);
+    bool near = fmin(fabs(da), fabs(db)) < TB_MARGIN_NEAR_DB || (da < 0) != (db < 0);
+    bool far = sc->in_sweep && !near;
+    double split_deg = far ? TB_MARGIN_SPLIT_DEG_FAR : TB_MARGIN_SPLIT_DEG;
+    double split_db = far ? TB_MARGIN_SPLIT_DB_FAR : TB_MARGIN_SPLIT_DB;
+    return (fabs(b->deg - a->deg) > split_deg && phase_matters(sc, a, b)) ||
+           fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET || ((near || far) && fabs(db - da) > split_db);
 }
 
 /* A phase crossing with |T| = mag: the nearest critical gains so far. */
