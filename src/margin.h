@@ -18,7 +18,10 @@
  * ends (on one side), the phase and |T| rules split at TB_MARGIN_SPLIT_DEG_FAR and
  * TB_MARGIN_SPLIT_DB_FAR instead: there they only keep the unwrapped phase of T
  * (about 6.6 degrees per dB on a diffusive RC line) and bracket its crossings of
- * -180 + 360 k degrees, which lie 360 degrees apart; no unity crossing is near. */
+ * -180 + 360 k degrees, which lie 360 degrees apart; no unity crossing is near.
+ * Only where the phase's rate over the last leaf predicts at most
+ * TB_MARGIN_SPLIT_DEG_FAR for the interval too: a wrapped difference of 60 degrees
+ * may hide a true one of 300 (a chain of buffered RC segments turns that fast). */
 #define TB_MARGIN_SPLIT_DEG 12.0
 #define TB_MARGIN_SPLIT_DB 3.0
 #define TB_MARGIN_SPLIT_RET 20.0
