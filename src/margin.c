@@ -35,6 +35,8 @@ typedef struct {
     bool vm_open;    /* the best |1 + T| so far waits for its right neighbour */
     double vm_lo;
     double vm_hi;
+    bool rate_known; /* rate: d(phase of T)/d(ln f) over the last leaf, degrees */
+    double rate;
 } scan;
 
 enum { ROOT_UNITY, ROOT_PHASE };
@@ -103,17 +105,24 @@ static bool phase_matters(const scan *sc, const sample *a, const sample *b)
     return !(sc->has_up && hi * far < sc->up_mag) && !(sc->has_down && lo > sc->down_mag * far);
 }
 
-/* Between grid points every rule applies; outside the sweep the |T| rule only
- * near 0 dB, where it sharpens the brackets of unity crossings. The phase of T
- * only where it matters (the phase of 1 + T always, for the Nyquist count). */
+/* Between grid points every rule applies, coarser where |T| is far from 0 dB;
+ * outside the sweep the |T| rule only near 0 dB, where it sharpens the brackets
+ * of unity crossings. The phase of T only where it matters (the phase of 1 + T
+ * always, for the Nyquist count). */
 static bool needs_split(const scan *sc, const sample *a, const sample *b)
 {
     if (a->inf || b->inf)
         return false;
     double da = db_of(a->T), db = db_of(b->T);
-    bool near = sc->in_sweep || fmin(fabs(da), fabs(db)) < TB_MARGIN_NEAR_DB || (da < 0) != (db < 0);
-    return (fabs(b->deg - a->deg) > TB_MARGIN_SPLIT_DEG && phase_matters(sc, a, b)) ||
-           fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET || (near && fabs(db - da) > TB_MARGIN_SPLIT_DB);
+    bool near = fmin(fabs(da), fabs(db)) < TB_MARGIN_NEAR_DB || (da < 0) != (db < 0);
+    /* coarse only where the phase's rate over the last leaf also predicts a small change:
+     * a wrapped difference of 60 degrees may hide a true one of 300 */
+    bool far = sc->in_sweep && !near && sc->rate_known &&
+               fabs(sc->rate * log(b->f / a->f)) <= TB_MARGIN_SPLIT_DEG_FAR;
+    double split_deg = far ? TB_MARGIN_SPLIT_DEG_FAR : TB_MARGIN_SPLIT_DEG;
+    double split_db = far ? TB_MARGIN_SPLIT_DB_FAR : TB_MARGIN_SPLIT_DB;
+    return (fabs(b->deg - a->deg) > split_deg && phase_matters(sc, a, b)) ||
+           fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET || ((near || sc->in_sweep) && fabs(db - da) > split_db);
 }
 
 /* A phase crossing with |T| = mag: the nearest critical gains so far. */
@@ -230,6 +239,9 @@ static void track_vector(scan *sc, const sample *a, const sample *b)
 static tb_status leaf(scan *sc, const sample *a, const sample *b)
 {
     track_vector(sc, a, b);
+    sc->rate_known = !a->inf && !b->inf && b->f > a->f;
+    if (sc->rate_known)
+        sc->rate = (b->deg - a->deg) / log(b->f / a->f);
     if (a->inf && b->inf)
         return TB_OK;
     if (a->inf || b->inf) { /* |T| rises without bound towards the infinite end: from below 1, it crosses 1 */
@@ -244,7 +256,11 @@ static tb_status leaf(scan *sc, const sample *a, const sample *b)
     double lo = fmin(a->deg, b->deg), hi = fmax(a->deg, b->deg);
     for (double k = ceil((lo - 180.0) / 360.0); !st && 180.0 + 360.0 * k <= hi; k++) {
         double level = 180.0 + 360.0 * k;
-        if ((a->deg < level) != (b->deg < level))
+        if ((a->deg < level) == (b->deg < level))
+            continue;
+        if (sc->st->phase_count >= TB_MAX_CROSSINGS)
+            incomplete(sc, TB_SNOTE_TRUNCATED); /* the list is full: the crossing would not be kept */
+        else
             st = refine_root(sc, a, b, ROOT_PHASE, level);
     }
     return st;

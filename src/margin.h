@@ -13,11 +13,21 @@
 #define TB_MARGIN_TIE_DEG 1e-9
 /* An interval is split when T's phase moves more than this many degrees, |T|
  * more than TB_MARGIN_SPLIT_DB, or the phase of 1 + T more than TB_MARGIN_SPLIT_RET.
- * Outside the sweep the |T| rule applies only within TB_MARGIN_NEAR_DB of 0 dB. */
+ * Outside the sweep the |T| rule applies only within TB_MARGIN_NEAR_DB of 0 dB.
+ * Between grid points where |T| lies TB_MARGIN_NEAR_DB or more from 0 dB at both
+ * ends (on one side), the phase and |T| rules split at TB_MARGIN_SPLIT_DEG_FAR and
+ * TB_MARGIN_SPLIT_DB_FAR instead: there they only keep the unwrapped phase of T
+ * (about 6.6 degrees per dB on a diffusive RC line) and bracket its crossings of
+ * -180 + 360 k degrees, which lie 360 degrees apart; no unity crossing is near.
+ * Only where the phase's rate over the last leaf predicts at most
+ * TB_MARGIN_SPLIT_DEG_FAR for the interval too: a wrapped difference of 60 degrees
+ * may hide a true one of 300 (a chain of buffered RC segments turns that fast). */
 #define TB_MARGIN_SPLIT_DEG 12.0
 #define TB_MARGIN_SPLIT_DB 3.0
 #define TB_MARGIN_SPLIT_RET 20.0
 #define TB_MARGIN_NEAR_DB 20.0
+#define TB_MARGIN_SPLIT_DEG_FAR 60.0
+#define TB_MARGIN_SPLIT_DB_FAR 9.0
 /* Outside the sweep the phase of T is not followed where |T| lies this much further
  * from 1 than at a critical gain already found on the same side of 1. */
 #define TB_MARGIN_FAR_DB 20.0
