@@ -185,6 +185,16 @@ typedef struct {
                              * principle for the verdict, within this many factorizations
                              * (about two per capacitor or inductor; default 5000, about
                              * 3 000 reactive elements; 0: no count, P = 0 assumed) */
+    /* what a run needs beyond the figures of a spread run (tbeta spread): each default true */
+    bool step_response;   /* the closed-loop step response */
+    bool near_poles;      /* above the pole limit, the poles nearest 0 and the unity crossing */
+    bool vector_refine;   /* min |1 + T| refined between the scan's samples (false: the best sample) */
+    bool peak_refine;     /* the closed-loop peak of |A| refined between grid points (false: the
+                           * grid's largest, unless A's reference is that peak: AC coupling) */
+    const size_t *ol_rhp_given; /* NULL (the default), or per loop the open loop's right-half-plane
+                             * count of a circuit this one is a small change of: above the pole
+                             * limit it stands for P (ol_count_by TB_COUNT_GIVEN) and no
+                             * argument-principle walk runs. Borrowed: read during tb_analyse only */
 } tb_options;
 
 /* The most frequencies tb_options.at_hz may hold (more: TB_ERR_USAGE). */
@@ -458,7 +468,8 @@ typedef enum {
 typedef enum {
     TB_COUNT_NONE = 0,       /* not made */
     TB_COUNT_POLES,          /* from the poles (dense QZ, up to the pole limit) */
-    TB_COUNT_WINDING         /* by the argument principle on the determinant along the j-omega axis */
+    TB_COUNT_WINDING,        /* by the argument principle on the determinant along the j-omega axis */
+    TB_COUNT_GIVEN           /* not counted: taken from tb_options.ol_rhp_given (a nominal circuit's) */
 } tb_count_method;
 
 /* Why the stability figures are as they are (bits 1u << tb_stab_note). */

@@ -34,6 +34,11 @@ void tb_options_init(tb_options *opt)
     opt->progress = NULL;
     opt->progress_ctx = NULL;
     opt->rhp_count_limit = 5000;
+    opt->step_response = true;
+    opt->near_poles = true;
+    opt->vector_refine = true;
+    opt->peak_refine = true;
+    opt->ol_rhp_given = NULL;
 }
 
 /* Thresholds left negative in the options come from the netlist's .margins,
@@ -114,7 +119,7 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
     if (!st)
         st = tb_spot_run(probe, pa->ports, ckt->zport_count, opt->at_hz, opt->at_count, res);
     if (!st && opt->closed_loop)
-        st = tb_closed_loop_run(probe, res);
+        st = tb_closed_loop_run(probe, res, opt->peak_refine);
     if (!st && opt->sensitivity)
         st = tb_sensitivity_run(ckt, probe, res);
     if (!st)
@@ -122,7 +127,7 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
     res->stats.probe_factorizations = probe->factorizations;
     res->stats.probe_solve_columns = tb_sweep_counts(sw).columns - res->stats.grid_solve_columns;
     size_t before = tb_sweep_counts(sw).numeric;
-    if (!st && opt->stability)
+    if (!st && opt->stability && opt->step_response)
         st = tb_step_run(probe, res);
     res->stats.step_factorizations = tb_sweep_counts(sw).numeric - before;
     /* the dominant pair's second-order predictions against the computed step response */

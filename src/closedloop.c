@@ -13,6 +13,7 @@ typedef struct {
     double ln_level; /* ln of the -3 dB level */
     double complex A;
     tb_status failed; /* the first non-NOMEM failure of a solve */
+    bool peak_refine; /* a peak that is not the reference refined between grid points */
 } cl_eval;
 
 static tb_status gain_at(cl_eval *ce, double f, double complex *A)
@@ -211,8 +212,9 @@ static tb_status run(cl_eval *ce, tb_result *res)
         if ((st = peak_near(ce, res, peak, &cl->ref_hz, &cl->A_ref)) || (st = midband_points(ce->probe, res)))
             return st == TB_ERR_NOMEM ? st : settle(cl, st, true, TB_CNOTE_NO_HIGH_EDGE);
     } else if (cabs(res->pts[peak].A) > cabs(cl->A_ref) * (1.0 + 1e-9)) {
-        double complex A_peak = 0;
-        if ((st = peak_near(ce, res, peak, &cl->peak_hz, &A_peak)))
+        double complex A_peak = res->pts[peak].A;
+        cl->peak_hz = res->freqs[peak];
+        if (ce->peak_refine && (st = peak_near(ce, res, peak, &cl->peak_hz, &A_peak)))
             return settle(cl, st, true, TB_CNOTE_NO_HIGH_EDGE);
         cl->peak_db = 20.0 * log10(cabs(A_peak) / cabs(cl->A_ref));
         cl->has_peak = cl->peak_db > 0.001;
@@ -229,7 +231,7 @@ static tb_status run(cl_eval *ce, tb_result *res)
     return TB_OK;
 }
 
-tb_status tb_closed_loop_run(tb_probe *probe, tb_result *res)
+tb_status tb_closed_loop_run(tb_probe *probe, tb_result *res, bool peak_refine)
 {
     res->cl = (tb_closed_loop){0};
     if (!res->has_io || res->nloops == 0 || res->npoints == 0) {
@@ -237,6 +239,6 @@ tb_status tb_closed_loop_run(tb_probe *probe, tb_result *res)
         return TB_OK;
     }
     res->cl.computed = true;
-    cl_eval ce = {.probe = probe};
+    cl_eval ce = {.probe = probe, .peak_refine = peak_refine};
     return run(&ce, res);
 }

@@ -37,6 +37,8 @@ typedef struct {
     double vm_hi;
     bool rate_known; /* rate: d(phase of T)/d(ln f) over the last leaf, degrees */
     double rate;
+    bool phase_off;  /* the phase-crossing list is full and one more was seen: T's phase is no
+                      * longer followed (its turns no longer counted) */
 } scan;
 
 enum { ROOT_UNITY, ROOT_PHASE };
@@ -121,7 +123,10 @@ static bool needs_split(const scan *sc, const sample *a, const sample *b)
                fabs(sc->rate * log(b->f / a->f)) <= TB_MARGIN_SPLIT_DEG_FAR;
     double split_deg = far ? TB_MARGIN_SPLIT_DEG_FAR : TB_MARGIN_SPLIT_DEG;
     double split_db = far ? TB_MARGIN_SPLIT_DB_FAR : TB_MARGIN_SPLIT_DB;
-    return (fabs(b->deg - a->deg) > split_deg && phase_matters(sc, a, b)) ||
+    if (sc->phase_off && !near) /* only |T| < 1 (or > 1) throughout is asked: a rise to 0 dB
+                                 * must exceed TB_MARGIN_RISE_FACTOR times the change seen */
+        split_db = fmax(TB_MARGIN_SPLIT_DB_FAR, fmin(fabs(da), fabs(db)) / TB_MARGIN_RISE_FACTOR);
+    return (!sc->phase_off && fabs(b->deg - a->deg) > split_deg && phase_matters(sc, a, b)) ||
            fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET || ((near || sc->in_sweep) && fabs(db - da) > split_db);
 }
 
@@ -203,6 +208,8 @@ static tb_status refine_root(scan *sc, const sample *a, const sample *b, int kin
     if (kind == ROOT_UNITY) {
         c.direction = ln_mag(b) > ln_mag(a) ? 1 : -1;
         c.margin = tb_wrap180(s.deg + 180.0);
+        if (sc->phase_off) /* T's turns are no longer counted: the principal phase, in (-360, 0] */
+            c.phase_deg = c.margin - 180.0;
         c.delay_s = lag_deg(c.margin) / 360.0 / s.f;
         append(sc, sc->st->unity, &sc->st->unity_count, &c);
     } else {
@@ -251,16 +258,20 @@ static tb_status leaf(scan *sc, const sample *a, const sample *b)
     tb_status st = TB_OK;
     if ((cabs(a->T) < 1.0) != (cabs(b->T) < 1.0))
         st = refine_root(sc, a, b, ROOT_UNITY, 0);
-    if (st || !phase_matters(sc, a, b))
+    if (st || sc->phase_off || !phase_matters(sc, a, b))
         return st;
     double lo = fmin(a->deg, b->deg), hi = fmax(a->deg, b->deg);
     for (double k = ceil((lo - 180.0) / 360.0); !st && 180.0 + 360.0 * k <= hi; k++) {
         double level = 180.0 + 360.0 * k;
         if ((a->deg < level) == (b->deg < level))
             continue;
-        if (sc->st->phase_count >= TB_MAX_CROSSINGS)
-            incomplete(sc, TB_SNOTE_TRUNCATED); /* the list is full: the crossing would not be kept */
-        else
+        if (sc->st->phase_count >= TB_MAX_CROSSINGS) {
+            /* the list is full: the crossing would not be kept, nor would any later one, and the
+             * margins are not determined; from here T's phase need not be followed */
+            incomplete(sc, TB_SNOTE_TRUNCATED);
+            sc->phase_off = true;
+            break;
+        }
             st = refine_root(sc, a, b, ROOT_PHASE, level);
     }
     return st;
@@ -564,7 +575,7 @@ static void summarize(scan *sc)
     st->margins_determined = sc->complete;
 }
 
-tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, tb_stability *st,
+tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, bool vector_refine, tb_stability *st,
                          tb_nyquist_path *path)
 {
     size_t before = probe->evaluations;
@@ -579,7 +590,7 @@ tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, tb_sta
     if (!s)
         s = high_leg(&sc, &cur);
     path->turn_deg = cur.ret - ret0;
-    if (!s)
+    if (!s && vector_refine)
         s = refine_vector(&sc);
     if (s)
         return s;

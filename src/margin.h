@@ -28,6 +28,14 @@
 #define TB_MARGIN_NEAR_DB 20.0
 #define TB_MARGIN_SPLIT_DEG_FAR 60.0
 #define TB_MARGIN_SPLIT_DB_FAR 9.0
+/* Once the phase-crossing list is full and one more crossing was seen (the margins are
+ * then not determined and no later crossing would be listed), the phase of T is no
+ * longer followed; between samples on one side of 0 dB, more than TB_MARGIN_NEAR_DB from
+ * it, the |T| rule then splits at a change of the larger of TB_MARGIN_SPLIT_DB_FAR and
+ * the distance from 0 dB over TB_MARGIN_RISE_FACTOR: a unity crossing between two such
+ * samples would need |T| to rise above them by more than this factor times the change
+ * seen across the interval (an assumption of smoothness, as every sampling rule here). */
+#define TB_MARGIN_RISE_FACTOR 4.0
 /* Outside the sweep the phase of T is not followed where |T| lies this much further
  * from 1 than at a critical gain already found on the same side of 1. */
 #define TB_MARGIN_FAR_DB 20.0
@@ -53,11 +61,12 @@ typedef struct {
  * both ends, and finds every unity crossing and every crossing of the unwrapped
  * phase through an odd multiple of 180 degrees (and DC itself when T(0) < 0),
  * each refined by Brent on fresh solves after adaptive bisection; the gain
- * margins up and down, the vector margin, and arg(1 + T) along the Nyquist path.
+ * margins up and down, the vector margin (refined between samples when
+ * vector_refine, else the best sample's), and arg(1 + T) along the Nyquist path.
  * Fills the crossing and margin fields of *st (all but the headline phase and
  * delay margins, which need the verdict: tb_margin_judge) and *path.
  * Errors: TB_ERR_NOMEM. */
-tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, tb_stability *st,
+tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, bool vector_refine, tb_stability *st,
                          tb_nyquist_path *path);
 
 /* Once st->verdict is known: the headline phase margin (the crossing of smallest

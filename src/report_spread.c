@@ -56,6 +56,13 @@ static void kind_line(const tb_spreadset *set, FILE *out)
         fprintf(out, "Monte Carlo: %zu samples, seed %llu, %zu independent draw%s (xoshiro256**, one stream "
                 "per sample: the same numbers for any --jobs)\n", set->runs, set->seed, set->dimensions,
                 set->dimensions == 1 ? "" : "s");
+    if (set->ol_rhp_nominal) {
+        fprintf(out, "  every sample's Nyquist verdict takes P (open-loop right-half-plane poles) from the nominal\n"
+                "  circuit's count (P =");
+        for (size_t l = 0; l < set->loops; l++)
+            fprintf(out, "%s %zu", l ? "," : "", set->ol_rhp_nominal[l]);
+        fprintf(out, ", argument principle), not counted again per sample\n");
+    }
     fprintf(out, "  %zu of %zu runs pass (every loop stable with its margins, every .expect held)", pass, set->runs);
     if (analysed > 0 && set->kind == TB_SPREADSET_CORNERS)
         fprintf(out, ": %.1f %% of the corners", 100.0 * (double)pass / (double)analysed);
@@ -286,6 +293,17 @@ tb_status tb_report_spread_csv(const tb_circuit *ckt, const tb_spreadset *set, F
 
 /* ---- JSON ------------------------------------------------------------------------ */
 
+/* Monte Carlo: the nominal circuit's open-loop counts every sample's verdict used, else null. */
+static json_t *nominal_counts_json(const tb_spreadset *set)
+{
+    if (!set->ol_rhp_nominal)
+        return json_null();
+    json_t *a = json_array();
+    for (size_t l = 0; a && l < set->loops; l++)
+        json_array_append_new(a, json_integer((json_int_t)set->ol_rhp_nominal[l]));
+    return a;
+}
+
 static json_t *num(double x)
 {
     return isfinite(x) ? json_real(x) : json_null();
@@ -407,7 +425,8 @@ static json_t *spread_json(const tb_circuit *ckt, const tb_spreadset *set)
             tb_spread_wilson(pass, analysed, &lo, &hi);
         ok = put(root, "seed", json_integer((json_int_t)set->seed)) &&
              put(root, "yield", analysed ? num((double)pass / (double)analysed) : json_null()) &&
-             put(root, "yield_interval_95", analysed ? json_pack("[ff]", lo, hi) : json_null());
+             put(root, "yield_interval_95", analysed ? json_pack("[ff]", lo, hi) : json_null()) &&
+             put(root, "open_loop_rhp_from_nominal", nominal_counts_json(set));
     }
     if (ok && set->kind == TB_SPREADSET_CORNERS)
         ok = put(root, "reduced", json_boolean(set->reduced));

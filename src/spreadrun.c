@@ -66,6 +66,32 @@ static tb_point probe_point(const tb_spreadset *set, const tb_result *res, size_
     return p;
 }
 
+/* Every loop's open-loop right-half-plane count of the nominal circuit, kept when each was
+ * made by the argument principle (above the pole limit; below it every sample has its
+ * poles) with no open-loop pole on the axis: a sample's
+ * small change of values moves a pole across the axis only where one lies near it, and
+ * the samples' Nyquist counts then take P from here instead of walking det M0 again. */
+static tb_status nominal_counts(const tb_result *res, tb_spreadset *set)
+{
+    for (size_t l = 0; l < set->loops; l++) {
+        tb_stability st;
+        if (tb_stability_loop(res, l, &st) != TB_OK || !st.computed || st.ol_count_by != TB_COUNT_WINDING ||
+            st.ol_axis > 0)
+            return TB_OK;
+    }
+    if (set->loops == 0)
+        return TB_OK;
+    set->ol_rhp_nominal = tb_malloc(set->loops, sizeof(size_t));
+    if (!set->ol_rhp_nominal)
+        return TB_ERR_NOMEM;
+    for (size_t l = 0; l < set->loops; l++) {
+        tb_stability st;
+        tb_stability_loop(res, l, &st);
+        set->ol_rhp_nominal[l] = st.ol_rhp;
+    }
+    return TB_OK;
+}
+
 tb_status tb_spreadrun_nominal(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag,
                                tb_spreadset *set)
 {
@@ -82,8 +108,9 @@ tb_status tb_spreadrun_nominal(const tb_circuit *ckt, const tb_spread_options *o
             set->T_nom[l * set->probes.count + i] = probe_point(set, res, l, i).T;
     }
     set->has_nominal = set->loops > 0;
+    st = nominal_counts(res, set);
     tb_result_free(res);
-    return TB_OK;
+    return st;
 }
 
 /* Loop l passes: stable, and its margins meet the thresholds (as 'tbeta report' judges). */
@@ -141,6 +168,9 @@ static tb_status one_run(const worker *w, const tb_circuit *copy, size_t r, tb_f
     if (st)
         return TB_OK; /* the row stays TB_RUN_ERROR */
     st = record(w, copy, res, r, all);
+    tb_stats stats;
+    if (!st && tb_result_stats(res, &stats) == TB_OK)
+        w->set->factorizations[r] = stats.grid_factorizations + stats.probe_factorizations + stats.step_factorizations;
     tb_result_free(res);
     return st;
 }
@@ -171,6 +201,16 @@ static void *work(void *arg)
     return NULL;
 }
 
+/* true when one of the netlist's .expect cards (on a single run) reads the figure named. */
+static bool expected(const tb_circuit *ckt, const char *name)
+{
+    int f = tb_figure_find(name, strlen(name));
+    for (const tb_expect *x = ckt->expects; x; x = x->next)
+        if (x->figure == f)
+            return true;
+    return false;
+}
+
 static size_t lanes_for(unsigned jobs, size_t count)
 {
     size_t lanes = jobs;
@@ -192,6 +232,14 @@ tb_status tb_spreadrun_all(const tb_circuit *ckt, const tb_spread_options *opt, 
     one.jobs = 1;
     one.census = false;
     one.sensitivity = false;
+    /* only what the spread records: its figures, the verdict and the .expect cards */
+    one.step_response = expected(ckt, "overshoot_pct") || expected(ckt, "rise_s") || expected(ckt, "settling_s");
+    one.vector_refine = expected(ckt, "vector_margin");
+    one.near_poles = false;
+    one.peak_refine = false; /* the spread's figures take the peak of |A| from the dominant pair */
+    one.ol_rhp_given = set->ol_rhp_nominal;
+    if (!set->factorizations && !(set->factorizations = tb_calloc(set->runs ? set->runs : 1, sizeof(size_t))))
+        return TB_ERR_NOMEM;
     tb_sweep *base = NULL;
     tb_status st = tb_sweep_new(ckt, one.refactor_rcond_drop, 1, diag, &base);
     if (st)

@@ -65,6 +65,8 @@ void tb_spreadset_free(tb_spreadset *set)
 {
     if (!set)
         return;
+    tb_free(set->ol_rhp_nominal);
+    tb_free(set->factorizations);
     tb_free(set->param_names);
     tb_free(set->param_values);
     tb_free(set->fig);

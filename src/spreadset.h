@@ -51,6 +51,11 @@ typedef struct {
     unsigned long long seed;   /* Monte Carlo */
     bool reduced;              /* corners: the reduced design (too many dimensions for all) */
     size_t dimensions;         /* corners and Monte Carlo: independent draws (groups count once) */
+    size_t *ol_rhp_nominal;    /* Monte Carlo: per loop the nominal circuit's open-loop right-half-plane
+                                * count, which every sample's Nyquist verdict uses as P (NULL: each
+                                * sample counts as the nominal analysis would) */
+    size_t *factorizations;    /* per run: the numeric factorizations its analysis took (grid, new
+                                * frequencies, step response; tb_stats), 0 when not analysed */
 } tb_spreadset;
 
 /* A table of runs rows (params parameter columns, loops loops, probes probe frequencies),

@@ -300,7 +300,7 @@ static tb_status closed_loop_peaking(stab_work *w, const tb_result *res)
         if (cabs(res->pts[i].A) > cabs(res->pts[best].A))
             best = i;
     double peak = cabs(res->pts[best].A), at = res->freqs[best];
-    if (best > 0 && best + 1 < res->npoints) {
+    if (best > 0 && best + 1 < res->npoints && w->opt->peak_refine) {
         double x = 0, y = 0;
         tb_status s = tb_golden_min(minus_abs_a, w->probe, log(res->freqs[best - 1]), log(res->freqs[best + 1]),
                                     1e-9, 80, &x, &y);
@@ -434,7 +434,7 @@ static tb_status near_poles(stab_work *w, const tb_result *res, size_t l, tb_sta
 static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *st)
 {
     tb_nyquist_path path;
-    tb_status s = tb_margin_scan(w->probe, res, l, st, &path);
+    tb_status s = tb_margin_scan(w->probe, res, l, w->opt->vector_refine, st, &path);
     if (s)
         return s;
     st->computed = true;
@@ -445,9 +445,13 @@ static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *
         s = loop_poles(w, res, l, st, &weights, &ol_axis_away);
     else
         st->notes |= 1u << w->why_none;
-    if (!s && !st->has_poles && w->opt->rhp_count_limit > 0)
+    if (!s && !st->has_poles && w->opt->ol_rhp_given) {
+        st->ol_count_by = TB_COUNT_GIVEN; /* a small change of a counted circuit: P carried over */
+        st->ol_rhp = w->opt->ol_rhp_given[l];
+    } else if (!s && !st->has_poles && w->opt->rhp_count_limit > 0) {
         s = loop_winding(w, res, l, st, &ol_axis_away);
-    if (!s && !st->has_poles && w->probe->mna->n > w->opt->pole_limit)
+    }
+    if (!s && !st->has_poles && w->opt->near_poles && w->probe->mna->n > w->opt->pole_limit)
         s = near_poles(w, res, l, st);
     if (s)
         return s;

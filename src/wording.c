@@ -69,8 +69,9 @@ const char *tb_verdict_str(tb_verdict verdict)
 const char *tb_count_method_str(tb_count_method method)
 {
     static const char *const method_text[] = {[TB_COUNT_NONE] = "none", [TB_COUNT_POLES] = "poles",
-                                              [TB_COUNT_WINDING] = "argument principle"};
-    return (unsigned)method <= TB_COUNT_WINDING ? method_text[method] : "unknown";
+                                              [TB_COUNT_WINDING] = "argument principle",
+                                              [TB_COUNT_GIVEN] = "nominal circuit"};
+    return (unsigned)method <= TB_COUNT_GIVEN ? method_text[method] : "unknown";
 }
 
 const char *tb_pole_place_str(tb_pole_place place)
