@@ -11,30 +11,31 @@
  * the source to n1, RT 1k from nN to ground, GW drawing 1 uS * v(nN) out of n1 (bench/gen_family.sh
  * "line" at N + 2 unknowns). */
 #define N 300
+#define N_LONG 1000 /* long enough for more phase crossings in the sweep than the list keeps */
 #define RS 1e3
 #define RT 1e3
 #define RSEC 10.0
 #define CSEC 1e-12
 #define F_LO 1.0
 #define F_HI 1e9
-/* The bound: 180 fresh factorizations outside the grid at the time of writing (445 before the
+/* The bound: 184 fresh factorizations outside the grid at the time of writing (445 before the
  * scan split coarsely between grid points far from 0 dB); a regression that re-walks the line
  * fails here. */
-#define MAX_PROBE_FACTORIZATIONS 250
+#define MAX_PROBE_FACTORIZATIONS 210
 
-static char *line_netlist(void)
+static char *line_netlist(int n)
 {
-    size_t cap = 64 * (size_t)N + 512, len = 0;
+    size_t cap = 64 * (size_t)n + 512, len = 0;
     char *text = malloc(cap);
     assert_non_null(text);
-    len += (size_t)snprintf(text + len, cap - len, "RC line: %d nodes, a weak loop\nVIN in 0 AC 1\nRS in n1 1k\n", N);
-    for (int i = 1; i <= N; i++) {
+    len += (size_t)snprintf(text + len, cap - len, "RC line: %d nodes, a weak loop\nVIN in 0 AC 1\nRS in n1 1k\n", n);
+    for (int i = 1; i <= n; i++) {
         len += (size_t)snprintf(text + len, cap - len, "C%d n%d 0 1p\n", i, i);
-        if (i < N)
+        if (i < n)
             len += (size_t)snprintf(text + len, cap - len, "R%d n%d n%d 10\n", i, i, i + 1);
     }
     len += (size_t)snprintf(text + len, cap - len,
-                            "RT n%d 0 1k\nGW n1 0 n%d 0 1u\n.loop GW\n.io VIN v(n%d)\n.ac dec 10 1 1g\n.end\n", N, N, N);
+                            "RT n%d 0 1k\nGW n1 0 n%d 0 1u\n.loop GW\n.io VIN v(n%d)\n.ac dec 10 1 1g\n.end\n", n, n, n);
     assert_true(len < cap);
     return text;
 }
@@ -45,11 +46,11 @@ static char *line_netlist(void)
  * v(nN) = 1, each series resistor adds R times the current through it, each node its shunt
  * current (the chain-parameter cascade of a ladder, D. M. Pozar, Microwave Engineering, 4th ed.,
  * Wiley 2012, section 4.4). */
-static double ladder_arg(double f)
+static double ladder_arg(int n, double f)
 {
     double complex y = I * 2.0 * PI * f * CSEC;
     double complex v = 1.0, cur = v * (y + 1.0 / RT);
-    for (int i = N - 1; i >= 1; i--) {
+    for (int i = n - 1; i >= 1; i--) {
         v += RSEC * cur;
         cur += v * (y + (i == 1 ? 1.0 / RS : 0.0));
     }
@@ -58,21 +59,21 @@ static double ladder_arg(double f)
 
 /* The frequencies where the unwrapped arg T of the ladder crosses -180 - 360 k degrees inside
  * [F_LO, F_HI], by a fine log grid and bisection; returns how many (at most max). */
-static size_t ladder_crossings(double *hz, size_t max)
+static size_t ladder_crossings(int n, double *hz, size_t max)
 {
     const int steps = 40000;
     size_t count = 0;
-    double prev_f = F_LO, prev = ladder_arg(F_LO), level = -PI;
+    double prev_f = F_LO, prev = ladder_arg(n, F_LO), level = -PI;
     /* an RC ladder's transfer impedance has only real negative poles and no finite zeros:
      * its phase falls monotonically, so the levels come in order */
     for (int i = 1; i <= steps; i++) {
         double f = F_LO * pow(F_HI / F_LO, (double)i / steps);
-        double ph = prev + remainder(ladder_arg(f) - prev, 2.0 * PI); /* steps far below pi */
+        double ph = prev + remainder(ladder_arg(n, f) - prev, 2.0 * PI); /* steps far below pi */
         while (ph < level && prev >= level) {
             double lo = log(prev_f), hi = log(f);
             for (int it = 0; it < 200 && hi - lo > 1e-15; it++) {
                 double mid = 0.5 * (lo + hi);
-                double pm = prev + remainder(ladder_arg(exp(mid)) - prev, 2.0 * PI);
+                double pm = prev + remainder(ladder_arg(n, exp(mid)) - prev, 2.0 * PI);
                 if (pm >= level)
                     lo = mid;
                 else
@@ -92,7 +93,7 @@ static size_t ladder_crossings(double *hz, size_t max)
 static void test_scancount_line_report(void **state)
 {
     (void)state;
-    char *text = line_netlist();
+    char *text = line_netlist(N);
     tb_circuit *ckt = NULL;
     tb_result *res = tu_analyse(text, &ckt);
     free(text);
@@ -108,7 +109,7 @@ static void test_scancount_line_report(void **state)
     tb_stability stab;
     assert_int_equal(tb_stability_loop(res, 0, &stab), TB_OK);
     double want[64];
-    size_t nwant = ladder_crossings(want, 64);
+    size_t nwant = ladder_crossings(N, want, 64);
     assert_true(nwant >= 5 && nwant <= 64); /* about 53 rad of lag at 1 GHz: 8 levels */
     size_t k = 0;
     for (size_t i = 0; i < stab.phase_count; i++) {
@@ -125,10 +126,61 @@ static void test_scancount_line_report(void **state)
     tb_circuit_free(ckt);
 }
 
+/* The bound for the long line (no right-half-plane count: the scan, the closed loop and the
+ * near poles): 291 fresh factorizations at the time of writing, 389 while the scan followed
+ * T's phase to the top of the sweep after its crossing list had overflowed. */
+#define MAX_LONG_FACTORIZATIONS 330
+
+/* 1000 sections: more phase crossings inside the sweep, more than the 16 the list keeps.
+ * The 16 kept are the cascade's lowest 16; the overflow is noted (margins not determined);
+ * |T| < 1 everywhere (T(0) < 1e-3 and an RC ladder's |T| falls with frequency), so 1 + T
+ * stays in the right half-plane and the Nyquist count is 0. */
+static void test_scancount_long_line_overflow(void **state)
+{
+    (void)state;
+    char *text = line_netlist(N_LONG);
+    tb_circuit *ckt = tu_parse(text);
+    free(text);
+    tb_options opt;
+    tb_options_init(&opt);
+    opt.rhp_count_limit = 0;
+    tb_diag *diag = tb_diag_new();
+    tb_result *res = NULL;
+    assert_int_equal(tb_analyse(ckt, &opt, diag, &res), TB_OK);
+    tb_diag_free(diag);
+    tb_stats stats;
+    assert_int_equal(tb_result_stats(res, &stats), TB_OK);
+    print_message("long line: outside the grid %zu (bound %d)\n", stats.probe_factorizations,
+                  MAX_LONG_FACTORIZATIONS);
+    assert_true(stats.probe_factorizations <= MAX_LONG_FACTORIZATIONS);
+
+    tb_stability stab;
+    assert_int_equal(tb_stability_loop(res, 0, &stab), TB_OK);
+    double want[64];
+    size_t nwant = ladder_crossings(N_LONG, want, 64);
+    assert_true(nwant > TB_MAX_CROSSINGS && nwant <= 64);
+    assert_int_equal(stab.phase_count, TB_MAX_CROSSINGS);
+    assert_true(stab.notes & (1u << TB_SNOTE_TRUNCATED));
+    assert_false(stab.margins_determined);
+    for (size_t k = 0; k < stab.phase_count; k++) {
+        const tb_crossing *c = &stab.phase[k];
+        assert_int_equal(c->sweep, TB_SWEEP_INSIDE);
+        tu_close(c->phase_deg, -180.0 - 360.0 * (double)k, 1e-9);
+        tu_close(c->hz, want[k], 1e-7);
+    }
+    assert_int_equal(stab.unity_count, 0);
+    assert_true(stab.has_nyquist);
+    assert_int_equal(stab.nyquist_n, 0);
+    assert_int_equal(stab.verdict, TB_VERDICT_STABLE);
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_scancount_line_report),
+        cmocka_unit_test(test_scancount_long_line_overflow),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
