@@ -189,6 +189,8 @@ typedef struct {
     bool step_response;   /* the closed-loop step response */
     bool near_poles;      /* above the pole limit, the poles nearest 0 and the unity crossing */
     bool vector_refine;   /* min |1 + T| refined between the scan's samples (false: the best sample) */
+    bool crossing_list;   /* phase crossings refined as found (false: at the end, and not at all
+                           * when more turn up than are kept: the margins are then not determined) */
     bool peak_refine;     /* the closed-loop peak of |A| refined between grid points (false: the
                            * grid's largest, unless A's reference is that peak: AC coupling) */
     const size_t *ol_rhp_given; /* NULL (the default), or per loop the open loop's right-half-plane

@@ -38,6 +38,7 @@ void tb_options_init(tb_options *opt)
     opt->near_poles = true;
     opt->vector_refine = true;
     opt->peak_refine = true;
+    opt->crossing_list = true;
     opt->ol_rhp_given = NULL;
 }
 

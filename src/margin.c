@@ -39,6 +39,12 @@ typedef struct {
     double rate;
     bool phase_off;  /* the phase-crossing list is full and one more was seen: T's phase is no
                       * longer followed (its turns no longer counted) */
+    bool defer;      /* phase crossings bracketed now, refined at the end (none on overflow) */
+    size_t deferred;
+    struct {
+        sample a, b;
+        double level;
+    } later[TB_MAX_CROSSINGS];
 } scan;
 
 enum { ROOT_UNITY, ROOT_PHASE };
@@ -265,7 +271,11 @@ static tb_status leaf(scan *sc, const sample *a, const sample *b)
         double level = 180.0 + 360.0 * k;
         if ((a->deg < level) == (b->deg < level))
             continue;
-        if (sc->st->phase_count >= TB_MAX_CROSSINGS) {
+        if (sc->defer && sc->in_sweep && sc->st->phase_count + sc->deferred < TB_MAX_CROSSINGS) {
+            sc->later[sc->deferred].a = *a;
+            sc->later[sc->deferred].b = *b;
+            sc->later[sc->deferred++].level = level;
+        } else if (sc->st->phase_count + sc->deferred >= TB_MAX_CROSSINGS) {
             /* the list is full: the crossing would not be kept, nor would any later one, and the
              * margins are not determined; from here T's phase need not be followed */
             incomplete(sc, TB_SNOTE_TRUNCATED);
@@ -575,22 +585,37 @@ static void summarize(scan *sc)
     st->margins_determined = sc->complete;
 }
 
-tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, bool vector_refine, tb_stability *st,
-                         tb_nyquist_path *path)
+/* The phase crossings deferred between grid points, refined in the order found at the end
+ * of the sweep (so that the critical gains they set steer the search above it as when they
+ * are refined at once); none once the list overflowed: the margins are not determined then,
+ * and nothing unrefined is listed. */
+static tb_status refine_later(scan *sc)
+{
+    tb_status st = TB_OK;
+    for (size_t i = 0; i < sc->deferred && !sc->phase_off && !st; i++)
+        st = refine_root(sc, &sc->later[i].a, &sc->later[i].b, ROOT_PHASE, sc->later[i].level);
+    sc->deferred = 0;
+    return st;
+}
+
+tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, const tb_scan_wants *wants,
+                         tb_stability *st, tb_nyquist_path *path)
 {
     size_t before = probe->evaluations;
     *path = (tb_nyquist_path){.ok = true};
     scan sc = {.probe = probe, .l = l, .st = st, .path = path, .complete = true, .budget = TB_MARGIN_BUDGET,
-               .fstart = res->freqs[0], .fstop = res->freqs[res->npoints - 1]};
+               .fstart = res->freqs[0], .fstop = res->freqs[res->npoints - 1], .defer = !wants->crossing_list};
     sample cur = {0};
     double ret0 = 0;
     tb_status s = low_leg(&sc, res, &cur, &ret0);
     if (!s)
         s = sweep_leg(&sc, res, &cur);
     if (!s)
+        s = refine_later(&sc);
+    if (!s)
         s = high_leg(&sc, &cur);
     path->turn_deg = cur.ret - ret0;
-    if (!s && vector_refine)
+    if (!s && wants->vector_refine)
         s = refine_vector(&sc);
     if (s)
         return s;

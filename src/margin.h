@@ -61,13 +61,20 @@ typedef struct {
  * both ends, and finds every unity crossing and every crossing of the unwrapped
  * phase through an odd multiple of 180 degrees (and DC itself when T(0) < 0),
  * each refined by Brent on fresh solves after adaptive bisection; the gain
- * margins up and down, the vector margin (refined between samples when
- * vector_refine, else the best sample's), and arg(1 + T) along the Nyquist path.
+ * margins up and down, the vector margin, and arg(1 + T) along the Nyquist path
+ * (what is refined: *wants).
  * Fills the crossing and margin fields of *st (all but the headline phase and
  * delay margins, which need the verdict: tb_margin_judge) and *path.
  * Errors: TB_ERR_NOMEM. */
-tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, bool vector_refine, tb_stability *st,
-                         tb_nyquist_path *path);
+typedef struct {
+    bool vector_refine; /* the vector margin refined between samples (else the best sample's) */
+    bool crossing_list; /* phase crossings refined as found; false: bracketed, refined at the end,
+                         * none when more turn up than the list keeps (the margins are then not
+                         * determined, and no list is wanted: spread samples) */
+} tb_scan_wants;
+
+tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, const tb_scan_wants *wants,
+                         tb_stability *st, tb_nyquist_path *path);
 
 /* Once st->verdict is known: the headline phase margin (the crossing of smallest
  * |margin| in a stable loop, smallest signed margin otherwise), the delay margin

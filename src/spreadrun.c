@@ -236,6 +236,7 @@ tb_status tb_spreadrun_all(const tb_circuit *ckt, const tb_spread_options *opt, 
     one.step_response = expected(ckt, "overshoot_pct") || expected(ckt, "rise_s") || expected(ckt, "settling_s");
     one.vector_refine = expected(ckt, "vector_margin");
     one.near_poles = false;
+    one.crossing_list = false; /* no list is shown: crossings refined only when all fit */
     one.peak_refine = false; /* the spread's figures take the peak of |A| from the dominant pair */
     one.ol_rhp_given = set->ol_rhp_nominal;
     if (!set->factorizations && !(set->factorizations = tb_calloc(set->runs ? set->runs : 1, sizeof(size_t))))

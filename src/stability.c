@@ -434,7 +434,8 @@ static tb_status near_poles(stab_work *w, const tb_result *res, size_t l, tb_sta
 static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *st)
 {
     tb_nyquist_path path;
-    tb_status s = tb_margin_scan(w->probe, res, l, w->opt->vector_refine, st, &path);
+    tb_scan_wants wants = {.vector_refine = w->opt->vector_refine, .crossing_list = w->opt->crossing_list};
+    tb_status s = tb_margin_scan(w->probe, res, l, &wants, st, &path);
     if (s)
         return s;
     st->computed = true;
