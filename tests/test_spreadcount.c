@@ -118,10 +118,95 @@ static void test_spreadcount_two_poles(void **state)
     tb_circuit_free(ckt);
 }
 
+/* Three poles, T = T0/((1 + s R1 C1)(1 + s R2 C2)(1 + s R3 C3)), T0 = gm1 R1 gm2 R2 gm3 R3 (three
+ * transconductance stages, unity-gain output; Bode 1945): a phase crossing where the three lags
+ * sum to 180 degrees, the gain margin -20 log10 |T| there. Samples bracket their phase crossings
+ * between grid points and refine them at the end of the sweep (tb_options.crossing_list false). */
+static const char *const THREE_POLES = "three poles\nVs in 0 AC 1\nG1 0 x1 in out 1m\nR1 x1 0 %.17g\nC1 x1 0 %.17g\n"
+                                       "G2 0 x2 x1 0 1m\nR2 x2 0 %.17g\nC2 x2 0 %.17g\nG3 0 x3 x2 0 1m\n"
+                                       "R3 x3 0 %.17g\nC3 x3 0 %.17g\nE1 out 0 x3 0 1\n.io Vs v(out)\n.loop G1\n"
+                                       ".ac dec 10 1 100meg\n%s";
+
+static const char *const names3[6] = {"R1", "C1", "R2", "C2", "R3", "C3"};
+static const double nominal3[6] = {10e3, 15.9e-9, 1e3, 15.9e-9, 1e3, 1.59e-9};
+
+static char *netlist3(const double *v, const char *cards)
+{
+    size_t cap = 2048;
+    char *text = malloc(cap);
+    assert_non_null(text);
+    int n = snprintf(text, cap, THREE_POLES, v[0], v[1], v[2], v[3], v[4], v[5], cards);
+    assert_true(n > 0 && (size_t)n < cap);
+    return text;
+}
+
+/* The gain margin of the closed form: the phase crossing by bisection in log w (the lag rises
+ * monotonically), then -20 log10 |T|. */
+static double gain_margin3(const double *v)
+{
+    double t0 = 1e-3 * v[0] * 1e-3 * v[2] * 1e-3 * v[4], tau[3] = {v[0] * v[1], v[2] * v[3], v[4] * v[5]};
+    double lo = log(1.0), hi = log(1e12), w = 0;
+    for (int i = 0; i < 200; i++) {
+        w = exp(0.5 * (lo + hi));
+        double lag = atan(w * tau[0]) + atan(w * tau[1]) + atan(w * tau[2]);
+        if (lag < TU_PI)
+            lo = 0.5 * (lo + hi);
+        else
+            hi = 0.5 * (lo + hi);
+    }
+    double mag = t0;
+    for (int k = 0; k < 3; k++)
+        mag /= sqrt(1 + w * w * tau[k] * tau[k]);
+    return -20.0 * log10(mag);
+}
+
+enum { FIG_GM = 3 };
+
+static void test_spreadcount_three_poles_gain_margin(void **state)
+{
+    (void)state;
+    char *text = netlist3(nominal3, ".spread R* C* flat 10%\n");
+    tb_circuit *ckt = tu_parse(text);
+    free(text);
+    tb_spread_options opt;
+    tb_spread_options_init(&opt);
+    opt.samples = 8;
+    tb_diag *diag = tb_diag_new();
+    tb_spreadset *set = NULL;
+    assert_int_equal(tb_spread_monte_carlo(ckt, &opt, diag, &set), TB_OK);
+    tu_print_diags(diag);
+    tb_diag_free(diag);
+    for (size_t r = 0; r < set->runs; r++) {
+        double v[6];
+        memcpy(v, nominal3, sizeof v);
+        for (size_t p = 0; p < set->params; p++)
+            for (int k = 0; k < 6; k++)
+                if (strcmp(set->param_names[p], names3[k]) == 0)
+                    v[k] = set->param_values[r * set->params + p];
+        const tb_figure_value *row = tb_spreadset_row(set, r, 0);
+        assert_true(row[FIG_GM].present);
+        tu_close(row[FIG_GM].value, gain_margin3(v), 1e-6);
+
+        char *one = netlist3(v, "");
+        tb_circuit *c1 = NULL;
+        tb_result *res = tu_analyse(one, &c1);
+        free(one);
+        tb_stability st;
+        assert_int_equal(tb_stability_loop(res, 0, &st), TB_OK);
+        assert_true(st.has_gain_margin_up);
+        tu_close(row[FIG_GM].value, st.gain_margin_up_db, 1e-9);
+        tb_result_free(res);
+        tb_circuit_free(c1);
+    }
+    tb_spreadset_free(set);
+    tb_circuit_free(ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_spreadcount_two_poles),
+        cmocka_unit_test(test_spreadcount_three_poles_gain_margin),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
