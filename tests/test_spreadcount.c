@@ -54,23 +54,42 @@ static void closed_form(const double *v, double *hz, double *pm)
     *pm = 180.0 - (atan(w * a) + atan(w * b)) * 180.0 / TU_PI;
 }
 
+/* Monte Carlo of the netlist text: samples runs on one thread at the given pole limit. */
+static tb_spreadset *monte_carlo(char *text, size_t samples, size_t pole_limit, tb_circuit **ckt)
+{
+    *ckt = tu_parse(text);
+    free(text);
+    tb_spread_options opt;
+    tb_spread_options_init(&opt);
+    opt.samples = samples;
+    opt.analysis.pole_limit = pole_limit;
+    tb_diag *diag = tb_diag_new();
+    tb_spreadset *set = NULL;
+    assert_int_equal(tb_spread_monte_carlo(*ckt, &opt, diag, &set), TB_OK);
+    tu_print_diags(diag);
+    tb_diag_free(diag);
+    return set;
+}
+
+/* Sample r's element values: the nominal ones, those the spread drew replaced by name. */
+static void sample_values(const tb_spreadset *set, size_t r, const char *const *names_of, const double *nom,
+                          int count, double *v)
+{
+    memcpy(v, nom, (size_t)count * sizeof(double));
+    for (size_t p = 0; p < set->params; p++)
+        for (int k = 0; k < count; k++)
+            if (strcmp(set->param_names[p], names_of[k]) == 0)
+                v[k] = set->param_values[r * set->params + p];
+}
+
 enum { FIG_UNITY = 1, FIG_PM = 2, FIG_VERDICT = 8 }; /* among the spread figures (spreadset.c) */
 
 static void test_spreadcount_two_poles(void **state)
 {
     (void)state;
-    char *text = netlist(nominal, ".spread R1 R2 C1 C2 flat 20%\n");
-    tb_circuit *ckt = tu_parse(text);
-    free(text);
-    tb_spread_options opt;
-    tb_spread_options_init(&opt);
-    opt.samples = 12;
-    opt.analysis.pole_limit = 0; /* as above the pole limit: the nominal count by the argument principle */
-    tb_diag *diag = tb_diag_new();
-    tb_spreadset *set = NULL;
-    assert_int_equal(tb_spread_monte_carlo(ckt, &opt, diag, &set), TB_OK);
-    tu_print_diags(diag);
-    tb_diag_free(diag);
+    tb_circuit *ckt = NULL;
+    /* a pole limit of 0: as above it, the nominal count by the argument principle */
+    tb_spreadset *set = monte_carlo(netlist(nominal, ".spread R1 R2 C1 C2 flat 20%\n"), 12, 0, &ckt);
 
     /* the open loop's two poles lie in the left half-plane: P = 0, from the nominal walk */
     assert_non_null(set->ol_rhp_nominal);
@@ -80,11 +99,7 @@ static void test_spreadcount_two_poles(void **state)
     for (size_t r = 0; r < set->runs; r++) {
         assert_int_equal(set->status[r] == TB_RUN_ERROR, false);
         double v[V_COUNT];
-        memcpy(v, nominal, sizeof v);
-        for (size_t p = 0; p < set->params; p++)
-            for (int k = 0; k < V_COUNT; k++)
-                if (strcmp(set->param_names[p], names[k]) == 0)
-                    v[k] = set->param_values[r * set->params + p];
+        sample_values(set, r, names, nominal, V_COUNT, v);
         const tb_figure_value *row = tb_spreadset_row(set, r, 0);
         double hz = 0, pm = 0;
         closed_form(v, &hz, &pm);
@@ -165,24 +180,11 @@ enum { FIG_GM = 3 };
 static void test_spreadcount_three_poles_gain_margin(void **state)
 {
     (void)state;
-    char *text = netlist3(nominal3, ".spread R* C* flat 10%\n");
-    tb_circuit *ckt = tu_parse(text);
-    free(text);
-    tb_spread_options opt;
-    tb_spread_options_init(&opt);
-    opt.samples = 8;
-    tb_diag *diag = tb_diag_new();
-    tb_spreadset *set = NULL;
-    assert_int_equal(tb_spread_monte_carlo(ckt, &opt, diag, &set), TB_OK);
-    tu_print_diags(diag);
-    tb_diag_free(diag);
+    tb_circuit *ckt = NULL;
+    tb_spreadset *set = monte_carlo(netlist3(nominal3, ".spread R* C* flat 10%\n"), 8, 500, &ckt);
     for (size_t r = 0; r < set->runs; r++) {
         double v[6];
-        memcpy(v, nominal3, sizeof v);
-        for (size_t p = 0; p < set->params; p++)
-            for (int k = 0; k < 6; k++)
-                if (strcmp(set->param_names[p], names3[k]) == 0)
-                    v[k] = set->param_values[r * set->params + p];
+        sample_values(set, r, names3, nominal3, 6, v);
         const tb_figure_value *row = tb_spreadset_row(set, r, 0);
         assert_true(row[FIG_GM].present);
         tu_close(row[FIG_GM].value, gain_margin3(v), 1e-6);
