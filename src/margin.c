@@ -129,10 +129,14 @@ static bool needs_split(const scan *sc, const sample *a, const sample *b)
                fabs(sc->rate * log(b->f / a->f)) <= TB_MARGIN_SPLIT_DEG_FAR;
     double split_deg = far ? TB_MARGIN_SPLIT_DEG_FAR : TB_MARGIN_SPLIT_DEG;
     double split_db = far ? TB_MARGIN_SPLIT_DB_FAR : TB_MARGIN_SPLIT_DB;
-    if (sc->phase_off && !near) /* only |T| < 1 (or > 1) throughout is asked: a rise to 0 dB
-                                 * must exceed TB_MARGIN_RISE_FACTOR times the change seen */
+    /* past an overflowing crossing list, where |T| lies far below 1 at both ends, only |T| < 1
+     * throughout is asked: then 1 + T stays in the right half-plane and its phase needs no
+     * following; a rise to 0 dB must exceed TB_MARGIN_RISE_FACTOR times the change seen.
+     * Near or above 1 the phase of T is followed as before: 1 + T turns with it. */
+    bool below = sc->phase_off && !near && da < 0;
+    if (below)
         split_db = fmax(TB_MARGIN_SPLIT_DB_FAR, fmin(fabs(da), fabs(db)) / TB_MARGIN_RISE_FACTOR);
-    return (!sc->phase_off && fabs(b->deg - a->deg) > split_deg && phase_matters(sc, a, b)) ||
+    return (!below && fabs(b->deg - a->deg) > split_deg && phase_matters(sc, a, b)) ||
            fabs(b->ret - a->ret) > TB_MARGIN_SPLIT_RET || ((near || sc->in_sweep) && fabs(db - da) > split_db);
 }
 

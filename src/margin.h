@@ -30,11 +30,13 @@
 #define TB_MARGIN_SPLIT_DB_FAR 9.0
 /* Once the phase-crossing list is full and one more crossing was seen (the margins are
  * then not determined and no later crossing would be listed), the phase of T is no
- * longer followed; between samples on one side of 0 dB, more than TB_MARGIN_NEAR_DB from
- * it, the |T| rule then splits at a change of the larger of TB_MARGIN_SPLIT_DB_FAR and
- * the distance from 0 dB over TB_MARGIN_RISE_FACTOR: a unity crossing between two such
- * samples would need |T| to rise above them by more than this factor times the change
- * seen across the interval (an assumption of smoothness, as every sampling rule here). */
+ * longer followed between samples where |T| lies more than TB_MARGIN_NEAR_DB below 0 dB
+ * at both ends (1 + T then stays in the right half-plane), and the |T| rule there splits
+ * at a change of the larger of TB_MARGIN_SPLIT_DB_FAR and the distance from 0 dB over
+ * TB_MARGIN_RISE_FACTOR: a unity crossing between two such samples would need |T| to
+ * rise above them by more than this factor times the change seen across the interval
+ * (an assumption of smoothness, as every sampling rule here). Near or above 0 dB the
+ * phase is followed as before: 1 + T turns with T there. */
 #define TB_MARGIN_RISE_FACTOR 4.0
 /* Outside the sweep the phase of T is not followed where |T| lies this much further
  * from 1 than at a critical gain already found on the same side of 1. */
