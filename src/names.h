@@ -11,18 +11,20 @@
 /* Most entries one index holds: slots keep index + 1 in 32 bits. */
 #define TB_NAMES_MAX ((size_t)UINT32_MAX - 1)
 
-/* One slot: the entry's index + 1 (0 = empty) and the upper half of its name's
- * hash, so that probes compare names only when the hashes agree. */
+/* One slot: the entry's index + 1 (0 = empty) and its name's 32-bit hash, which
+ * places the entry, and lets probes compare names only when the hashes agree. */
 typedef struct {
     uint32_t index1;
     uint32_t hash;
 } tb_name_slot;
 
 /* Open addressing over entries that keep their own names: the index stores positions
- * only, and reads a name back through a tb_name_of. An empty index is {NULL, 0}. */
+ * and hashes only, and reads a name back through a tb_name_of. An empty index is
+ * {NULL, 0, 0}; cap is a power of two, 2^(64 - shift). */
 typedef struct {
     tb_name_slot *slots;
     size_t cap;
+    unsigned shift;
 } tb_name_index;
 
 /* The NUL-terminated name of entry i of owner (a table the caller keeps). */

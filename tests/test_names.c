@@ -20,7 +20,7 @@ static void test_names_find_and_duplicates(void **state)
     (void)state;
     char names[][16] = {"R1", "out", "Vin", "r1", "OUT", "X1.n3"};
     table t = {names, 6};
-    tb_name_index idx = {NULL, 0};
+    tb_name_index idx = {NULL, 0, 0};
     size_t found = 0;
     assert_false(tb_names_find(&idx, name_of, &t, "R1", 2, &found)); /* empty index */
     size_t want_earlier[] = {SIZE_MAX, SIZE_MAX, SIZE_MAX, 0, 1, SIZE_MAX};
@@ -50,7 +50,7 @@ static void test_names_many(void **state)
     enum { N = 200000 };
     table t = {calloc(N, sizeof t.names[0]), N};
     assert_non_null(t.names);
-    tb_name_index idx = {NULL, 0};
+    tb_name_index idx = {NULL, 0, 0};
     for (size_t i = 0; i < N; i++) {
         size_t earlier = 0;
         snprintf(t.names[i], sizeof t.names[i], "p%zu", i);
