@@ -78,6 +78,50 @@ bool tb_names_find(const tb_name_index *idx, tb_name_of name_of, const void *own
     return true;
 }
 
+/* The recent entry that hash h may occupy. */
+static tb_name_slot *recent_slot(tb_name_recent *recent, uint32_t h)
+{
+    return &recent->slot[h % TB_NAMES_RECENT];
+}
+
+bool tb_names_find_recent(const tb_name_index *idx, tb_name_recent *recent, tb_name_of name_of,
+                          const void *owner, const char *name, size_t len, size_t *found)
+{
+    if (!idx->cap)
+        return false;
+    uint32_t h = hash_name(name, len);
+    tb_name_slot *seen = recent_slot(recent, h);
+    if (seen->index1 && seen->hash == h && tb_name_eq_n(name_of(owner, seen->index1 - 1), name, len)) {
+        *found = seen->index1 - 1;
+        return true;
+    }
+    const tb_name_slot *slot = find_slot(idx, name_of, owner, name, len, h);
+    if (!slot->index1)
+        return false;
+    *seen = *slot;
+    *found = slot->index1 - 1;
+    return true;
+}
+
+void tb_names_remember(tb_name_recent *recent, tb_name_of name_of, const void *owner, size_t i)
+{
+    const char *nm = name_of(owner, i);
+    uint32_t h = hash_name(nm, strlen(nm));
+    *recent_slot(recent, h) = (tb_name_slot){(uint32_t)(i + 1), h};
+}
+
+void tb_names_prefetch(const tb_name_index *idx, const char *name, size_t len)
+{
+#ifdef __GNUC__
+    if (idx->cap)
+        __builtin_prefetch(&idx->slots[home_of(idx, hash_name(name, len))], 1);
+#else
+    (void)idx;
+    (void)name;
+    (void)len;
+#endif
+}
+
 /* Doubles the table while it would be more than half full with `entries`; moves the
  * slots by their stored hashes, without looking at a name. */
 static tb_status reserve(tb_name_index *idx, size_t entries)
@@ -92,6 +136,7 @@ static tb_status reserve(tb_name_index *idx, size_t entries)
     bigger.slots = tb_calloc(bigger.cap, sizeof(tb_name_slot));
     if (!bigger.slots)
         return TB_ERR_NOMEM;
+    tb_advise_large(bigger.slots, bigger.cap * sizeof(tb_name_slot));
     for (size_t k = 0; k < idx->cap; k++) {
         if (!idx->slots[k].index1)
             continue;

@@ -40,6 +40,25 @@ tb_status tb_names_add(tb_name_index *idx, tb_name_of name_of, const void *owner
  * or false. */
 bool tb_names_find(const tb_name_index *idx, tb_name_of name_of, const void *owner, const char *name,
                    size_t len, size_t *found);
+/* The entries found or added last, by their hash: a circuit being built refers to
+ * the nodes of nearby cards again and again, and a probe of the index proper is a
+ * cache miss once it outgrows the cache. Belongs to whoever builds the index (one
+ * thread); all zero is empty. */
+#define TB_NAMES_RECENT 64
+typedef struct {
+    tb_name_slot slot[TB_NAMES_RECENT];
+} tb_name_recent;
+
+/* tb_names_find, looking first among the recent entries and remembering a find there. */
+bool tb_names_find_recent(const tb_name_index *idx, tb_name_recent *recent, tb_name_of name_of,
+                          const void *owner, const char *name, size_t len, size_t *found);
+/* Remembers entry i (just added) among the recent ones. */
+void tb_names_remember(tb_name_recent *recent, tb_name_of name_of, const void *owner, size_t i);
+
+/* Asks the processor to fetch the slot where a probe for name[0..len) starts, so
+ * that a tb_names_add of it a little later need not wait for memory. Only a hint. */
+void tb_names_prefetch(const tb_name_index *idx, const char *name, size_t len);
+
 /* Frees the slots (NULL is fine) and leaves an empty index. */
 void tb_names_free(tb_name_index *idx);
 
