@@ -89,9 +89,29 @@ void tb_circuit_free(tb_circuit *ckt)
 /* Most source texts one circuit keeps (the netlist and its includes). */
 #define MAX_SOURCES ((size_t)1000000)
 
+/* Bytes of netlist per element card and per node, about (a short card, "R1 a b 1k",
+ * is 10 bytes; a generated line of cards 25): the name indexes are sized from the
+ * netlist's length so that they seldom grow, and an index too large costs only the
+ * pages a probe touches. */
+#define BYTES_PER_ELEMENT 32
+#define BYTES_PER_NODE 64
+/* Most entries reserved so: at most 2^24 slots of 8 bytes, whatever the length. */
+#define RESERVE_MAX ((size_t)1 << 23)
+
+static size_t reserve_for(size_t len, size_t bytes_each)
+{
+    return len / bytes_each < RESERVE_MAX ? len / bytes_each : RESERVE_MAX;
+}
+
 tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, size_t len,
                                 const char **file_out)
 {
+    if (ckt->source_count == 0 && /* the netlist itself */
+        (tb_names_reserve(&ckt->elem_index, reserve_for(len, BYTES_PER_ELEMENT)) ||
+         tb_names_reserve(&ckt->node_index, reserve_for(len, BYTES_PER_NODE)))) {
+        tb_free(text);
+        return TB_ERR_NOMEM;
+    }
     const char *name = tb_circuit_intern(ckt, file, strlen(file));
     if (!name || tb_grow(&ckt->sources, &ckt->source_cap, ckt->source_count + 1,
                          sizeof(tb_source), MAX_SOURCES)) {

@@ -114,7 +114,8 @@ static void skip_blanks(tb_lexer *lx)
 /* Moves past the end of the current physical line (CR, LF or CRLF). */
 static void next_line(tb_lexer *lx)
 {
-    while (class_at(lx, lx->pos) != C_EOL)
+    const char *text = lx->text;
+    while (lx->pos < lx->len && text[lx->pos] != '\n' && text[lx->pos] != '\r')
         lx->pos++;
     if (lx->pos < lx->len) {
         if (lx->text[lx->pos] == '\r' && lx->pos + 1 < lx->len && lx->text[lx->pos + 1] == '\n')
@@ -201,6 +202,17 @@ static bool begin_line(tb_lexer *lx, tb_token *tok)
         *tok = make(lx, TB_TOK_PLUS, lx->pos, 1);
         lx->pos++;
         return true;
+    }
+}
+
+tb_token tb_lex_skip_card(tb_lexer *lx)
+{
+    tb_token tok;
+    for (;;) {
+        if (!lx->at_bol) /* the rest of this physical line: no token spans a line end */
+            next_line(lx);
+        if (begin_line(lx, &tok))
+            return tok;
     }
 }
 

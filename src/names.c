@@ -124,7 +124,7 @@ void tb_names_prefetch(const tb_name_index *idx, const char *name, size_t len)
 
 /* Doubles the table while it would be more than half full with `entries`; moves the
  * slots by their stored hashes, without looking at a name. */
-static tb_status reserve(tb_name_index *idx, size_t entries)
+tb_status tb_names_reserve(tb_name_index *idx, size_t entries)
 {
     if (entries <= idx->cap / 2)
         return TB_OK;
@@ -153,7 +153,7 @@ static tb_status reserve(tb_name_index *idx, size_t entries)
 tb_status tb_names_add(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t i,
                        size_t *earlier)
 {
-    if (i >= TB_NAMES_MAX || reserve(idx, i + 1))
+    if (i >= TB_NAMES_MAX || tb_names_reserve(idx, i + 1))
         return TB_ERR_NOMEM;
     const char *nm = name_of(owner, i);
     size_t len = strlen(nm);

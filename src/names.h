@@ -55,6 +55,10 @@ bool tb_names_find_recent(const tb_name_index *idx, tb_name_recent *recent, tb_n
 /* Remembers entry i (just added) among the recent ones. */
 void tb_names_remember(tb_name_recent *recent, tb_name_of name_of, const void *owner, size_t i);
 
+/* Makes room for `entries` entries at once (the index grows by itself otherwise, moving
+ * every slot at each doubling). TB_ERR_NOMEM: nothing changed. */
+tb_status tb_names_reserve(tb_name_index *idx, size_t entries);
+
 /* Asks the processor to fetch the slot where a probe for name[0..len) starts, so
  * that a tb_names_add of it a little later need not wait for memory. Only a hint. */
 void tb_names_prefetch(const tb_name_index *idx, const char *name, size_t len);
