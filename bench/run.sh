@@ -11,6 +11,7 @@
 #                   at 10^5 would take about 2 hours: about 1800 factorizations of 4 s)
 #   BENCH_REPORT_RUNS  repetitions of each report (default 1)
 #   BENCH_LIBRARY   netlists in the library benchmark (default 1000; 0 skips it)
+#   BENCH_READ      1 (default): also reading a 100 MB netlist (bench/read.sh, its READ_* settings); 0 skips it
 #   BENCH_COUNTS_ONLY  1: the factorization counts only
 #   BENCH_OUT       the results file (default BUILD/bench/families.txt), read by bench/plot.py
 #   BENCH_BEFORE    another build folder (an older tbeta) timed in the same run: its sweep in
@@ -208,4 +209,11 @@ if [ "$LIBN" -gt 0 ]; then
         printf "  --jobs 1   %7.3f s  %7.1f netlists/s\n", t1, n / t1
         printf "  --jobs 2   %7.3f s  %7.1f netlists/s  speed-up %.2f (target: 1000 in < 10 s)\n", t2, n / t2, t1 / t2
     }'
+fi
+
+# ---- reading: a 100 MB netlist into a circuit (bench/read.sh) ----
+if [ "${BENCH_READ:-1}" = 1 ]; then
+    echo
+    echo "== reading (bench/read.sh)"
+    sh "$HERE/read.sh" "$BUILD"
 fi

@@ -1,10 +1,12 @@
 /* src/alloc.c: the one allocation module: overflow-checked sizes and one growth helper.
  * Tests inject allocation failures by linking with -Wl,--wrap=malloc (tests/test_oom.c). */
+#define _DEFAULT_SOURCE /* MADV_HUGEPAGE (Linux) in <sys/mman.h> */
 #include "alloc.h"
 
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 
 static int overflows(size_t count, size_t size)
 {
@@ -63,4 +65,22 @@ char *tb_strndup(const char *s, size_t len)
     memcpy(copy, s, len);
     copy[len] = '\0';
     return copy;
+}
+
+/* Huge pages of 2 MiB (x86-64, arm64 with 4 KiB pages); arrays below two of them are left alone. */
+#define HUGE_PAGE ((size_t)2 << 20)
+
+void tb_advise_large(void *p, size_t bytes)
+{
+#ifdef MADV_HUGEPAGE
+    if (!p || bytes < 2 * HUGE_PAGE)
+        return;
+    uintptr_t start = ((uintptr_t)p + HUGE_PAGE - 1) & ~(uintptr_t)(HUGE_PAGE - 1);
+    uintptr_t end = ((uintptr_t)p + bytes) & ~(uintptr_t)(HUGE_PAGE - 1);
+    if (end > start)
+        (void)madvise((void *)start, end - start, MADV_HUGEPAGE); /* a hint: failure changes nothing */
+#else
+    (void)p;
+    (void)bytes;
+#endif
 }

@@ -89,9 +89,29 @@ void tb_circuit_free(tb_circuit *ckt)
 /* Most source texts one circuit keeps (the netlist and its includes). */
 #define MAX_SOURCES ((size_t)1000000)
 
+/* Bytes of netlist per element card and per node, about (a short card, "R1 a b 1k",
+ * is 10 bytes; a generated line of cards 25): the name indexes are sized from the
+ * netlist's length so that they seldom grow, and an index too large costs only the
+ * pages a probe touches. */
+#define BYTES_PER_ELEMENT 32
+#define BYTES_PER_NODE 64
+/* Most entries reserved so: at most 2^24 slots of 8 bytes, whatever the length. */
+#define RESERVE_MAX ((size_t)1 << 23)
+
+static size_t reserve_for(size_t len, size_t bytes_each)
+{
+    return len / bytes_each < RESERVE_MAX ? len / bytes_each : RESERVE_MAX;
+}
+
 tb_status tb_circuit_add_source(tb_circuit *ckt, const char *file, char *text, size_t len,
                                 const char **file_out)
 {
+    if (ckt->source_count == 0 && /* the netlist itself */
+        (tb_names_reserve(&ckt->elem_index, reserve_for(len, BYTES_PER_ELEMENT)) ||
+         tb_names_reserve(&ckt->node_index, reserve_for(len, BYTES_PER_NODE)))) {
+        tb_free(text);
+        return TB_ERR_NOMEM;
+    }
     const char *name = tb_circuit_intern(ckt, file, strlen(file));
     if (!name || tb_grow(&ckt->sources, &ckt->source_cap, ckt->source_count + 1,
                          sizeof(tb_source), MAX_SOURCES)) {
@@ -178,8 +198,15 @@ bool tb_circuit_find_node(const tb_circuit *ckt, const char *name, size_t len, i
 
 tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *index)
 {
-    if (ckt->node_count > 0 && tb_circuit_find_node(ckt, name, len, index))
+    if (is_ground(name, len) && ckt->node_count > 0) {
+        *index = 0;
         return TB_OK;
+    }
+    size_t found = 0;
+    if (tb_names_find_recent(&ckt->node_index, &ckt->node_recent, node_name_of, ckt, name, len, &found)) {
+        *index = (int)found;
+        return TB_OK;
+    }
     if (tb_grow(&ckt->node_names, &ckt->node_cap, ckt->node_count + 1, sizeof(char *),
                 TB_MAX_NODES))
         return TB_ERR_NOMEM;
@@ -191,6 +218,8 @@ tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *in
     size_t earlier = SIZE_MAX;
     if (n > 0 && tb_names_add(&ckt->node_index, node_name_of, ckt, n, &earlier))
         return TB_ERR_NOMEM;
+    if (n > 0)
+        tb_names_remember(&ckt->node_recent, node_name_of, ckt, n);
     ckt->node_count++;
     *index = (int)n;
     return TB_OK;
@@ -201,17 +230,31 @@ bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *in
     return tb_names_find(&ckt->elem_index, elem_name_of, ckt, name, strlen(name), index);
 }
 
+/* Elements waiting for the name index while their slots are fetched: enough to
+ * overlap that many memory accesses, few enough that their names stay in cache. */
+#define ELEM_PENDING 16
+
+/* Enters elements into the name index until at most `pending` wait. */
+static tb_status index_elements(tb_circuit *ckt, size_t pending)
+{
+    for (; ckt->elem_count - ckt->elem_indexed > pending; ckt->elem_indexed++) {
+        size_t i = ckt->elem_indexed;
+        if (tb_names_add(&ckt->elem_index, elem_name_of, ckt, i, &ckt->elems[i].first_same_name))
+            return TB_ERR_NOMEM;
+    }
+    return TB_OK;
+}
+
 tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem)
 {
     if (tb_grow(&ckt->elems, &ckt->elem_cap, ckt->elem_count + 1, sizeof(tb_element),
                 TB_MAX_ELEMENTS))
         return TB_ERR_NOMEM;
-    tb_element *e = &ckt->elems[ckt->elem_count];
+    tb_element *e = &ckt->elems[ckt->elem_count++];
     *e = *elem;
-    if (tb_names_add(&ckt->elem_index, elem_name_of, ckt, ckt->elem_count, &e->first_same_name))
-        return TB_ERR_NOMEM;
-    ckt->elem_count++;
-    return TB_OK;
+    e->first_same_name = SIZE_MAX;
+    tb_names_prefetch(&ckt->elem_index, e->name, strlen(e->name));
+    return index_elements(ckt, ELEM_PENDING);
 }
 
 tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop)
@@ -612,6 +655,8 @@ static void check_topology(checker *ck)
 tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag)
 {
     checker ck = {ckt, diag, TB_OK};
+    if (index_elements(ckt, 0) != TB_OK)
+        return TB_ERR_NOMEM;
     check_duplicates(&ck);
     check_sensing(&ck);
     check_coupling(&ck);

@@ -186,6 +186,9 @@ struct tb_circuit {
     struct tb_strblock *strings; /* string arena */
     tb_volterra_spec volterra;   /* .volterra (distortion.c) */
     struct tb_spread_cards *spread; /* .spread and .scan cards (spreadcard.h), in the arena; NULL: none */
+    tb_name_recent node_recent;  /* nodes found or added last, for tb_circuit_node */
+    size_t elem_indexed;         /* elems[0..elem_indexed) are in elem_index, the rest follow
+                                  * (tb_circuit_add_element, at the latest tb_circuit_finish) */
 };
 
 tb_status tb_circuit_create(const char *file, tb_circuit **out);
@@ -195,10 +198,13 @@ const char *tb_circuit_intern(tb_circuit *ckt, const char *s, size_t len);
 tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *index);
 /* Index of an existing node; false when there is none (no node is created). */
 bool tb_circuit_find_node(const tb_circuit *ckt, const char *name, size_t len, int *index);
-/* Element index by name (case-insensitive); false when there is none. */
+/* Element index by name (case-insensitive); false when there is none. Elements
+ * are found once tb_circuit_finish has run. */
 bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *index);
 /* Appends a copy of *elem (its strings must already be interned). An element
- * of the same name may exist already: tb_circuit_finish reports duplicates. */
+ * of the same name may exist already: tb_circuit_finish reports duplicates. The
+ * element enters the name index (and gets first_same_name) a few elements later,
+ * its slot fetched meanwhile, or in tb_circuit_finish. */
 tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem);
 tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop);
 /* Hands the circuit a source text read under the name file: the circuit owns

@@ -1,7 +1,9 @@
 /* src/lex.c: the netlist lexer: physical lines, '+' continuation, comments, tokens, engineering values */
 #include "lex.h"
 
+#include <float.h>
 #include <limits.h>
+#include <stdint.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -10,8 +12,10 @@
 /* ---- character classes ------------------------------------------------ */
 
 /* Every byte not listed is a word character: printable ASCII other than
- * blanks and ( ) , = ; and every byte of a UTF-8 sequence. */
-enum { C_WORD = 0, C_BLANK, C_EOL, C_PUNCT, C_SEMI, C_BAD, C_BRACE };
+ * blanks and ( ) , = ; and every byte of a UTF-8 sequence. C_LEAD marks the
+ * bytes an odd space can start with (tb_lex_odd_space): word characters
+ * unless one starts there, so that only they need a closer look. */
+enum { C_WORD = 0, C_BLANK, C_EOL, C_PUNCT, C_SEMI, C_BAD, C_BRACE, C_LEAD };
 
 static const unsigned char char_class[256] = {
     [0x00] = C_BAD,   [0x01] = C_BAD,   [0x02] = C_BAD,   [0x03] = C_BAD,
@@ -24,6 +28,7 @@ static const unsigned char char_class[256] = {
     [0x1C] = C_BAD,   [0x1D] = C_BAD,   [0x1E] = C_BAD,   [0x1F] = C_BAD,
     [' '] = C_BLANK,  ['('] = C_PUNCT,  [')'] = C_PUNCT,  [','] = C_PUNCT,
     ['='] = C_PUNCT,  [';'] = C_SEMI,   [0x7F] = C_BAD,   ['{'] = C_BRACE,
+    [0xC2] = C_LEAD,  [0xE2] = C_LEAD,  [0xE3] = C_LEAD,  [0xEF] = C_LEAD,
 };
 
 /* Class of the byte at i; the end of the input counts as a line end. */
@@ -77,7 +82,20 @@ size_t tb_lex_odd_space(const char *s, size_t len, const char **name)
 /* Length of an odd space at byte i of the input, 0 when there is none. */
 static size_t odd_space_at(const tb_lexer *lx, size_t i)
 {
-    return i < lx->len ? tb_lex_odd_space(lx->text + i, lx->len - i, NULL) : 0;
+    return class_at(lx, i) == C_LEAD ? tb_lex_odd_space(lx->text + i, lx->len - i, NULL) : 0;
+}
+
+/* The end of the word that starts at i: word characters up to a blank, a line end,
+ * punctuation, a control character or an odd space. */
+static size_t word_end(const tb_lexer *lx, size_t i)
+{
+    const unsigned char *text = (const unsigned char *)lx->text;
+    for (; i < lx->len; i++) {
+        int cls = char_class[text[i]];
+        if (cls != C_WORD && (cls != C_LEAD || odd_space_at(lx, i)))
+            break;
+    }
+    return i;
 }
 
 static int clamp_int(size_t n)
@@ -96,7 +114,8 @@ static void skip_blanks(tb_lexer *lx)
 /* Moves past the end of the current physical line (CR, LF or CRLF). */
 static void next_line(tb_lexer *lx)
 {
-    while (class_at(lx, lx->pos) != C_EOL)
+    const char *text = lx->text;
+    while (lx->pos < lx->len && text[lx->pos] != '\n' && text[lx->pos] != '\r')
         lx->pos++;
     if (lx->pos < lx->len) {
         if (lx->text[lx->pos] == '\r' && lx->pos + 1 < lx->len && lx->text[lx->pos + 1] == '\n')
@@ -186,6 +205,17 @@ static bool begin_line(tb_lexer *lx, tb_token *tok)
     }
 }
 
+tb_token tb_lex_skip_card(tb_lexer *lx)
+{
+    tb_token tok;
+    for (;;) {
+        if (!lx->at_bol) /* the rest of this physical line: no token spans a line end */
+            next_line(lx);
+        if (begin_line(lx, &tok))
+            return tok;
+    }
+}
+
 static tb_tok_kind punct_kind(char c)
 {
     switch (c) {
@@ -227,8 +257,7 @@ tb_token tb_lex_next(tb_lexer *lx)
             lx->pos = start + odd_space_at(lx, start);
             tok = make(lx, TB_TOK_BAD, start, lx->pos - start);
         } else {
-            while (class_at(lx, lx->pos) == C_WORD && !odd_space_at(lx, lx->pos))
-                lx->pos++;
+            lx->pos = word_end(lx, lx->pos);
             tok = make(lx, TB_TOK_WORD, start, lx->pos - start);
         }
         break;
@@ -413,8 +442,81 @@ static tb_value_status compose(const decimal *d, bool negative, long long exp10,
     return TB_VALUE_OK;
 }
 
+/* ---- the fast path: plain decimals --------------------------------------- */
+
+/* Most digits the fast path reads: their integer stays below 10^19 < 2^64. */
+#define FAST_DIGITS 19
+/* Digits at s[*at..n) into *m and *count (all digits, leading zeros too); false
+ * when there are more than FAST_DIGITS in all. */
+static bool fast_digits(const char *s, size_t n, size_t *at, uint64_t *m, int *count)
+{
+    size_t i = *at;
+    for (; i < n && is_digit(s[i]); i++) {
+        if (++*count > FAST_DIGITS)
+            return false;
+        *m = *m * 10 + (uint64_t)(s[i] - '0');
+    }
+    *at = i;
+    return true;
+}
+
+/* The value of a plain decimal: [+|-] mantissa of at most FAST_DIGITS digits, an
+ * exponent, a suffix and letters. When its digits make an
+ * integer m <= 2^53 and its power of ten p is within 10^+-22, both are exact
+ * doubles and one multiplication or division m x 10^p rounds correctly, as strtod
+ * does (Clinger's fast path: W. D. Clinger, "How to read floating point numbers
+ * accurately", PLDI 1990). False, with *out untouched, for anything else, which the
+ * full reading below handles (errors included). */
+static bool fast_value(const char *s, size_t n, double *out)
+{
+    static const double powers[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,
+                                    1e8,  1e9,  1e10, 1e11, 1e12, 1e13, 1e14, 1e15,
+                                    1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+    size_t i = 0;
+    bool negative = i < n && s[i] == '-';
+    i += i < n && (s[i] == '+' || s[i] == '-');
+    uint64_t m = 0;
+    int count = 0;
+    if (!fast_digits(s, n, &i, &m, &count))
+        return false;
+    int whole = count;
+    if (i < n && s[i] == '.') {
+        i++;
+        if (!fast_digits(s, n, &i, &m, &count))
+            return false;
+    }
+    if (count == 0)
+        return false;
+    long long exp10 = -(long long)(count - whole);
+    if (i < n && tb_lex_lower(s[i]) == 'e') {
+        size_t at = i;
+        long long e = 0;
+        if (!scan_exponent(s, n, &at, &e)) /* saturated, never overflows */
+            return false;
+        exp10 += e;
+        i = at;
+    }
+    i = scan_suffix(s, n, i, &exp10);
+    while (i < n && is_letter(s[i]))
+        i++;
+    if (i != n)
+        return false;
+    if (m == 0) { /* any zero reads as +0, as below */
+        *out = 0.0;
+        return true;
+    }
+    if (m > ((uint64_t)1 << 53) || exp10 < -22 || exp10 > 22)
+        return false;
+    double v = exp10 >= 0 ? (double)m * powers[exp10] : (double)m / powers[-exp10];
+    *out = negative ? -v : v;
+    return true;
+}
+
 tb_value_status tb_lex_value(const char *s, size_t len, double *out)
 {
+    /* the fast path's one rounded operation needs doubles evaluated as doubles */
+    if (FLT_EVAL_METHOD == 0 && fast_value(s, len, out))
+        return TB_VALUE_OK;
     decimal d = {.count = 0};
     size_t i = 0;
     bool negative = false;

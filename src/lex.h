@@ -60,6 +60,13 @@ void tb_lex_init_at(tb_lexer *lx, const char *text, size_t len, size_t pos, int 
  * skipped, also between a card and its '+' lines. */
 tb_token tb_lex_next(tb_lexer *lx);
 
+/* Skips the rest of the current card (a card's tokens have been handed out and
+ * its EOC not yet) without making its tokens, and returns what tb_lex_next would
+ * at the card's end: TB_TOK_EOC, placed after the last token handed out (not
+ * after the card's true last token). For a pass that reads only the first tokens
+ * of cards; tokens that would be TB_TOK_BAD pass unnoticed. */
+tb_token tb_lex_skip_card(tb_lexer *lx);
+
 /* The physical line of the source holding at (text <= at <= text + len),
  * without its line end; its length goes to *len. */
 const char *tb_lex_line(const tb_lexer *lx, const char *at, size_t *len);

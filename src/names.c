@@ -28,30 +28,38 @@ bool tb_name_eq_n(const char *a, const char *b, size_t len)
     return a[len] == '\0';
 }
 
-static uint64_t hash_name(const char *s, size_t len)
+/* The name's 32-bit hash: FNV-1a over the lower-case bytes, then a final avalanche
+ * (from splitmix64) so that every bit depends on every character: names like
+ * R1..R300000 differ late. Slots keep it whole, and it alone places an entry, so that
+ * growing the table never reads a name back (each read would be a cache miss). */
+static uint32_t hash_name(const char *s, size_t len)
 {
     uint64_t h = 1469598103934665603u; /* FNV-1a */
     for (size_t i = 0; i < len; i++) {
         h ^= lower(s[i]);
         h *= 1099511628211u;
     }
-    /* final avalanche (from splitmix64) so that the low bits used as the slot
-     * index depend on every character: names like R1..R300000 differ late */
     h ^= h >> 33;
     h *= 0xff51afd7ed558ccdu;
     h ^= h >> 33;
-    return h;
+    return (uint32_t)(h >> 32);
+}
+
+/* The first slot to probe for hash h (Fibonacci hashing spreads h over tables of any size). */
+static size_t home_of(const tb_name_index *idx, uint32_t h)
+{
+    return (size_t)(((uint64_t)h * 0x9E3779B97F4A7C15u) >> idx->shift);
 }
 
 /* The slot holding name (hash h), or the empty slot where it would go. */
 static tb_name_slot *find_slot(const tb_name_index *idx, tb_name_of name_of, const void *owner,
-                               const char *name, size_t len, uint64_t h)
+                               const char *name, size_t len, uint32_t h)
 {
     size_t mask = idx->cap - 1;
-    size_t i = (size_t)h & mask;
+    size_t i = home_of(idx, h);
     while (idx->slots[i].index1) {
         const tb_name_slot *slot = &idx->slots[i];
-        if (slot->hash == (uint32_t)(h >> 32) && tb_name_eq_n(name_of(owner, slot->index1 - 1), name, len))
+        if (slot->hash == h && tb_name_eq_n(name_of(owner, slot->index1 - 1), name, len))
             return &idx->slots[i];
         i = (i + 1) & mask;
     }
@@ -70,22 +78,69 @@ bool tb_names_find(const tb_name_index *idx, tb_name_of name_of, const void *own
     return true;
 }
 
-/* Doubles the table while it would be more than half full with `entries`. */
-static tb_status reserve(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t entries)
+/* The recent entry that hash h may occupy. */
+static tb_name_slot *recent_slot(tb_name_recent *recent, uint32_t h)
+{
+    return &recent->slot[h % TB_NAMES_RECENT];
+}
+
+bool tb_names_find_recent(const tb_name_index *idx, tb_name_recent *recent, tb_name_of name_of,
+                          const void *owner, const char *name, size_t len, size_t *found)
+{
+    if (!idx->cap)
+        return false;
+    uint32_t h = hash_name(name, len);
+    tb_name_slot *seen = recent_slot(recent, h);
+    if (seen->index1 && seen->hash == h && tb_name_eq_n(name_of(owner, seen->index1 - 1), name, len)) {
+        *found = seen->index1 - 1;
+        return true;
+    }
+    const tb_name_slot *slot = find_slot(idx, name_of, owner, name, len, h);
+    if (!slot->index1)
+        return false;
+    *seen = *slot;
+    *found = slot->index1 - 1;
+    return true;
+}
+
+void tb_names_remember(tb_name_recent *recent, tb_name_of name_of, const void *owner, size_t i)
+{
+    const char *nm = name_of(owner, i);
+    uint32_t h = hash_name(nm, strlen(nm));
+    *recent_slot(recent, h) = (tb_name_slot){(uint32_t)(i + 1), h};
+}
+
+void tb_names_prefetch(const tb_name_index *idx, const char *name, size_t len)
+{
+#ifdef __GNUC__
+    if (idx->cap)
+        __builtin_prefetch(&idx->slots[home_of(idx, hash_name(name, len))], 1);
+#else
+    (void)idx;
+    (void)name;
+    (void)len;
+#endif
+}
+
+/* Doubles the table while it would be more than half full with `entries`; moves the
+ * slots by their stored hashes, without looking at a name. */
+tb_status tb_names_reserve(tb_name_index *idx, size_t entries)
 {
     if (entries <= idx->cap / 2)
         return TB_OK;
-    tb_name_index bigger = {NULL, idx->cap ? idx->cap * 2 : 64};
-    while (entries > bigger.cap / 2)
+    tb_name_index bigger = {NULL, idx->cap ? idx->cap * 2 : 64, idx->cap ? idx->shift - 1 : 58};
+    while (entries > bigger.cap / 2) {
         bigger.cap *= 2;
+        bigger.shift--;
+    }
     bigger.slots = tb_calloc(bigger.cap, sizeof(tb_name_slot));
     if (!bigger.slots)
         return TB_ERR_NOMEM;
+    tb_advise_large(bigger.slots, bigger.cap * sizeof(tb_name_slot));
     for (size_t k = 0; k < idx->cap; k++) {
         if (!idx->slots[k].index1)
             continue;
-        const char *nm = name_of(owner, idx->slots[k].index1 - 1);
-        size_t i = (size_t)hash_name(nm, strlen(nm)) & (bigger.cap - 1);
+        size_t i = home_of(&bigger, idx->slots[k].hash);
         while (bigger.slots[i].index1) /* names in the old table are distinct */
             i = (i + 1) & (bigger.cap - 1);
         bigger.slots[i] = idx->slots[k];
@@ -98,21 +153,20 @@ static tb_status reserve(tb_name_index *idx, tb_name_of name_of, const void *own
 tb_status tb_names_add(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t i,
                        size_t *earlier)
 {
-    if (i >= TB_NAMES_MAX || reserve(idx, name_of, owner, i + 1))
+    if (i >= TB_NAMES_MAX || tb_names_reserve(idx, i + 1))
         return TB_ERR_NOMEM;
     const char *nm = name_of(owner, i);
     size_t len = strlen(nm);
-    uint64_t h = hash_name(nm, len);
+    uint32_t h = hash_name(nm, len);
     tb_name_slot *slot = find_slot(idx, name_of, owner, nm, len, h);
     *earlier = slot->index1 ? slot->index1 - 1 : SIZE_MAX;
     if (!slot->index1)
-        *slot = (tb_name_slot){(uint32_t)(i + 1), (uint32_t)(h >> 32)};
+        *slot = (tb_name_slot){(uint32_t)(i + 1), h};
     return TB_OK;
 }
 
 void tb_names_free(tb_name_index *idx)
 {
     tb_free(idx->slots);
-    idx->slots = NULL;
-    idx->cap = 0;
+    *idx = (tb_name_index){NULL, 0, 0};
 }

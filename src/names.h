@@ -11,18 +11,20 @@
 /* Most entries one index holds: slots keep index + 1 in 32 bits. */
 #define TB_NAMES_MAX ((size_t)UINT32_MAX - 1)
 
-/* One slot: the entry's index + 1 (0 = empty) and the upper half of its name's
- * hash, so that probes compare names only when the hashes agree. */
+/* One slot: the entry's index + 1 (0 = empty) and its name's 32-bit hash, which
+ * places the entry, and lets probes compare names only when the hashes agree. */
 typedef struct {
     uint32_t index1;
     uint32_t hash;
 } tb_name_slot;
 
 /* Open addressing over entries that keep their own names: the index stores positions
- * only, and reads a name back through a tb_name_of. An empty index is {NULL, 0}. */
+ * and hashes only, and reads a name back through a tb_name_of. An empty index is
+ * {NULL, 0, 0}; cap is a power of two, 2^(64 - shift). */
 typedef struct {
     tb_name_slot *slots;
     size_t cap;
+    unsigned shift;
 } tb_name_index;
 
 /* The NUL-terminated name of entry i of owner (a table the caller keeps). */
@@ -38,6 +40,29 @@ tb_status tb_names_add(tb_name_index *idx, tb_name_of name_of, const void *owner
  * or false. */
 bool tb_names_find(const tb_name_index *idx, tb_name_of name_of, const void *owner, const char *name,
                    size_t len, size_t *found);
+/* The entries found or added last, by their hash: a circuit being built refers to
+ * the nodes of nearby cards again and again, and a probe of the index proper is a
+ * cache miss once it outgrows the cache. Belongs to whoever builds the index (one
+ * thread); all zero is empty. */
+#define TB_NAMES_RECENT 64
+typedef struct {
+    tb_name_slot slot[TB_NAMES_RECENT];
+} tb_name_recent;
+
+/* tb_names_find, looking first among the recent entries and remembering a find there. */
+bool tb_names_find_recent(const tb_name_index *idx, tb_name_recent *recent, tb_name_of name_of,
+                          const void *owner, const char *name, size_t len, size_t *found);
+/* Remembers entry i (just added) among the recent ones. */
+void tb_names_remember(tb_name_recent *recent, tb_name_of name_of, const void *owner, size_t i);
+
+/* Makes room for `entries` entries at once (the index grows by itself otherwise, moving
+ * every slot at each doubling). TB_ERR_NOMEM: nothing changed. */
+tb_status tb_names_reserve(tb_name_index *idx, size_t entries);
+
+/* Asks the processor to fetch the slot where a probe for name[0..len) starts, so
+ * that a tb_names_add of it a little later need not wait for memory. Only a hint. */
+void tb_names_prefetch(const tb_name_index *idx, const char *name, size_t len);
+
 /* Frees the slots (NULL is fine) and leaves an empty index. */
 void tb_names_free(tb_name_index *idx);
 

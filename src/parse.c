@@ -2243,8 +2243,10 @@ static void first_pass(parser *p, open_file *files, size_t *depth)
         }
         size_t before = *depth;
         first_card(p, files, depth);
-        if (*depth == before)
-            skip_card(p);
+        if (*depth == before && !at_end(p)) { /* the rest unread: no tokens made */
+            p->prev = p->tok;
+            p->tok = tb_lex_skip_card(p->lx);
+        }
     }
 }
 

@@ -446,6 +446,104 @@ static void test_lex_value_long_mantissa(void **state)
     assert_int_equal(value_of(text, 400, &got), TB_VALUE_RANGE);
 }
 
+/* A deterministic generator for the random values below (splitmix64, from memory). */
+static uint64_t next_random(uint64_t *x)
+{
+    uint64_t z = (*x += 0x9E3779B97F4A7C15u);
+    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9u;
+    z = (z ^ (z >> 27)) * 0x94D049BB133111EBu;
+    return z ^ (z >> 31);
+}
+
+/* Appends count random digits to buf at *n; leading zeros come up now and then. */
+static void put_digits(char *buf, size_t *n, int count, uint64_t *rng)
+{
+    for (int k = 0; k < count; k++)
+        buf[(*n)++] = (char)('0' + (next_random(rng) % 4 == 0 ? 0 : next_random(rng) % 10));
+}
+
+/* Random engineering values against the C library's strtod as the outside reference
+ * (glibc's strtod rounds correctly to nearest, ISO C 7.22.1.3 and the glibc manual,
+ * "Parsing of Floats"): the same decimal written with its suffix folded into a plain
+ * exponent must give the same double, bit for bit; one that is too large is a range
+ * error. Short mantissas and small exponents come up most, as in netlists, and so do
+ * the edges of exact arithmetic (2^53, 10^22). Zero digits read as +0 ("-0" too). */
+static void test_lex_value_random_against_strtod(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *text;
+        int exp10;
+    } suffixes[] = {{"", 0},   {"f", -15}, {"p", -12}, {"n", -9}, {"u", -6}, {"m", -3}, {"k", 3},
+                    {"meg", 6}, {"g", 9},  {"t", 12},  {"K", 3},  {"MEG", 6}, {"U", -6}, {"Meg", 6}};
+    static const char *const units[] = {"", "Ohm", "V", "A", "Hz", "ohms"};
+    static const char *const signs[] = {"", "+", "-"};
+    uint64_t rng = 12345;
+    size_t checked = 0;
+    for (int trial = 0; trial < 200000; trial++) {
+        char text[128];
+        char ref[128];
+        size_t n = (size_t)snprintf(text, sizeof text, "%s", signs[next_random(&rng) % 3]);
+        size_t mant = n;
+        int small = next_random(&rng) % 4 != 0;
+        put_digits(text, &n, (int)(next_random(&rng) % (small ? 7 : 24)), &rng);
+        if (next_random(&rng) % 2) {
+            text[n++] = '.';
+            put_digits(text, &n, (int)(next_random(&rng) % (small ? 5 : 22)), &rng);
+        }
+        bool digits = false;
+        bool nonzero = false;
+        for (size_t k = mant; k < n; k++) {
+            digits = digits || (text[k] >= '0' && text[k] <= '9');
+            nonzero = nonzero || (text[k] >= '1' && text[k] <= '9');
+        }
+        if (!digits)
+            continue;
+        size_t mant_end = n;
+        long exp10 = 0;
+        if (next_random(&rng) % 3 == 0) {
+            exp10 = (long)(next_random(&rng) % (small ? 30 : 340)) * (next_random(&rng) % 2 ? 1 : -1);
+            n += (size_t)snprintf(text + n, sizeof text - n, "%c%+ld", next_random(&rng) % 2 ? 'e' : 'E', exp10);
+        }
+        size_t pick = (size_t)(next_random(&rng) % (sizeof suffixes / sizeof suffixes[0]));
+        n += (size_t)snprintf(text + n, sizeof text - n, "%s%s", suffixes[pick].text,
+                              pick ? units[next_random(&rng) % 6] : "");
+        snprintf(ref, sizeof ref, "%.*se%ld", (int)mant_end, text, exp10 + suffixes[pick].exp10);
+        double want = strtod(ref, NULL);
+        double got = 0;
+        tb_value_status st = value_of(text, n, &got);
+        if (isinf(want)) {
+            assert_int_equal(st, TB_VALUE_RANGE);
+            continue;
+        }
+        if (!nonzero)
+            want = 0.0; /* zero digits read as +0; an underflow keeps its sign */
+        assert_int_equal(st, TB_VALUE_OK);
+        if (memcmp(&got, &want, sizeof got) != 0)
+            fail_msg("'%s': got %.17g, strtod of '%s' gives %.17g", text, got, ref, want);
+        checked++;
+    }
+    static const char *const edges[] = {"9007199254740992", "9007199254740993", "9007199254740991e22",
+                                        "9007199254740993e-22", "1e22", "1e23", "1e-22", "1e-23",
+                                        "4.9e-324", "1.7976931348623157e308", "123456789012345678e-5",
+                                        "0.1", "0.3", "2.2u", "1.5meg", "47k", "1p", "3.3n"};
+    for (size_t k = 0; k < sizeof edges / sizeof edges[0]; k++) {
+        double got = 0;
+        assert_int_equal(value_of(edges[k], strlen(edges[k]), &got), TB_VALUE_OK);
+        char ref[64];
+        long long e = 0;
+        size_t len = strlen(edges[k]);
+        size_t cut = strcspn(edges[k], "kmnpu");
+        if (cut < len)
+            e = edges[k][cut] == 'k' ? 3 : edges[k][cut] == 'u' ? -6 : edges[k][cut] == 'n' ? -9
+                : edges[k][cut] == 'p' ? -12 : (len - cut == 3 ? 6 : -3);
+        snprintf(ref, sizeof ref, "%.*se%lld", (int)cut, edges[k], e);
+        double want = strtod(ref, NULL);
+        assert_memory_equal(&got, &want, sizeof got);
+    }
+    assert_true(checked > 100000);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -460,6 +558,7 @@ int main(void)
         cmocka_unit_test(test_lex_value_errors),
         cmocka_unit_test(test_lex_value_reads_only_its_slice),
         cmocka_unit_test(test_lex_value_long_mantissa),
+        cmocka_unit_test(test_lex_value_random_against_strtod),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -20,7 +20,7 @@ static void test_names_find_and_duplicates(void **state)
     (void)state;
     char names[][16] = {"R1", "out", "Vin", "r1", "OUT", "X1.n3"};
     table t = {names, 6};
-    tb_name_index idx = {NULL, 0};
+    tb_name_index idx = {NULL, 0, 0};
     size_t found = 0;
     assert_false(tb_names_find(&idx, name_of, &t, "R1", 2, &found)); /* empty index */
     size_t want_earlier[] = {SIZE_MAX, SIZE_MAX, SIZE_MAX, 0, 1, SIZE_MAX};
@@ -50,7 +50,7 @@ static void test_names_many(void **state)
     enum { N = 200000 };
     table t = {calloc(N, sizeof t.names[0]), N};
     assert_non_null(t.names);
-    tb_name_index idx = {NULL, 0};
+    tb_name_index idx = {NULL, 0, 0};
     for (size_t i = 0; i < N; i++) {
         size_t earlier = 0;
         snprintf(t.names[i], sizeof t.names[i], "p%zu", i);
@@ -71,6 +71,45 @@ static void test_names_many(void **state)
     free(t.names);
 }
 
+/* Finds through the recent entries agree with plain finds, for names remembered,
+ * found before, never seen and absent; more names than recent slots, so that many
+ * share a slot and a remembered entry is replaced by another of a different name. */
+static void test_names_recent(void **state)
+{
+    (void)state;
+    enum { N = 5000 };
+    table t = {calloc(N, sizeof t.names[0]), N};
+    assert_non_null(t.names);
+    tb_name_index idx = {NULL, 0, 0};
+    tb_name_recent recent = {{{0, 0}}};
+    size_t found = 0;
+    assert_false(tb_names_find_recent(&idx, &recent, name_of, &t, "n1", 2, &found)); /* empty */
+    for (size_t i = 0; i < N; i++) {
+        size_t earlier = 0;
+        snprintf(t.names[i], sizeof t.names[i], "n%zu", i);
+        assert_int_equal(tb_names_add(&idx, name_of, &t, i, &earlier), TB_OK);
+        tb_names_remember(&recent, name_of, &t, i);
+        tb_names_prefetch(&idx, t.names[i], strlen(t.names[i])); /* only a hint */
+    }
+    for (size_t pass = 0; pass < 2; pass++) {
+        for (size_t k = 0; k < N; k++) {
+            size_t i = (k * 7919) % N; /* every name, out of order */
+            char upper[16];
+            snprintf(upper, sizeof upper, "N%zu", i);
+            size_t want = SIZE_MAX;
+            assert_true(tb_names_find(&idx, name_of, &t, upper, strlen(upper), &want));
+            assert_true(tb_names_find_recent(&idx, &recent, name_of, &t, upper, strlen(upper), &found));
+            assert_int_equal(found, want);
+            assert_int_equal(found, i);
+            snprintf(upper, sizeof upper, "N%zux", i); /* absent: shares nothing but a prefix */
+            assert_false(tb_names_find_recent(&idx, &recent, name_of, &t, upper, strlen(upper), &found));
+        }
+    }
+    assert_false(tb_names_find_recent(&idx, &recent, name_of, &t, "n5000", 5, &found));
+    tb_names_free(&idx);
+    free(t.names);
+}
+
 static void test_names_equality(void **state)
 {
     (void)state;
@@ -87,6 +126,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_names_find_and_duplicates),
         cmocka_unit_test(test_names_many),
+        cmocka_unit_test(test_names_recent),
         cmocka_unit_test(test_names_equality),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
