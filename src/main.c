@@ -195,6 +195,7 @@ typedef struct {
     tb_spread_report_options spread; /* report: the spread part (--samples, --seed, --no-spread, --sens-at) */
     size_t sens_count;
     double sens_at[TB_SPREAD_REPORT_AT_MAX];
+    bool samples_given; /* --samples or --seed was given */
 } args;
 
 /* Text on stderr with every control character written \xHH (tb_report_escape), except, with
@@ -344,11 +345,13 @@ static int spread_option(int argc, char **argv, int *i, args *a, const char *usa
         if (!number_arg(v, true, &x) || x > (double)TB_SPREAD_MAX_SAMPLES)
             return usage_error("--samples needs a whole number from 0 to 100000, got", v, usage);
         a->spread.samples = (size_t)x;
+        a->samples_given = true;
     } else {
         /* at most 2^53 - 1, which every JSON reader holds exactly (as 'tbeta spread') */
         if (!number_arg(v, true, &x) || x > 9007199254740991.0)
             return usage_error("--seed needs a whole number from 0 to 9007199254740991, got", v, usage);
         a->spread.seed = (uint64_t)x;
+        a->samples_given = true;
     }
     return -1;
 }
@@ -679,6 +682,9 @@ static int run(const args *a)
         opt.progress = NULL;
         opt.progress_ctx = NULL;
         st = tb_spread_report_run(ckt, &opt, &so, diag, res);
+        if (st == TB_OK && a->samples_given && !tb_spread_report_has_spread(ckt))
+            complain("%s has no .spread card: --samples and --seed have nothing to draw (docs/spread.md)",
+                     a->netlist);
     }
     print_diags(diag);
     if (st == TB_OK)

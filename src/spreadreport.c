@@ -13,6 +13,11 @@ void tb_spread_report_options_init(tb_spread_report_options *opt)
         .run = true, .samples = TB_SPREAD_REPORT_SAMPLES, .seed = 1, .jobs = 1, .at_hz = NULL, .at_count = 0};
 }
 
+bool tb_spread_report_has_spread(const tb_circuit *ckt)
+{
+    return ckt && ckt->spread && ckt->spread->rule_count > 0;
+}
+
 /* The sensitivities at every chosen frequency into part. */
 static tb_status sensitivities_at(const tb_circuit *ckt, const tb_options *analysis,
                                   const tb_spread_report_options *opt, tb_diag *diag, tb_spread_part *part)
@@ -53,7 +58,7 @@ tb_status tb_spread_report_run(const tb_circuit *ckt, const tb_options *analysis
         if (!(opt->at_hz[k] >= 0) || !isfinite(opt->at_hz[k]))
             return TB_ERR_USAGE;
     bool scans = ckt->spread && ckt->spread->axis_count > 0;
-    bool spreads = ckt->spread && ckt->spread->rule_count > 0;
+    bool spreads = tb_spread_report_has_spread(ckt);
     if (!scans && !spreads && opt->at_count == 0)
         return TB_OK;
     tb_spread_part *part = tb_spread_part_new();

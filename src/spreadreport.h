@@ -22,6 +22,9 @@ typedef struct {
 
 void tb_spread_report_options_init(tb_spread_report_options *opt);
 
+/* true when the netlist has a .spread card (something for a Monte Carlo to draw). */
+bool tb_spread_report_has_spread(const tb_circuit *ckt);
+
 /* Runs what the netlist's cards and opt ask beyond the nominal analysis res and hands it to
  * res (tb_result_spread): the .scan table, the corners and (opt->samples > 0) the Monte Carlo
  * of the .spread cards, each on the analysis options `analysis` (census, sensitivities and

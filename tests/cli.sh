@@ -404,6 +404,8 @@ has report-seed-bad err "--seed needs a whole number from 0 to 9007199254740991,
 expect report-sens-bad 2 $tb report "$sp" --sens-at 1k,x
 has report-sens-bad err "--sens-at needs frequencies of 0 Hz (DC) or more such as 1k,2.5meg (at most 8), got 1k,x"
 expect report-sens-many 2 $tb report "$sp" --sens-at 1,2,3,4,5 --sens-at 6,7,8,9
+expect report-samples-no-card 0 $tb report netlists/ota_gain_of_2.net --samples 50
+has report-samples-no-card err "ota_gain_of_2.net has no .spread card: --samples and --seed have nothing to draw"
 expect report-samples-missing 2 $tb report "$sp" --samples
 has report-samples-missing err "--samples needs a value"
 if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/all"; then failed=$((failed + 1)); echo "FAIL spread: nan or inf in an output"
