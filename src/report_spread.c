@@ -640,7 +640,7 @@ static tb_status histogram_svg(const tb_circuit *ckt, const tb_spreadset *set, F
 bool tb_report_spread_has_svg(const tb_spreadset *set)
 {
     return set && ((set->kind == TB_SPREADSET_SCAN && set->params >= 1 && set->runs > 1) ||
-                   (set->kind == TB_SPREADSET_MONTE_CARLO && set->loops > 0));
+                   (set->kind == TB_SPREADSET_MONTE_CARLO && set->loops > 0 && set->runs > 1));
 }
 
 tb_status tb_report_spread_svg(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)

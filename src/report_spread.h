@@ -26,7 +26,7 @@ tb_status tb_report_spread_json(const tb_circuit *ckt, const tb_spreadset *set, 
 struct json_t;
 struct json_t *tb_report_spread_json_object(const tb_circuit *ckt, const tb_spreadset *set, bool whole);
 
-/* true when set has a picture: a scan of more than one run, or a Monte Carlo. */
+/* true when set has a picture: a scan or a Monte Carlo of more than one run. */
 bool tb_report_spread_has_svg(const tb_spreadset *set);
 
 /* set's picture as SVG (the scan's phase margin and unity crossing, or the histogram of the
