@@ -301,14 +301,14 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
 }
 
 /* "1k,20k" appended to list[*count], each item an engineering value as the netlist reads them;
- * false when an item is not one, is negative, is 1e15 or more, or the list grows past max. */
-static bool freq_list(const char *text, double *list, size_t *count, size_t max)
+ * false when an item is not one, is negative, is `below` or more, or the list grows past max. */
+static bool freq_list(const char *text, double *list, size_t *count, size_t max, double below)
 {
     for (const char *p = text;;) {
         const char *comma = strchr(p, ',');
         size_t len = comma ? (size_t)(comma - p) : strlen(p);
         double x = 0;
-        if (len == 0 || tb_lex_value(p, len, &x) != TB_VALUE_OK || !isfinite(x) || x < 0 || x >= 1e15 ||
+        if (len == 0 || tb_lex_value(p, len, &x) != TB_VALUE_OK || !isfinite(x) || x < 0 || x >= below ||
             *count >= max)
             return false;
         list[(*count)++] = x;
@@ -338,8 +338,8 @@ static int spread_option(int argc, char **argv, int *i, args *a, const char *usa
     const char *v = argv[++*i];
     double x = 0;
     if (strcmp(s, "--sens-at") == 0) {
-        if (!freq_list(v, a->sens_at, &a->sens_count, TB_SPREAD_REPORT_AT_MAX))
-            return usage_error("--sens-at needs frequencies of 0 Hz (DC) or more such as 1k,2.5meg (at most 8), got",
+        if (!freq_list(v, a->sens_at, &a->sens_count, TB_SPREAD_REPORT_AT_MAX, 1e15))
+            return usage_error("--sens-at needs frequencies from 0 (DC) to 1e15 Hz such as 1k,2.5meg (at most 8), got",
                                v, usage);
     } else if (strcmp(s, "--samples") == 0) {
         if (!number_arg(v, true, &x) || x > (double)TB_SPREAD_MAX_SAMPLES)
@@ -372,7 +372,7 @@ static int parse_args(int argc, char **argv, int first, args *a)
             fputs(usage, stdout);
             return EXIT_DONE;
         } else if (strcmp(s, "--at") == 0) {
-            if (i + 1 >= argc || !freq_list(argv[i + 1], a->at, &a->at_count, TB_AT_MAX))
+            if (i + 1 >= argc || !freq_list(argv[i + 1], a->at, &a->at_count, TB_AT_MAX, INFINITY))
                 return usage_error("--at needs frequencies of 0 Hz or more such as 1k,20k (at most 1000), got",
                                    i + 1 < argc ? argv[i + 1] : "nothing", usage);
             i++;

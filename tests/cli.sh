@@ -402,7 +402,7 @@ has report-samples-bad err "--samples needs a whole number from 0 to 100000, got
 expect report-seed-bad 2 $tb report "$sp" --seed 9007199254740992
 has report-seed-bad err "--seed needs a whole number from 0 to 9007199254740991, got 9007199254740992"
 expect report-sens-bad 2 $tb report "$sp" --sens-at 1k,x
-has report-sens-bad err "--sens-at needs frequencies of 0 Hz (DC) or more such as 1k,2.5meg (at most 8), got 1k,x"
+has report-sens-bad err "--sens-at needs frequencies from 0 (DC) to 1e15 Hz such as 1k,2.5meg (at most 8), got 1k,x"
 expect report-sens-many 2 $tb report "$sp" --sens-at 1,2,3,4,5 --sens-at 6,7,8,9
 expect report-samples-no-card 0 $tb report netlists/ota_gain_of_2.net --samples 50
 has report-samples-no-card err "ota_gain_of_2.net has no .spread card: --samples and --seed have nothing to draw"
