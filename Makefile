@@ -133,7 +133,7 @@ fuzz: $(BUILD)/tbeta
 	$(FUZZ_CC) $(FUZZ_FLAGS) $(CPPFLAGS) $(LIB_SRC) tests/fuzz/fuzz_netlist.c $(LDLIBS) -o build/fuzz/fuzz_netlist
 	$(FUZZ_CC) $(FUZZ_FLAGS) $(CPPFLAGS) $(LIB_SRC) $(RUNNER_SRC) tests/fuzz/fuzz_runner.c $(LDLIBS) \
 	    -o build/fuzz/fuzz_runner
-	cp netlists/*.net netlists/devices/*.net tests/device/*.net tests/bad/*.net tests/ref/*.net tests/fb/*.net tests/dist/*.net build/fuzz/corpus/ 2>/dev/null || true
+	cp netlists/*.net netlists/devices/*.net tests/device/*.net tests/bad/*.net tests/ref/*.net tests/fb/*.net tests/dist/*.net tests/spread/*.net docs/examples/spread_*.net build/fuzz/corpus/ 2>/dev/null || true
 	cd build/fuzz && for lib in ../../tests/check ../../netlists; do n=$$(basename $$lib); \
 	    ../../$(BUILD)/tbeta check $$lib --save corpus-runner/$$n-save.json --json corpus-runner/$$n.json \
 	    >/dev/null 2>&1; ../../$(BUILD)/tbeta check $$lib --shard 1/2 --json corpus-runner/$$n-shard.json \

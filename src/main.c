@@ -14,6 +14,7 @@
 #include "progress.h" /* the progress line on a terminal */
 #include "report.h"   /* tb_report_escape and how odd bytes read */
 #include "spreadcli.h" /* tbeta spread */
+#include "spreadreport.h" /* the spread part of tbeta report */
 
 /* Exit codes, one table: 0 done; 1 done but an expectation or threshold
  * failed (used by later subcommands); 2 usage error, unreadable or malformed
@@ -42,6 +43,7 @@ static const struct {
     {"check", "--against"}, {"check", "--drift"}, {"check", "--json"}, {"check", "--junit"}, {"check", "--html"},
     {"check", "--html-reports"}, {"check", "--output"}, {"check", "--merge"}, {"check", "--include-root"}, {"check", "--include-anywhere"},
     {"check", "--pole-limit"}, {"check", "--no-stability"}, {"check", "--no-rhp-count"},
+    {"report", "--no-spread"}, {"report", "--samples"}, {"report", "--seed"}, {"report", "--sens-at"},
 };
 
 /* true when command accepts option (-h is --help everywhere). */
@@ -83,6 +85,7 @@ static const char usage_report[] =
     "                            [--pm-min DEG] [--gm-min DB] [--strict]\n"
     "                            [--pole-limit N] [--no-stability] [--all-sources] [--sensitivities]\n"
     "                            [--jobs N] [--include-root DIR] [--no-rhp-count]\n"
+    "                            [--samples N] [--seed S] [--no-spread] [--sens-at F1,F2,...]\n"
     "  Prints, for every .loop: T, a, beta = 1/A_inf, A_inf, A0 and A at DC, the gain\n"
     "  error (A - A_inf)/A_inf, the unity-loop-gain frequency, the phase margin and\n"
     "  the closed-loop -3 dB frequency; then the stability figures: every crossing of\n"
@@ -115,7 +118,15 @@ static const char usage_report[] =
     "                    method), ranked by their effect on the phase margin\n"
     "  --include-root DIR  .include only files inside DIR (default: anywhere)\n"
     "  --jobs N          threads sharing the sweep's frequency points (default: the number\n"
-    "                    of cores); the output is the same for any N\n";
+    "                    of cores); the output is the same for any N\n"
+    "  With .scan or .spread cards (docs/spread.md) the report also has the spread part: the\n"
+    "  scan table, the corners (the worst case of each figure and the corner behind it) and a\n"
+    "  Monte Carlo (statistics, yield, desensitivity); 'tbeta spread' gives every run.\n"
+    "  --samples N       Monte Carlo samples (default 100; 0: none), 100000 at most\n"
+    "  --seed S          Monte Carlo seed (default 1): the same samples as 'tbeta spread --seed S'\n"
+    "  --no-spread       leave the spread part out (the cards are not run: a quicker report)\n"
+    "  --sens-at F1,...  also the sensitivities of |T|, its phase, |A| and |A_inf| to every\n"
+    "                    element at these frequencies (Hz, 0 for DC; at most 8), ranked\n";
 
 static const char usage_plot[] =
     "usage: tbeta plot NETLIST --svg DIR [--pole-limit N] [--no-stability] [--all-sources]\n"
@@ -181,6 +192,10 @@ typedef struct {
     const char *output; /* --output FILE (NULL or "-": stdout) */
     size_t at_count;    /* report --at: the chosen frequencies */
     double at[TB_AT_MAX];
+    tb_spread_report_options spread; /* report: the spread part (--samples, --seed, --no-spread, --sens-at) */
+    size_t sens_count;
+    double sens_at[TB_SPREAD_REPORT_AT_MAX];
+    bool samples_given; /* --samples or --seed was given */
 } args;
 
 /* Text on stderr with every control character written \xHH (tb_report_escape), except, with
@@ -285,22 +300,60 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
     return -1;
 }
 
-/* "1k,20k" appended to a->at, each item an engineering value as the netlist reads them; false
- * when an item is not one, is negative, or the list grows past TB_AT_MAX. */
-static bool at_arg(const char *text, args *a)
+/* "1k,20k" appended to list[*count], each item an engineering value as the netlist reads them;
+ * false when an item is not one, is negative, is `below` or more, or the list grows past max. */
+static bool freq_list(const char *text, double *list, size_t *count, size_t max, double below)
 {
     for (const char *p = text;;) {
         const char *comma = strchr(p, ',');
         size_t len = comma ? (size_t)(comma - p) : strlen(p);
         double x = 0;
-        if (len == 0 || tb_lex_value(p, len, &x) != TB_VALUE_OK || !isfinite(x) || x < 0 ||
-            a->at_count >= TB_AT_MAX)
+        if (len == 0 || tb_lex_value(p, len, &x) != TB_VALUE_OK || !isfinite(x) || x < 0 || x >= below ||
+            *count >= max)
             return false;
-        a->at[a->at_count++] = x;
+        list[(*count)++] = x;
         if (!comma)
             return true;
         p = comma + 1;
     }
+}
+
+static bool is_spread_option(const char *s)
+{
+    return strcmp(s, "--no-spread") == 0 || strcmp(s, "--samples") == 0 || strcmp(s, "--seed") == 0 ||
+           strcmp(s, "--sens-at") == 0;
+}
+
+/* One option of the report's spread part at argv[*i] (and its value); -1 when accepted, or an
+ * exit code. */
+static int spread_option(int argc, char **argv, int *i, args *a, const char *usage)
+{
+    const char *s = argv[*i];
+    if (strcmp(s, "--no-spread") == 0) {
+        a->spread.run = false;
+        return -1;
+    }
+    if (*i + 1 >= argc)
+        return usage_error(s, "needs a value", usage);
+    const char *v = argv[++*i];
+    double x = 0;
+    if (strcmp(s, "--sens-at") == 0) {
+        if (!freq_list(v, a->sens_at, &a->sens_count, TB_SPREAD_REPORT_AT_MAX, 1e15))
+            return usage_error("--sens-at needs frequencies from 0 (DC) to 1e15 Hz such as 1k,2.5meg (at most 8), got",
+                               v, usage);
+    } else if (strcmp(s, "--samples") == 0) {
+        if (!number_arg(v, true, &x) || x > (double)TB_SPREAD_MAX_SAMPLES)
+            return usage_error("--samples needs a whole number from 0 to 100000, got", v, usage);
+        a->spread.samples = (size_t)x;
+        a->samples_given = true;
+    } else {
+        /* at most 2^53 - 1, which every JSON reader holds exactly (as 'tbeta spread') */
+        if (!number_arg(v, true, &x) || x > 9007199254740991.0)
+            return usage_error("--seed needs a whole number from 0 to 9007199254740991, got", v, usage);
+        a->spread.seed = (uint64_t)x;
+        a->samples_given = true;
+    }
+    return -1;
 }
 
 /* Parses argv from index `first`; returns -1 when done, or an exit code. */
@@ -319,10 +372,14 @@ static int parse_args(int argc, char **argv, int first, args *a)
             fputs(usage, stdout);
             return EXIT_DONE;
         } else if (strcmp(s, "--at") == 0) {
-            if (i + 1 >= argc || !at_arg(argv[i + 1], a))
+            if (i + 1 >= argc || !freq_list(argv[i + 1], a->at, &a->at_count, TB_AT_MAX, INFINITY))
                 return usage_error("--at needs frequencies of 0 Hz or more such as 1k,20k (at most 1000), got",
                                    i + 1 < argc ? argv[i + 1] : "nothing", usage);
             i++;
+        } else if (strcmp(a->command, "report") == 0 && is_spread_option(s)) {
+            int rc = spread_option(argc, argv, &i, a, usage);
+            if (rc >= 0)
+                return rc;
         } else if (strcmp(s, "--output") == 0) {
             if (i + 1 >= argc)
                 return usage_error("--output needs a file name (- for stdout)", NULL, usage);
@@ -374,6 +431,8 @@ static int parse_args(int argc, char **argv, int first, args *a)
         return usage_error("no netlist given", NULL, usage);
     a->opt.at_hz = a->at_count ? a->at : NULL;
     a->opt.at_count = a->at_count;
+    a->spread.at_hz = a->sens_count ? a->sens_at : NULL;
+    a->spread.at_count = a->sens_count;
     if (strcmp(a->command, "plot") == 0 && !a->svg)
         return usage_error("plot needs --svg DIR", NULL, usage);
     return -1;
@@ -617,6 +676,16 @@ static int run(const args *a)
     if (st == TB_OK)
         st = tb_analyse(ckt, &opt, diag, &res);
     tb_progress_free(progress);
+    if (st == TB_OK && strcmp(a->command, "report") == 0) {
+        tb_spread_report_options so = a->spread;
+        so.jobs = opt.jobs;
+        opt.progress = NULL;
+        opt.progress_ctx = NULL;
+        st = tb_spread_report_run(ckt, &opt, &so, diag, res);
+        if (st == TB_OK && a->samples_given && !tb_spread_report_has_spread(ckt))
+            complain("%s has no .spread card: --samples and --seed have nothing to draw (docs/spread.md)",
+                     a->netlist);
+    }
     print_diags(diag);
     if (st == TB_OK)
         st = write_output(a, ckt, res);
@@ -920,6 +989,7 @@ static int command(int argc, char **argv)
     }
     args a = {.command = "report"};
     tb_options_init(&a.opt);
+    tb_spread_report_options_init(&a.spread);
     a.opt.stability = strcmp(argv[1], "sweep") != 0; /* the sweep table needs none of it */
     a.opt.closed_loop = a.opt.stability;
     a.opt.jobs = 0; /* one thread per core unless --jobs says otherwise */

@@ -1,9 +1,12 @@
 /* src/report_common.c: words shared by the text and JSON writers, and how they read odd bytes */
 #include "report.h"
 
+#include <jansson.h>
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
+
+#include "alloc.h"
 
 const char *const tb_report_caution =
     "tbeta is a small-signal, linear analysis of the netlist as written: its figures do not "
@@ -250,4 +253,23 @@ const char *tb_report_escape(const char *s, char *buf, size_t size)
     }
     buf[used] = '\0';
     return buf;
+}
+
+json_t *tb_report_json_text(const char *s)
+{
+    json_t *str = json_string(s);
+    if (str || !s)
+        return str;
+    /* not UTF-8 (or out of memory): each odd byte becomes the character of its value */
+    size_t len = strlen(s);
+    char *clean = tb_malloc(len + 1, 2); /* a stray byte takes two bytes in UTF-8 */
+    if (!clean)
+        return NULL;
+    size_t used = 0;
+    uint32_t cp = 0;
+    for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n)
+        used += tb_report_utf8(cp, clean + used);
+    str = json_stringn(clean, used);
+    tb_free(clean);
+    return str;
 }

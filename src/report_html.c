@@ -6,6 +6,7 @@
 #include "plot.h"
 #include "report.h"
 #include "report_distortion.h"
+#include "report_spreadpart.h"
 #include "units.h"
 
 static const char style_sheet[] =
@@ -359,6 +360,8 @@ tb_status tb_report_html(const tb_circuit *ckt, const tb_result *res, FILE *out)
     }
     tb_status dst = tb_report_distortion_html(ckt, res, out);
     if (dst)
+        return dst;
+    if ((dst = tb_report_spreadpart_html(ckt, res, out)))
         return dst;
     fputs("<h2>Caution</h2>\n<p class=\"caution\">", out);
     text(out, tb_report_caution);

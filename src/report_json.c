@@ -3,34 +3,15 @@
 #include <math.h>
 #include <string.h>
 
-#include "alloc.h"
 #include "units.h"
 #include "report.h"
 #include "report_distortion.h"
+#include "report_spreadpart.h"
 
 /* Builds a document while remembering whether any allocation failed. */
 typedef struct {
     bool ok;
 } builder;
-
-json_t *tb_report_json_text(const char *s)
-{
-    json_t *str = json_string(s);
-    if (str || !s)
-        return str;
-    /* not UTF-8 (or out of memory): each odd byte becomes the character of its value */
-    size_t len = strlen(s);
-    char *clean = tb_malloc(len + 1, 2); /* a stray byte takes two bytes in UTF-8 */
-    if (!clean)
-        return NULL;
-    size_t used = 0;
-    uint32_t cp = 0;
-    for (size_t n; (n = tb_report_char(s, &cp)) != 0; s += n)
-        used += tb_report_utf8(cp, clean + used);
-    str = json_stringn(clean, used);
-    tb_free(clean);
-    return str;
-}
 
 static json_t *num(double x)
 {
@@ -809,6 +790,8 @@ static json_t *document(builder *b, const tb_circuit *ckt, const tb_result *res)
         set(b, root, "distortion", tb_report_distortion_json(ckt, res, tb_report_json_text));
     if (tb_spot_count(res) > 0)
         set(b, root, "at", spot_array(b, ckt, res));
+    if (!tb_report_spreadpart_json(ckt, res, root))
+        b->ok = false;
     set(b, root, "caution", json_string(tb_report_caution));
     return root;
 }

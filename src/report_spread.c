@@ -152,10 +152,24 @@ static void scan_text(const tb_circuit *ckt, const tb_spreadset *set, size_t l, 
     (void)ckt;
 }
 
+/* Which end of figure i is its worst case over the runs (by the figure table's direction): -1 the
+ * lowest, +1 the highest, 0 neither (a gain or a frequency, worse either way). */
+static int worse_end(size_t i, const tb_spread_stats *s)
+{
+    tb_worse w = tb_figure_at((size_t)tb_spreadset_figure(i))->worse;
+    if (w == TB_WORSE_LOWER)
+        return -1;
+    if (w == TB_WORSE_HIGHER)
+        return 1;
+    if (w == TB_WORSE_FARTHER)
+        return fabs(s->min) > fabs(s->max) ? -1 : 1;
+    return 0;
+}
+
 static tb_status corner_text(const tb_spreadset *set, size_t l, FILE *out)
 {
     char a[64], b[64], c[64];
-    fprintf(out, "  %-10s %-12s %-22s %-22s\n", "figure", "nominal", "lowest (run)", "highest (run)");
+    fprintf(out, "  %-10s %-12s %-22s %-22s %s\n", "figure", "nominal", "lowest (run)", "highest (run)", "worst");
     bool used[TB_SPREAD_FIGURES * 2] = {false};
     size_t which[TB_SPREAD_FIGURES * 2] = {0};
     for (size_t i = 0; i + 1 < TB_SPREAD_FIGURES; i++) {
@@ -173,8 +187,9 @@ static tb_status corner_text(const tb_spreadset *set, size_t l, FILE *out)
             which[2 * i] = s.min_run;
             which[2 * i + 1] = s.max_run;
         }
-        fprintf(out, "  %-10s %-12s %-22s %-22s%s\n", heads[i], cell(i, nom, c, sizeof c), lo, hi,
-                s.present < set->runs ? "  (absent in some runs)" : "");
+        int end = s.present ? worse_end(i, &s) : 0;
+        fprintf(out, "  %-10s %-12s %-22s %-22s %s%s\n", heads[i], cell(i, nom, c, sizeof c), lo, hi,
+                end < 0 ? "lowest" : end > 0 ? "highest" : "--", s.present < set->runs ? "  (absent in some runs)" : "");
     }
     verdict_counts(set, l, out);
     fputs("  the runs named above:\n", out);
@@ -236,12 +251,11 @@ static tb_status monte_carlo_text(const tb_spreadset *set, size_t l, FILE *out)
     return TB_OK;
 }
 
-tb_status tb_report_spread_text(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+tb_status tb_report_spread_body(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
 {
     if (!ckt || !set || !out)
         return TB_ERR_USAGE;
     char name[512];
-    fprintf(out, "tbeta %s: spread of %s\n", TB_VERSION, tb_report_escape(ckt->file, name, sizeof name));
     kind_line(set, out);
     tb_status st = TB_OK;
     for (size_t l = 0; l < set->loops && !st; l++) {
@@ -253,6 +267,18 @@ tb_status tb_report_spread_text(const tb_circuit *ckt, const tb_spreadset *set, 
         else
             st = monte_carlo_text(set, l, out);
     }
+    if (st)
+        return st;
+    return ferror(out) ? TB_ERR_IO : TB_OK;
+}
+
+tb_status tb_report_spread_text(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+{
+    if (!ckt || !set || !out)
+        return TB_ERR_USAGE;
+    char name[512];
+    fprintf(out, "tbeta %s: spread of %s\n", TB_VERSION, tb_report_escape(ckt->file, name, sizeof name));
+    tb_status st = tb_report_spread_body(ckt, set, out);
     fprintf(out, "\ncaution: %s\n", tb_report_caution);
     if (st)
         return st;
@@ -364,6 +390,9 @@ static json_t *stats_json(const tb_spreadset *set, size_t l, bool *nomem)
                  put(o, "max_run", json_integer((json_int_t)s.max_run)) && put(o, "p1", num(s.p[0])) &&
                  put(o, "p5", num(s.p[1])) && put(o, "p50", num(s.p[2])) && put(o, "p95", num(s.p[3])) &&
                  put(o, "p99", num(s.p[4]));
+            int end = worse_end(i, &s);
+            ok = ok && put(o, "worst", end ? num(end < 0 ? s.min : s.max) : json_null()) &&
+                 put(o, "worst_run", end ? json_integer((json_int_t)(end < 0 ? s.min_run : s.max_run)) : json_null());
         }
         json_t *corr = ok && set->kind == TB_SPREADSET_MONTE_CARLO ? json_object() : NULL;
         if (corr)
@@ -407,15 +436,17 @@ static json_t *desens_json(const tb_spreadset *set, size_t l)
 static const char *const kind_words[] = {[TB_SPREADSET_SCAN] = "scan", [TB_SPREADSET_CORNERS] = "corners",
                                          [TB_SPREADSET_MONTE_CARLO] = "monte_carlo"};
 
-static json_t *spread_json(const tb_circuit *ckt, const tb_spreadset *set)
+struct json_t *tb_report_spread_json_object(const tb_circuit *ckt, const tb_spreadset *set, bool whole)
 {
     size_t analysed = 0;
     size_t pass = tb_spreadset_passed(set, &analysed);
     json_t *root = json_object();
     json_t *runs = json_array();
     json_t *stats = json_object();
-    bool ok = root && runs && stats && put(root, "tbeta", json_string(TB_VERSION)) &&
-              put(root, "netlist", tb_report_json_text(ckt->file)) && put(root, "kind", json_string(kind_words[set->kind])) &&
+    bool ok = root && runs && stats &&
+              (!whole || (put(root, "tbeta", json_string(TB_VERSION)) &&
+                          put(root, "netlist", tb_report_json_text(ckt->file)))) &&
+              put(root, "kind", json_string(kind_words[set->kind])) &&
               put(root, "dimensions", json_integer((json_int_t)set->dimensions)) &&
               put(root, "passed", json_integer((json_int_t)pass)) &&
               put(root, "analysed", json_integer((json_int_t)analysed));
@@ -423,7 +454,8 @@ static json_t *spread_json(const tb_circuit *ckt, const tb_spreadset *set)
         double lo = 0, hi = 0;
         if (analysed)
             tb_spread_wilson(pass, analysed, &lo, &hi);
-        ok = put(root, "seed", json_integer((json_int_t)set->seed)) &&
+        ok = put(root, "samples", json_integer((json_int_t)set->runs)) &&
+             put(root, "seed", json_integer((json_int_t)set->seed)) &&
              put(root, "yield", analysed ? num((double)pass / (double)analysed) : json_null()) &&
              put(root, "yield_interval_95", analysed ? json_pack("[ff]", lo, hi) : json_null()) &&
              put(root, "open_loop_rhp_from_nominal", nominal_counts_json(set));
@@ -440,7 +472,7 @@ static json_t *spread_json(const tb_circuit *ckt, const tb_spreadset *set)
             ok = put(one, "desensitivity", desens_json(set, l));
     }
     ok = ok && put(root, "runs", json_incref(runs)) && put(root, "statistics", json_incref(stats)) &&
-         put(root, "caution", json_string(tb_report_caution));
+         (!whole || put(root, "caution", json_string(tb_report_caution)));
     json_decref(runs);
     json_decref(stats);
     if (!ok) {
@@ -454,7 +486,7 @@ tb_status tb_report_spread_json(const tb_circuit *ckt, const tb_spreadset *set, 
 {
     if (!ckt || !set || !out)
         return TB_ERR_USAGE;
-    json_t *root = spread_json(ckt, set);
+    json_t *root = tb_report_spread_json_object(ckt, set, true);
     if (!root)
         return TB_ERR_NOMEM;
     int rc = json_dumpf(root, out, JSON_INDENT(2) | JSON_REAL_PRECISION(17) | JSON_PRESERVE_ORDER);
@@ -624,6 +656,21 @@ static tb_status histogram_svg(const tb_circuit *ckt, const tb_spreadset *set, F
     return tb_plot_end(&pic) ? TB_OK : TB_ERR_IO;
 }
 
+bool tb_report_spread_has_svg(const tb_spreadset *set)
+{
+    return set && ((set->kind == TB_SPREADSET_SCAN && set->params >= 1 && set->runs > 1) ||
+                   (set->kind == TB_SPREADSET_MONTE_CARLO && set->loops > 0 && set->runs > 1));
+}
+
+tb_status tb_report_spread_svg(const tb_circuit *ckt, const tb_spreadset *set, FILE *out)
+{
+    if (!ckt || !set || !out)
+        return TB_ERR_USAGE;
+    if (!tb_report_spread_has_svg(set))
+        return TB_OK;
+    return set->kind == TB_SPREADSET_SCAN ? scan_svg(ckt, set, out) : histogram_svg(ckt, set, out);
+}
+
 static void html_escape(FILE *out, const char *s)
 {
     for (; *s; s++) {
@@ -662,13 +709,9 @@ tb_status tb_report_spread_html(const tb_circuit *ckt, const tb_spreadset *set, 
           "</head><body>\n<h1>Spread of ", out);
     html_escape(out, file);
     fputs("</h1>\n", out);
-    if (set->kind == TB_SPREADSET_SCAN && set->params >= 1 && set->runs > 1) {
+    if (tb_report_spread_has_svg(set)) {
         fputs("<figure>\n", out);
-        st = scan_svg(ckt, set, out);
-        fputs("</figure>\n", out);
-    } else if (set->kind == TB_SPREADSET_MONTE_CARLO && set->loops > 0) {
-        fputs("<figure>\n", out);
-        st = histogram_svg(ckt, set, out);
+        st = tb_report_spread_svg(ckt, set, out);
         fputs("</figure>\n", out);
     }
     fputs("<pre>", out);
@@ -714,35 +757,49 @@ static void ranked(FILE *out, const tb_sens_entry *e, const size_t idx[3], bool 
                 phase ? e[idx[k]].T_phase_deg : e[idx[k]].T_mag, phase ? "deg/%" : "%/%");
 }
 
-tb_status tb_report_sensitivities_at_text(const tb_circuit *ckt, double f, const tb_sens_entry *entries, size_t per,
+/* "at 1.4MHz |T| is set by G2 (+1 %/%), E1 (+1 %/%) and G1 (+1 %/%);\n  its phase by ..." for one
+ * loop's ranked entries (indent before each line). */
+static void sens_sentence(FILE *out, const char *at, const tb_sens_entry *e, size_t per, const char *indent)
+{
+    if (per == 0) {
+        fprintf(out, "%sno element has a value to vary\n", indent);
+        return;
+    }
+    size_t mag[3] = {SIZE_MAX, SIZE_MAX, SIZE_MAX}, ph[3];
+    for (size_t k = 0; k < 3 && k < per; k++)
+        mag[k] = e[k].has_T ? k : SIZE_MAX;
+    top_phase(e, per, ph);
+    if (mag[0] == SIZE_MAX) {
+        fprintf(out, "%sT is zero or infinite there: no sensitivities of T\n", indent);
+        return;
+    }
+    fprintf(out, "%sat %s |T| is set by ", indent, at);
+    ranked(out, e, mag, false);
+    if (ph[0] != SIZE_MAX && fabs(e[ph[0]].T_phase_deg) > 1e-9) {
+        fprintf(out, ";\n%sits phase by ", indent);
+        ranked(out, e, ph, true);
+        fputs("\n", out);
+    } else {
+        fputs("; no element moves its phase\n", out);
+    }
+}
+
+static const char *where(double f, char *buf, size_t size)
+{
+    return f == 0 ? "DC" : tb_plot_eng(f, "Hz", buf, size);
+}
+
+tb_status tb_report_sensitivities_at_body(const tb_circuit *ckt, double f, const tb_sens_entry *entries, size_t per,
                                           FILE *out)
 {
     if (!ckt || !out || (per > 0 && !entries))
         return TB_ERR_USAGE;
     char hz[32], name[512], v[32];
-    const char *at = f == 0 ? "DC" : tb_plot_eng(f, "Hz", hz, sizeof hz);
-    fprintf(out, "tbeta %s: sensitivities of %s at %s (adjoint; per 1 %% increase of each element)\n", TB_VERSION,
-            tb_report_escape(ckt->file, name, sizeof name), at);
+    const char *at = where(f, hz, sizeof hz);
     for (size_t l = 0; l < ckt->loop_count; l++) {
         const tb_sens_entry *e = entries + l * per;
         fprintf(out, "\nloop at %s\n", tb_report_escape(tb_circuit_loop_name(ckt, l), name, sizeof name));
-        size_t mag[3] = {SIZE_MAX, SIZE_MAX, SIZE_MAX}, ph[3];
-        for (size_t k = 0; k < 3 && k < per; k++)
-            mag[k] = e[k].has_T ? k : SIZE_MAX;
-        top_phase(e, per, ph);
-        if (mag[0] != SIZE_MAX) {
-            fprintf(out, "  at %s |T| is set by ", at);
-            ranked(out, e, mag, false);
-            if (ph[0] != SIZE_MAX && fabs(e[ph[0]].T_phase_deg) > 1e-9) {
-                fputs(";\n  its phase by ", out);
-                ranked(out, e, ph, true);
-                fputs("\n", out);
-            } else {
-                fputs("; no element moves its phase\n", out);
-            }
-        } else {
-            fputs("  T is zero or infinite there: no sensitivities of T\n", out);
-        }
+        sens_sentence(out, at, e, per, "  ");
         fprintf(out, "  %-14s %-11s %-11s %-12s %-11s %-11s\n", "element", "value", "|T| %/%", "phase deg/%",
                 "|A| %/%", "|A_inf| %/%");
         for (size_t i = 0; i < per; i++) {
@@ -759,6 +816,97 @@ tb_status tb_report_sensitivities_at_text(const tb_circuit *ckt, double f, const
                     tb_plot_eng(e[i].value, "", v, sizeof v), a, b, c, d);
         }
     }
-    fprintf(out, "\ncaution: %s\n", tb_report_caution);
     return ferror(out) ? TB_ERR_IO : TB_OK;
+}
+
+tb_status tb_report_sensitivities_at_text(const tb_circuit *ckt, double f, const tb_sens_entry *entries, size_t per,
+                                          FILE *out)
+{
+    if (!ckt || !out || (per > 0 && !entries))
+        return TB_ERR_USAGE;
+    char hz[32], name[512];
+    fprintf(out, "tbeta %s: sensitivities of %s at %s (adjoint; per 1 %% increase of each element)\n", TB_VERSION,
+            tb_report_escape(ckt->file, name, sizeof name), where(f, hz, sizeof hz));
+    tb_status st = tb_report_sensitivities_at_body(ckt, f, entries, per, out);
+    fprintf(out, "\ncaution: %s\n", tb_report_caution);
+    return st ? st : ferror(out) ? TB_ERR_IO : TB_OK;
+}
+
+void tb_report_sensitivities_at_sentence(double f, const tb_sens_entry *entries, size_t per, FILE *out)
+{
+    char hz[32];
+    if (out && (per == 0 || entries))
+        sens_sentence(out, where(f, hz, sizeof hz), entries, per, "");
+}
+
+/* The names of entries idx (SIZE_MAX ends them) as a JSON array. */
+static json_t *names_json(const tb_sens_entry *e, const size_t idx[3])
+{
+    json_t *arr = json_array();
+    for (size_t k = 0; arr && k < 3 && idx[k] != SIZE_MAX; k++)
+        if (json_array_append_new(arr, tb_report_json_text(e[idx[k]].element)) != 0) {
+            json_decref(arr);
+            return NULL;
+        }
+    return arr;
+}
+
+/* One loop's sensitivities at f: the sentence, the three names that set |T| and its phase, every entry. */
+static json_t *sens_loop_json(double f, const tb_sens_entry *e, size_t per)
+{
+    char hz[32], *text = NULL;
+    size_t len = 0;
+    FILE *mem = open_memstream(&text, &len);
+    if (!mem)
+        return NULL;
+    sens_sentence(mem, where(f, hz, sizeof hz), e, per, "");
+    bool ok = fclose(mem) == 0;
+    for (size_t i = 0; ok && i < len; i++)
+        text[i] = text[i] == '\n' ? ' ' : text[i];
+    while (ok && len > 0 && text[len - 1] == ' ')
+        text[--len] = '\0';
+    size_t mag[3] = {SIZE_MAX, SIZE_MAX, SIZE_MAX}, ph[3];
+    for (size_t k = 0; k < 3 && k < per; k++)
+        mag[k] = e[k].has_T ? k : SIZE_MAX;
+    top_phase(e, per, ph);
+    if (ph[0] != SIZE_MAX && !(fabs(e[ph[0]].T_phase_deg) > 1e-9))
+        ph[0] = SIZE_MAX;
+    json_t *o = json_object();
+    json_t *arr = json_array();
+    ok = ok && o && arr && put(o, "summary", json_string(text)) && put(o, "T_mag_set_by", names_json(e, mag)) &&
+         put(o, "T_phase_set_by", names_json(e, ph));
+    free(text);
+    for (size_t i = 0; ok && i < per; i++) {
+        json_t *x = json_object();
+        ok = x && json_array_append_new(arr, x) == 0 && put(x, "element", tb_report_json_text(e[i].element)) &&
+             put(x, "value", num(e[i].value)) && put(x, "T_mag", e[i].has_T ? num(e[i].T_mag) : json_null()) &&
+             put(x, "T_phase_deg_per_pct", e[i].has_T ? num(e[i].T_phase_deg) : json_null()) &&
+             put(x, "A_mag", e[i].has_A ? num(e[i].A_mag) : json_null()) &&
+             put(x, "A_inf_mag", e[i].has_A_inf ? num(e[i].A_inf_mag) : json_null());
+    }
+    ok = ok && put(o, "elements", json_incref(arr));
+    json_decref(arr);
+    if (!ok) {
+        json_decref(o);
+        return NULL;
+    }
+    return o;
+}
+
+struct json_t *tb_report_sensitivities_at_json(const tb_circuit *ckt, double f, const tb_sens_entry *entries,
+                                               size_t per)
+{
+    if (!ckt || (per > 0 && !entries))
+        return NULL;
+    json_t *o = json_object();
+    json_t *loops = json_object();
+    bool ok = o && loops && put(o, "hz", num(f)) && put(o, "loops", json_incref(loops));
+    for (size_t l = 0; ok && l < ckt->loop_count; l++)
+        ok = put(loops, tb_circuit_loop_name(ckt, l), sens_loop_json(f, entries + l * per, per));
+    json_decref(loops);
+    if (!ok) {
+        json_decref(o);
+        return NULL;
+    }
+    return o;
 }

@@ -6,6 +6,7 @@
 #include "units.h"
 #include "report.h"
 #include "report_distortion.h"
+#include "report_spreadpart.h"
 
 /* A frequency with an SI prefix: "1.2346 MHz". */
 static const char *fmt_hz(double f, char *buf, size_t size)
@@ -739,6 +740,9 @@ tb_status tb_report_text(const tb_circuit *ckt, const tb_result *res, FILE *out)
     if (tb_result_has_census(res))
         census_block(out, res);
     tb_report_distortion_text(ckt, res, out);
+    tb_status sst = tb_report_spreadpart_text(ckt, res, out);
+    if (sst)
+        return sst;
     fprintf(out, "\ncaution: %s\n", tb_report_caution);
     return ferror(out) ? TB_ERR_IO : TB_OK;
 }

@@ -84,6 +84,8 @@ void tb_result_free(tb_result *res)
     zp_free(res->zp);
     wb_free(res->wb);
     dist_free(res->dist);
+    if (res->spread && res->spread_free)
+        res->spread_free(res->spread);
     tb_free(res->ftype);
     tb_free(res->mid);
     tb_free(res->sens);
@@ -331,4 +333,9 @@ tb_status tb_spot_get(const tb_result *res, size_t i, size_t l, tb_spot *out)
     out->ports = sd->ports;
     out->zports = sd->ports ? sd->zp + (i * sd->loops + l) * sd->ports : NULL;
     return TB_OK;
+}
+
+const struct tb_spread_part *tb_result_spread(const tb_result *res)
+{
+    return res ? res->spread : NULL;
 }

@@ -74,6 +74,9 @@ struct tb_result {
     tb_point *mid;           /* nloops: every loop at cl.ref_hz when AC-coupled, else NULL */
     tb_dist_data *dist;      /* .volterra distortion, or NULL (distortion.c) */
     tb_spot_data *spot;      /* figures at chosen frequencies (spot.c), or NULL */
+    struct tb_spread_part *spread; /* the report's spread part (spreadreport.c), or NULL */
+    void (*spread_free)(struct tb_spread_part *); /* frees spread: set with it by its owner, so that
+                                                   * the result names no module above it */
 };
 
 /* A result for npoints frequencies and nloops loops, freqs and the point table
@@ -94,5 +97,8 @@ bool tb_result_has_dc(const tb_result *res);
 bool tb_result_has_io(const tb_result *res);
 bool tb_result_has_stability(const tb_result *res);
 bool tb_result_has_census(const tb_result *res);
+
+/* The spread part of a report (src/spreadpart.h), or NULL when none ran. */
+const struct tb_spread_part *tb_result_spread(const tb_result *res);
 
 #endif

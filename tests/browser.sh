@@ -1,7 +1,8 @@
 #!/bin/sh
 # tests/browser.sh: the HTML review page and the SVG pictures as a reader gets them. For every
-# demo netlist: `tbeta report NET --html` and `tbeta plot NET --svg DIR`; every SVG and every
-# page must be well-formed XML (xmllint); each page is rendered by headless Chromium to a PNG,
+# demo netlist and spread demo (whose pages carry the spread part): `tbeta report NET --html` and
+# `tbeta plot NET --svg DIR`; every SVG and every page must be well-formed XML (xmllint); each
+# page is rendered by headless Chromium to a PNG,
 # which must have the expected width and be far from blank (tests/png_check.py), with no
 # console error. The same for the library summary page of `tbeta check --html --html-reports`.
 # Usage: sh tests/browser.sh BUILD [WRAPPER]
@@ -17,7 +18,7 @@ pages=0
 say() { echo "browser: FAIL $*"; fail=1; }
 browser=$(command -v chromium || command -v chromium-browser)
 [ -n "$browser" ] || { echo "browser: FAIL no chromium (scripts/deps.sh installs it)"; exit 1; }
-for net in netlists/*.net tests/fb/*.net; do
+for net in netlists/*.net tests/fb/*.net docs/examples/spread_*.net; do
     base=$(basename "$net" .net)
     "$tbeta" report "$net" --html "$tmp/$base.html" >/dev/null 2>&1
     rc=$?

@@ -368,6 +368,46 @@ has spread-check out "pass   $sp (4 expectations)"
 sed 's/corners.phase_margin_deg >= 20/corners.phase_margin_deg >= 25/' "$sp" >"$tmp/spread_fail.net"
 expect spread-check-fail 1 $tb check "$tmp/spread_fail.net"
 has spread-check-fail out "G1.corners.phase_margin_deg is 21.4313 deg, expected >= 25 deg"
+# tbeta report carries the spread part of a netlist with .scan and .spread cards (docs/spread.md);
+# the numbers themselves are checked by tests/ref/spread_report_check.py
+expect report-spread 0 $tb report "$sp" --samples 30 --seed 3 --sens-at 1.4meg,0
+has report-spread out "spread over the netlist's .scan and .spread cards"
+has report-spread out "scan: 9 runs over 1 element"
+has report-spread out "corners: 8 independent dimensions at their extremes, 257 runs"
+has report-spread out "  PM deg     57.06        21.431 (252)           79.04 (5)              lowest"
+has report-spread out "Monte Carlo: 30 samples, seed 3, 8 independent draws"
+has report-spread out "sensitivities at 1.4MHz (adjoint; per 1 % increase of each element)"
+has report-spread out "at 1.4MHz |T| is set by G2 (+1 %/%), E1 (+1 %/%) and G1 (+1 %/%);"
+has report-spread out "at DC |T| is set by G2 (+1 %/%), R2 (+1 %/%) and E1 (+1 %/%); no element moves its phase"
+cat "$tmp/out" >>"$tmp/all"
+expect report-spread-default 0 $tb "$sp"
+has report-spread-default out "Monte Carlo: 100 samples, seed 1, 8 independent draws"
+expect report-spread-json 0 $tb report "$sp" --json --samples 20 --sens-at 1meg
+if /usr/bin/python3 -c 'import json,sys; d=json.load(open(sys.argv[1])); s=d["spread"]
+assert set(s) == {"scan", "corners", "monte_carlo"} and s["monte_carlo"]["samples"] == 20
+assert s["monte_carlo"]["seed"] == 1 and d["sensitivities_at"][0]["loops"]["G1"]["T_mag_set_by"]' "$tmp/out"; then
+    passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL report-spread-json: no spread part"; fi
+cat "$tmp/out" >>"$tmp/all"
+expect report-no-mc 0 $tb report "$sp" --samples 0
+if grep -q "Monte Carlo" "$tmp/out"; then failed=$((failed + 1)); echo "FAIL report-no-mc: a Monte Carlo ran"
+else passed=$((passed + 1)); fi
+expect report-no-spread 0 $tb report "$sp" --no-spread
+has report-no-spread out "spread: the netlist's .scan and .spread cards were not run (--no-spread;"
+expect report-spread-html 0 $tb report "$sp" --samples 20 --sensitivities --sens-at 1meg --html "$tmp/sp.html"
+if grep -q "<h2>Spread: the loop over load and tolerance</h2>" "$tmp/sp.html" && grep -q "<h2>Which part sets the loop</h2>" "$tmp/sp.html" \
+    && [ "$(grep -c "<svg" "$tmp/sp.html")" -ge 5 ] && xmllint --noout "$tmp/sp.html"; then
+    passed=$((passed + 1)); else failed=$((failed + 1)); echo "FAIL report-spread-html: no spread sections or pictures"; fi
+expect report-samples-bad 2 $tb report "$sp" --samples 100001
+has report-samples-bad err "--samples needs a whole number from 0 to 100000, got 100001"
+expect report-seed-bad 2 $tb report "$sp" --seed 9007199254740992
+has report-seed-bad err "--seed needs a whole number from 0 to 9007199254740991, got 9007199254740992"
+expect report-sens-bad 2 $tb report "$sp" --sens-at 1k,x
+has report-sens-bad err "--sens-at needs frequencies from 0 (DC) to 1e15 Hz such as 1k,2.5meg (at most 8), got 1k,x"
+expect report-sens-many 2 $tb report "$sp" --sens-at 1,2,3,4,5 --sens-at 6,7,8,9
+expect report-samples-no-card 0 $tb report netlists/ota_gain_of_2.net --samples 50
+has report-samples-no-card err "ota_gain_of_2.net has no .spread card: --samples and --seed have nothing to draw"
+expect report-samples-missing 2 $tb report "$sp" --samples
+has report-samples-missing err "--samples needs a value"
 if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/all"; then failed=$((failed + 1)); echo "FAIL spread: nan or inf in an output"
 else passed=$((passed + 1)); fi
 

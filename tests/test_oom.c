@@ -21,6 +21,7 @@
 #include "expect.h"
 #include "report_spread.h"
 #include "spread.h"
+#include "spreadreport.h"
 
 void *__real_malloc(size_t size);
 void *__real_calloc(size_t count, size_t size);
@@ -275,6 +276,26 @@ static tb_status spread_once(const void *ctx)
     if (!st)
         st = tb_report_sensitivities_at_text(ckt, 1e3, e, per, sink);
     tb_free(e);
+    /* tbeta report's spread part: every kind of run and the sensitivities at two frequencies,
+     * held by the result, through the text, JSON and HTML writers */
+    tb_result *res = NULL;
+    if (!st)
+        st = tb_analyse(ckt, &opt.analysis, diag, &res);
+    tb_spread_report_options ro;
+    tb_spread_report_options_init(&ro);
+    ro.samples = 2;
+    static const double at[] = {1e3, 0.0};
+    ro.at_hz = at;
+    ro.at_count = 2;
+    if (!st)
+        st = tb_spread_report_run(ckt, &opt.analysis, &ro, diag, res);
+    if (!st)
+        st = tb_report_text(ckt, res, sink);
+    if (!st)
+        st = load_status(tb_report_json(ckt, res, sink));
+    if (!st)
+        st = tb_report_html(ckt, res, sink);
+    tb_result_free(res);
     tb_circuit_free(ckt);
     tb_diag_free(diag);
     armed = false;

@@ -2,7 +2,9 @@
  * Any input must end in a status (never a crash, a leak or undefined behaviour); inputs
  * whose sweep or size would make one run slow are parsed but not analysed. An analysed
  * input goes through every writer (text, JSON, sweep, step and feedback CSV tables) and
- * has every figure of every loop read and every .expect card evaluated. */
+ * has every figure of every loop read and every .expect card evaluated; a small one also gets
+ * the report's spread part (its .scan and .spread cards, a Monte Carlo of three samples and the
+ * sensitivities at 1 kHz) through the text, JSON and HTML writers. */
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -11,11 +13,14 @@
 #include "circuit.h"
 #include "expect.h"
 #include "grid.h"
+#include "spreadreport.h"
 #include "tbeta.h"
 
 /* Keeps one run fast: analyse small circuits on short grids only. */
 #define FUZZ_MAX_UNKNOWNS 400
 #define FUZZ_MAX_POINTS 64
+/* The spread part only for this many elements or fewer: at most 2^8 + 1 corners. */
+#define FUZZ_MAX_SPREAD_ELEMENTS 8
 /* Room for the figure table (checked on every run). */
 #define FUZZ_MAX_FIGURES 64
 
@@ -93,6 +98,19 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
         FILE *sink = fopen("/dev/null", "w");
         if (sink) {
             write_all(ckt, res, sink);
+            tb_options opt;
+            tb_options_init(&opt);
+            tb_spread_report_options so;
+            tb_spread_report_options_init(&so);
+            so.samples = 3;
+            static const double at[] = {1e3};
+            so.at_hz = at;
+            so.at_count = 1;
+            if (ckt->elem_count <= FUZZ_MAX_SPREAD_ELEMENTS && tb_spread_report_run(ckt, &opt, &so, diag, res) == TB_OK) {
+                (void)tb_report_text(ckt, res, sink);
+                (void)tb_report_json(ckt, res, sink);
+                (void)tb_report_html(ckt, res, sink);
+            }
             fclose(sink);
         }
         expectations(ckt, res);

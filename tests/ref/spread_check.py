@@ -54,10 +54,16 @@ def check_statistics(tbeta):
     mean, sample sigma (ddof=1), min, max, percentiles (numpy's linear method = Hyndman and
     Fan's type 7), each part's correlation with each figure (numpy.corrcoef), the yield and
     its 95 % Wilson interval (scipy.stats.binomtest)."""
-    from scipy.stats import binomtest
     out = subprocess.run([tbeta, "spread", "docs/examples/spread_buffer.net", "--samples", "120", "--seed", "9",
                           "--json", "--jobs", "2"], capture_output=True, text=True)
-    doc = json.loads(out.stdout)
+    return statistics_mismatches(json.loads(out.stdout), "spread_check")
+
+
+def statistics_mismatches(doc, who):
+    """The checks of check_statistics on one Monte Carlo document (tbeta spread --json, or the
+    spread.monte_carlo object of tbeta report --json); also each figure's worst case against
+    numpy's argmin/argmax where the figure has a worse direction. Returns the mismatches."""
+    from scipy.stats import binomtest
     bad = 0
     for name, st in doc["statistics"]["G1"].items():
         if name == "desensitivity":
@@ -68,9 +74,21 @@ def check_statistics(tbeta):
                 "p95": np.percentile(x, 95), "p99": np.percentile(x, 99)}
         if st["present"] != len(x):
             bad += 1
+        # the worst case: lower is worse for the loop gain, the margins and the delay margin,
+        # the larger magnitude for the gain error; a gain or a frequency has none (common practice)
+        ends = {"dc.T": -1, "phase_margin_deg": -1, "gain_margin_up_db": -1, "delay_margin_s": -1,
+                "dc.gain_error_pct": -1 if abs(np.min(x)) > abs(np.max(x)) else 1}
+        rows = [i for i, r in enumerate(doc["runs"]) if r["loops"]["G1"][name] is not None]
+        end = ends.get(name, 0)
+        want_worst = None if not end else (np.min(x) if end < 0 else np.max(x))
+        want_run = None if not end else rows[int(np.argmin(x) if end < 0 else np.argmax(x))]
+        if st.get("worst") != want_worst or st.get("worst_run") != want_run:
+            print("%s: worst of %s: tbeta %r (run %r), numpy %r (run %r)"
+                  % (who, name, st.get("worst"), st.get("worst_run"), want_worst, want_run))
+            bad += 1
         for k, v in want.items():
             if abs(st[k] - v) > 1e-12 * max(abs(v), np.max(np.abs(x))):
-                print("spread_check: %s %s: tbeta %r, numpy %r" % (name, k, st[k], v))
+                print("%s: %s %s: tbeta %r, numpy %r" % (who, name, k, st[k], v))
                 bad += 1
         # Pearson's r of each drawn part with the figure (numpy.corrcoef), over the runs that have it
         for dim, r in st["correlation"].items():
@@ -80,18 +98,18 @@ def check_statistics(tbeta):
             want_r = np.corrcoef(a, b)[0, 1] if np.std(a) > 0 and np.std(b) > 0 else None
             if (r is None) != (want_r is None or not np.isfinite(want_r)) or \
                     (r is not None and abs(r - want_r) > 1e-9):
-                print("spread_check: correlation of %s with %s: tbeta %r, numpy %r" % (name, dim, r, want_r))
+                print("%s: correlation of %s with %s: tbeta %r, numpy %r" % (who, name, dim, r, want_r))
                 bad += 1
     passed = sum(r["status"] == "pass" for r in doc["runs"])
     analysed = sum(r["status"] != "not analysed" for r in doc["runs"])
     ci = binomtest(passed, analysed).proportion_ci(confidence_level=0.95, method="wilson")
     if abs(doc["yield"] - passed / analysed) > 1e-15 or abs(doc["yield_interval_95"][0] - ci.low) > 1e-12 \
             or abs(doc["yield_interval_95"][1] - ci.high) > 1e-12:
-        print("spread_check: yield %r %r, want %r [%r, %r]" % (doc["yield"], doc["yield_interval_95"],
-                                                             passed / analysed, ci.low, ci.high))
+        print("%s: yield %r %r, want %r [%r, %r]" % (who, doc["yield"], doc["yield_interval_95"],
+                                                   passed / analysed, ci.low, ci.high))
         bad += 1
-    print("spread_check: Monte Carlo statistics and yield of %d samples against numpy and scipy, %d mismatches"
-          % (len(doc["runs"]), bad))
+    print("%s: Monte Carlo statistics and yield of %d samples against numpy and scipy, %d mismatches"
+          % (who, len(doc["runs"]), bad))
     return bad
 
 
