@@ -186,6 +186,7 @@ struct tb_circuit {
     struct tb_strblock *strings; /* string arena */
     tb_volterra_spec volterra;   /* .volterra (distortion.c) */
     struct tb_spread_cards *spread; /* .spread and .scan cards (spreadcard.h), in the arena; NULL: none */
+    struct tb_params *params;       /* the parameters and the element values they set (paramdep.h); NULL: none */
 };
 
 tb_status tb_circuit_create(const char *file, tb_circuit **out);
