@@ -45,8 +45,8 @@ static void kind_line(const tb_spreadset *set, FILE *out)
     size_t analysed = 0;
     size_t pass = tb_spreadset_passed(set, &analysed);
     if (set->kind == TB_SPREADSET_SCAN)
-        fprintf(out, "scan: %zu run%s over %zu element%s\n", set->runs, set->runs == 1 ? "" : "s", set->params,
-                set->params == 1 ? "" : "s");
+        fprintf(out, "scan: %zu run%s over %zu ax%s\n", set->runs, set->runs == 1 ? "" : "s", set->params,
+                set->params == 1 ? "is" : "es");
     else if (set->kind == TB_SPREADSET_CORNERS)
         fprintf(out, "corners: %zu independent dimension%s at their extremes, %zu runs (%s)\n", set->dimensions,
                 set->dimensions == 1 ? "" : "s", set->runs,

@@ -325,7 +325,7 @@ fi
 # the same bytes for any --jobs, usage errors
 sp=docs/examples/spread_buffer.net
 expect spread-scan 0 $tb spread "$sp" --scan
-has spread-scan out "scan: 9 runs over 1 element"
+has spread-scan out "scan: 9 runs over 1 axis"
 has spread-scan out "caution: tbeta is a small-signal, linear analysis"
 expect spread-corners 1 $tb spread "$sp" --corners --json
 if /usr/bin/python3 -c 'import json,sys; d=json.load(open(sys.argv[1])); assert d["kind"] == "corners" and len(d["runs"]) == 257' "$tmp/out"; then
