@@ -458,11 +458,11 @@ static tb_status check_tunable(tb_circuit *ckt, tb_diag *diag, const tb_loc *loc
     const tb_pquant *x = &ckt->params->q[q];
     if (x->fixed)
         return resolve_error(ckt, diag, loc,
-                             "parameter %s in %s also sets a value that a run cannot change (%s:%d): only element "
+                             "parameter '%s' in %s also sets a value that a run cannot change (%s:%d): only element "
                              "values (R, C, L, E, G, F, H, K) follow a parameter in runs, not a source's value, a "
                              "device's key or a directive's number", name, card, x->fixed_loc.file, x->fixed_loc.line);
     if (!x->sets)
-        return resolve_error(ckt, diag, loc, "parameter %s in %s sets no element value: a run that changes it would "
+        return resolve_error(ckt, diag, loc, "parameter '%s' in %s sets no element value: a run that changes it would "
                              "change nothing", name, card);
     return TB_OK;
 }
@@ -487,7 +487,7 @@ static tb_status no_such(tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, cons
         tb_suggest_offer(&sg, full);
     }
     const char *best = has_wildcard(name) ? NULL : tb_suggest_best(&sg);
-    bool best_param = best && !tb_circuit_find_element(ckt, best, &(size_t){0});
+    bool best_param = best && (!elements || !tb_circuit_find_element(ckt, best, &(size_t){0}));
     char hint[120] = "";
     if (best)
         snprintf(hint, sizeof hint, " (did you mean '%s%s%s'?)", best_param ? "{" : "", best, best_param ? "}" : "");
