@@ -75,6 +75,10 @@ static void test_spreadparam_gauss_fraction(void **state)
         assert_true(fabs(tb_spreadset_row(set, r, 0)[FIG_A].value - set->param_values[r] * K_OVER) < 1e-12);
     assert_int_equal(tb_spreadset_stats(set, 0, FIG_T, &s), TB_OK);
     assert_true(fabs(s.min - 1000) < 1e-9 && fabs(s.max - 1000) < 1e-9);
+    /* the loop source's gain does not spread at all (not by the rounding of its mean) */
+    tb_spread_desens d;
+    assert_true(tb_spreadset_desens(set, 0, 0, &d));
+    assert_true(d.spread_k == 0 && d.spread_A > 0);
     tb_spreadset_free(set);
     tb_circuit_free(ckt);
 }
