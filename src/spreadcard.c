@@ -670,9 +670,12 @@ tb_status tb_spreadcard_resolve(tb_circuit *ckt, tb_diag *diag)
 {
     if (!ckt)
         return TB_ERR_USAGE;
+    tb_params_settle(ckt->params);
+    for (size_t q = 0; ckt->params && q < ckt->params->count; q++) /* names for the reports */
+        if (tb_spreadcard_tunable(ckt, q) && !tb_params_name(ckt, q))
+            return TB_ERR_NOMEM;
     if (!ckt->spread)
         return TB_OK;
-    tb_params_settle(ckt->params);
     tb_status result = TB_OK;
     for (tb_spread_rule *rule = ckt->spread->rules; rule; rule = rule->next) {
         tb_status st = resolve_rule(ckt, rule, diag);

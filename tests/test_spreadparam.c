@@ -1,4 +1,6 @@
 /* tests/test_spreadparam.c: .spread and .scan on parameters (.param and subcircuit instance parameters) */
+#include <stdlib.h>
+
 #include "testutil.h"
 
 #include "circuit.h"
@@ -274,6 +276,116 @@ static void test_spreadparam_scan_phase_margin(void **state)
     tb_circuit_free(ckt);
 }
 
+/* ---- sensitivities to parameters ------------------------------------------------------ */
+
+/* The two-pole loop with its load and output resistance as parameters, the output
+ * resistance read by two expressions (RO and a snubber RS = 40 ro), the load through a
+ * square: CL = cl^2/1n. */
+static const char *const SENS_NET =
+    "two-pole loop, parameters\n"
+    ".param cl=1n ro=50\n"
+    ".subckt amp inp inn out gbw=10meg\n"
+    "G1 0 x inp inn 1m\n"
+    "RX x 0 100meg\n"
+    "CX x 0 {1m/(2*pi*gbw)}\n"
+    "E1 y 0 x 0 1\n"
+    "RO y out {ro}\n"
+    ".ends\n"
+    "Vs in 0 AC 1\n"
+    "X1 in fb out amp\n"
+    "CL out 0 {cl*cl/1n}\n"
+    "RS out 0 {40*ro}\n"
+    "RF out fb 10k\n"
+    "RG fb 0 10k\n"
+    ".io Vs v(out)\n"
+    ".loop X1.G1\n"
+    ".ac dec 10 1 1g\n";
+
+typedef struct {
+    double T_mag, A_mag, pm_deg, unity_hz;
+} sens_figs;
+
+/* The figures of SENS_NET with the definition `from` written as `to` (a fresh parse). */
+static sens_figs figures_with(const char *from, const char *to)
+{
+    char text[4096];
+    const char *at = strstr(SENS_NET, from);
+    assert_non_null(at);
+    snprintf(text, sizeof text, "%.*s%s%s", (int)(at - SENS_NET), SENS_NET, to, at + strlen(from));
+    tb_circuit *ckt = NULL;
+    tb_result *res = tu_analyse(text, &ckt);
+    tb_measures m;
+    tb_stability st;
+    assert_int_equal(tb_measure_loop(res, 0, &m), TB_OK);
+    assert_int_equal(tb_stability_loop(res, 0, &st), TB_OK);
+    assert_true(st.has_phase_margin);
+    sens_figs f = {cabs(m.dc.T), cabs(m.dc.A), st.phase_margin_deg, st.phase_margin_hz};
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+    return f;
+}
+
+static void close_to(double chain, double fd, const char *what, const char *name)
+{
+    if (fabs(chain - fd) > 1e-6 * fabs(fd) + 1e-7)
+        fail_msg("%s of %s: chain rule %.12g, central differences %.12g", what, name, chain, fd);
+}
+
+/* Each parameter's sensitivities (the chain rule through the element values it sets, the
+ * adjoint method for theirs) against central finite differences of complete analyses of
+ * the netlist re-read with the parameter at p (1 +- 1e-5): the definition of the
+ * derivative, as tests/test_sensitivity.c checks the elements. */
+static void test_spreadparam_sensitivities(void **state)
+{
+    (void)state;
+    static const struct {
+        const char *name, *def, *fmt;
+        double value;
+    } cases[] = {
+        {"{cl}", "cl=1n", "cl=%.17g", 1e-9},
+        {"{ro}", "ro=50", "ro=%.17g", 50},
+        {"{X1.gbw}", "gbw=10meg", "gbw=%.17g", 10e6},
+    };
+    tb_circuit *ckt = tu_parse(SENS_NET);
+    tb_options opt;
+    tb_options_init(&opt);
+    opt.sensitivity = true;
+    tb_diag *diag = tb_diag_new();
+    tb_result *res = NULL;
+    assert_int_equal(tb_analyse(ckt, &opt, diag, &res), TB_OK);
+    tb_sensitivity s;
+    assert_int_equal(tb_sensitivity_get(res, 0, &s), TB_OK);
+    const double h = 1e-5;
+    for (size_t c = 0; c < sizeof cases / sizeof cases[0]; c++) {
+        const tb_sens_entry *e = NULL;
+        for (size_t i = 0; i < s.count; i++)
+            if (strcmp(s.entries[i].element, cases[c].name) == 0)
+                e = &s.entries[i];
+        assert_non_null(e);
+        assert_true(e->has_T && e->has_A && e->has_pm && e->has_unity);
+        char up_def[64], down_def[64];
+        snprintf(up_def, sizeof up_def, cases[c].fmt, cases[c].value * (1 + h));
+        snprintf(down_def, sizeof down_def, cases[c].fmt, cases[c].value * (1 - h));
+        sens_figs up = figures_with(cases[c].def, up_def);
+        sens_figs down = figures_with(cases[c].def, down_def);
+        close_to(e->T_mag, (up.T_mag - down.T_mag) / (2 * h) / ((up.T_mag + down.T_mag) / 2), "|T|", cases[c].name);
+        close_to(e->A_mag, (up.A_mag - down.A_mag) / (2 * h) / ((up.A_mag + down.A_mag) / 2), "|A|", cases[c].name);
+        close_to(e->pm_deg_pct, (up.pm_deg - down.pm_deg) / (2 * h) / 100, "phase margin", cases[c].name);
+        close_to(e->unity, (up.unity_hz - down.unity_hz) / (2 * h) / ((up.unity_hz + down.unity_hz) / 2),
+                 "unity crossing", cases[c].name);
+    }
+    /* the load enters as cl^2: twice the effect of the element it sets */
+    const tb_sens_entry *p = NULL, *el = NULL;
+    for (size_t i = 0; i < s.count; i++) {
+        p = strcmp(s.entries[i].element, "{cl}") == 0 ? &s.entries[i] : p;
+        el = strcmp(s.entries[i].element, "CL") == 0 ? &s.entries[i] : el;
+    }
+    assert_true(fabs(p->pm_deg_pct - 2 * el->pm_deg_pct) < 1e-6 * fabs(el->pm_deg_pct));
+    tb_result_free(res);
+    tb_diag_free(diag);
+    tb_circuit_free(ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -285,6 +397,7 @@ int main(void)
         cmocka_unit_test(test_spreadparam_out_of_range),
         cmocka_unit_test(test_spreadparam_scan_equals_element_scan),
         cmocka_unit_test(test_spreadparam_scan_phase_margin),
+        cmocka_unit_test(test_spreadparam_sensitivities),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
