@@ -134,29 +134,6 @@ bool tb_params_find(tb_circuit *ckt, const char *name, size_t *q)
     return false;
 }
 
-const char *tb_params_name(tb_circuit *ckt, size_t q)
-{
-    tb_pquant *x = &ckt->params->q[q];
-    if (x->full)
-        return x->full;
-    size_t plen = x->prefix ? strlen(x->prefix) + 1 : 0;
-    size_t nlen = strlen(x->name);
-    char *buf = tb_malloc(plen + nlen + 3, 1);
-    if (!buf)
-        return NULL;
-    buf[0] = '{';
-    if (plen) {
-        memcpy(buf + 1, x->prefix, plen - 1);
-        buf[plen] = '.';
-    }
-    memcpy(buf + 1 + plen, x->name, nlen);
-    buf[1 + plen + nlen] = '}';
-    x->label = tb_circuit_intern(ckt, buf, plen + nlen + 2);
-    x->full = x->label ? tb_circuit_intern(ckt, buf + 1, plen + nlen) : NULL;
-    tb_free(buf);
-    return x->full;
-}
-
 /* ---- per run ----------------------------------------------------------------------- */
 
 /* A reference of a compiled expression: a slot of the workspace, or a constant. */

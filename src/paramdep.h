@@ -23,7 +23,7 @@ typedef struct {
     bool fixed;            /* sets a value no run can change (a source, a device key, a directive); */
     tb_loc fixed_loc;      /* there (set for a parameter by tb_params_settle) */
     bool sets;             /* sets at least one element value (tb_params_settle) */
-    const char *full;      /* "X1.gbw", interned on first use by tb_params_name */
+    const char *full;      /* "X1.gbw", interned on first use by tb_spreadcard_param_name */
     const char *label;     /* "{X1.gbw}": the name in reports, interned with full */
 } tb_pquant;
 
@@ -76,9 +76,6 @@ tb_status tb_params_bind(tb_params *P, size_t q, size_t elem);
 /* Spreads 'fixed' and 'sets' from the element values and other uses to the parameters
  * they read, directly or through others. Idempotent. */
 void tb_params_settle(tb_params *P);
-/* The parameter q's hierarchical name ("cl", "X1.gbw"), interned in ckt with its label
- * ("{cl}"); NULL when out of memory. */
-const char *tb_params_name(tb_circuit *ckt, size_t q);
 /* The parameter called name (case-insensitive): true and *q. */
 bool tb_params_find(tb_circuit *ckt, const char *name, size_t *q);
 

@@ -423,6 +423,29 @@ bool tb_spreadcard_value_ok(tb_elem_kind kind, double nominal, double v)
     return kind != TB_EL_K || (v > 0 && v <= 1);
 }
 
+const char *tb_spreadcard_param_name(tb_circuit *ckt, size_t q)
+{
+    tb_pquant *x = &ckt->params->q[q];
+    if (x->full)
+        return x->full;
+    size_t plen = x->prefix ? strlen(x->prefix) + 1 : 0;
+    size_t nlen = strlen(x->name);
+    char *buf = tb_malloc(plen + nlen + 3, 1);
+    if (!buf)
+        return NULL;
+    buf[0] = '{';
+    if (plen) {
+        memcpy(buf + 1, x->prefix, plen - 1);
+        buf[plen] = '.';
+    }
+    memcpy(buf + 1 + plen, x->name, nlen);
+    buf[1 + plen + nlen] = '}';
+    x->label = tb_circuit_intern(ckt, buf, plen + nlen + 2);
+    x->full = x->label ? tb_circuit_intern(ckt, buf + 1, plen + nlen) : NULL;
+    tb_free(buf);
+    return x->full;
+}
+
 bool tb_spreadcard_tunable(const tb_circuit *ckt, size_t q)
 {
     const tb_params *P = ckt->params;
@@ -452,7 +475,7 @@ static bool has_wildcard(const char *pattern)
 /* Parameter q may be changed by runs; its names are interned for the reports. */
 static tb_status check_tunable(tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, const char *card, size_t q)
 {
-    const char *name = tb_params_name(ckt, q);
+    const char *name = tb_spreadcard_param_name(ckt, q);
     if (!name)
         return TB_ERR_NOMEM;
     const tb_pquant *x = &ckt->params->q[q];
@@ -481,7 +504,7 @@ static tb_status no_such(tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, cons
     for (size_t q = 0; params && P && q < P->count; q++) {
         if (!tb_spreadcard_tunable(ckt, q))
             continue;
-        const char *full = tb_params_name(ckt, q);
+        const char *full = tb_spreadcard_param_name(ckt, q);
         if (!full)
             return TB_ERR_NOMEM;
         tb_suggest_offer(&sg, full);
@@ -507,7 +530,7 @@ static tb_status bare_name(tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, co
     bool element = tb_circuit_find_element(ckt, name, &e) && tb_spreadcard_valued(ckt->elems[e].kind);
     *param = !has_wildcard(name) && tb_params_find(ckt, name, q);
     if (element && *param) {
-        const char *full = tb_params_name(ckt, *q);
+        const char *full = tb_spreadcard_param_name(ckt, *q);
         if (!full)
             return TB_ERR_NOMEM;
         return resolve_error(ckt, diag, loc, "'%s' in %s names both the element %s and the parameter %s: write {%s} "
@@ -532,7 +555,7 @@ static tb_status resolve_param_rule(tb_circuit *ckt, const tb_spread_rule *rule,
     for (q = 0; q < ckt->params->count; q++) {
         if (!tb_spreadcard_tunable(ckt, q))
             continue;
-        const char *full = tb_params_name(ckt, q);
+        const char *full = tb_spreadcard_param_name(ckt, q);
         if (!full)
             return TB_ERR_NOMEM;
         matched += tb_spreadcard_match(rule->pattern, full);
@@ -672,7 +695,7 @@ tb_status tb_spreadcard_resolve(tb_circuit *ckt, tb_diag *diag)
         return TB_ERR_USAGE;
     tb_params_settle(ckt->params);
     for (size_t q = 0; ckt->params && q < ckt->params->count; q++) /* names for the reports */
-        if (tb_spreadcard_tunable(ckt, q) && !tb_params_name(ckt, q))
+        if (tb_spreadcard_tunable(ckt, q) && !tb_spreadcard_param_name(ckt, q))
             return TB_ERR_NOMEM;
     if (!ckt->spread)
         return TB_OK;

@@ -96,6 +96,10 @@ bool tb_spreadcard_valued(tb_elem_kind kind);
  * (0, 1] (a parameter may take an element there). */
 bool tb_spreadcard_value_ok(tb_elem_kind kind, double nominal, double v);
 
+/* The parameter q's hierarchical name ("cl", "X1.gbw"; quantity q of ckt->params,
+ * paramdep.h), interned in ckt with its label ("{cl}"); NULL when out of memory. */
+const char *tb_spreadcard_param_name(tb_circuit *ckt, size_t q);
+
 /* true when parameter quantity q (paramdep.h) may be changed by a run: it sets an element
  * value and nothing a run cannot change. */
 bool tb_spreadcard_tunable(const tb_circuit *ckt, size_t q);
