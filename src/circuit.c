@@ -8,6 +8,7 @@
 
 #include "alloc.h"
 #include "diag.h"
+#include "paramdep.h"
 #include "suggest.h"
 #include "topology.h"
 
@@ -81,6 +82,7 @@ void tb_circuit_free(tb_circuit *ckt)
         if (ckt->sources[i].owned)
             tb_free(ckt->sources[i].text);
     tb_free(ckt->sources);
+    tb_params_free(ckt->params);
     tb_free(ckt);
 }
 

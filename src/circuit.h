@@ -189,6 +189,7 @@ struct tb_circuit {
     tb_name_recent node_recent;  /* nodes found or added last, for tb_circuit_node */
     size_t elem_indexed;         /* elems[0..elem_indexed) are in elem_index, the rest follow
                                   * (tb_circuit_add_element, at the latest tb_circuit_finish) */
+    struct tb_params *params;       /* the parameters and the element values they set (paramdep.h); NULL: none */
 };
 
 tb_status tb_circuit_create(const char *file, tb_circuit **out);

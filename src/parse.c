@@ -17,6 +17,7 @@
 #include "diag.h"
 #include "expect.h"
 #include "expr.h"
+#include "paramdep.h"
 #include "grid.h"
 #include "lex.h"
 #include "netfile.h"
@@ -56,6 +57,7 @@ typedef struct {
     size_t src;       /* the source holding expr */
     double value;
     param_state state;
+    size_t qid;       /* 1 + its quantity in the circuit's parameter table (paramdep.h), 0: none yet */
 } param;
 
 /* Parameters in definition order; looked up by name through index once there are more
@@ -196,6 +198,7 @@ typedef struct {
     size_t known_count;
     size_t known_cap;
     tb_name_index known_index; /* by id */
+    size_t value_q;   /* 1 + the quantity of the last value() expression that read parameters, 0: none */
 } parser;
 
 /* ---- messages ----------------------------------------------------------- */
@@ -573,6 +576,34 @@ static void chain_text(const parser *p, size_t from, const char *last, size_t la
         snprintf(buf + n, size - n, "%.*s", (int)last_len, last);
 }
 
+/* The expression being evaluated read prm at byte offset (st: how reading it went): recorded
+ * for the runs that change parameters (paramdep.h). */
+static tb_status note_ref(parser *p, tb_status st, const param *prm, size_t offset)
+{
+    if (st == TB_OK && prm->qid && tb_params_ref(p->ckt->params, offset, prm->qid - 1) != TB_OK) {
+        nomem(p);
+        return TB_ERR_NOMEM;
+    }
+    return st;
+}
+
+/* Records the expression tok (of source src, evaluated to v with the references recorded
+ * since mark) as a quantity of the parameter table: a parameter (name in the instance
+ * prefix, NULL at the top level) or, with name NULL, a value that does not follow its
+ * parameters in runs until an element card binds it. *q: 1 + the quantity. */
+static bool record_quantity(parser *p, size_t mark, const tb_token *tok, size_t src, const char *prefix,
+                            const char *name, double v, size_t *q)
+{
+    bool braced = tok->kind == TB_TOK_EXPR;
+    tb_pquant proto = {.prefix = prefix, .name = name, .text = tok->ptr + braced, .len = tok->len - 2 * braced,
+                       .value = v, .loc = {p->srcs[src].file, tok->line, tok->col}, .fixed = !name};
+    size_t made = 0;
+    if (tb_params_add(p->ckt->params, mark, &proto, &made) != TB_OK)
+        return nomem(p);
+    *q = made + 1;
+    return true;
+}
+
 /* The value of parameter prm, found at frame depth `depth` (0: a global). */
 static tb_status param_value(const eval_ctx *cx, param *prm, size_t depth, size_t offset,
                              double *out)
@@ -602,8 +633,14 @@ static tb_status param_value(const eval_ctx *cx, param *prm, size_t depth, size_
     prm->state = PARAM_BUSY;
     p->chain[p->chain_len++] = prm;
     double v = 0;
+    size_t mark = tb_params_mark(p->ckt->params);
     bool ok = evaluate(p, &prm->expr, prm->src, depth, &v);
     p->chain_len--;
+    if (ok)
+        ok = record_quantity(p, mark, &prm->expr, prm->src, depth ? p->frames[depth - 1].path : NULL, prm->name,
+                             v, &prm->qid);
+    else
+        tb_params_drop(p->ckt->params, mark);
     prm->state = ok ? PARAM_DONE : PARAM_FAILED;
     if (!ok)
         return p->status == TB_ERR_NOMEM ? TB_ERR_NOMEM : TB_ERR_INPUT;
@@ -621,11 +658,11 @@ static tb_status lookup(void *ctx, const char *name, size_t len, size_t offset, 
         const frame *f = &p->frames[d - 1];
         param *prm = find_param_in((param_list *)&f->params, &f->def->params.index, name, len);
         if (prm)
-            return param_value(cx, prm, d, offset, out);
+            return note_ref(p, param_value(cx, prm, d, offset, out), prm, offset);
     }
     param *prm = find_param(&p->globals, name, len);
     if (prm)
-        return param_value(cx, prm, 0, offset, out);
+        return note_ref(p, param_value(cx, prm, 0, offset, out), prm, offset);
     tb_token at = expr_pos(cx->tok, offset);
     if (p->chain_len == 0) {
         error_in(p, cx->src, &at, "undefined parameter '%.*s'", (int)len, name);
@@ -689,7 +726,7 @@ static bool param_def(parser *p, param_list *list, const char *what)
         return false;
     if (p->tok.kind != TB_TOK_WORD && p->tok.kind != TB_TOK_EXPR)
         return expected(p, "a value or {expression}");
-    param prm = {intern_n(p, name.ptr, name.len), p->tok, p->src, 0, PARAM_UNSET};
+    param prm = {intern_n(p, name.ptr, name.len), p->tok, p->src, 0, PARAM_UNSET, 0};
     if (!prm.name)
         return false;
     if (add_param(list, &prm))
@@ -757,8 +794,14 @@ static bool node(parser *p, int *index)
 static bool value(parser *p, const char *what, double *out)
 {
     char text[QUOTE_SIZE];
+    p->value_q = 0;
     if (p->tok.kind == TB_TOK_EXPR) {
-        if (!evaluate(p, &p->tok, p->src, p->depth, out))
+        size_t mark = tb_params_mark(p->ckt->params);
+        bool ok = evaluate(p, &p->tok, p->src, p->depth, out);
+        if (ok && tb_params_refs(p->ckt->params, mark))
+            ok = record_quantity(p, mark, &p->tok, p->src, NULL, NULL, *out, &p->value_q);
+        tb_params_drop(p->ckt->params, mark);
+        if (!ok)
             return false;
         advance(p);
         return true;
@@ -852,6 +895,14 @@ static bool element_end(parser *p, const tb_element *e, const char *part)
     return true;
 }
 
+/* The element just added takes its value from quantity q (1 + index; 0: a plain value). */
+static bool bind_value(parser *p, size_t q)
+{
+    if (q && tb_params_bind(p->ckt->params, q - 1, p->ckt->elem_count - 1) != TB_OK)
+        return nomem(p);
+    return true;
+}
+
 static const char *const quantity[TB_EL_COUNT] = {
     [TB_EL_R] = "resistance", [TB_EL_C] = "capacitance", [TB_EL_L] = "inductance",
 };
@@ -864,7 +915,8 @@ static bool passive(parser *p, tb_elem_kind kind)
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]) ||
         !value(p, "a value", &e.value) || !check_range(p, r, e.value, quantity[kind], p->name))
         return false;
-    return element_end(p, &e, "the value");
+    size_t q = p->value_q;
+    return element_end(p, &e, "the value") && bind_value(p, q);
 }
 
 /* vcard -> VNAME node node [[DC] value] [AC value [value]]   (I cards alike) */
@@ -953,9 +1005,10 @@ static bool vcontrolled(parser *p, tb_elem_kind kind)
     tb_element e;
     if (!element_start(p, kind, &e) || !node(p, &e.node[0]) || !node(p, &e.node[1]) ||
         !node(p, &e.node[2]) || !node(p, &e.node[3]) || !value(p, "a gain", &e.value) ||
-        !check_range(p, &GAIN_RANGE, e.value, "gain", p->name) || !coefficients(p, &e))
+        !check_range(p, &GAIN_RANGE, e.value, "gain", p->name))
         return false;
-    return element_end(p, &e, "the gain");
+    size_t q = p->value_q;
+    return coefficients(p, &e) && element_end(p, &e, "the gain") && bind_value(p, q);
 }
 
 /* fcard -> FNAME node node VNAME value [k2=VALUE] [k3=VALUE]   (H cards alike) */
@@ -969,10 +1022,10 @@ static bool icontrolled(parser *p, tb_elem_kind kind)
     if (!e.ctrl_name)
         return false;
     advance(p);
-    if (!value(p, "a gain", &e.value) || !check_range(p, &GAIN_RANGE, e.value, "gain", p->name) ||
-        !coefficients(p, &e))
+    if (!value(p, "a gain", &e.value) || !check_range(p, &GAIN_RANGE, e.value, "gain", p->name))
         return false;
-    return element_end(p, &e, "the gain");
+    size_t q = p->value_q;
+    return coefficients(p, &e) && element_end(p, &e, "the gain") && bind_value(p, q);
 }
 
 /* kcard -> KNAME LNAME LNAME value, the coupling 0 < k <= 1 */
@@ -997,7 +1050,8 @@ static bool coupling(parser *p)
     if (!(e.value > 0 && e.value <= 1))
         return error(p, &p->prev, "coupling of %s must be in (0, 1], got '%s'", p->name,
                      quote(&p->prev, text));
-    return element_end(p, &e, "the coupling");
+    size_t q = p->value_q;
+    return element_end(p, &e, "the coupling") && bind_value(p, q);
 }
 
 /* Length of the UTF-8 character starting s[0..len). */
@@ -1708,8 +1762,13 @@ static bool instance_params(parser *p, const subckt *def, param_list *values)
             return false;
         if (p->tok.kind != TB_TOK_WORD && p->tok.kind != TB_TOK_EXPR)
             return expected(p, "a value or {expression}");
-        if (!evaluate(p, &p->tok, p->src, p->depth - 1, &prm->value))
+        size_t mark = tb_params_mark(p->ckt->params);
+        if (!evaluate(p, &p->tok, p->src, p->depth - 1, &prm->value) ||
+            !record_quantity(p, mark, &p->tok, p->src, p->frames[p->depth - 1].path, prm->name, prm->value,
+                             &prm->qid)) {
+            tb_params_drop(p->ckt->params, mark);
             return false;
+        }
         prm->state = PARAM_DONE;
         advance(p);
     }
@@ -2321,7 +2380,11 @@ static tb_status parse_owned(char *text, size_t len, const char *file, const cha
         return st;
     }
     parser p = {.ckt = ckt, .diag = diag, .status = TB_OK, .setup = setup, .bytes = len};
-    if (tb_circuit_add_source(ckt, ckt->file, text, len, &name) != TB_OK)
+    ckt->params = tb_params_new();
+    if (!ckt->params) {
+        tb_free(text);
+        nomem(&p);
+    } else if (tb_circuit_add_source(ckt, ckt->file, text, len, &name) != TB_OK)
         nomem(&p);
     else if (add_src(&p, name, text, len, SIZE_MAX, 0))
         netlist(&p, canon);

@@ -45,8 +45,8 @@ static void kind_line(const tb_spreadset *set, FILE *out)
     size_t analysed = 0;
     size_t pass = tb_spreadset_passed(set, &analysed);
     if (set->kind == TB_SPREADSET_SCAN)
-        fprintf(out, "scan: %zu run%s over %zu element%s\n", set->runs, set->runs == 1 ? "" : "s", set->params,
-                set->params == 1 ? "" : "s");
+        fprintf(out, "scan: %zu run%s over %zu ax%s\n", set->runs, set->runs == 1 ? "" : "s", set->params,
+                set->params == 1 ? "is" : "es");
     else if (set->kind == TB_SPREADSET_CORNERS)
         fprintf(out, "corners: %zu independent dimension%s at their extremes, %zu runs (%s)\n", set->dimensions,
                 set->dimensions == 1 ? "" : "s", set->runs,
@@ -825,7 +825,7 @@ tb_status tb_report_sensitivities_at_text(const tb_circuit *ckt, double f, const
     if (!ckt || !out || (per > 0 && !entries))
         return TB_ERR_USAGE;
     char hz[32], name[512];
-    fprintf(out, "tbeta %s: sensitivities of %s at %s (adjoint; per 1 %% increase of each element)\n", TB_VERSION,
+    fprintf(out, "tbeta %s: sensitivities of %s at %s (adjoint; per 1 %% increase of each element or parameter)\n", TB_VERSION,
             tb_report_escape(ckt->file, name, sizeof name), where(f, hz, sizeof hz));
     tb_status st = tb_report_sensitivities_at_body(ckt, f, entries, per, out);
     fprintf(out, "\ncaution: %s\n", tb_report_caution);

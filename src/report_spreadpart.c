@@ -49,7 +49,7 @@ tb_status tb_report_spreadpart_text(const tb_circuit *ckt, const tb_result *res,
     }
     char hz[32];
     for (size_t k = 0; k < part->at_count && !st; k++) {
-        fprintf(out, "\nsensitivities at %s (adjoint; per 1 %% increase of each element)\n",
+        fprintf(out, "\nsensitivities at %s (adjoint; per 1 %% increase of each element or parameter)\n",
                 where(part->at_hz[k], hz, sizeof hz));
         st = tb_report_sensitivities_at_body(ckt, part->at_hz[k], part->at + k * ckt->loop_count * part->at_per,
                                              part->at_per, out);
@@ -240,7 +240,7 @@ static tb_status sens_sections(FILE *out, const tb_circuit *ckt, const tb_result
     if (!has_sensitivities(ckt, res, part))
         return TB_OK;
     fputs("<h2>Which part sets the loop</h2>\n<p>Normalized sensitivities by the adjoint method: how much each "
-          "figure moves per 1 % increase of each element's value, ranked. They are slopes at the nominal "
+          "figure moves per 1 % increase of each element's or parameter's value, ranked. They are slopes at the nominal "
           "values; a figure that moves non-linearly needs the spread above.</p>\n", out);
     char f[32];
     for (size_t l = 0; l < ckt->loop_count; l++) {

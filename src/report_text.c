@@ -588,7 +588,7 @@ static void sensitivity_block(FILE *out, const tb_result *res, size_t l)
     char f[64];
     if (tb_sensitivity_get(res, l, &s) || !s.computed)
         return;
-    fprintf(out, "  sensitivities (adjoint; per 1 %% increase of each element)\n");
+    fprintf(out, "  sensitivities (adjoint; per 1 %% increase of each element or parameter)\n");
     if (s.count > 0 && s.entries[0].has_pm) {
         fprintf(out, "    the phase margin is set by %s (%+.3g deg/%%)", s.entries[0].element, s.entries[0].pm_deg_pct);
         if (s.count > 1 && s.entries[1].has_pm)

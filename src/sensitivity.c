@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "alloc.h"
+#include "paramsens.h"
 #include "units.h"
 
 /* The bilinear forms g' dM h one element's derivative adds, for one loop. */
@@ -195,15 +196,15 @@ static tb_status one_loop(const tb_circuit *ckt, point *pt, tb_result *res, size
         if (!st)
             at_crossing(ckt, pt, l, TB_TWO_PI * s->gm_hz, false, out);
     }
-    qsort(out, s->count, sizeof(tb_sens_entry), by_effect);
-    return TB_OK;
+    st = tb_paramsens_fill(ckt, out, out + s->count - tb_paramsens_count(ckt));
+    if (!st)
+        qsort(out, s->count, sizeof(tb_sens_entry), by_effect);
+    return st;
 }
 
 tb_status tb_sensitivity_run(const tb_circuit *ckt, tb_probe *probe, tb_result *res)
 {
-    size_t per = 0;
-    for (size_t e = 0; e < ckt->elem_count; e++)
-        per += ckt->elems[e].kind != TB_EL_V && ckt->elems[e].kind != TB_EL_I;
+    size_t per = tb_sensitivity_count(ckt);
     size_t L = res->nloops, n = probe->mna->n;
     size_t total = L * per;
     res->sens_per_loop = per;
@@ -219,7 +220,7 @@ tb_status tb_sensitivity_run(const tb_circuit *ckt, tb_probe *probe, tb_result *
 
 size_t tb_sensitivity_count(const tb_circuit *ckt)
 {
-    size_t per = 0;
+    size_t per = tb_paramsens_count(ckt);
     for (size_t e = 0; e < ckt->elem_count; e++)
         per += ckt->elems[e].kind != TB_EL_V && ckt->elems[e].kind != TB_EL_I;
     return per;
@@ -239,6 +240,8 @@ tb_status tb_sensitivity_at(const tb_circuit *ckt, tb_probe *probe, size_t l, do
     tb_status st = solve_at(&pt, f);
     if (!st)
         at_dc(ckt, &pt, l, TB_TWO_PI * f, out); /* the same forms hold at any frequency */
+    if (!st)
+        st = tb_paramsens_fill(ckt, out, out + tb_sensitivity_count(ckt) - tb_paramsens_count(ckt));
     tb_free(pt.Y);
     return st;
 }

@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "alloc.h"
+#include "paramdep.h"
 #include "rng.h"
 #include "sensitivity.h"
 #include "sweep.h"
@@ -21,17 +22,35 @@ void tb_spread_options_init(tb_spread_options *opt)
 
 /* ---- scans ------------------------------------------------------------------------ */
 
-static void scan_fill(const void *plan, size_t run, double *values, double *params)
+/* The scan's axes, those on parameters compiled into one re-evaluation. */
+typedef struct {
+    const tb_spread_cards *sc;
+    size_t ntargets;
+    size_t target_axis[TB_SCAN_MAX_AXES]; /* the axis of each parameter target */
+    tb_pplan *pp;                         /* NULL: no axis on a parameter */
+} scan_plan;
+
+/* The parameters take their values first, the element axes after (an element's own axis
+ * wins over a parameter that sets it). */
+static bool scan_fill(const void *self, size_t run, double *values, double *params, double *work)
 {
-    const tb_spread_cards *sc = plan;
+    const scan_plan *sp = self;
+    const tb_spread_cards *sc = sp->sc;
     size_t rest = run;
     for (size_t a = sc->axis_count; a-- > 0;) {
         const tb_scan_axis *axis = &sc->axes[a];
         size_t i = rest % axis->count;
         rest /= axis->count;
-        values[axis->elem] = axis->values[i];
         params[a] = axis->values[i];
     }
+    for (size_t t = 0; t < sp->ntargets; t++)
+        work[t] = params[sp->target_axis[t]];
+    if (sp->pp && !tb_pplan_apply(sp->pp, work, work + sp->ntargets, values))
+        return false;
+    for (size_t a = 0; a < sc->axis_count; a++)
+        if (sc->axes[a].param == SIZE_MAX)
+            values[sc->axes[a].elem] = params[a];
+    return true;
 }
 
 tb_status tb_spread_scan(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag, tb_spreadset **out)
@@ -39,15 +58,26 @@ tb_status tb_spread_scan(const tb_circuit *ckt, const tb_spread_options *opt, tb
     if (!ckt || !opt || !out || !ckt->spread || ckt->spread->axis_count == 0)
         return TB_ERR_USAGE;
     const tb_spread_cards *sc = ckt->spread;
+    scan_plan sp = {.sc = sc};
+    size_t targets[TB_SCAN_MAX_AXES];
     size_t runs = 1;
-    for (size_t a = 0; a < sc->axis_count; a++)
+    for (size_t a = 0; a < sc->axis_count; a++) {
         runs *= sc->axes[a].count;
-    tb_spreadset *set = tb_spreadset_new(TB_SPREADSET_SCAN, runs, sc->axis_count, ckt->loop_count, 0);
-    if (!set)
-        return TB_ERR_NOMEM;
-    for (size_t a = 0; a < sc->axis_count; a++)
-        set->param_names[a] = ckt->elems[sc->axes[a].elem].name;
-    tb_status st = tb_spreadrun_all(ckt, opt, diag, scan_fill, sc, 0, runs, set);
+        if (sc->axes[a].param != SIZE_MAX) {
+            sp.target_axis[sp.ntargets] = a;
+            targets[sp.ntargets++] = sc->axes[a].param;
+        }
+    }
+    tb_status st = sp.ntargets ? tb_pplan_new(ckt->params, targets, sp.ntargets, &sp.pp) : TB_OK;
+    tb_spreadset *set = st ? NULL : tb_spreadset_new(TB_SPREADSET_SCAN, runs, sc->axis_count, ckt->loop_count, 0);
+    st = st ? st : set ? TB_OK : TB_ERR_NOMEM;
+    for (size_t a = 0; !st && a < sc->axis_count; a++)
+        set->param_names[a] = sc->axes[a].param != SIZE_MAX ? ckt->params->q[sc->axes[a].param].label
+                                                            : ckt->elems[sc->axes[a].elem].name;
+    size_t work = sp.ntargets + (sp.pp ? tb_pplan_work(sp.pp) : 0);
+    if (!st)
+        st = tb_spreadrun_all(ckt, opt, diag, scan_fill, &sp, work, 0, runs, set);
+    tb_pplan_free(sp.pp);
     if (st) {
         tb_spreadset_free(set);
         return st;
@@ -58,17 +88,23 @@ tb_status tb_spread_scan(const tb_circuit *ckt, const tb_spread_options *opt, tb
 
 /* ---- dimensions: what varies independently -------------------------------------------- */
 
-/* Every element's rule (the last .spread card naming it) and dimension: each grouped
- * rule's group is one dimension, each element of an ungrouped rule another. Runs are
- * given as a matrix z of runs x dims variates (flat: -1..1, gauss: sigmas, pick: index). */
+/* Every item's rule (the last .spread card naming it) and dimension: each grouped rule's
+ * group is one dimension, each item of an ungrouped rule another. The items are the
+ * elements (0 .. elem_count - 1), then the parameters the cards name (elem_count + k:
+ * quantity targets[k]). Runs are given as a matrix z of runs x dims variates (flat: -1..1,
+ * gauss: sigmas, pick: index). */
 typedef struct {
     const tb_circuit *ckt;
-    const tb_spread_rule **rule; /* per element, or NULL */
-    size_t *dim;                 /* per element, or SIZE_MAX */
+    size_t items;
+    const tb_spread_rule **rule; /* per item, or NULL */
+    size_t *dim;                 /* per item, or SIZE_MAX */
     size_t dims;
-    const tb_spread_rule **dim_rule; /* per dimension: its first element's rule */
-    size_t *dim_elem;            /* per dimension: its first element */
+    const tb_spread_rule **dim_rule; /* per dimension: its first item's rule */
+    size_t *dim_item;            /* per dimension: its first item */
     double *z;                   /* runs * dims */
+    size_t *targets;             /* the parameters' quantities (paramdep.h) */
+    size_t ntargets;
+    tb_pplan *pp;                /* their re-evaluation; NULL without parameters */
 } plan;
 
 static void plan_free(plan *p)
@@ -76,8 +112,24 @@ static void plan_free(plan *p)
     tb_free(p->rule);
     tb_free(p->dim);
     tb_free(p->dim_rule);
-    tb_free(p->dim_elem);
+    tb_free(p->dim_item);
     tb_free(p->z);
+    tb_free(p->targets);
+    tb_pplan_free(p->pp);
+}
+
+/* The netlist's value of item i. */
+static double item_value(const plan *p, size_t i)
+{
+    size_t E = p->ckt->elem_count;
+    return i < E ? p->ckt->elems[i].value : p->ckt->params->q[p->targets[i - E]].value;
+}
+
+/* Item i's name in the tables ("R7", "{X1.gbw}"). */
+static const char *item_name(const plan *p, size_t i)
+{
+    size_t E = p->ckt->elem_count;
+    return i < E ? p->ckt->elems[i].name : p->ckt->params->q[p->targets[i - E]].label;
 }
 
 /* The dimension of group name among those made so far, or SIZE_MAX. */
@@ -89,36 +141,69 @@ static size_t group_dim(const plan *p, const char *group)
     return SIZE_MAX;
 }
 
+/* true when parameter quantity q is named by rule r (a rule on parameters). */
+static bool names_param(const tb_circuit *ckt, const tb_spread_rule *r, size_t q)
+{
+    const tb_pquant *x = &ckt->params->q[q];
+    return r->param && x->full && tb_spreadcard_tunable(ckt, q) && tb_spreadcard_match(r->pattern, x->full);
+}
+
+/* The parameters the rules name, in table order, into p->targets. */
+static tb_status plan_targets(const tb_circuit *ckt, plan *p)
+{
+    size_t count = ckt->params ? ckt->params->count : 0;
+    p->targets = tb_malloc(count ? count : 1, sizeof(size_t));
+    if (!p->targets)
+        return TB_ERR_NOMEM;
+    for (size_t q = 0; q < count; q++) {
+        bool named = false;
+        for (const tb_spread_rule *r = ckt->spread->rules; r && !named; r = r->next)
+            named = names_param(ckt, r, q);
+        if (named)
+            p->targets[p->ntargets++] = q;
+    }
+    return p->ntargets ? tb_pplan_new(ckt->params, p->targets, p->ntargets, &p->pp) : TB_OK;
+}
+
 static tb_status plan_make(const tb_circuit *ckt, plan *p)
 {
-    size_t n = ckt->elem_count ? ckt->elem_count : 1;
     *p = (plan){.ckt = ckt};
+    tb_status st = plan_targets(ckt, p);
+    if (st)
+        return st;
+    size_t E = ckt->elem_count;
+    p->items = E + p->ntargets;
+    size_t n = p->items ? p->items : 1;
     p->rule = tb_calloc(n, sizeof(*p->rule));
     p->dim = tb_malloc(n, sizeof(size_t));
     p->dim_rule = tb_calloc(n, sizeof(*p->dim_rule));
-    p->dim_elem = tb_calloc(n, sizeof(size_t));
-    if (!p->rule || !p->dim || !p->dim_rule || !p->dim_elem)
+    p->dim_item = tb_calloc(n, sizeof(size_t));
+    if (!p->rule || !p->dim || !p->dim_rule || !p->dim_item)
         return TB_ERR_NOMEM;
-    for (const tb_spread_rule *r = ckt->spread->rules; r; r = r->next)
-        for (size_t e = 0; e < ckt->elem_count; e++)
+    for (const tb_spread_rule *r = ckt->spread->rules; r; r = r->next) {
+        for (size_t e = 0; !r->param && e < E; e++)
             if (tb_spreadcard_valued(ckt->elems[e].kind) && tb_spreadcard_match(r->pattern, ckt->elems[e].name))
                 p->rule[e] = r;
-    for (size_t e = 0; e < ckt->elem_count; e++) {
-        p->dim[e] = SIZE_MAX;
-        if (!p->rule[e])
+        for (size_t k = 0; r->param && k < p->ntargets; k++)
+            if (names_param(ckt, r, p->targets[k]))
+                p->rule[E + k] = r;
+    }
+    for (size_t i = 0; i < p->items; i++) {
+        p->dim[i] = SIZE_MAX;
+        if (!p->rule[i])
             continue;
-        size_t d = p->rule[e]->group ? group_dim(p, p->rule[e]->group) : SIZE_MAX;
+        size_t d = p->rule[i]->group ? group_dim(p, p->rule[i]->group) : SIZE_MAX;
         if (d == SIZE_MAX) {
             d = p->dims++;
-            p->dim_rule[d] = p->rule[e];
-            p->dim_elem[d] = e;
+            p->dim_rule[d] = p->rule[i];
+            p->dim_item[d] = i;
         }
-        p->dim[e] = d;
+        p->dim[i] = d;
     }
     return TB_OK;
 }
 
-/* Element e's value at variate z of its dimension. */
+/* An item's value at variate z of its dimension, about its value `nominal`. */
 static double varied(const tb_spread_rule *rule, double nominal, double z)
 {
     if (rule->dist == TB_SPREAD_PICK) {
@@ -128,15 +213,33 @@ static double varied(const tb_spread_rule *rule, double nominal, double z)
     return rule->relative ? nominal * (1.0 + z * rule->width) : nominal + z * rule->width;
 }
 
-static void plan_fill(const void *self, size_t run, double *values, double *params)
+/* The parameters take their values and the elements that follow them are re-evaluated;
+ * then each element's own tolerance applies about the value it now has (docs/spread.md). */
+static bool plan_fill(const void *self, size_t run, double *values, double *params, double *work)
 {
     const plan *p = self;
     const double *z = &p->z[run * p->dims];
-    for (size_t e = 0; e < p->ckt->elem_count; e++)
-        if (p->rule[e])
-            values[e] = varied(p->rule[e], p->ckt->elems[e].value, z[p->dim[e]]);
+    size_t E = p->ckt->elem_count;
+    for (size_t k = 0; k < p->ntargets; k++)
+        work[k] = varied(p->rule[E + k], item_value(p, E + k), z[p->dim[E + k]]);
     for (size_t d = 0; d < p->dims; d++)
-        params[d] = values[p->dim_elem[d]];
+        if (p->dim_item[d] >= E)
+            params[d] = work[p->dim_item[d] - E];
+    if (p->pp && !tb_pplan_apply(p->pp, work, work + p->ntargets, values))
+        return false;
+    for (size_t e = 0; e < E; e++)
+        if (p->rule[e])
+            values[e] = varied(p->rule[e], values[e], z[p->dim[e]]);
+    for (size_t d = 0; d < p->dims; d++)
+        if (p->dim_item[d] < E)
+            params[d] = values[p->dim_item[d]];
+    return true;
+}
+
+/* Workspace plan_fill needs. */
+static size_t plan_work(const plan *p)
+{
+    return p->ntargets + (p->pp ? tb_pplan_work(p->pp) : 0);
 }
 
 /* The variate of dimension d at its low (high false) or high extreme. */
@@ -160,7 +263,7 @@ static double middle(const plan *p, size_t d)
     const tb_spread_rule *r = p->dim_rule[d];
     if (r->dist != TB_SPREAD_PICK)
         return 0;
-    double v = p->ckt->elems[p->dim_elem[d]].value;
+    double v = item_value(p, p->dim_item[d]);
     size_t best = 0;
     for (size_t i = 1; i < r->value_count; i++)
         if (fabs(r->values[i] - v) < fabs(r->values[best] - v))
@@ -174,7 +277,7 @@ static tb_status new_set(const plan *p, tb_spreadset_kind kind, size_t runs, siz
     if (!set)
         return TB_ERR_NOMEM;
     for (size_t d = 0; d < p->dims; d++)
-        set->param_names[d] = p->dim_rule[d]->group ? p->dim_rule[d]->group : p->ckt->elems[p->dim_elem[d]].name;
+        set->param_names[d] = p->dim_rule[d]->group ? p->dim_rule[d]->group : item_name(p, p->dim_item[d]);
     set->dimensions = p->dims;
     *out = set;
     return TB_OK;
@@ -243,14 +346,14 @@ tb_status tb_spread_corners(const tb_circuit *ckt, const tb_spread_options *opt,
         st = new_set(&p, TB_SPREADSET_CORNERS, runs, 0, &set);
     if (!st && !reduced) {
         full_design(&p, runs);
-        st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, 0, runs, set);
+        st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, plan_work(&p), 0, runs, set);
     } else if (!st) {
         set->reduced = true;
         one_at_a_time(&p);
-        st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, 0, first, set);
+        st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, plan_work(&p), 0, first, set);
         size_t used = st ? runs : predicted_corners(&p, set, first);
         if (!st)
-            st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, first, used - first, set);
+            st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, plan_work(&p), first, used - first, set);
         set->runs = used;
     }
     if (set)
@@ -307,7 +410,7 @@ tb_status tb_spread_monte_carlo(const tb_circuit *ckt, const tb_spread_options *
     if (!st) {
         for (size_t r = 0; r < runs; r++)
             draw(&p, opt->seed, r, &p.z[r * p.dims]);
-        st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, 0, runs, set);
+        st = tb_spreadrun_all(ckt, opt, diag, plan_fill, &p, plan_work(&p), 0, runs, set);
     }
     plan_free(&p);
     if (st) {

@@ -10,6 +10,8 @@
 
 #include "alloc.h"
 #include "diag.h"
+#include "paramdep.h"
+#include "suggest.h"
 
 /* ---- the circuit's arena ----------------------------------------------------- */
 
@@ -173,6 +175,38 @@ static const char *intern_token(reader *r, const tb_token *t)
     return tb_circuit_intern(r->ckt, t->ptr, t->len);
 }
 
+/* A target of .spread or .scan: a WORD, or {NAME} for a parameter (blanks inside the braces
+ * ignored). *braced tells which; the name is interned into *out. */
+static tb_status target_name(reader *r, const tb_token *t, bool *braced, const char **out)
+{
+    *braced = t->kind == TB_TOK_EXPR;
+    if (!*braced) {
+        *out = intern_token(r, t);
+        return *out ? TB_OK : TB_ERR_NOMEM;
+    }
+    const char *s = t->ptr + 1;
+    size_t len = t->len >= 2 && t->ptr[t->len - 1] == '}' ? t->len - 2 : 0;
+    while (len && (*s == ' ' || *s == '\t')) {
+        s++;
+        len--;
+    }
+    while (len && (s[len - 1] == ' ' || s[len - 1] == '\t'))
+        len--;
+    for (size_t i = 0; i < len; i++)
+        if (!(tb_lex_lower(s[i]) >= 'a' && tb_lex_lower(s[i]) <= 'z') && !(s[i] >= '0' && s[i] <= '9') &&
+            s[i] != '_' && s[i] != '.' && s[i] != '*' && s[i] != '?')
+            len = 0;
+    if (len == 0)
+        return fail(r, t, "expected a parameter name or pattern in braces ({cl}, {X1.gbw}, {X*.gbw})");
+    *out = tb_circuit_intern(r->ckt, s, len);
+    return *out ? TB_OK : TB_ERR_NOMEM;
+}
+
+static bool is_target(const tb_token *t)
+{
+    return t->kind == TB_TOK_WORD || t->kind == TB_TOK_EXPR;
+}
+
 /* [group = NAME] then the end of the card. */
 static tb_status group_tail(reader *r, const char **group)
 {
@@ -220,11 +254,11 @@ static tb_status add_rule(reader *r, const tb_spread_rule *rule)
 static tb_status spread_card(reader *r)
 {
     size_t first = r->at;
-    while (r->at < r->count && r->tok[r->at].kind == TB_TOK_WORD && !is_word(current(r), "flat") &&
+    while (r->at < r->count && is_target(&r->tok[r->at]) && !is_word(current(r), "flat") &&
            !is_word(current(r), "gauss") && !is_word(current(r), "pick"))
         r->at++;
     if (r->at == first)
-        return expected(r, "an element name or pattern (R7, C*, X1.*)");
+        return expected(r, "an element name or pattern (R7, C*, X1.*) or a {parameter}");
     size_t patterns = r->at - first;
     tb_spread_rule rule = {.loc = loc_at(r, r->keyword)};
     const tb_token *kind = current(r);
@@ -242,9 +276,10 @@ static tb_status spread_card(reader *r)
     if (!st)
         st = group_tail(r, &rule.group);
     for (size_t i = first; !st && i < first + patterns; i++) {
-        rule.pattern = intern_token(r, &r->tok[i]);
+        st = target_name(r, &r->tok[i], &rule.param, &rule.pattern);
         rule.pattern_loc = loc_at(r, &r->tok[i]);
-        st = rule.pattern ? add_rule(r, &rule) : TB_ERR_NOMEM;
+        if (!st)
+            st = add_rule(r, &rule);
     }
     return st;
 }
@@ -291,17 +326,16 @@ static tb_status scan_card(reader *r)
         return fail(r, r->keyword, "a third .scan card: at most %d elements are scanned together (the first two are "
                     "on lines %d and %d)", TB_SCAN_MAX_AXES, cards->axes[0].loc.line, cards->axes[1].loc.line);
     const tb_token *target = current(r);
-    if (!target || target->kind != TB_TOK_WORD)
-        return expected(r, "an element name");
-    tb_scan_axis axis = {.loc = loc_at(r, r->keyword), .target_loc = loc_at(r, target)};
+    if (!target || !is_target(target))
+        return expected(r, "an element name or a {parameter}");
+    tb_scan_axis axis = {.loc = loc_at(r, r->keyword), .target_loc = loc_at(r, target), .param = SIZE_MAX};
+    tb_status named = target_name(r, target, &axis.braced, &axis.target);
+    if (named)
+        return named;
     for (size_t a = 0; a < cards->axis_count; a++)
-        if (tb_name_eq_n(cards->axes[a].target, target->ptr, target->len) &&
-            strlen(cards->axes[a].target) == target->len)
+        if (tb_name_eq(cards->axes[a].target, axis.target) && cards->axes[a].braced == axis.braced)
             return fail(r, target, "%s is scanned twice (first on line %d)", cards->axes[a].target,
                         cards->axes[a].loc.line);
-    axis.target = intern_token(r, target);
-    if (!axis.target)
-        return TB_ERR_NOMEM;
     r->at++;
     const tb_token *kind = current(r);
     tb_status st;
@@ -380,6 +414,44 @@ static bool must_stay_positive(tb_elem_kind kind)
     return kind == TB_EL_R || kind == TB_EL_C || kind == TB_EL_L;
 }
 
+bool tb_spreadcard_value_ok(tb_elem_kind kind, double nominal, double v)
+{
+    if (!isfinite(v))
+        return false;
+    if (must_stay_positive(kind))
+        return v * nominal > 0;
+    return kind != TB_EL_K || (v > 0 && v <= 1);
+}
+
+const char *tb_spreadcard_param_name(tb_circuit *ckt, size_t q)
+{
+    tb_pquant *x = &ckt->params->q[q];
+    if (x->full)
+        return x->full;
+    size_t plen = x->prefix ? strlen(x->prefix) + 1 : 0;
+    size_t nlen = strlen(x->name);
+    char *buf = tb_malloc(plen + nlen + 3, 1);
+    if (!buf)
+        return NULL;
+    buf[0] = '{';
+    if (plen) {
+        memcpy(buf + 1, x->prefix, plen - 1);
+        buf[plen] = '.';
+    }
+    memcpy(buf + 1 + plen, x->name, nlen);
+    buf[1 + plen + nlen] = '}';
+    x->label = tb_circuit_intern(ckt, buf, plen + nlen + 2);
+    x->full = x->label ? tb_circuit_intern(ckt, buf + 1, plen + nlen) : NULL;
+    tb_free(buf);
+    return x->full;
+}
+
+bool tb_spreadcard_tunable(const tb_circuit *ckt, size_t q)
+{
+    const tb_params *P = ckt->params;
+    return P && q < P->count && P->q[q].name && P->q[q].sets && !P->q[q].fixed;
+}
+
 static tb_status resolve_error(const tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, const char *fmt, ...)
     __attribute__((format(printf, 4, 5)));
 static tb_status resolve_error(const tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, const char *fmt, ...)
@@ -395,6 +467,102 @@ static tb_status resolve_error(const tb_circuit *ckt, tb_diag *diag, const tb_lo
     return st ? TB_ERR_NOMEM : TB_ERR_INPUT;
 }
 
+static bool has_wildcard(const char *pattern)
+{
+    return strpbrk(pattern, "*?") != NULL;
+}
+
+/* Parameter q may be changed by runs; its names are interned for the reports. */
+static tb_status check_tunable(tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, const char *card, size_t q)
+{
+    const char *name = tb_spreadcard_param_name(ckt, q);
+    if (!name)
+        return TB_ERR_NOMEM;
+    const tb_pquant *x = &ckt->params->q[q];
+    if (x->fixed)
+        return resolve_error(ckt, diag, loc,
+                             "parameter '%s' in %s also sets a value that a run cannot change (%s:%d): only element "
+                             "values (R, C, L, E, G, F, H, K) follow a parameter in runs, not a source's value, a "
+                             "device's key or a directive's number", name, card, x->fixed_loc.file, x->fixed_loc.line);
+    if (!x->sets)
+        return resolve_error(ckt, diag, loc, "parameter '%s' in %s sets no element value: a run that changes it would "
+                             "change nothing", name, card);
+    return TB_OK;
+}
+
+/* "'C9' in .spread names no element with a value ... (did you mean 'C1'?)": the closest
+ * element with a value or parameter (with elements, or params, or both). */
+static tb_status no_such(tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, const char *card, const char *name,
+                         bool elements, bool params)
+{
+    tb_suggester sg;
+    tb_suggest_init(&sg, name);
+    for (size_t e = 0; elements && e < ckt->elem_count; e++)
+        if (tb_spreadcard_valued(ckt->elems[e].kind))
+            tb_suggest_offer(&sg, ckt->elems[e].name);
+    const tb_params *P = ckt->params;
+    for (size_t q = 0; params && P && q < P->count; q++) {
+        if (!tb_spreadcard_tunable(ckt, q))
+            continue;
+        const char *full = tb_spreadcard_param_name(ckt, q);
+        if (!full)
+            return TB_ERR_NOMEM;
+        tb_suggest_offer(&sg, full);
+    }
+    const char *best = has_wildcard(name) ? NULL : tb_suggest_best(&sg);
+    bool best_param = best && (!elements || !tb_circuit_find_element(ckt, best, &(size_t){0}));
+    char hint[120] = "";
+    if (best)
+        snprintf(hint, sizeof hint, " (did you mean '%s%s%s'?)", best_param ? "{" : "", best, best_param ? "}" : "");
+    if (!elements)
+        return resolve_error(ckt, diag, loc, "'{%s}' in %s names no parameter that sets an element value%s", name, card,
+                             hint);
+    return resolve_error(ckt, diag, loc, "'%s' in %s names no element with a value (R, C, L, E, G, F, H or K)%s%s",
+                         name, card, params ? " or parameter" : "", hint);
+}
+
+/* A bare name that is a parameter and no element is the parameter; one that is both is an
+ * error. *param: the name is a parameter (its quantity in *q). */
+static tb_status bare_name(tb_circuit *ckt, tb_diag *diag, const tb_loc *loc, const char *card, const char *name,
+                           bool *param, size_t *q)
+{
+    size_t e = 0;
+    bool element = tb_circuit_find_element(ckt, name, &e) && tb_spreadcard_valued(ckt->elems[e].kind);
+    *param = !has_wildcard(name) && tb_params_find(ckt, name, q);
+    if (element && *param) {
+        const char *full = tb_spreadcard_param_name(ckt, *q);
+        if (!full)
+            return TB_ERR_NOMEM;
+        return resolve_error(ckt, diag, loc, "'%s' in %s names both the element %s and the parameter %s: write {%s} "
+                             "for the parameter, or rename one of them", name, card, ckt->elems[e].name, full, full);
+    }
+    if (!element && !*param)
+        return no_such(ckt, diag, loc, card, name, true, !has_wildcard(name));
+    return TB_OK;
+}
+
+/* A rule on parameters: an exact name must be a parameter that runs may change; a pattern
+ * must match at least one such parameter. */
+static tb_status resolve_param_rule(tb_circuit *ckt, const tb_spread_rule *rule, tb_diag *diag)
+{
+    size_t q = 0;
+    if (!has_wildcard(rule->pattern)) {
+        if (!tb_params_find(ckt, rule->pattern, &q))
+            return no_such(ckt, diag, &rule->pattern_loc, ".spread", rule->pattern, false, true);
+        return check_tunable(ckt, diag, &rule->pattern_loc, ".spread", q);
+    }
+    size_t matched = 0;
+    for (q = 0; q < ckt->params->count; q++) {
+        if (!tb_spreadcard_tunable(ckt, q))
+            continue;
+        const char *full = tb_spreadcard_param_name(ckt, q);
+        if (!full)
+            return TB_ERR_NOMEM;
+        matched += tb_spreadcard_match(rule->pattern, full);
+    }
+    return matched ? TB_OK : no_such(ckt, diag, &rule->pattern_loc, ".spread", rule->pattern, false, true);
+}
+
 /* The lowest value a rule can give element e (its corner below, or the least listed value). */
 static double lowest(const tb_spread_rule *rule, double value)
 {
@@ -408,9 +576,22 @@ static double lowest(const tb_spread_rule *rule, double value)
     return rule->relative ? fabs(value) * (1.0 - reach) : fabs(value) - reach;
 }
 
-static tb_status resolve_rule(const tb_circuit *ckt, const tb_spread_rule *rule, tb_diag *diag)
+static tb_status check_groups(const tb_circuit *ckt, const tb_spread_rule *rule, tb_diag *diag);
+
+static tb_status resolve_rule(tb_circuit *ckt, tb_spread_rule *rule, tb_diag *diag)
 {
     size_t matched = 0;
+    size_t q = 0;
+    bool param = false;
+    tb_status st = rule->param ? TB_OK
+                               : has_wildcard(rule->pattern) ? TB_OK
+                               : bare_name(ckt, diag, &rule->pattern_loc, ".spread", rule->pattern, &param, &q);
+    if (st)
+        return st;
+    rule->param = rule->param || param;
+    st = rule->param ? resolve_param_rule(ckt, rule, diag) : TB_OK;
+    if (st || rule->param)
+        return st ? st : check_groups(ckt, rule, diag);
     for (size_t e = 0; e < ckt->elem_count; e++) {
         const tb_element *el = &ckt->elems[e];
         if (!tb_spreadcard_valued(el->kind) || !tb_spreadcard_match(rule->pattern, el->name))
@@ -425,6 +606,12 @@ static tb_status resolve_rule(const tb_circuit *ckt, const tb_spread_rule *rule,
         return resolve_error(ckt, diag, &rule->pattern_loc,
                              "'%s' in .spread names no element with a value (R, C, L, E, G, F, H or K)",
                              rule->pattern);
+    return check_groups(ckt, rule, diag);
+}
+
+/* The cards of one group share one draw: one distribution, lists of one length. */
+static tb_status check_groups(const tb_circuit *ckt, const tb_spread_rule *rule, tb_diag *diag)
+{
     for (const tb_spread_rule *o = ckt->spread->rules; o != rule; o = o->next) {
         if (!rule->group || !o->group || !tb_name_eq(rule->group, o->group))
             continue;
@@ -442,12 +629,57 @@ static tb_status resolve_rule(const tb_circuit *ckt, const tb_spread_rule *rule,
     return TB_OK;
 }
 
-static tb_status resolve_axis(const tb_circuit *ckt, tb_scan_axis *axis, tb_diag *diag)
+/* Every value of a parameter's .scan gives every element it sets a value a run can analyse. */
+static tb_status check_scan_values(const tb_circuit *ckt, const tb_scan_axis *axis, size_t q, tb_diag *diag)
+{
+    tb_pplan *pl = NULL;
+    tb_status st = tb_pplan_new(ckt->params, &q, 1, &pl);
+    size_t n = ckt->elem_count ? ckt->elem_count : 1;
+    double *values = st ? NULL : tb_malloc(n, sizeof(double));
+    double *work = values ? tb_malloc(tb_pplan_work(pl) + 1, sizeof(double)) : NULL;
+    st = st ? st : work ? TB_OK : TB_ERR_NOMEM;
+    for (size_t i = 0; !st && i < axis->count; i++) {
+        for (size_t e = 0; e < ckt->elem_count; e++)
+            values[e] = ckt->elems[e].value;
+        bool ok = tb_pplan_apply(pl, &axis->values[i], work, values);
+        for (size_t e = 0; ok && e < ckt->elem_count; e++) {
+            const tb_element *el = &ckt->elems[e];
+            if (!tb_spreadcard_value_ok(el->kind, el->value, values[e]))
+                st = resolve_error(ckt, diag, &axis->target_loc, "at %s = %g, %s (%s) would be %g: out of what a run "
+                                   "can analyse", ckt->params->q[q].full, axis->values[i], el->name,
+                                   tb_elem_kind_word(el->kind), values[e]);
+        }
+        if (!ok && !st)
+            st = resolve_error(ckt, diag, &axis->target_loc, "at %s = %g, an element value that follows it cannot be "
+                               "evaluated (a square root of a negative number, a division by zero)",
+                               ckt->params->q[q].full, axis->values[i]);
+    }
+    tb_free(values);
+    tb_free(work);
+    tb_pplan_free(pl);
+    return st;
+}
+
+static tb_status resolve_axis(tb_circuit *ckt, tb_scan_axis *axis, tb_diag *diag)
 {
     size_t e = 0;
-    if (!tb_circuit_find_element(ckt, axis->target, &e) || !tb_spreadcard_valued(ckt->elems[e].kind))
-        return resolve_error(ckt, diag, &axis->target_loc,
-                             "'%s' in .scan names no element with a value (R, C, L, E, G, F, H or K)", axis->target);
+    size_t q = 0;
+    bool param = axis->braced;
+    if (param && has_wildcard(axis->target))
+        return resolve_error(ckt, diag, &axis->target_loc, "a .scan changes one parameter: {%s} is a pattern",
+                             axis->target);
+    if (param && !tb_params_find(ckt, axis->target, &q))
+        return no_such(ckt, diag, &axis->target_loc, ".scan", axis->target, false, true);
+    tb_status st = param ? TB_OK : bare_name(ckt, diag, &axis->target_loc, ".scan", axis->target, &param, &q);
+    if (!st && param)
+        st = check_tunable(ckt, diag, &axis->target_loc, ".scan", q);
+    if (!st && param)
+        st = check_scan_values(ckt, axis, q, diag);
+    if (st || param) {
+        axis->param = q;
+        return st;
+    }
+    tb_circuit_find_element(ckt, axis->target, &e);
     axis->elem = e;
     if (must_stay_positive(ckt->elems[e].kind))
         for (size_t i = 0; i < axis->count; i++)
@@ -461,10 +693,14 @@ tb_status tb_spreadcard_resolve(tb_circuit *ckt, tb_diag *diag)
 {
     if (!ckt)
         return TB_ERR_USAGE;
+    tb_params_settle(ckt->params);
+    for (size_t q = 0; ckt->params && q < ckt->params->count; q++) /* names for the reports */
+        if (tb_spreadcard_tunable(ckt, q) && !tb_spreadcard_param_name(ckt, q))
+            return TB_ERR_NOMEM;
     if (!ckt->spread)
         return TB_OK;
     tb_status result = TB_OK;
-    for (const tb_spread_rule *rule = ckt->spread->rules; rule; rule = rule->next) {
+    for (tb_spread_rule *rule = ckt->spread->rules; rule; rule = rule->next) {
         tb_status st = resolve_rule(ckt, rule, diag);
         if (st == TB_ERR_NOMEM)
             return st;

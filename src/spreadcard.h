@@ -32,6 +32,8 @@ typedef struct tb_spread_rule {
     const char *group;     /* group name, interned; NULL: every element draws on its own */
     tb_loc loc;            /* the card */
     tb_loc pattern_loc;
+    bool param;            /* the pattern names parameters: written {NAME} or {PATTERN}, or a bare
+                            * name that is a parameter and no element (set by tb_spreadcard_resolve) */
 } tb_spread_rule;
 
 /* How a .scan axis spaces its values. */
@@ -49,6 +51,8 @@ typedef struct {
     size_t count;
     tb_loc loc;
     tb_loc target_loc;
+    bool braced;           /* written {NAME}: a parameter */
+    size_t param;          /* the parameter's quantity (paramdep.h), SIZE_MAX for an element (resolve) */
 } tb_scan_axis;
 
 /* Where a card is wrong and what was expected. */
@@ -77,8 +81,8 @@ tb_status tb_spreadcard_read(tb_circuit *ckt, const char *file, const tb_token *
 bool tb_spreadcard_is(const tb_token *keyword);
 
 /* After tb_circuit_finish: every .spread pattern must name at least one element with a
- * value (R C L E G F H K) and every .scan target must be one. Located errors go to diag.
- * Errors: TB_ERR_INPUT, TB_ERR_NOMEM. */
+ * value (R C L E G F H K) or parameter that sets one, and every .scan target must be one
+ * (docs/spread.md, "Parameters"). Located errors go to diag. Errors: TB_ERR_INPUT, TB_ERR_NOMEM. */
 tb_status tb_spreadcard_resolve(tb_circuit *ckt, tb_diag *diag);
 
 /* true when name matches pattern (* any run, ? one character; ASCII case ignored). */
@@ -86,5 +90,18 @@ bool tb_spreadcard_match(const char *pattern, const char *name);
 
 /* true for the element kinds whose value a .spread or .scan card may change. */
 bool tb_spreadcard_valued(tb_elem_kind kind);
+
+/* true when a run may analyse an element of this kind at value v: finite, a resistor,
+ * capacitor or inductor of the sign of its nominal value and not zero, a coupling within
+ * (0, 1] (a parameter may take an element there). */
+bool tb_spreadcard_value_ok(tb_elem_kind kind, double nominal, double v);
+
+/* The parameter q's hierarchical name ("cl", "X1.gbw"; quantity q of ckt->params,
+ * paramdep.h), interned in ckt with its label ("{cl}"); NULL when out of memory. */
+const char *tb_spreadcard_param_name(tb_circuit *ckt, size_t q);
+
+/* true when parameter quantity q (paramdep.h) may be changed by a run: it sets an element
+ * value and nothing a run cannot change. */
+bool tb_spreadcard_tunable(const tb_circuit *ckt, size_t q);
 
 #endif

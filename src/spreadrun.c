@@ -17,6 +17,7 @@ typedef struct {
     const tb_options *opt;
     tb_spread_fill fill;
     const void *plan;
+    size_t work;
     tb_spreadset *set;
     size_t first, count, lane, lanes;
     tb_status st;
@@ -175,6 +176,16 @@ static tb_status one_run(const worker *w, const tb_circuit *copy, size_t r, tb_f
     return st;
 }
 
+/* Element values a run may analyse (a parameter may have taken one out of range). */
+static bool values_ok(const tb_circuit *ckt, const double *values)
+{
+    for (size_t e = 0; e < ckt->elem_count; e++)
+        if (values[e] != ckt->elems[e].value &&
+            !tb_spreadcard_value_ok(ckt->elems[e].kind, ckt->elems[e].value, values[e]))
+            return false;
+    return true;
+}
+
 static void *work(void *arg)
 {
     worker *w = arg;
@@ -182,14 +193,17 @@ static void *work(void *arg)
     size_t n = ckt->elem_count ? ckt->elem_count : 1;
     tb_element *elems = tb_malloc(n, sizeof(tb_element));
     double *values = tb_malloc(n, sizeof(double));
+    double *scratch = tb_malloc(w->work + 1, sizeof(double));
     tb_figure_value *all = tb_calloc((w->set->loops ? w->set->loops : 1) * tb_figure_count(), sizeof(tb_figure_value));
-    w->st = elems && values && all ? TB_OK : TB_ERR_NOMEM;
+    w->st = elems && values && scratch && all ? TB_OK : TB_ERR_NOMEM;
     tb_circuit copy = *ckt; /* the same circuit but for the element values */
     copy.elems = elems;
     for (size_t r = w->first + w->lane; !w->st && r < w->first + w->count; r += w->lanes) {
         for (size_t e = 0; e < ckt->elem_count; e++)
             values[e] = ckt->elems[e].value;
-        w->fill(w->plan, r, values, &w->set->param_values[r * w->set->params]);
+        if (!w->fill(w->plan, r, values, &w->set->param_values[r * w->set->params], scratch) ||
+            !values_ok(ckt, values))
+            continue; /* the row stays TB_RUN_ERROR */
         memcpy(elems, ckt->elems, ckt->elem_count * sizeof(tb_element));
         for (size_t e = 0; e < ckt->elem_count; e++)
             elems[e].value = values[e];
@@ -197,6 +211,7 @@ static void *work(void *arg)
     }
     tb_free(elems);
     tb_free(values);
+    tb_free(scratch);
     tb_free(all);
     return NULL;
 }
@@ -226,7 +241,7 @@ static size_t lanes_for(unsigned jobs, size_t count)
 }
 
 tb_status tb_spreadrun_all(const tb_circuit *ckt, const tb_spread_options *opt, tb_diag *diag, tb_spread_fill fill,
-                           const void *plan, size_t first, size_t count, tb_spreadset *set)
+                           const void *plan, size_t work_size, size_t first, size_t count, tb_spreadset *set)
 {
     tb_options one = opt->analysis;
     one.jobs = 1;
@@ -250,7 +265,7 @@ tb_status tb_spreadrun_all(const tb_circuit *ckt, const tb_spread_options *opt, 
     pthread_t thread[TB_SWEEP_MAX_LANES];
     bool started[TB_SWEEP_MAX_LANES] = {false};
     for (size_t l = 0; l < lanes; l++) {
-        w[l] = (worker){ckt, base, &one, fill, plan, set, first, count, l, lanes, TB_OK};
+        w[l] = (worker){ckt, base, &one, fill, plan, work_size, set, first, count, l, lanes, TB_OK};
         if (l > 0)
             started[l] = pthread_create(&thread[l], NULL, work, &w[l]) == 0;
     }

@@ -153,15 +153,24 @@ size_t tb_spreadset_passed(const tb_spreadset *set, size_t *analysed)
 static bool relative_spread(const tb_spreadset *set, const double *x, size_t stride, bool A, size_t i, double *out)
 {
     double complex sum = 0;
+    double complex first = 0;
+    bool same = true; /* every run the same value: no spread (the mean would differ by rounding) */
     double sum2 = 0;
     size_t n = 0;
     for (size_t r = 0; r < set->runs; r++)
         if (set->status[r] != TB_RUN_ERROR) {
-            sum += A ? set->A[r * set->probes.count + i] : x[r * stride];
+            double complex v = A ? set->A[r * set->probes.count + i] : x[r * stride];
+            first = n ? first : v;
+            same = same && v == first;
+            sum += v;
             n++;
         }
     if (n < 2 || cabs(sum) == 0)
         return false;
+    if (same) {
+        *out = 0;
+        return true;
+    }
     double complex mean = sum / (double)n;
     for (size_t r = 0; r < set->runs; r++)
         if (set->status[r] != TB_RUN_ERROR) {

@@ -325,7 +325,7 @@ fi
 # the same bytes for any --jobs, usage errors
 sp=docs/examples/spread_buffer.net
 expect spread-scan 0 $tb spread "$sp" --scan
-has spread-scan out "scan: 9 runs over 1 element"
+has spread-scan out "scan: 9 runs over 1 axis"
 has spread-scan out "caution: tbeta is a small-signal, linear analysis"
 expect spread-corners 1 $tb spread "$sp" --corners --json
 if /usr/bin/python3 -c 'import json,sys; d=json.load(open(sys.argv[1])); assert d["kind"] == "corners" and len(d["runs"]) == 257' "$tmp/out"; then
@@ -376,7 +376,7 @@ has report-spread out "scan: 9 runs over 1 element"
 has report-spread out "corners: 8 independent dimensions at their extremes, 257 runs"
 has report-spread out "  PM deg     57.06        21.431 (252)           79.04 (5)              lowest"
 has report-spread out "Monte Carlo: 30 samples, seed 3, 8 independent draws"
-has report-spread out "sensitivities at 1.4MHz (adjoint; per 1 % increase of each element)"
+has report-spread out "sensitivities at 1.4MHz (adjoint; per 1 % increase of each element or parameter)"
 has report-spread out "at 1.4MHz |T| is set by G2 (+1 %/%), E1 (+1 %/%) and G1 (+1 %/%);"
 has report-spread out "at DC |T| is set by G2 (+1 %/%), R2 (+1 %/%) and E1 (+1 %/%); no element moves its phase"
 cat "$tmp/out" >>"$tmp/all"
