@@ -372,7 +372,7 @@ has spread-check-fail out "G1.corners.phase_margin_deg is 21.4313 deg, expected 
 # the numbers themselves are checked by tests/ref/spread_report_check.py
 expect report-spread 0 $tb report "$sp" --samples 30 --seed 3 --sens-at 1.4meg,0
 has report-spread out "spread over the netlist's .scan and .spread cards"
-has report-spread out "scan: 9 runs over 1 element"
+has report-spread out "scan: 9 runs over 1 axis"
 has report-spread out "corners: 8 independent dimensions at their extremes, 257 runs"
 has report-spread out "  PM deg     57.06        21.431 (252)           79.04 (5)              lowest"
 has report-spread out "Monte Carlo: 30 samples, seed 3, 8 independent draws"
