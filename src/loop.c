@@ -138,8 +138,9 @@ static bool w0_needs_step(const tb_mna *mna, const double *Mx, double omega, tb_
 {
     if (cabs(q) <= TB_LOOP_CHECK_T * cabs(1.0 - q))
         return false;
+    double complex scale = 1.0 / (1.0 - q);
     for (size_t i = 0; i < mna->n; i++)
-        w0[i] = w[i] / (1.0 - q);
+        w0[i] = w[i] * scale;
     double berr = tb_mna_residual0_berr(mna, Mx, omega, lv, &lv->u, w0, res, work->scale, work->scale + mna->n);
     return !(berr <= TB_LOOP_BERR);
 }

@@ -488,21 +488,25 @@ double tb_mna_residual0_berr(const tb_mna *mna, const double *Mx, double omega, 
     for (int i = 0; i < r->count; i++)
         D[r->idx[i]] += fabs(r->coef[i]);
     double xmax = 0;
+    double *yr = (double *)y; /* (re, im) pairs: real arithmetic, no complex-multiply calls */
     for (size_t j = 0; j < n; j++) {
-        double complex xj = x[j];
-        double aj = abs1(xj);
-        xmax = fmax(xmax, aj);
+        double xr = creal(x[j]), xi = cimag(x[j]);
+        double aj = fabs(xr) + fabs(xi);
+        xmax = aj > xmax ? aj : xmax;
         bool own_col = svec_coef(&lv->v, j) != 0;
         for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++) {
-            double complex m = CMPLX(Mx[2 * k], Mx[2 * k + 1]);
+            double mr = Mx[2 * k], mi = Mx[2 * k + 1];
             for (int o = 0; own_col && o < lv->own_count; o++)
-                if (lv->own_pos[o] == (size_t)k)
-                    m = CMPLX(lv->own_g0[o], omega * mna->Cx[k]);
+                if (lv->own_pos[o] == (size_t)k) {
+                    mr = lv->own_g0[o];
+                    mi = omega * mna->Cx[k];
+                }
             size_t i = (size_t)mna->Ai[k];
-            double am = abs1(m);
-            y[i] -= m * xj;
+            double am = fabs(mr) + fabs(mi);
+            yr[2 * i] -= mr * xr - mi * xi;
+            yr[2 * i + 1] -= mr * xi + mi * xr;
             D[i] += am * aj;
-            N[i] = fmax(N[i], am);
+            N[i] = am > N[i] ? am : N[i];
         }
     }
     /* rows where |M0||x| + |r| is at rounding level of the row's largest entry times
@@ -512,8 +516,8 @@ double tb_mna_residual0_berr(const tb_mna *mna, const double *Mx, double omega, 
     for (size_t i = 0; i < n; i++) {
         double scale = D[i] > small * N[i] * xmax ? D[i] : D[i] + N[i] * xmax;
         double ri = abs1(y[i]);
-        if (ri > 0)
-            omega_b = scale > 0 ? fmax(omega_b, ri / scale) : INFINITY;
+        if (ri > scale * omega_b || isnan(ri)) /* a division only where the maximum grows */
+            omega_b = scale > 0 && !isnan(ri) ? ri / scale : INFINITY;
     }
     return omega_b;
 }

@@ -180,11 +180,12 @@ static double pivot_ratio(const tb_solver *s, const klu_numeric *numeric)
     const double *U = numeric->Udiag;
     double lo = INFINITY, hi = 0;
     for (size_t i = 0; i < s->mna->n; i++) {
-        double m = fmax(fabs(U[2 * i]), fabs(U[2 * i + 1]));
-        if (isnan(U[2 * i]) || isnan(U[2 * i + 1]))
-            return 0; /* fmax and fmin would pass over it */
-        lo = fmin(lo, m);
-        hi = fmax(hi, m);
+        double re = fabs(U[2 * i]), im = fabs(U[2 * i + 1]);
+        if (!(re <= INFINITY && im <= INFINITY))
+            return 0; /* NaN, which the comparisons below would pass over */
+        double m = re > im ? re : im;
+        lo = m < lo ? m : lo;
+        hi = m > hi ? m : hi;
     }
     double r = lo / hi;
     return r >= 0 && r <= 1 ? r : 0; /* n = 0, a zero pivot, or NaN */
