@@ -23,7 +23,7 @@ struct tb_loop_work {
     double complex *res;  /* 2 * loops columns: residuals, then corrections */
     refinement *pending;  /* 2 * loops */
     double *scale;        /* 2 * n: the backward error's row scales */
-    bool *w0_refined;     /* loops: T of loop l comes from a refined w0 */
+    bool *refined;        /* 2 * loops: A0 of loop l comes from a refined x0 (2l), T from a refined w0 (2l + 1) */
 };
 
 tb_status tb_loop_work_new(const tb_mna *mna, tb_loop_work **out)
@@ -38,8 +38,8 @@ tb_status tb_loop_work_new(const tb_mna *mna, tb_loop_work **out)
     w->res = tb_malloc(2 * w->loops * w->n, sizeof(double complex));
     w->pending = tb_malloc(2 * w->loops, sizeof(refinement));
     w->scale = tb_malloc(2 * w->n, sizeof(double));
-    w->w0_refined = tb_calloc(w->loops ? w->loops : 1, sizeof(bool));
-    if (!w->rhs || !w->vec0 || !w->res || !w->pending || !w->scale || !w->w0_refined) {
+    w->refined = tb_calloc(w->loops ? 2 * w->loops : 1, sizeof(bool));
+    if (!w->rhs || !w->vec0 || !w->res || !w->pending || !w->scale || !w->refined) {
         tb_loop_work_free(w);
         return TB_ERR_NOMEM;
     }
@@ -56,7 +56,7 @@ void tb_loop_work_free(tb_loop_work *work)
     tb_free(work->res);
     tb_free(work->pending);
     tb_free(work->scale);
-    tb_free(work->w0_refined);
+    tb_free(work->refined);
     tb_free(work);
 }
 
@@ -113,19 +113,22 @@ static void evaluate(const tb_mna *mna, const tb_loopvec *lv, const double compl
     pt->a = pt->A_inf * pt->T;
 }
 
-/* Whether A0 = c'x0 from Sherman-Morrison, x0 = x + alpha w with alpha = k v'x/(1 - q),
- * already holds to the refinement's own goal (TB_LOOP_CONVERGED relative, above the noise
- * floor), so that a step of refinement would not move it: its rounding error is bounded
- * by TB_LOOP_ROUNDING times the terms it is formed from, S = |c'x| + |alpha c'w|, grown by
- * 1 + |q|/|1 - q| (alpha's error, from 1 - q formed out of q). A0 much smaller than S
- * (a cancellation: large T, or A0 = 0) is refined. */
-static bool x0_is_accurate(const tb_mna *mna, const tb_loopvec *lv, const double complex *x,
-                           const double complex *w, double complex q, const double complex *x0, double noise)
+/* A0 = c'x0 from Sherman-Morrison, x0 = x + alpha w with alpha = k v'x/(1 - q), formed
+ * from the two scalars c'x and c'w, into *A0; true when it already holds to the refinement's
+ * own goal (TB_LOOP_CONVERGED relative, above the noise floor), so that a step of refinement
+ * would not move it: its rounding error is bounded by TB_LOOP_ROUNDING times the terms it is
+ * formed from, S = |c'x| + |alpha c'w|, grown by 1 + |q|/|1 - q| (alpha's error, from 1 - q
+ * formed out of q). A0 much smaller than S (a cancellation: large T, or A0 = 0) is refined,
+ * and only then is the vector x0 formed. */
+static bool A0_is_accurate(const tb_mna *mna, const tb_loopvec *lv, const double complex *x,
+                           const double complex *w, double complex q, double noise, double complex *A0)
 {
     double complex alpha = lv->k * tb_svec_dot(&lv->v, x) / (1.0 - q);
-    double S = cabs(tb_svec_dot(&mna->c, x)) + cabs(alpha * tb_svec_dot(&mna->c, w));
+    double complex cx = tb_svec_dot(&mna->c, x), cw = alpha * tb_svec_dot(&mna->c, w);
+    double S = cabs(cx) + cabs(cw);
     double bound = TB_LOOP_ROUNDING * S * (1.0 + cabs(q) / cabs(1.0 - q));
-    return bound <= TB_LOOP_CONVERGED * cabs(tb_svec_dot(&mna->c, x0)) + noise;
+    *A0 = cx + cw;
+    return bound <= TB_LOOP_CONVERGED * cabs(*A0) + noise;
 }
 
 /* Whether w0 = w/(1 - q) = M0^-1 u from the rank-one update may have lost digits of T:
@@ -148,26 +151,29 @@ static bool w0_needs_step(const tb_mna *mna, const double *Mx, double omega, tb_
 /* Queues the M0 vectors of loop l: x0 when A0 exists, is not nil by structure and its
  * formula may have lost digits, w0 when its backward error says T did. */
 static size_t start_vectors(const tb_mna *mna, const double *Mx, double omega, tb_loop_work *work, size_t l,
-                            const tb_point *pt, size_t count)
+                            tb_point *pt, size_t count)
 {
     size_t n = mna->n;
     const tb_loopvec *lv = &mna->loops[l];
     const double complex *w = work->rhs + (l + 1) * n;
     double complex q = lv->k * tb_svec_dot(&lv->v, w);
-    work->w0_refined[l] = false;
+    work->refined[2 * l] = false;
+    work->refined[2 * l + 1] = false;
     if (pt->flags & TB_PT_T_INF)
         return count;
     if (mna->has_io && !lv->feed_nil) {
         double complex *x0 = work->vec0 + 2 * l * n;
         const double complex *x = work->rhs;
-        tb_loop_sherman_morrison(lv, w, q, x, NULL, x0, n);
         double noise = 1e-15 * cabs(tb_svec_dot(&mna->c, x));
-        if (!x0_is_accurate(mna, lv, x, w, q, x0, noise))
+        if (!A0_is_accurate(mna, lv, x, w, q, noise, &pt->A0)) {
+            tb_loop_sherman_morrison(lv, w, q, x, NULL, x0, n);
+            work->refined[2 * l] = true;
             work->pending[count++] = (refinement){l, &mna->b, &mna->c, noise, x0, false};
+        }
     }
     double complex *w0 = work->vec0 + (2 * l + 1) * n;
     if (w0_needs_step(mna, Mx, omega, work, lv, w, q, w0, work->res + count * n)) {
-        work->w0_refined[l] = true;
+        work->refined[2 * l + 1] = true;
         work->pending[count++] = (refinement){l, &lv->u, &lv->v, 0.0, w0, true};
     }
     return count;
@@ -213,9 +219,11 @@ static void finish_loop(const tb_mna *mna, const tb_loop_work *work, size_t l, t
     const tb_loopvec *lv = &mna->loops[l];
     if (pt->flags & TB_PT_T_INF)
         return;
-    if (mna->has_io)
-        pt->A0 = lv->feed_nil ? 0 : tb_svec_dot(&mna->c, work->vec0 + 2 * l * n);
-    if (work->w0_refined[l]) {
+    if (mna->has_io && lv->feed_nil)
+        pt->A0 = 0;
+    else if (work->refined[2 * l])
+        pt->A0 = tb_svec_dot(&mna->c, work->vec0 + 2 * l * n);
+    if (work->refined[2 * l + 1]) {
         pt->T = lv->k * tb_svec_dot(&lv->v, work->vec0 + (2 * l + 1) * n);
         if (mna->has_io && !(pt->flags & TB_PT_AINF_NONE))
             pt->a = pt->A_inf * pt->T;
