@@ -17,7 +17,7 @@ TESTLIBS := -lcmocka
 # The program: the command line and the regression runner behind 'tbeta check', which
 # only main.c uses; libtbeta.a holds what include/tbeta.h publishes and its internals.
 RUNNER_SRC := src/checkrun.c src/checkjson.c src/checkload.c src/checkreport.c src/checkfile.c src/checkhtml.c
-PROG_SRC := src/main.c src/progress.c src/spreadcli.c $(RUNNER_SRC)
+PROG_SRC := src/main.c src/progress.c src/spreadcli.c src/blaspool.c $(RUNNER_SRC)
 PROG_OBJ := $(PROG_SRC:src/%.c=$(BUILD)/obj/%.o)
 RUNNER_OBJ := $(RUNNER_SRC:src/%.c=$(BUILD)/obj/%.o)
 LIB_SRC  := $(filter-out $(PROG_SRC),$(wildcard src/*.c))

@@ -12,6 +12,7 @@ typedef struct {
     const tb_svec *probe; /* the functional read from y: c (for A0) or v (for T) */
     double floor;         /* a change below this is rounding noise (A0 may be exactly 0) */
     double complex *y;
+    bool has_residual;    /* its residual is already in the step's column */
 } refinement;
 
 struct tb_loop_work {
@@ -21,6 +22,8 @@ struct tb_loop_work {
     double complex *vec0; /* 2 * loops columns: x0 and w0 of each loop */
     double complex *res;  /* 2 * loops columns: residuals, then corrections */
     refinement *pending;  /* 2 * loops */
+    double *scale;        /* 2 * n: the backward error's row scales */
+    bool *refined;        /* 2 * loops: A0 of loop l comes from a refined x0 (2l), T from a refined w0 (2l + 1) */
 };
 
 tb_status tb_loop_work_new(const tb_mna *mna, tb_loop_work **out)
@@ -34,7 +37,9 @@ tb_status tb_loop_work_new(const tb_mna *mna, tb_loop_work **out)
     w->vec0 = tb_malloc(2 * w->loops * w->n, sizeof(double complex));
     w->res = tb_malloc(2 * w->loops * w->n, sizeof(double complex));
     w->pending = tb_malloc(2 * w->loops, sizeof(refinement));
-    if (!w->rhs || !w->vec0 || !w->res || !w->pending) {
+    w->scale = tb_malloc(2 * w->n, sizeof(double));
+    w->refined = tb_calloc(w->loops ? 2 * w->loops : 1, sizeof(bool));
+    if (!w->rhs || !w->vec0 || !w->res || !w->pending || !w->scale || !w->refined) {
         tb_loop_work_free(w);
         return TB_ERR_NOMEM;
     }
@@ -50,6 +55,8 @@ void tb_loop_work_free(tb_loop_work *work)
     tb_free(work->vec0);
     tb_free(work->res);
     tb_free(work->pending);
+    tb_free(work->scale);
+    tb_free(work->refined);
     tb_free(work);
 }
 
@@ -106,45 +113,68 @@ static void evaluate(const tb_mna *mna, const tb_loopvec *lv, const double compl
     pt->a = pt->A_inf * pt->T;
 }
 
-/* Whether A0 = c'x0 from Sherman-Morrison, x0 = x + alpha w with alpha = k v'x/(1 - q),
- * already holds to the refinement's own goal (TB_LOOP_CONVERGED relative, above the noise
- * floor), so that a step of refinement would not move it: its rounding error is bounded
- * by TB_LOOP_ROUNDING times the terms it is formed from, S = |c'x| + |alpha c'w|, grown by
- * 1 + |q|/|1 - q| (alpha's error, from 1 - q formed out of q). A0 much smaller than S
- * (a cancellation: large T, or A0 = 0) is refined. */
-static bool x0_is_accurate(const tb_mna *mna, const tb_loopvec *lv, const double complex *x,
-                           const double complex *w, double complex q, const double complex *x0, double noise)
+/* A0 = c'x0 from Sherman-Morrison, x0 = x + alpha w with alpha = k v'x/(1 - q), formed
+ * from the two scalars c'x and c'w, into *A0; true when it already holds to the refinement's
+ * own goal (TB_LOOP_CONVERGED relative, above the noise floor), so that a step of refinement
+ * would not move it: its rounding error is bounded by TB_LOOP_ROUNDING times the terms it is
+ * formed from, S = |c'x| + |alpha c'w|, grown by 1 + |q|/|1 - q| (alpha's error, from 1 - q
+ * formed out of q). A0 much smaller than S (a cancellation: large T, or A0 = 0) is refined,
+ * and only then is the vector x0 formed. */
+static bool A0_is_accurate(const tb_mna *mna, const tb_loopvec *lv, const double complex *x,
+                           const double complex *w, double complex q, double noise, double complex *A0)
 {
     double complex alpha = lv->k * tb_svec_dot(&lv->v, x) / (1.0 - q);
-    double S = cabs(tb_svec_dot(&mna->c, x)) + cabs(alpha * tb_svec_dot(&mna->c, w));
+    double complex cx = tb_svec_dot(&mna->c, x), cw = alpha * tb_svec_dot(&mna->c, w);
+    double S = cabs(cx) + cabs(cw);
     double bound = TB_LOOP_ROUNDING * S * (1.0 + cabs(q) / cabs(1.0 - q));
-    return bound <= TB_LOOP_CONVERGED * cabs(tb_svec_dot(&mna->c, x0)) + noise;
+    *A0 = cx + cw;
+    return bound <= TB_LOOP_CONVERGED * cabs(*A0) + noise;
 }
 
-/* Queues the M0 vectors of loop l: x0 when A0 exists and its formula may have lost
- * digits, w0 when T is large. */
-static size_t start_vectors(const tb_mna *mna, tb_loop_work *work, size_t l, const tb_point *pt,
-                            size_t count)
+/* Whether w0 = w/(1 - q) = M0^-1 u from the rank-one update may have lost digits of T:
+ * only where 1 - q cancels (|T| above TB_LOOP_CHECK_T) is w0 formed, its residual against
+ * M0 put in res, and a step asked for when its backward error exceeds TB_LOOP_BERR
+ * (docs/algebra.md, "Accuracy"). */
+static bool w0_needs_step(const tb_mna *mna, const double *Mx, double omega, tb_loop_work *work,
+                          const tb_loopvec *lv, const double complex *w, double complex q, double complex *w0,
+                          double complex *res)
+{
+    if (cabs(q) <= TB_LOOP_CHECK_T * cabs(1.0 - q))
+        return false;
+    double complex scale = 1.0 / (1.0 - q);
+    for (size_t i = 0; i < mna->n; i++)
+        w0[i] = w[i] * scale;
+    double berr = tb_mna_residual0_berr(mna, Mx, omega, lv, &lv->u, w0, res, work->scale, work->scale + mna->n);
+    return !(berr <= TB_LOOP_BERR);
+}
+
+/* Queues the M0 vectors of loop l: x0 when A0 exists, is not nil by structure and its
+ * formula may have lost digits, w0 when its backward error says T did. */
+static size_t start_vectors(const tb_mna *mna, const double *Mx, double omega, tb_loop_work *work, size_t l,
+                            tb_point *pt, size_t count)
 {
     size_t n = mna->n;
     const tb_loopvec *lv = &mna->loops[l];
     const double complex *w = work->rhs + (l + 1) * n;
     double complex q = lv->k * tb_svec_dot(&lv->v, w);
+    work->refined[2 * l] = false;
+    work->refined[2 * l + 1] = false;
     if (pt->flags & TB_PT_T_INF)
         return count;
-    if (mna->has_io) {
+    if (mna->has_io && !lv->feed_nil) {
         double complex *x0 = work->vec0 + 2 * l * n;
         const double complex *x = work->rhs;
-        tb_loop_sherman_morrison(lv, w, q, x, NULL, x0, n);
         double noise = 1e-15 * cabs(tb_svec_dot(&mna->c, x));
-        if (!x0_is_accurate(mna, lv, x, w, q, x0, noise))
-            work->pending[count++] = (refinement){l, &mna->b, &mna->c, noise, x0};
+        if (!A0_is_accurate(mna, lv, x, w, q, noise, &pt->A0)) {
+            tb_loop_sherman_morrison(lv, w, q, x, NULL, x0, n);
+            work->refined[2 * l] = true;
+            work->pending[count++] = (refinement){l, &mna->b, &mna->c, noise, x0, false};
+        }
     }
-    if (cabs(1.0 - q) < TB_LOOP_REFINE_TOL) {
-        double complex *w0 = work->vec0 + (2 * l + 1) * n;
-        for (size_t i = 0; i < n; i++)
-            w0[i] = w[i] / (1.0 - q);
-        work->pending[count++] = (refinement){l, &lv->u, &lv->v, 0.0, w0};
+    double complex *w0 = work->vec0 + (2 * l + 1) * n;
+    if (w0_needs_step(mna, Mx, omega, work, lv, w, q, w0, work->res + count * n)) {
+        work->refined[2 * l + 1] = true;
+        work->pending[count++] = (refinement){l, &lv->u, &lv->v, 0.0, w0, true};
     }
     return count;
 }
@@ -160,7 +190,8 @@ static tb_status refine(const tb_mna *mna, tb_solver *solver, const double *Mx, 
     size_t n = mna->n;
     for (size_t r = 0; r < count; r++) {
         const refinement *p = &work->pending[r];
-        tb_mna_residual0(mna, Mx, omega, &mna->loops[p->loop], p->rhs, p->y, work->res + r * n);
+        if (!p->has_residual)
+            tb_mna_residual0(mna, Mx, omega, &mna->loops[p->loop], p->rhs, p->y, work->res + r * n);
     }
     if (tb_solver_solve(solver, work->res, count))
         return TB_ERR_NUMERIC;
@@ -174,23 +205,25 @@ static tb_status refine(const tb_mna *mna, tb_solver *solver, const double *Mx, 
         double complex before = tb_svec_dot(p.probe, p.y);
         tb_loop_sherman_morrison(lv, w, q, d, p.y, p.y, n);
         double complex after = tb_svec_dot(p.probe, p.y);
+        p.has_residual = false;
         if (cabs(after - before) > TB_LOOP_CONVERGED * cabs(after) + p.floor)
             work->pending[(*left)++] = p;
     }
     return TB_OK;
 }
 
-/* A0 from the refined x0, and T = k v'w0 where w0 was refined. */
-static void finish_loop(const tb_mna *mna, const tb_loop_work *work, size_t l, double complex q,
-                        tb_point *pt)
+/* A0 from the refined x0 (0 where nil by structure), and T = k v'w0 where w0 was refined. */
+static void finish_loop(const tb_mna *mna, const tb_loop_work *work, size_t l, tb_point *pt)
 {
     size_t n = mna->n;
     const tb_loopvec *lv = &mna->loops[l];
     if (pt->flags & TB_PT_T_INF)
         return;
-    if (mna->has_io)
+    if (mna->has_io && lv->feed_nil)
+        pt->A0 = 0;
+    else if (work->refined[2 * l])
         pt->A0 = tb_svec_dot(&mna->c, work->vec0 + 2 * l * n);
-    if (cabs(1.0 - q) < TB_LOOP_REFINE_TOL) {
+    if (work->refined[2 * l + 1]) {
         pt->T = lv->k * tb_svec_dot(&lv->v, work->vec0 + (2 * l + 1) * n);
         if (mna->has_io && !(pt->flags & TB_PT_AINF_NONE))
             pt->a = pt->A_inf * pt->T;
@@ -207,16 +240,13 @@ static tb_status finish_points(const tb_mna *mna, tb_solver *solver, const doubl
     size_t count = 0;
     for (size_t l = lo; l < hi; l++) {
         evaluate(mna, &mna->loops[l], x, work->rhs + (l + 1) * n, &out[l]);
-        count = start_vectors(mna, work, l, &out[l], count);
+        count = start_vectors(mna, Mx, omega, work, l, &out[l], count);
     }
     for (int step = 0; step < TB_LOOP_REFINE_STEPS && count > 0; step++)
         if (refine(mna, solver, Mx, omega, work, count, &count))
             return TB_ERR_NUMERIC;
-    for (size_t l = lo; l < hi; l++) {
-        const tb_loopvec *lv = &mna->loops[l];
-        double complex q = lv->k * tb_svec_dot(&lv->v, work->rhs + (l + 1) * n);
-        finish_loop(mna, work, l, q, &out[l]);
-    }
+    for (size_t l = lo; l < hi; l++)
+        finish_loop(mna, work, l, &out[l]);
     return TB_OK;
 }
 

@@ -9,8 +9,11 @@
 #define TB_LOOP_INF_TOL 1e-13
 /* |q| at or below this means the source does not see its own output (v'w = 0). */
 #define TB_LOOP_ZERO_TOL 1e-14
-/* |1 - q| below this (|T| above about 1000) also refines w0 = M0^-1 u, for T. */
-#define TB_LOOP_REFINE_TOL 1e-3
+/* Where |q| exceeds this times |1 - q| (|T| above about 1), 1 - q cancels and
+ * w0 = w/(1 - q) = M0^-1 u is checked by its residual against M0; a componentwise
+ * backward error above TB_LOOP_BERR refines it, for T (docs/algebra.md, "Accuracy"). */
+#define TB_LOOP_CHECK_T 1.0
+#define TB_LOOP_BERR 1e-13
 /* At most this many steps of iterative refinement of x0 (and w0) against M0's
  * exact entries; a vector whose probed value (c'x0, v'w0) a step moved by no
  * more than TB_LOOP_CONVERGED relative needs no further step. */

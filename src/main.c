@@ -9,6 +9,7 @@
 #include <sys/stat.h>
 
 #include "tbeta.h"
+#include "blaspool.h" /* the BLAS library's idle threads, parked at start */
 #include "checkrun.h" /* the regression runner (tbeta check) */
 #include "lex.h"      /* tb_lex_value: --at reads frequencies as the netlist does */
 #include "progress.h" /* the progress line on a terminal */
@@ -1008,5 +1009,6 @@ int main(int argc, char **argv)
     /* a file-size limit makes a write fail (EFBIG) rather than end the program, so that a
      * file being written is dropped whole and the old one kept (src/checkfile.c) */
     signal(SIGXFSZ, SIG_IGN);
+    tb_blaspool_park();
     return finish(command(argc, argv));
 }

@@ -9,6 +9,7 @@
 
 #include "alloc.h"
 #include "diag.h"
+#include "zeropath.h"
 
 typedef struct {
     size_t row;
@@ -390,6 +391,9 @@ tb_status tb_mna_build(const tb_circuit *ckt, tb_diag *diag, tb_mna **out)
         own_entries(mna, sorted, triplets, &mna->loops[l]);
     }
     io_vectors(&s, ckt, mna);
+    for (size_t l = 0; l < mna->loop_count && mna->has_io; l++)
+        if ((st = tb_zeropath_feed_nil(mna, &mna->loops[l], &mna->loops[l].feed_nil)))
+            goto fail;
     tb_free(s.t);
     tb_free(sorted);
     *out = mna;
@@ -465,6 +469,57 @@ void tb_mna_residual0(const tb_mna *mna, const double *Mx, double omega, const t
             y[mna->Ai[k]] -= m * xj;
         }
     }
+}
+
+static double abs1(double complex z)
+{
+    return fabs(creal(z)) + fabs(cimag(z));
+}
+
+double tb_mna_residual0_berr(const tb_mna *mna, const double *Mx, double omega, const tb_loopvec *lv,
+                             const tb_svec *r, const double complex *x, double complex *y, double *D,
+                             double *N)
+{
+    size_t n = mna->n;
+    memset(y, 0, n * sizeof(double complex));
+    memset(D, 0, n * sizeof(double));
+    memset(N, 0, n * sizeof(double));
+    tb_svec_axpy(r, 1.0, y);
+    for (int i = 0; i < r->count; i++)
+        D[r->idx[i]] += fabs(r->coef[i]);
+    double xmax = 0;
+    double *yr = (double *)y; /* (re, im) pairs: real arithmetic, no complex-multiply calls */
+    for (size_t j = 0; j < n; j++) {
+        double xr = creal(x[j]), xi = cimag(x[j]);
+        double aj = fabs(xr) + fabs(xi);
+        xmax = aj > xmax ? aj : xmax;
+        bool own_col = svec_coef(&lv->v, j) != 0;
+        for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++) {
+            double mr = Mx[2 * k], mi = Mx[2 * k + 1];
+            for (int o = 0; own_col && o < lv->own_count; o++)
+                if (lv->own_pos[o] == (size_t)k) {
+                    mr = lv->own_g0[o];
+                    mi = omega * mna->Cx[k];
+                }
+            size_t i = (size_t)mna->Ai[k];
+            double am = fabs(mr) + fabs(mi);
+            yr[2 * i] -= mr * xr - mi * xi;
+            yr[2 * i + 1] -= mr * xi + mi * xr;
+            D[i] += am * aj;
+            N[i] = am > N[i] ? am : N[i];
+        }
+    }
+    /* rows where |M0||x| + |r| is at rounding level of the row's largest entry times
+     * max|x| get that product as their scale (Arioli, Demmel and Duff 1989) */
+    double small = 1000.0 * (double)n * 0x1p-52;
+    double omega_b = 0;
+    for (size_t i = 0; i < n; i++) {
+        double scale = D[i] > small * N[i] * xmax ? D[i] : D[i] + N[i] * xmax;
+        double ri = abs1(y[i]);
+        if (ri > scale * omega_b || isnan(ri)) /* a division only where the maximum grows */
+            omega_b = scale > 0 && !isnan(ri) ? ri / scale : INFINITY;
+    }
+    return omega_b;
 }
 
 /* Visits d (e_a - e_b)(e_ca - e_cb)' without ground. */

@@ -31,6 +31,9 @@ typedef struct {
     int own_count;
     size_t own_pos[4];
     double own_g0[4];
+    /* With .io: A0 = c'M0^-1 b is zero by the circuit's structure (src/zeropath.c),
+     * so that it needs no x0; set by tb_mna_build for the .loop sources. */
+    bool feed_nil;
 } tb_loopvec;
 
 typedef struct {
@@ -92,6 +95,18 @@ void tb_mna_dense(const tb_mna *mna, double omega, double complex *M);
  * in Mx, as written by tb_mna_values). x and y are n complex values. */
 void tb_mna_residual0(const tb_mna *mna, const double *Mx, double omega, const tb_loopvec *lv,
                       const tb_svec *r, const double complex *x, double complex *y);
+
+/* As tb_mna_residual0 (y = r - M0 x), and returns the componentwise backward error of x
+ * as a solution of M0 x = r (Oettli and Prager 1964): the smallest w such that
+ * (M0 + E) x = r + f with |E| <= w |M0| and |f| <= w |r|, max_i |y_i| / (|M0||x| + |r|)_i,
+ * with the complex magnitudes taken as |Re| + |Im| (within a factor sqrt 2). A row whose
+ * (|M0||x| + |r|)_i is below 1000 n 2^-52 times max_j |M0_ij| max|x| is scaled by that
+ * product instead (Arioli, Demmel and Duff 1989), so that rows where x has decayed to
+ * rounding level of its largest entry do not dominate. D and N are workspaces of n
+ * doubles; INFINITY when a non-zero residual meets a zero scale. */
+double tb_mna_residual0_berr(const tb_mna *mna, const double *Mx, double omega, const tb_loopvec *lv,
+                             const tb_svec *r, const double complex *x, double complex *y, double *D,
+                             double *N);
 
 /* Sparse dot product s'x over a complex vector x. */
 static inline double complex tb_svec_dot(const tb_svec *s, const double complex *x)

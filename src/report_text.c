@@ -355,7 +355,7 @@ static void stability_block(FILE *out, const tb_stability *st)
 static const char *fmt_pct(double complex z, char *buf, size_t size)
 {
     if (fabs(cimag(z)) <= 1e-9 * fabs(creal(z)) || cabs(z) == 0)
-        snprintf(buf, size, "%+.4g %%", 100.0 * creal(z));
+        snprintf(buf, size, "%+.4g %%", 100.0 * creal(z) + 0.0); /* + 0.0: no "-0" */
     else
         snprintf(buf, size, "%.4g %% at %+.1f deg", 100.0 * cabs(z), carg(z) * 57.29577951308232);
     return buf;
