@@ -311,6 +311,28 @@ const char *tb_elem_kind_word(tb_elem_kind kind)
     return (unsigned)kind < TB_EL_COUNT ? kind_word[kind] : "element";
 }
 
+const char *tb_elem_role_word(const tb_element *e)
+{
+    if (e->kind != TB_EL_G || !e->name)
+        return tb_elem_kind_word(e->kind);
+    /* the last two components of a hierarchical name: "X1.M3.gmb" -> "M3", "gmb" */
+    const char *last = e->name, *prev = NULL;
+    for (const char *c = e->name; *c; c++)
+        if (*c == '.') {
+            prev = last;
+            last = c + 1;
+        }
+    char lead = (char)(*last | 0x20); /* ASCII lower case */
+    if (lead == 'q')
+        return "gm of a bipolar transistor";
+    if (lead == 'm')
+        return "gm of a MOS transistor";
+    if (prev && (*prev | 0x20) == 'm' && (last[0] | 0x20) == 'g' && (last[1] | 0x20) == 'm' &&
+        (last[2] | 0x20) == 'b' && last[3] == '\0')
+        return "body transconductance gmb of a MOS transistor";
+    return tb_elem_kind_word(e->kind);
+}
+
 /* ---- "did you mean": the closest existing name, for messages -------------- */
 
 typedef bool (*kind_test)(tb_elem_kind k);

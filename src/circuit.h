@@ -232,5 +232,9 @@ tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag);
 bool tb_elem_is_controlled(tb_elem_kind kind);
 /* "resistor", "voltage-controlled voltage source" and the like. */
 const char *tb_elem_kind_word(tb_elem_kind kind);
+/* What element e stands for in the circuit as drawn: for the transconductances a Q or M card
+ * expands to (device.c names them Q1, X1.M3 and M3.gmb), the device's part ("gm of a bipolar
+ * transistor"); for every other element tb_elem_kind_word(e->kind). */
+const char *tb_elem_role_word(const tb_element *e);
 
 #endif

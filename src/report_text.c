@@ -620,7 +620,7 @@ static tb_status loop_block(FILE *out, const tb_circuit *ckt, const tb_result *r
         return st;
     const tb_element *e = &ckt->elems[ckt->loops[l].elem];
     names nm;
-    fprintf(out, "\nloop at %s (%s, gain %.6g)\n", esc(&nm, 0, e->name), tb_elem_kind_word(e->kind), e->value);
+    fprintf(out, "\nloop at %s (%s, gain %.6g)\n", esc(&nm, 0, e->name), tb_elem_role_word(e), e->value);
     tb_stability stab;
     tb_stability_loop(res, l, &stab);
     verdict_first(out, &m, &stab);

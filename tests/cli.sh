@@ -411,5 +411,27 @@ has report-samples-missing err "--samples needs a value"
 if grep -qiE '(^|[^a-z_])(nan|inf|infinity)([^a-z_]|$)' "$tmp/all"; then failed=$((failed + 1)); echo "FAIL spread: nan or inf in an output"
 else passed=$((passed + 1)); fi
 
+# a loop broken inside a device card names the device's part, not the stamp (docs/devices.md)
+expect device-role-mos 0 $tb netlists/devices/cmos_twostage_follower.net
+has device-role-mos out "loop at M6 (gm of a MOS transistor, gain 0.002)"
+expect device-role-bjt 0 $tb netlists/devices/shunt_feedback_pair.net
+has device-role-bjt out "loop at Q1 (gm of a bipolar transistor, gain"
+cat > "$tmp/gmb.net" <<'NET'
+Body transconductance as the loop
+V1 in 0 AC 1
+M1 d in 0 b gm=1m gds=10u chi=0.2 cgs=1p cgd=0.1p
+R1 d 0 10k
+R2 b 0 1k
+RL d in 100k
+.io V1 v(d)
+.loop M1.gmb
+.ac dec 5 1 1g
+.end
+NET
+expect device-role-gmb 0 $tb "$tmp/gmb.net"
+has device-role-gmb out "loop at M1.gmb (body transconductance gmb of a MOS transistor, gain 0.0002)"
+expect device-role-g 0 $tb netlists/devices/opamp_bjt_buffer.net
+has device-role-g out "loop at XU1.Ga (voltage-controlled current source, gain 0.001)"
+
 echo "cli: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]
