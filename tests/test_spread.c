@@ -20,13 +20,6 @@ static const char *const DIVIDER =
     ".loop E1\n"
     ".ac dec 2 1 1k\n";
 
-static tb_circuit *with_cards(const char *base, const char *cards)
-{
-    char text[8192];
-    snprintf(text, sizeof text, "%s%s", base, cards);
-    return tu_parse(text);
-}
-
 static tb_spreadset *run(const tb_circuit *ckt, int kind, size_t samples, unsigned jobs, uint64_t seed)
 {
     tb_spread_options opt;
@@ -56,7 +49,7 @@ enum { FIG_T = 0, FIG_A = 5 }; /* dc.T and dc.A among the spread figures (spread
 static void test_spread_divider_gaussian(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(DIVIDER, ".spread R1 R2 gauss 1%\n");
+    tb_circuit *ckt = tu_parse_cards(DIVIDER, ".spread R1 R2 gauss 1%\n");
     const size_t n = 4000;
     tb_spreadset *set = run(ckt, 2, n, 2, 20260101);
     double k = 1000.0 / 1001.0;
@@ -88,7 +81,7 @@ static void test_spread_desensitivity(void **state)
     snprintf(text, sizeof text, "%s", DIVIDER);
     char *k = strstr(text, "mid out 1000");
     memcpy(k, "mid out  100", 12);
-    tb_circuit *ckt = with_cards(text, ".spread E1 gauss 10%\n");
+    tb_circuit *ckt = tu_parse_cards(text, ".spread E1 gauss 10%\n");
     const size_t n = 3000;
     tb_spreadset *set = run(ckt, 2, n, 2, 7);
     tb_spread_stats sA, sT;
@@ -219,7 +212,7 @@ static void test_spread_sensitivities_at(void **state)
 static void test_spread_reproducible(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(DIVIDER, ".spread R* flat 5%\n.spread E1 pick 100 1000 10000\n");
+    tb_circuit *ckt = tu_parse_cards(DIVIDER, ".spread R* flat 5%\n.spread E1 pick 100 1000 10000\n");
     tb_spreadset *a = run(ckt, 2, 37, 1, 99);
     tb_spreadset *b = run(ckt, 2, 37, 2, 99);
     tb_spreadset *c = run(ckt, 2, 37, 3, 99);
@@ -242,7 +235,7 @@ static void test_spread_reproducible(void **state)
 static void test_spread_scan_closed_form(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(DIVIDER, ".scan E1 list 1 10 100 1000\n.scan R2 list 10k 30k\n");
+    tb_circuit *ckt = tu_parse_cards(DIVIDER, ".scan E1 list 1 10 100 1000\n.scan R2 list 10k 30k\n");
     tb_spreadset *set = run(ckt, 0, 0, 2, 0);
     assert_int_equal(set->runs, 8);
     static const double Ks[4] = {1, 10, 100, 1000};
@@ -265,7 +258,7 @@ static void test_spread_scan_closed_form(void **state)
 static void test_spread_corners_extremes(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(DIVIDER, ".spread R1 flat 10%\n.spread R2 gauss 1%\n.spread E1 pick 10 100\n");
+    tb_circuit *ckt = tu_parse_cards(DIVIDER, ".spread R1 flat 10%\n.spread R2 gauss 1%\n.spread E1 pick 10 100\n");
     tb_spreadset *set = run(ckt, 1, 0, 2, 0);
     assert_int_equal(set->runs, 9);
     assert_int_equal(set->dimensions, 3);
@@ -278,7 +271,7 @@ static void test_spread_corners_extremes(void **state)
     tb_spreadset_free(set);
     tb_circuit_free(ckt);
 
-    ckt = with_cards(DIVIDER, ".spread R1 R2 flat 10% group=matched\n");
+    ckt = tu_parse_cards(DIVIDER, ".spread R1 R2 flat 10% group=matched\n");
     set = run(ckt, 1, 0, 1, 0);
     assert_int_equal(set->runs, 3);
     assert_int_equal(tb_spreadset_stats(set, 0, FIG_A, &s), TB_OK);

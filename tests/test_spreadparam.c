@@ -22,13 +22,6 @@ static const char *const DIVIDER =
     ".loop E1\n"
     ".ac dec 2 1 1k\n";
 
-static tb_circuit *with_cards(const char *base, const char *cards)
-{
-    char text[8192];
-    snprintf(text, sizeof text, "%s%s", base, cards);
-    return tu_parse(text);
-}
-
 enum { SCAN, CORNERS, SAMPLES };
 
 static tb_spreadset *run(const tb_circuit *ckt, int kind, size_t samples, uint64_t seed)
@@ -60,7 +53,7 @@ static const double K_OVER = 1000.0 / 1001.0;
 static void test_spreadparam_gauss_fraction(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(DIVIDER, ".spread {frac} gauss 2%\n");
+    tb_circuit *ckt = tu_parse_cards(DIVIDER, ".spread {frac} gauss 2%\n");
     const size_t n = 3000;
     tb_spreadset *set = run(ckt, SAMPLES, n, 11);
     assert_int_equal(set->params, 1);
@@ -92,7 +85,7 @@ static void test_spreadparam_gauss_fraction(void **state)
 static void test_spreadparam_gauss_divider(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(DIVIDER, ".spread {rtop} {rbot} gauss 1%\n");
+    tb_circuit *ckt = tu_parse_cards(DIVIDER, ".spread {rtop} {rbot} gauss 1%\n");
     const size_t n = 4000;
     tb_spreadset *set = run(ckt, SAMPLES, n, 20260101);
     double sD = sqrt(2.0) * 10e3 * 100.0 / (20e3 * 20e3);
@@ -110,8 +103,8 @@ static void test_spreadparam_gauss_divider(void **state)
 static void test_spreadparam_same_as_elements(void **state)
 {
     (void)state;
-    tb_circuit *a = with_cards(DIVIDER, ".spread {rtop} {rbot} gauss 1%\n");
-    tb_circuit *b = with_cards(DIVIDER, ".spread R1 R2 gauss 1%\n");
+    tb_circuit *a = tu_parse_cards(DIVIDER, ".spread {rtop} {rbot} gauss 1%\n");
+    tb_circuit *b = tu_parse_cards(DIVIDER, ".spread R1 R2 gauss 1%\n");
     tb_spreadset *sa = run(a, SAMPLES, 200, 5);
     tb_spreadset *sb = run(b, SAMPLES, 200, 5);
     for (size_t r = 0; r < 200; r++)
@@ -130,7 +123,7 @@ static void test_spreadparam_moves_together(void **state)
     (void)state;
     static const char *const cards[] = {".spread {rsum} flat 10%\n", ".spread {rtop} R2 flat 10% group=g\n"};
     for (size_t c = 0; c < 2; c++) {
-        tb_circuit *ckt = with_cards(DIVIDER, cards[c]);
+        tb_circuit *ckt = tu_parse_cards(DIVIDER, cards[c]);
         tb_spreadset *set = run(ckt, CORNERS, 0, 1);
         assert_int_equal(set->runs, 3);
         for (size_t r = 0; r < set->runs; r++)
@@ -147,7 +140,7 @@ static void test_spreadparam_moves_together(void **state)
 static void test_spreadparam_and_element_compose(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(DIVIDER, ".spread {rbot} flat 10%\n.spread R2 flat 5%\n");
+    tb_circuit *ckt = tu_parse_cards(DIVIDER, ".spread {rbot} flat 10%\n.spread R2 flat 5%\n");
     tb_spreadset *set = run(ckt, CORNERS, 0, 1);
     assert_int_equal(set->runs, 5);
     assert_int_equal(set->params, 2);
@@ -178,7 +171,7 @@ static void test_spreadparam_and_element_compose(void **state)
 static void test_spreadparam_out_of_range(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(DIVIDER, ".spread {frac} pick 0 0.25 0.5\n");
+    tb_circuit *ckt = tu_parse_cards(DIVIDER, ".spread {frac} pick 0 0.25 0.5\n");
     tb_spreadset *set = run(ckt, CORNERS, 0, 1);
     size_t errors = 0;
     for (size_t r = 0; r < set->runs; r++) {
@@ -218,8 +211,8 @@ static const char *const TWO_POLE =
 
 static void check_same_runs(const char *cards_a, const char *cards_b)
 {
-    tb_circuit *a = with_cards(TWO_POLE, cards_a);
-    tb_circuit *b = with_cards(TWO_POLE, cards_b);
+    tb_circuit *a = tu_parse_cards(TWO_POLE, cards_a);
+    tb_circuit *b = tu_parse_cards(TWO_POLE, cards_b);
     tb_spreadset *sa = run(a, SCAN, 0, 1);
     tb_spreadset *sb = run(b, SCAN, 0, 1);
     assert_int_equal(sa->runs, sb->runs);
@@ -257,7 +250,7 @@ static void test_spreadparam_scan_equals_element_scan(void **state)
 static void test_spreadparam_scan_phase_margin(void **state)
 {
     (void)state;
-    tb_circuit *ckt = with_cards(TWO_POLE, ".scan {cl} log 100p 10n 5\n");
+    tb_circuit *ckt = tu_parse_cards(TWO_POLE, ".scan {cl} log 100p 10n 5\n");
     tb_spreadset *set = run(ckt, SCAN, 0, 1);
     double tx = 100e6 * 1e-3 / (2 * TU_PI * 10e6);
     double last = 180;

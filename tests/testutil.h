@@ -48,6 +48,14 @@ static inline tb_circuit *tu_parse(const char *text)
 }
 
 /* Parses and analyses text; fails the test unless both succeed. */
+/* tu_parse of a base netlist followed by extra cards (both text; 8 KiB in all at most). */
+static inline tb_circuit *tu_parse_cards(const char *base, const char *cards)
+{
+    char text[8192];
+    snprintf(text, sizeof text, "%s%s", base, cards);
+    return tu_parse(text);
+}
+
 static inline tb_result *tu_analyse(const char *text, tb_circuit **ckt_out)
 {
     tb_circuit *ckt = tu_parse(text);
