@@ -193,6 +193,9 @@ typedef struct {
                            * when more turn up than are kept: the margins are then not determined) */
     bool peak_refine;     /* the closed-loop peak of |A| refined between grid points (false: the
                            * grid's largest, unless A's reference is that peak: AC coupling) */
+    double gm_cap_db;     /* > 0 (default 60): the scan does not follow T's phase where |T| lies
+                           * more than this many dB below 0 dB: a gain margin there would exceed
+                           * it and is given as "more than gm_cap_db"; 0: every crossing */
     const size_t *ol_rhp_given; /* NULL (the default), or per loop the open loop's right-half-plane
                              * count of a circuit this one is a small change of: above the pole
                              * limit it stands for P (ol_count_by TB_COUNT_GIVEN) and no
@@ -505,6 +508,7 @@ typedef enum {
                                      * principle on det M(jw) and det M0(jw) */
     TB_SNOTE_WINDING_FAILED,        /* poles not computed and the argument-principle count not made
                                      * (winding_why says why) */
+    TB_SNOTE_BELOW_GM_CAP,          /* phase crossings where |T| is below -gm_cap_db not followed */
     TB_SNOTE_COUNT
 } tb_stab_note;
 
@@ -640,6 +644,11 @@ typedef struct {
     double near_shift_hz[TB_MAX_NEAR_POLES];  /* the shift it was found near (Hz, on the axis) */
     size_t near_solves;       /* right-hand sides the searches solved */
     bool near_complete;       /* every search found the poles it looked for */
+    /* phase crossings where |T| lies more than tb_options.gm_cap_db below 0 dB are not
+     * followed (note TB_SNOTE_BELOW_GM_CAP): when none is listed where |T| < 1, the gain may
+     * rise by more than gm_cap_db (has_gain_margin_up_above; gain_margin_up_db is then absent) */
+    bool has_gain_margin_up_above;
+    double gm_cap_db;
 } tb_stability;
 
 /* Stability figures of loop l (computed by tb_analyse when opt->stability).

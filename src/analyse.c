@@ -39,6 +39,7 @@ void tb_options_init(tb_options *opt)
     opt->vector_refine = true;
     opt->peak_refine = true;
     opt->crossing_list = true;
+    opt->gm_cap_db = 60.0;
     opt->ol_rhp_given = NULL;
 }
 

@@ -53,23 +53,32 @@ static double grid_ln(const tb_result *res, size_t i)
     return log(fmax(cabs(res->pts[i].A), 1e-300));
 }
 
-/* Brent on the edge between f_lo and f_hi (the edge function changes sign there). */
-static tb_status refine_edge(cl_eval *ce, double f_lo, double f_hi, double *edge)
+/* Where the edge function changes sign: the frequencies and its values there (from the grid,
+ * or from the fresh samples that found it: no frequency is solved twice). */
+typedef struct {
+    double lo, hi;
+    double y_lo, y_hi;
+} bracket;
+
+/* The bracket of grid points i - 1 and i. */
+static bracket grid_bracket(const cl_eval *ce, const tb_result *res, size_t i)
 {
-    double y_lo = 0, y_hi = 0;
-    tb_status st = edge_fn(ce, log(f_lo), &y_lo);
-    if (!st)
-        st = edge_fn(ce, log(f_hi), &y_hi);
-    if (!st)
-        st = tb_brent_root(edge_fn, ce, log(f_lo), log(f_hi), y_lo, y_hi, 1e-13, 200, edge);
+    return (bracket){res->freqs[i - 1], res->freqs[i], grid_ln(res, i - 1) - ce->ln_level,
+                     grid_ln(res, i) - ce->ln_level};
+}
+
+/* Brent on the edge inside the bracket. */
+static tb_status refine_edge(cl_eval *ce, const bracket *b, double *edge)
+{
+    tb_status st = tb_brent_root(edge_fn, ce, log(b->lo), log(b->hi), b->y_lo, b->y_hi, 1e-13, 200, edge);
     if (!st)
         *edge = exp(*edge);
     return st;
 }
 
 /* Fresh samples beyond the sweep, half a decade apart, from f0 outward (up: step > 1),
- * until the edge function changes sign: the bracket in *lo, *hi. false when it does not. */
-static bool bracket_beyond(cl_eval *ce, double f0, double y0, double step, double *lo, double *hi, tb_status *st)
+ * until the edge function changes sign: the bracket in *b. false when it does not. */
+static bool bracket_beyond(cl_eval *ce, double f0, double y0, double step, bracket *b, tb_status *st)
 {
     double f = f0, y = y0;
     for (int k = 1; k <= 2 * TB_CL_EXT_DECADES; k++) {
@@ -77,8 +86,7 @@ static bool bracket_beyond(cl_eval *ce, double f0, double y0, double step, doubl
         if ((*st = edge_fn(ce, log(fn), &yn)))
             return false;
         if ((yn < 0) != (y < 0)) {
-            *lo = fmin(f, fn);
-            *hi = fmax(f, fn);
+            *b = step > 1 ? (bracket){f, fn, y, yn} : (bracket){fn, f, yn, y};
             return true;
         }
         f = fn;
@@ -106,28 +114,27 @@ static tb_status settle(tb_closed_loop *cl, tb_status st, bool found, tb_cl_note
 static tb_status high_edge(cl_eval *ce, const tb_result *res, size_t from, tb_closed_loop *cl)
 {
     size_t n = res->npoints;
-    double lo = 0, hi = 0;
+    bracket b = {0};
     bool found = false;
     tb_status st = TB_OK;
     size_t first = from == SIZE_MAX ? 1 : from + 1;
     if (from == SIZE_MAX && grid_ln(res, 0) < ce->ln_level) {
         /* between DC and the first point: search downward from it */
-        found = bracket_beyond(ce, res->freqs[0], grid_ln(res, 0) - ce->ln_level, pow(10.0, -0.5), &lo, &hi, &st);
+        found = bracket_beyond(ce, res->freqs[0], grid_ln(res, 0) - ce->ln_level, pow(10.0, -0.5), &b, &st);
         cl->high_edge_outside = found;
     }
     for (size_t i = first; i < n && !found && !st; i++) {
         if (grid_ln(res, i - 1) >= ce->ln_level && grid_ln(res, i) < ce->ln_level) {
-            lo = res->freqs[i - 1];
-            hi = res->freqs[i];
+            b = grid_bracket(ce, res, i);
             found = true;
         }
     }
     if (!found && !st && grid_ln(res, n - 1) >= ce->ln_level) {
-        found = bracket_beyond(ce, res->freqs[n - 1], grid_ln(res, n - 1) - ce->ln_level, pow(10.0, 0.5), &lo, &hi, &st);
+        found = bracket_beyond(ce, res->freqs[n - 1], grid_ln(res, n - 1) - ce->ln_level, pow(10.0, 0.5), &b, &st);
         cl->high_edge_outside = found;
     }
     if (found && !st)
-        st = refine_edge(ce, lo, hi, &cl->high_edge_hz);
+        st = refine_edge(ce, &b, &cl->high_edge_hz);
     cl->has_high_edge = found && !st;
     cl->high_edge_outside = cl->high_edge_outside && cl->has_high_edge;
     return settle(cl, st, found, TB_CNOTE_NO_HIGH_EDGE);
@@ -136,28 +143,27 @@ static tb_status high_edge(cl_eval *ce, const tb_result *res, size_t from, tb_cl
 /* AC-coupled: the highest frequency below grid index `peak` where |A| rises through the level. */
 static tb_status low_edge(cl_eval *ce, const tb_result *res, size_t peak, tb_closed_loop *cl)
 {
-    double lo = 0, hi = 0;
+    bracket b = {0};
     bool found = false;
     tb_status st = TB_OK;
     for (size_t i = peak; i > 0 && !found; i--) {
         if (grid_ln(res, i - 1) < ce->ln_level && grid_ln(res, i) >= ce->ln_level) {
-            lo = res->freqs[i - 1];
-            hi = res->freqs[i];
+            b = grid_bracket(ce, res, i);
             found = true;
         }
     }
     if (!found) {
-        found = bracket_beyond(ce, res->freqs[0], grid_ln(res, 0) - ce->ln_level, pow(10.0, -0.5), &lo, &hi, &st);
+        found = bracket_beyond(ce, res->freqs[0], grid_ln(res, 0) - ce->ln_level, pow(10.0, -0.5), &b, &st);
         cl->low_edge_outside = found;
     }
     if (found && !st)
-        st = refine_edge(ce, lo, hi, &cl->low_edge_hz);
+        st = refine_edge(ce, &b, &cl->low_edge_hz);
     cl->has_low_edge = found && !st;
     cl->low_edge_outside = cl->low_edge_outside && cl->has_low_edge;
     return settle(cl, st, found, TB_CNOTE_NO_LOW_EDGE);
 }
 
-/* The largest |A| near grid index i, by golden-section search between its neighbours. */
+/* The largest |A| near grid index i, by Brent minimization between its neighbours. */
 static tb_status peak_near(cl_eval *ce, const tb_result *res, size_t i, double *hz, double complex *A)
 {
     size_t n = res->npoints;
@@ -166,7 +172,13 @@ static tb_status peak_near(cl_eval *ce, const tb_result *res, size_t i, double *
     if (n < 3 || i == 0 || i == n - 1)
         return TB_OK; /* at an end of the sweep: the grid point stands */
     double x = 0, y = 0;
-    tb_status st = tb_golden_min(peak_fn, ce, log(res->freqs[i - 1]), log(res->freqs[i + 1]), 1e-10, 200, &x, &y);
+    tb_status st = TB_OK;
+    if (res->a_peak.known && res->a_peak.index == i) { /* the stability's search, the same one */
+        x = res->a_peak.x;
+        y = -log(fmax(res->a_peak.abs_a, 1e-300));
+    } else {
+        st = tb_line_min(peak_fn, ce, log(res->freqs[i - 1]), log(res->freqs[i + 1]), TB_PEAK_XTOL, 200, &x, &y);
+    }
     if (st)
         return st;
     if (-y > log(cabs(*A))) {

@@ -11,7 +11,7 @@
 
 /* Fills res->cl (and res->mid, every loop at midband, when A(0) = 0) from the
  * sweep table, refining on fresh solves through probe: the midband maximum and
- * the peak by golden-section search in log f, the -3 dB edges by Brent on
+ * the peak by Brent minimization in log f, the -3 dB edges by Brent on
  * ln|A| in log f. Errors: TB_ERR_NOMEM. */
 tb_status tb_closed_loop_run(tb_probe *probe, tb_result *res, bool peak_refine);
 

@@ -1,4 +1,4 @@
-/* src/crossing.c: bracketing root finder (Brent) and a bracketed minimizer (golden section) */
+/* src/crossing.c: bracketing root finder (Brent) and a bracketed minimizer (Brent: golden section and parabolas) */
 #include "crossing.h"
 
 #include <float.h>
@@ -72,32 +72,77 @@ tb_status tb_brent_root(tb_scalar_fn fn, void *ctx, double a, double b, double f
     return TB_OK;
 }
 
-tb_status tb_golden_min(tb_scalar_fn fn, void *ctx, double a, double b, double xtol, int maxit,
-                        double *xmin, double *ymin)
+/* Brent's local minimizer ("localmin": golden section with parabolic steps through the
+ * three best points; R. P. Brent, Algorithms for Minimization without Derivatives,
+ * Prentice-Hall 1973, ch. 5). On a smooth minimum it converges superlinearly, where golden
+ * section alone gains a factor 0.618 per evaluation. */
+tb_status tb_line_min(tb_scalar_fn fn, void *ctx, double a, double b, double xtol, int maxit,
+                      double *xmin, double *ymin)
 {
-    const double g = 0.61803398874989484820;
-    double x1 = b - g * (b - a), x2 = a + g * (b - a), f1, f2;
-    tb_status st = fn(ctx, x1, &f1);
-    if (st || (st = fn(ctx, x2, &f2)))
+    const double c = 0.38196601125010515180; /* (3 - sqrt 5) / 2 */
+    double x = a + c * (b - a), w = x, v = x, fx = 0, d = 0, e = 0;
+    tb_status st = fn(ctx, x, &fx);
+    if (st)
         return st;
-    for (int it = 0; it < maxit && fabs(b - a) > xtol; it++) {
-        if (f1 <= f2) {
-            b = x2;
-            x2 = x1;
-            f2 = f1;
-            x1 = b - g * (b - a);
-            st = fn(ctx, x1, &f1);
-        } else {
-            a = x1;
-            x1 = x2;
-            f1 = f2;
-            x2 = a + g * (b - a);
-            st = fn(ctx, x2, &f2);
+    double fw = fx, fv = fx;
+    for (int it = 1; it < maxit; it++) {
+        double m = 0.5 * (a + b);
+        double tol = 1.5e-8 * fabs(x) + 0.5 * xtol, t2 = 2.0 * tol; /* sqrt(eps) |x|: Brent's own */
+        if (fabs(x - m) <= t2 - 0.5 * (b - a))
+            break;
+        bool golden = true;
+        if (fabs(e) > tol) { /* a parabola through x, w, v */
+            double r = (x - w) * (fx - fv), q = (x - v) * (fx - fw), p = (x - v) * q - (x - w) * r;
+            q = 2.0 * (q - r);
+            if (q > 0)
+                p = -p;
+            else
+                q = -q;
+            r = e;
+            e = d;
+            if (fabs(p) < fabs(0.5 * q * r) && p > q * (a - x) && p < q * (b - x)) {
+                d = p / q;
+                double u = x + d;
+                if (u - a < t2 || b - u < t2)
+                    d = x < m ? tol : -tol;
+                golden = false;
+            }
         }
-        if (st)
+        if (golden) {
+            e = (x < m ? b : a) - x;
+            d = c * e;
+        }
+        double u = x + (fabs(d) >= tol ? d : d > 0 ? tol : -tol), fu = 0;
+        if ((st = fn(ctx, u, &fu)))
             return st;
+        if (fu <= fx) {
+            if (u < x)
+                b = x;
+            else
+                a = x;
+            v = w;
+            fv = fw;
+            w = x;
+            fw = fx;
+            x = u;
+            fx = fu;
+        } else {
+            if (u < x)
+                a = u;
+            else
+                b = u;
+            if (fu <= fw || w == x) {
+                v = w;
+                fv = fw;
+                w = u;
+                fw = fu;
+            } else if (fu <= fv || v == x || v == w) {
+                v = u;
+                fv = fu;
+            }
+        }
     }
-    *xmin = f1 <= f2 ? x1 : x2;
-    *ymin = fmin(f1, f2);
+    *xmin = x;
+    *ymin = fx;
     return TB_OK;
 }

@@ -1,4 +1,4 @@
-/* src/crossing.h: bracketing root finder (Brent) and a bracketed minimizer (golden section) */
+/* src/crossing.h: bracketing root finder (Brent) and a bracketed minimizer (Brent: golden section and parabolas) */
 #ifndef TB_CROSSING_H
 #define TB_CROSSING_H
 
@@ -14,9 +14,9 @@ typedef tb_status (*tb_scalar_fn)(void *ctx, double x, double *y);
 tb_status tb_brent_root(tb_scalar_fn fn, void *ctx, double a, double b, double fa, double fb,
                         double xtol, int maxit, double *root);
 
-/* A local minimum of fn in [a, b] by golden-section search to width xtol (at
- * most maxit evaluations); *xmin and *ymin the best point seen. */
-tb_status tb_golden_min(tb_scalar_fn fn, void *ctx, double a, double b, double xtol, int maxit,
-                        double *xmin, double *ymin);
+/* A local minimum of fn in [a, b] by Brent's method (golden section and parabolic
+ * steps) to about xtol (at most maxit evaluations); *xmin and *ymin the best point seen. */
+tb_status tb_line_min(tb_scalar_fn fn, void *ctx, double a, double b, double xtol, int maxit,
+                      double *xmin, double *ymin);
 
 #endif

@@ -2,6 +2,7 @@
 #include "diag.h"
 
 #include <math.h>
+#include <stdlib.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -294,11 +295,15 @@ const char *tb_format_hz(double f, int digits, char *buf, size_t size)
 {
     static const char *const prefix[] = {"", "k", "M", "G", "T", "P"};
     int p = 0;
-    double v = f;
     if (f == 0.0) {
         snprintf(buf, size, "DC");
         return buf;
     }
+    /* rounded first, so that 999.999996 Hz reads "1 kHz", not "1000 Hz" */
+    char rounded[64];
+    snprintf(rounded, sizeof rounded, "%.*g", digits, f);
+    f = strtod(rounded, NULL);
+    double v = f;
     if (fabs(f) < 1.0) {
         snprintf(buf, size, "%.*g mHz", digits, f * 1e3);
         return buf;

@@ -45,6 +45,7 @@ static const struct {
     {"check", "--html-reports"}, {"check", "--output"}, {"check", "--merge"}, {"check", "--include-root"}, {"check", "--include-anywhere"},
     {"check", "--pole-limit"}, {"check", "--no-stability"}, {"check", "--no-rhp-count"},
     {"report", "--no-spread"}, {"report", "--samples"}, {"report", "--seed"}, {"report", "--sens-at"},
+    {"report", "--gm-cap"}, {"plot", "--gm-cap"},
 };
 
 /* true when command accepts option (-h is --help everywhere). */
@@ -83,7 +84,7 @@ static const char usage_main[] =
 
 static const char usage_report[] =
     "usage: tbeta report NETLIST [--json] [--html FILE] [--at F1,F2,...] [--output FILE]\n"
-    "                            [--pm-min DEG] [--gm-min DB] [--strict]\n"
+    "                            [--pm-min DEG] [--gm-min DB] [--strict] [--gm-cap DB]\n"
     "                            [--pole-limit N] [--no-stability] [--all-sources] [--sensitivities]\n"
     "                            [--jobs N] [--include-root DIR] [--no-rhp-count]\n"
     "                            [--samples N] [--seed S] [--no-spread] [--sens-at F1,F2,...]\n"
@@ -101,6 +102,9 @@ static const char usage_report[] =
     "                    1k,20k), each by a fresh solve there; may be given more than once\n"
     "  --output FILE     write the report to FILE (replaced whole) instead of stdout\n"
     "  --help            this text\n"
+    "  --gm-cap DB       T's phase is not followed where |T| is more than DB below 0 dB: its\n"
+    "                    -180 deg crossings there are not listed, and a gain margin beyond\n"
+    "                    them reads \"more than DB\" (default 60; 0: every crossing)\n"
     "  --pm-min DEG      phase-margin threshold (default: the netlist's .margins pm=,\n"
     "                    else 45, common practice); implies --strict\n"
     "  --gm-min DB       gain-margin threshold (default: the netlist's .margins gm=,\n"
@@ -132,7 +136,7 @@ static const char usage_report[] =
 static const char usage_plot[] =
     "usage: tbeta plot NETLIST --svg DIR [--pole-limit N] [--no-stability] [--all-sources]\n"
     "                          [--pm-min DEG] [--gm-min DB] [--strict] [--jobs N] [--include-root DIR]\n"
-    "                          [--no-rhp-count]\n"
+    "                          [--no-rhp-count] [--gm-cap DB]\n"
     "  Writes the pictures of every loop as SVG files into DIR (created when missing):\n"
     "  LOOP-bode.svg, LOOP-nyquist.svg, LOOP-breakdown.svg (with .ideal), LOOP-impedance-PORT.svg\n"
     "  (each .zport) and step.svg (the closed-loop step response); prints the files written.\n"
@@ -142,6 +146,8 @@ static const char usage_plot[] =
     "                      unknowns (default 500)\n"
     "  --no-stability      no margins, poles, verdict or step response in the pictures\n"
     "  --no-rhp-count      above the pole limit, no right-half-plane count for the verdict\n"
+    "  --gm-cap DB         phase crossings where |T| is more than DB below 0 dB not followed\n"
+    "                      (default 60; 0: every one)\n"
     "  --all-sources       run the loop census too (its findings are in 'tbeta report')\n"
     "  --pm-min DEG, --gm-min DB, --strict\n"
     "                      exit 1 when a loop misses a threshold, as in 'tbeta report'\n"
@@ -239,7 +245,7 @@ static bool is_stability_option(const char *s)
     return strcmp(s, "--pm-min") == 0 || strcmp(s, "--gm-min") == 0 || strcmp(s, "--strict") == 0 ||
            strcmp(s, "--pole-limit") == 0 || strcmp(s, "--no-stability") == 0 ||
            strcmp(s, "--all-sources") == 0 || strcmp(s, "--sensitivities") == 0 ||
-           strcmp(s, "--no-rhp-count") == 0;
+           strcmp(s, "--no-rhp-count") == 0 || strcmp(s, "--gm-cap") == 0;
 }
 
 /* A finite number (or, with whole, a non-negative integer) from text; false when malformed. */
@@ -294,6 +300,8 @@ static int stability_option(int argc, char **argv, int *i, args *a, const char *
     }
     if (whole) {
         a->opt.pole_limit = (size_t)x;
+    } else if (strcmp(s, "--gm-cap") == 0) {
+        a->opt.gm_cap_db = x; /* not a threshold: the report is not made strict */
     } else {
         *(strcmp(s, "--pm-min") == 0 ? &a->opt.pm_min_deg : &a->opt.gm_min_db) = x;
         a->strict = true;

@@ -39,6 +39,10 @@ typedef struct {
     double rate;
     bool phase_off;  /* the phase-crossing list is full and one more was seen: T's phase is no
                       * longer followed (its turns no longer counted) */
+    double cap;      /* |T| below this (linear, < 1) at both ends of an interval: phase not followed */
+    bool capped;     /* somewhere below the cap the phase turned or crossed -180 (mod 360) unfollowed */
+    bool turns_lost; /* T's turns are no longer counted (phase_off, or turns skipped below the cap):
+                      * later crossings carry the principal phase */
     bool defer;      /* phase crossings bracketed now, refined at the end (none on overflow) */
     size_t deferred;
     struct {
@@ -113,6 +117,12 @@ static bool phase_matters(const scan *sc, const sample *a, const sample *b)
     return !(sc->has_up && hi * far < sc->up_mag) && !(sc->has_down && lo > sc->down_mag * far);
 }
 
+/* Both ends below the gain-margin cap (and far from 0 dB): T's phase is not followed there. */
+static bool under_cap(const scan *sc, const sample *a, const sample *b)
+{
+    return !a->inf && !b->inf && cabs(a->T) < sc->cap && cabs(b->T) < sc->cap;
+}
+
 /* Between grid points every rule applies, coarser where |T| is far from 0 dB;
  * outside the sweep the |T| rule only near 0 dB, where it sharpens the brackets
  * of unity crossings. The phase of T only where it matters (the phase of 1 + T
@@ -133,7 +143,7 @@ static bool needs_split(const scan *sc, const sample *a, const sample *b)
      * throughout is asked: then 1 + T stays in the right half-plane and its phase needs no
      * following; a rise to 0 dB must exceed TB_MARGIN_RISE_FACTOR times the change seen.
      * Near or above 1 the phase of T is followed as before: 1 + T turns with it. */
-    bool below = sc->phase_off && !near && da < 0;
+    bool below = (sc->phase_off || under_cap(sc, a, b)) && !near && da < 0;
     if (below)
         split_db = fmax(TB_MARGIN_SPLIT_DB_FAR, fmin(fabs(da), fabs(db)) / TB_MARGIN_RISE_FACTOR);
     return (!below && fabs(b->deg - a->deg) > split_deg && phase_matters(sc, a, b)) ||
@@ -218,13 +228,15 @@ static tb_status refine_root(scan *sc, const sample *a, const sample *b, int kin
     if (kind == ROOT_UNITY) {
         c.direction = ln_mag(b) > ln_mag(a) ? 1 : -1;
         c.margin = tb_wrap180(s.deg + 180.0);
-        if (sc->phase_off) /* T's turns are no longer counted: the principal phase, in (-360, 0] */
+        if (sc->turns_lost) /* T's turns are no longer counted: the principal phase, in (-360, 0] */
             c.phase_deg = c.margin - 180.0;
         c.delay_s = lag_deg(c.margin) / 360.0 / s.f;
         append(sc, sc->st->unity, &sc->st->unity_count, &c);
     } else {
         c.direction = b->deg > a->deg ? 1 : -1;
         c.margin = -c.T_db;
+        if (sc->turns_lost)
+            c.phase_deg = -180.0;
         critical(sc, cabs(s.T));
         append(sc, sc->st->phase, &sc->st->phase_count, &c);
     }
@@ -271,6 +283,13 @@ static tb_status leaf(scan *sc, const sample *a, const sample *b)
     if (st || sc->phase_off || !phase_matters(sc, a, b))
         return st;
     double lo = fmin(a->deg, b->deg), hi = fmax(a->deg, b->deg);
+    if (under_cap(sc, a, b)) { /* a crossing here would set a gain margin above the cap */
+        if (hi - lo > TB_MARGIN_SPLIT_DEG || floor((hi - 180.0) / 360.0) != floor((lo - 180.0) / 360.0)) {
+            sc->capped = true;
+            sc->turns_lost = true;
+        }
+        return st;
+    }
     for (double k = ceil((lo - 180.0) / 360.0); !st && 180.0 + 360.0 * k <= hi; k++) {
         double level = 180.0 + 360.0 * k;
         if ((a->deg < level) == (b->deg < level))
@@ -283,7 +302,7 @@ static tb_status leaf(scan *sc, const sample *a, const sample *b)
             /* the list is full: the crossing would not be kept, nor would any later one, and the
              * margins are not determined; from here T's phase need not be followed */
             incomplete(sc, TB_SNOTE_TRUNCATED);
-            sc->phase_off = true;
+            sc->phase_off = sc->turns_lost = true;
             break;
         }
             st = refine_root(sc, a, b, ROOT_PHASE, level);
@@ -466,7 +485,7 @@ static tb_status low_leg(scan *sc, const tb_result *res, sample *cur, double *re
     for (size_t i = lo + 1; i < LOW_MAX && !st; i++)
         st = step_to(sc, cur, s[i]);
     bool stepped = false;
-    for (int k = 3; k < 2 * TB_MARGIN_EXT_DECADES && !st; k++)
+    for (int k = 4; k < 2 * TB_MARGIN_EXT_DECADES && !st; k += 2) /* whole decades: the split rules refine */
         st = probe_step(sc, cur, f_low * pow(10.0, k / 2.0), &stepped);
     return st;
 }
@@ -498,7 +517,7 @@ static tb_status high_leg(scan *sc, sample *cur)
     sample last[3];
     size_t have = 0;
     int n = 0;
-    for (int k = 1; k <= 2 * (TB_MARGIN_EXT_DECADES + TB_MARGIN_MAX_EXTRA_DECADES); k++) {
+    for (int k = 1; k <= 2 * (TB_MARGIN_EXT_DECADES + TB_MARGIN_MAX_EXTRA_DECADES); k += k < 2 ? 1 : 2) {
         bool stepped = false;
         tb_status st = probe_step(sc, cur, sc->fstop * pow(10.0, k / 2.0), &stepped);
         if (st)
@@ -543,7 +562,7 @@ static tb_status refine_vector(scan *sc)
         return TB_OK;
     min_ctx mc = {sc};
     double x = 0, y = 0;
-    tb_status s = tb_golden_min(distance_fn, &mc, log(sc->vm_lo), log(sc->vm_hi), 1e-10, 80, &x, &y);
+    tb_status s = tb_line_min(distance_fn, &mc, log(sc->vm_lo), log(sc->vm_hi), 1e-10, 80, &x, &y);
     if (s)
         return s == TB_ERR_NOMEM ? s : TB_OK;
     if (y < st->vector_margin) {
@@ -580,9 +599,14 @@ static void summarize(scan *sc)
         note(sc, TB_SNOTE_NO_UNITY);
     if (st->unity_count > 1)
         note(sc, TB_SNOTE_MULTIPLE_UNITY);
-    if (st->phase_count == 0)
+    if (sc->capped) {
+        note(sc, TB_SNOTE_BELOW_GM_CAP);
+        st->gm_cap_db = -20.0 * log10(sc->cap);
+        st->has_gain_margin_up_above = !st->has_gain_margin_up;
+    }
+    if (st->phase_count == 0 && !sc->capped)
         note(sc, TB_SNOTE_NO_PHASE_CROSSING);
-    else if (!st->has_gain_margin_up)
+    else if (!st->has_gain_margin_up && !sc->capped)
         note(sc, TB_SNOTE_NO_GAIN_UP);
     else if (!st->has_gain_margin_down)
         note(sc, TB_SNOTE_NO_GAIN_DOWN);
@@ -608,7 +632,8 @@ tb_status tb_margin_scan(tb_probe *probe, const tb_result *res, size_t l, const 
     size_t before = probe->evaluations;
     *path = (tb_nyquist_path){.ok = true};
     scan sc = {.probe = probe, .l = l, .st = st, .path = path, .complete = true, .budget = TB_MARGIN_BUDGET,
-               .fstart = res->freqs[0], .fstop = res->freqs[res->npoints - 1], .defer = !wants->crossing_list};
+               .fstart = res->freqs[0], .fstop = res->freqs[res->npoints - 1], .defer = !wants->crossing_list,
+               .cap = wants->gm_cap_db > 0 ? fmin(pow(10.0, -wants->gm_cap_db / 20.0), pow(10.0, -TB_MARGIN_NEAR_DB / 20.0)) : 0};
     sample cur = {0};
     double ret0 = 0;
     tb_status s = low_leg(&sc, res, &cur, &ret0);
@@ -669,6 +694,8 @@ void tb_margin_judge(tb_stability *st, double pm_min_deg, double gm_min_db)
     double key = st->has_phase_margin ? pm_key(&st->unity[st->phase_margin_index], stable) : 0;
     st->pm_ok = !st->has_phase_margin || (key >= pm_min_deg && (stable || key > 0));
     bool up = !st->has_gain_margin_up || st->gain_margin_up_db >= gm_min_db;
+    if (!st->has_gain_margin_up && st->has_gain_margin_up_above) /* only a bound: "more than the cap" */
+        up = st->gm_cap_db >= gm_min_db;
     bool down = !st->has_gain_margin_down || st->gain_margin_down_db >= gm_min_db;
     st->gm_ok = up && down && (stable || (!st->has_gain_margin_up && !st->has_gain_margin_down));
 }

@@ -38,6 +38,10 @@
  * (an assumption of smoothness, as every sampling rule here). Near or above 0 dB the
  * phase is followed as before: 1 + T turns with T there. */
 #define TB_MARGIN_RISE_FACTOR 4.0
+/* Where |T| lies more than tb_scan_wants.gm_cap_db below 0 dB at both ends of an interval
+ * (and TB_MARGIN_NEAR_DB at least), T's phase is treated as after an overflowing list: not
+ * followed, its crossings neither bracketed nor listed. A gain margin there would exceed the
+ * cap: when no phase crossing is listed on the rising side, the margin is given as a bound. */
 /* Outside the sweep the phase of T is not followed where |T| lies this much further
  * from 1 than at a critical gain already found on the same side of 1. */
 #define TB_MARGIN_FAR_DB 20.0
@@ -70,6 +74,8 @@ typedef struct {
  * Errors: TB_ERR_NOMEM. */
 typedef struct {
     bool vector_refine; /* the vector margin refined between samples (else the best sample's) */
+    double gm_cap_db;   /* > 0: phase crossings where |T| lies further below 0 dB are not followed
+                         * (the gain margin then "more than gm_cap_db"); 0: every one */
     bool crossing_list; /* phase crossings refined as found; false: bracketed, refined at the end,
                          * none when more turn up than the list keeps (the margins are then not
                          * determined, and no list is wanted: spread samples) */

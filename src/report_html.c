@@ -120,7 +120,11 @@ static void frequency_table(FILE *out, const tb_result *res, const tb_measures *
     if (st->computed && st->has_gain_margin_up)
         snprintf(v, sizeof v, "%.2f dB at %s (threshold %g: %s)", st->gain_margin_up_db,
                  fmt_hz(true, st->gain_margin_up_hz, f, sizeof f), st->gm_min_db, st->gm_ok ? "met" : "MISSED");
-    cell_text(out, "loop gain may rise by", st->computed && st->has_gain_margin_up ? v : "--");
+    else if (st->computed && st->has_gain_margin_up_above)
+        snprintf(v, sizeof v, "more than %g dB, the cap (threshold %g: %s)", st->gm_cap_db, st->gm_min_db,
+                 st->gm_ok ? "met" : "MISSED");
+    cell_text(out, "loop gain may rise by",
+              st->computed && (st->has_gain_margin_up || st->has_gain_margin_up_above) ? v : "--");
     if (st->computed && st->has_gain_margin_down)
         snprintf(v, sizeof v, "%.2f dB at %s (threshold %g: %s)", st->gain_margin_down_db,
                  fmt_hz(true, st->gain_margin_down_hz, f, sizeof f), st->gm_min_db, st->gm_ok ? "met" : "MISSED");

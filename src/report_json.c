@@ -298,6 +298,8 @@ static void stability_keys(builder *b, json_t *lp, const tb_stability *st)
     set(b, lp, "phase_margin_hz", st->has_phase_margin ? num(st->phase_margin_hz) : json_null());
     set(b, lp, "gain_margin_up_db", st->has_gain_margin_up ? num(st->gain_margin_up_db) : json_null());
     set(b, lp, "gain_margin_up_hz", st->has_gain_margin_up ? num(st->gain_margin_up_hz) : json_null());
+    /* only a bound: no -180 crossing listed where |T| < 1, and some not followed below the cap */
+    set(b, lp, "gain_margin_up_above_db", st->has_gain_margin_up_above ? num(st->gm_cap_db) : json_null());
     set(b, lp, "gain_margin_down_db", st->has_gain_margin_down ? num(st->gain_margin_down_db) : json_null());
     set(b, lp, "gain_margin_down_hz", st->has_gain_margin_down ? num(st->gain_margin_down_hz) : json_null());
     set(b, lp, "delay_margin_s", st->has_delay_margin ? num(st->delay_margin_s) : json_null());

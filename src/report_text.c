@@ -106,7 +106,8 @@ static void closed_loop_lines(FILE *out, const tb_result *res, const tb_measures
         snprintf(v, sizeof v, "%+.3f dB at %s", cl.peak_db, fmt_hz(cl.peak_hz, f, sizeof f));
         line(out, "peaking of |A| over A(0)", cl.has_peak, v, m->stability_shown ? "" : "   [assumes a stable loop]");
     }
-    snprintf(v, sizeof v, "%+.2f dB at %s", m->max_sensitivity_db, fmt_hz(m->max_sensitivity_hz, f, sizeof f));
+    double db = fabs(m->max_sensitivity_db) < 0.005 ? 0.0 : m->max_sensitivity_db; /* no "-0.00" */
+    snprintf(v, sizeof v, "%+.2f dB at %s", db, fmt_hz(m->max_sensitivity_hz, f, sizeof f));
     line(out, "largest |1/(1+T)| = 1/min|1+T|", m->has_max_sensitivity, v, "");
 }
 
@@ -313,21 +314,25 @@ static void gain_margin_line(FILE *out, const tb_stability *st)
         line(out, "gain margin", true, v, "");
         return;
     }
-    snprintf(up, sizeof up, "rise by %.3f dB (at %s)", st->gain_margin_up_db,
-             fmt_hz_or_dc(st->gain_margin_up_hz, f, sizeof f));
+    bool has_up = st->has_gain_margin_up || st->has_gain_margin_up_above;
+    if (st->has_gain_margin_up)
+        snprintf(up, sizeof up, "rise by %.3f dB (at %s)", st->gain_margin_up_db,
+                 fmt_hz_or_dc(st->gain_margin_up_hz, f, sizeof f));
+    else
+        snprintf(up, sizeof up, "rise by more than %g dB (the cap)", st->gm_cap_db);
     snprintf(down, sizeof down, "fall by %.3f dB (at %s)", st->gain_margin_down_db,
              fmt_hz_or_dc(st->gain_margin_down_hz, g, sizeof g));
-    const char *both = st->has_gain_margin_up && st->has_gain_margin_down ? " / " : "";
+    const char *both = has_up && st->has_gain_margin_down ? " / " : "";
     if (stable)
         snprintf(v, sizeof v, "the loop gain may %s%s%s before instability%s (needs >= %g dB: %s)",
-                 st->has_gain_margin_up ? up : "", both, st->has_gain_margin_down ? down : "",
-                 !st->has_gain_margin_up ? ", and rise without limit"
+                 has_up ? up : "", both, st->has_gain_margin_down ? down : "",
+                 !has_up ? ", and rise without limit"
                  : !st->has_gain_margin_down ? ", and fall to zero" : "",
                  st->gm_min_db, st->gm_ok ? "ok" : "FAILS");
     else
         snprintf(v, sizeof v, "none: the loop is not shown stable (a pole reaches the axis if the gain would %s%s%s)",
-                 st->has_gain_margin_up ? up : "", both, st->has_gain_margin_down ? down : "");
-    line(out, "gain margin", st->has_gain_margin_up || st->has_gain_margin_down, v, "");
+                 has_up ? up : "", both, st->has_gain_margin_down ? down : "");
+    line(out, "gain margin", has_up || st->has_gain_margin_down, v, "");
 }
 
 static void stability_block(FILE *out, const tb_stability *st)

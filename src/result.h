@@ -44,6 +44,9 @@ typedef struct tb_spot_data {
 /* Frees the figures at chosen frequencies (NULL is fine). */
 void tb_spot_data_free(tb_spot_data *sd);
 
+/* Width in ln f to which the peak of |A| between two grid points is refined. */
+#define TB_PEAK_XTOL 1e-10
+
 /* Everything tb_analyse found. The analyses fill their parts; the writers and
  * .expect read them through the accessors below and in include/tbeta.h. */
 struct tb_result {
@@ -68,6 +71,14 @@ struct tb_result {
     tb_wb_data *wb;   /* .break loop gain, or NULL */
     tb_feedback_type *ftype; /* nloops: series/shunt topology, or NULL */
     tb_closed_loop cl;       /* closed-loop response (closedloop.c) */
+    struct {                 /* the largest |A| between the neighbours of grid point index, at
+                              * f = e^x to TB_PEAK_XTOL, as the first analysis that refined it
+                              * found it (the stability's peaking); the closed-loop figures reuse it */
+        bool known;
+        size_t index;
+        double x;
+        double abs_a;
+    } a_peak;
     tb_sensitivity *sens;    /* nloops, or NULL (sensitivity.c) */
     tb_sens_entry *sens_entries; /* nloops x sens_per_loop, each loop's ranked */
     size_t sens_per_loop;

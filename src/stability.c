@@ -284,9 +284,9 @@ static tb_status minus_abs_a(void *ctx, double x, double *y)
 }
 
 /* Closed-loop peaking: the largest |A| over the sweep against |A(0)| (DC, or the
- * lowest sweep point), refined by golden-section search on fresh solves between
+ * lowest sweep point), refined by Brent minimization on fresh solves between
  * the best grid point's neighbours; 0 dB when |A| never rises above |A(0)|. */
-static tb_status closed_loop_peaking(stab_work *w, const tb_result *res)
+static tb_status closed_loop_peaking(stab_work *w, tb_result *res)
 {
     double f0 = 0;
     if (!res->has_io || res->nloops == 0 || res->npoints == 0)
@@ -302,10 +302,16 @@ static tb_status closed_loop_peaking(stab_work *w, const tb_result *res)
     double peak = cabs(res->pts[best].A), at = res->freqs[best];
     if (best > 0 && best + 1 < res->npoints && w->opt->peak_refine) {
         double x = 0, y = 0;
-        tb_status s = tb_golden_min(minus_abs_a, w->probe, log(res->freqs[best - 1]), log(res->freqs[best + 1]),
-                                    1e-9, 80, &x, &y);
+        tb_status s = tb_line_min(minus_abs_a, w->probe, log(res->freqs[best - 1]), log(res->freqs[best + 1]),
+                                  TB_PEAK_XTOL, 200, &x, &y);
         if (s == TB_ERR_NOMEM)
             return s;
+        if (s == TB_OK && isfinite(y)) {
+            res->a_peak.known = true;
+            res->a_peak.index = best;
+            res->a_peak.x = x;
+            res->a_peak.abs_a = -y;
+        }
         if (s == TB_OK && -y > peak && isfinite(y)) {
             peak = -y;
             at = exp(x);
@@ -434,7 +440,8 @@ static tb_status near_poles(stab_work *w, const tb_result *res, size_t l, tb_sta
 static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *st)
 {
     tb_nyquist_path path;
-    tb_scan_wants wants = {.vector_refine = w->opt->vector_refine, .crossing_list = w->opt->crossing_list};
+    tb_scan_wants wants = {.vector_refine = w->opt->vector_refine, .crossing_list = w->opt->crossing_list,
+                          .gm_cap_db = w->opt->gm_cap_db};
     tb_status s = tb_margin_scan(w->probe, res, l, &wants, st, &path);
     if (s)
         return s;

@@ -410,7 +410,7 @@ static bool first_reach(const wave *w, double level, double *at)
     return false;
 }
 
-/* Peak: the largest sample, refined by golden section between its neighbours. */
+/* Peak: the largest sample, refined by Brent minimization between its neighbours. */
 static void peak(const wave *w, tb_step_figures *fig)
 {
     size_t best = 0;
@@ -420,7 +420,7 @@ static void peak(const wave *w, tb_step_figures *fig)
     double t = w->t[best], z = z_at(w, best);
     if (best > 0 && best + 1 < w->count) {
         double tm = t, mz = -z;
-        if (!tb_golden_min(minus_z, (void *)w, w->t[best - 1], w->t[best + 1], 1e-13 * t, 200, &tm, &mz) &&
+        if (!tb_line_min(minus_z, (void *)w, w->t[best - 1], w->t[best + 1], 1e-13 * t, 200, &tm, &mz) &&
             -mz > z) {
             t = tm;
             z = -mz;

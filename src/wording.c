@@ -43,6 +43,7 @@ static const char *const snote_text[TB_SNOTE_COUNT] = {
     [TB_SNOTE_PAIR_DISAGREES] = "the dominant pair's second-order predictions miss the computed step response or closed-loop peaking by more than 2x",
     [TB_SNOTE_RHP_BY_WINDING] = "poles not computed: the right-half-plane counts come from the argument principle on det M(jw) along the j-omega axis",
     [TB_SNOTE_WINDING_FAILED] = "poles not computed and no right-half-plane count by the argument principle either",
+    [TB_SNOTE_BELOW_GM_CAP] = "where |T| is below the gain-margin cap (--gm-cap) its phase is not followed: -180 degree crossings there are not listed, and would give gain margins above the cap",
 };
 _Static_assert(sizeof(snote_text) / sizeof(snote_text[0]) == TB_SNOTE_COUNT, "snote_text in step");
 

@@ -77,7 +77,14 @@ expect pm-above-strict 0 $tb tests/stab/stab_pm_above_sweep.net --strict
 # conditionally stable, its lower critical gain (9.4 dB down) below the sweep
 expect conditional-down 1 $tb tests/stab/stab_conditional_below_sweep.net --gm-min 10 --pm-min 30
 has conditional-down err "loop G1: the loop gain may fall by only 9.405 dB (needs 10 dB)"
-has conditional-down out "the loop gain may rise by 71.249 dB (at 999.21 kHz) / fall by 9.405 dB (at 385.01 Hz) before instability"
+# its upper critical gain is 71.2 dB up: beyond the default gain-margin cap of 60 dB, a bound
+has conditional-down out "the loop gain may rise by more than 60 dB (the cap) / fall by 9.405 dB (at 385.01 Hz) before instability"
+has conditional-down out "where |T| is below the gain-margin cap (--gm-cap) its phase is not followed"
+expect conditional-uncapped 1 $tb tests/stab/stab_conditional_below_sweep.net --gm-min 10 --pm-min 30 --gm-cap 0
+has conditional-uncapped out "the loop gain may rise by 71.249 dB (at 999.21 kHz) / fall by 9.405 dB (at 385.01 Hz) before instability"
+expect conditional-cap-80 1 $tb tests/stab/stab_conditional_below_sweep.net --gm-min 10 --pm-min 30 --gm-cap 80
+has conditional-cap-80 out "the loop gain may rise by 71.249 dB (at 999.21 kHz)"
+expect conditional-cap-bad 2 $tb tests/stab/stab_conditional_below_sweep.net --gm-cap -3
 expect conditional-met 0 $tb tests/stab/stab_conditional_below_sweep.net --gm-min 9 --pm-min 30
 # T(0) = -0.4: DC is a critical point, 7.96 dB up
 expect positive-dc 1 $tb tests/stab/stab_positive_dc.net --gm-min 10

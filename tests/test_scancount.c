@@ -18,12 +18,12 @@
 #define CSEC 1e-12
 #define F_LO 1.0
 #define F_HI 1e9
-/* The bound: 184 fresh factorizations outside the grid at the time of writing (445 before the
- * scan split coarsely between grid points far from 0 dB); a regression that re-walks the line
- * fails here. */
+/* The bound: 158 fresh factorizations outside the grid at the time of writing, every crossing
+ * followed (445 before the scan split coarsely between grid points far from 0 dB); a regression
+ * that re-walks the line fails here. */
 #define MAX_PROBE_FACTORIZATIONS 210
 
-static char *line_netlist(int n)
+static char *line_netlist_gm(int n, const char *gm)
 {
     size_t cap = 64 * (size_t)n + 512, len = 0;
     char *text = malloc(cap);
@@ -35,18 +35,38 @@ static char *line_netlist(int n)
             len += (size_t)snprintf(text + len, cap - len, "R%d n%d n%d 10\n", i, i, i + 1);
     }
     len += (size_t)snprintf(text + len, cap - len,
-                            "RT n%d 0 1k\nGW n1 0 n%d 0 1u\n.loop GW\n.io VIN v(n%d)\n.ac dec 10 1 1g\n.end\n", n, n, n);
+                            "RT n%d 0 1k\nGW n1 0 n%d 0 %s\n.loop GW\n.io VIN v(n%d)\n.ac dec 10 1 1g\n.end\n", n, n,
+                            gm, n);
     assert_true(len < cap);
     return text;
 }
 
-/* arg T(j 2 pi f) in radians, wrapped, from the ladder alone: T = gm Z(n1 -> nN), the voltage at nN
- * per unit current into n1 with the source shorted (the return ratio of a transconductance
- * that draws current out of n1; common practice). The cascade runs from the far end: with
+static char *line_netlist(int n)
+{
+    return line_netlist_gm(n, "1u");
+}
+
+/* A full analysis with the gain-margin cap at cap_db (0: every phase crossing followed). */
+static tb_result *analyse_capped(const char *text, double cap_db, tb_circuit **ckt)
+{
+    *ckt = tu_parse(text);
+    tb_options opt;
+    tb_options_init(&opt);
+    opt.gm_cap_db = cap_db;
+    tb_diag *diag = tb_diag_new();
+    tb_result *res = NULL;
+    assert_int_equal(tb_analyse(*ckt, &opt, diag, &res), TB_OK);
+    tb_diag_free(diag);
+    return res;
+}
+
+/* The current into n1 that sets v(nN) = 1 with the source shorted: T = gm Z(n1 -> nN) = gm / it,
+ * the voltage at nN per unit current into n1 (the return ratio of a transconductance that
+ * draws current out of n1; common practice). The cascade runs from the far end: with
  * v(nN) = 1, each series resistor adds R times the current through it, each node its shunt
  * current (the chain-parameter cascade of a ladder, D. M. Pozar, Microwave Engineering, 4th ed.,
  * Wiley 2012, section 4.4). */
-static double ladder_arg(int n, double f)
+static double complex ladder_current(int n, double f)
 {
     double complex y = I * 2.0 * PI * f * CSEC;
     double complex v = 1.0, cur = v * (y + 1.0 / RT);
@@ -54,7 +74,13 @@ static double ladder_arg(int n, double f)
         v += RSEC * cur;
         cur += v * (y + (i == 1 ? 1.0 / RS : 0.0));
     }
-    return -carg(cur);
+    return cur;
+}
+
+/* arg T(j 2 pi f) in radians, wrapped, from the ladder alone. */
+static double ladder_arg(int n, double f)
+{
+    return -carg(ladder_current(n, f));
 }
 
 /* The frequencies where the unwrapped arg T of the ladder crosses -180 - 360 k degrees inside
@@ -95,7 +121,7 @@ static void test_scancount_line_report(void **state)
     (void)state;
     char *text = line_netlist(N);
     tb_circuit *ckt = NULL;
-    tb_result *res = tu_analyse(text, &ckt);
+    tb_result *res = analyse_capped(text, 0, &ckt); /* every crossing followed */
     free(text);
 
     tb_stats stats;
@@ -144,6 +170,7 @@ static void test_scancount_long_line_overflow(void **state)
     tb_options opt;
     tb_options_init(&opt);
     opt.rhp_count_limit = 0;
+    opt.gm_cap_db = 0; /* every crossing followed, as the list overflows */
     tb_diag *diag = tb_diag_new();
     tb_result *res = NULL;
     assert_int_equal(tb_analyse(ckt, &opt, diag, &res), TB_OK);
@@ -176,11 +203,102 @@ static void test_scancount_long_line_overflow(void **state)
     tb_circuit_free(ckt);
 }
 
+/* Fresh factorizations of a full analysis (the grid's not counted). */
+static size_t probe_count(const tb_result *res)
+{
+    tb_stats stats;
+    assert_int_equal(tb_result_stats(res, &stats), TB_OK);
+    return stats.probe_factorizations;
+}
+
+/* The default cap of 60 dB on the weak line, whose |T| stays below -70 dB: no phase crossing
+ * is listed, the rising gain margin reads "more than 60 dB" (a bound, and a judgment: the
+ * threshold of 10 dB is met), the margins are determined, and the scan spends fewer fresh
+ * factorizations than with every crossing followed. */
+static void test_scancount_cap_weak_line(void **state)
+{
+    (void)state;
+    char *text = line_netlist(N);
+    tb_circuit *all_ckt = NULL, *ckt = NULL;
+    tb_result *all = analyse_capped(text, 0, &all_ckt);
+    tb_result *res = analyse_capped(text, 60, &ckt);
+    free(text);
+    tb_stability full, stab;
+    assert_int_equal(tb_stability_loop(all, 0, &full), TB_OK);
+    assert_int_equal(tb_stability_loop(res, 0, &stab), TB_OK);
+    assert_true(full.phase_count >= 5);
+    for (size_t i = 0; i < full.phase_count; i++)
+        assert_true(full.phase[i].T_db < -60.0); /* the independent check of these: above */
+    assert_int_equal(stab.phase_count, 0);
+    assert_false(stab.has_gain_margin_up);
+    assert_true(stab.has_gain_margin_up_above);
+    tu_close(stab.gm_cap_db, 60.0, 1e-12);
+    assert_true(stab.notes & (1u << TB_SNOTE_BELOW_GM_CAP));
+    assert_true(stab.margins_determined);
+    assert_true(stab.gm_ok);
+    assert_int_equal(stab.verdict, TB_VERDICT_STABLE);
+    print_message("weak line: %zu fresh factorizations capped, %zu with every crossing\n", probe_count(res),
+                  probe_count(all));
+    assert_true(probe_count(res) < probe_count(all));
+    tb_result_free(all);
+    tb_result_free(res);
+    tb_circuit_free(all_ckt);
+    tb_circuit_free(ckt);
+}
+
+/* A stronger loop on the same line (gm 2.5 mS, T(0) = 0.5): its first phase crossings lie above
+ * the cap, the later ones far below. Against the cascade: every crossing with |T| above
+ * -57 dB is listed at its frequency, none below -90 dB, and the rising gain margin is the
+ * cascade's -20 log |T| at the first crossing. */
+static void test_scancount_cap_strong_line(void **state)
+{
+    (void)state;
+    const double gm = 2.5e-3;
+    char *text = line_netlist_gm(N, "2.5m");
+    tb_circuit *ckt = NULL;
+    tb_result *res = analyse_capped(text, 60, &ckt);
+    free(text);
+    tb_stability stab;
+    assert_int_equal(tb_stability_loop(res, 0, &stab), TB_OK);
+    double want[64];
+    size_t nwant = ladder_crossings(N, want, 64), above = 0, below = 0;
+    assert_true(nwant >= 5 && nwant <= 64);
+    for (size_t k = 0; k < nwant; k++) {
+        double db = 20.0 * log10(gm / cabs(ladder_current(N, want[k])));
+        bool listed = false;
+        for (size_t i = 0; i < stab.phase_count; i++)
+            if (fabs(stab.phase[i].hz / want[k] - 1.0) < 1e-7) {
+                listed = true;
+                tu_close(stab.phase[i].T_db, db, 1e-6);
+                tu_close(stab.phase[i].phase_deg, -180.0 - 360.0 * (double)k, 1e-9);
+            }
+        if (db > -57.0) {
+            assert_true(listed);
+            above++;
+        }
+        if (db < -90.0) {
+            assert_false(listed);
+            below++;
+        }
+    }
+    print_message("strong line: %zu crossings above -57 dB, %zu below -90 dB, %zu listed\n", above, below,
+                  stab.phase_count);
+    assert_true(above >= 1 && below >= 1);
+    assert_true(stab.margins_determined);
+    assert_true(stab.has_gain_margin_up);
+    assert_false(stab.has_gain_margin_up_above);
+    tu_close(stab.gain_margin_up_db, -20.0 * log10(gm / cabs(ladder_current(N, want[0]))), 1e-6);
+    tb_result_free(res);
+    tb_circuit_free(ckt);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_scancount_line_report),
         cmocka_unit_test(test_scancount_long_line_overflow),
+        cmocka_unit_test(test_scancount_cap_weak_line),
+        cmocka_unit_test(test_scancount_cap_strong_line),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -61,6 +61,9 @@ DELAY_REL = 5e-3   # ... and delay margins
 BEYOND = 1e9       # the reference searches this factor below and above the sweep
 POLE_TOL = 1e-6    # relative, poles against an independent eigenvalue solver
 TWO_PI = 2.0 * math.pi
+CAP_DB = 60.0      # the report's default gain-margin cap (--gm-cap)
+CAP_SLACK = 3.0    # within this below the cap a crossing may fall in an interval not followed ...
+CAP_FAR = 30.0     # ... and one end of a followed interval may lie this far below it
 
 
 def poly(*factors):
@@ -151,8 +154,9 @@ class Checks:
             print("FAIL %s" % what)
 
 
-def tbeta_json(tbeta, fname):
-    out = subprocess.run([tbeta, "report", fname, "--json"], capture_output=True, text=True)
+def tbeta_json(tbeta, fname, extra=("--gm-cap", "0")):
+    """The JSON report; by default every phase crossing followed (no gain-margin cap)."""
+    out = subprocess.run([tbeta, "report", fname, "--json", *extra], capture_output=True, text=True)
     if out.returncode not in (0, 1):
         raise RuntimeError("%s: tbeta exit %d: %s" % (fname, out.returncode, out.stderr))
     return json.loads(out.stdout)
@@ -334,6 +338,7 @@ def check_analytic(chk, tbeta, fname):
                    "%s: delay margin %r, winding of 1 + T e^(-s tau) %r" % (where, loop["delay_margin_s"], want))
     else:
         chk.expect(loop["delay_margin_s"] is None, "%s: delay margin should be null" % where)
+    check_cap(chk, tbeta, fname, where, phase, up)
     vm = reference_vector_margin(num, den, sweep)
     chk.expect(close(loop["vector_margin"], vm, REL_TOL), "%s: vector margin %r, scipy %r" % (where, loop["vector_margin"], vm))
     # poles: roots of den + num (closed loop) and den (open loop); Z = N + P
@@ -361,6 +366,31 @@ def check_analytic(chk, tbeta, fname):
         os_ref, peak_ref = check_step(chk, tbeta, fname, a_num, a_den, doc, verdict)
     check_dominant(chk, where, loop, a_num, a_den, verdict, os_ref, peak_ref)
     print("ok %s: %d unity, %d phase crossings, %d poles" % (where, len(unity), len(phase), len(cl)))
+
+
+def check_cap(chk, tbeta, fname, where, phase, up):
+    """The default report caps the gain margin at CAP_DB: where |T| lies more than CAP_DB below
+    0 dB, T's phase is not followed. Every scipy crossing with a gain change below
+    CAP_DB - CAP_SLACK must still be listed, none beyond CAP_DB + CAP_FAR; the rising gain
+    margin is exact when below the cap, else given as the bound "more than CAP_DB"."""
+    loop = tbeta_json(tbeta, fname, ())["loops"][0]
+    got = loop["crossings"]["phase"]
+    for f180, gm, _ in phase:
+        listed = any(close(g["hz"], f180, REL_TOL) for g in got)
+        if gm < CAP_DB - CAP_SLACK:
+            chk.expect(listed, "%s: capped report lost the crossing at %r Hz (gain change %r dB)" % (where, f180, gm))
+    for g in got:
+        chk.expect(g["gain_change_db"] <= CAP_DB + CAP_FAR,
+                   "%s: capped report lists a crossing %r dB down" % (where, g["gain_change_db"]))
+    if up is not None and up < CAP_DB - CAP_SLACK:
+        chk.expect(loop["gain_margin_up_db"] is not None and close(loop["gain_margin_up_db"], up, 0, MARGIN_DB),
+                   "%s: capped gain margin %r, numpy.roots %r" % (where, loop["gain_margin_up_db"], up))
+    elif up is not None:  # near or beyond the cap: exact, or the bound; far beyond it only the bound
+        exact = loop["gain_margin_up_db"] is not None and close(loop["gain_margin_up_db"], up, 0, MARGIN_DB)
+        bound = loop["gain_margin_up_db"] is None and loop["gain_margin_up_above_db"] == CAP_DB
+        chk.expect(bound or (exact and up <= CAP_DB + CAP_FAR),
+                   "%s: gain margin %r dB near or beyond the cap, got %r / more than %r"
+                   % (where, up, loop["gain_margin_up_db"], loop["gain_margin_up_above_db"]))
 
 
 def check_headline(chk, where, loop, unity, phase, stable):
