@@ -64,18 +64,28 @@ static double norm(const double complex *x, size_t n)
     return sqrt(s);
 }
 
-/* Orthogonalizes w against V's columns 0..j (classical Gram-Schmidt, twice, as
- * two BLAS products each), adding the coefficients to H's column j. */
+static double norm(const double complex *x, size_t n);
+
+/* Orthogonalizes w against V's columns 0..j (classical Gram-Schmidt as two BLAS products),
+ * adding the coefficients to H's column j; a second pass only where the first cancelled
+ * most of w (the DGKS criterion, |w| after below |w| before / sqrt 2: J. W. Daniel,
+ * W. B. Gragg, L. Kaufman, G. W. Stewart, Reorthogonalization and stable algorithms for
+ * updating the Gram-Schmidt QR factorization, Math. Comp. 30 (1976) 772-795). */
 static void orthogonalize(kwork *k, size_t j, double complex *w)
 {
     int n = (int)k->n, cols = (int)j + 1, one = 1;
     const double complex unit = 1, zero = 0, minus = -1;
+    double before = norm(w, k->n);
     for (int pass = 0; pass < 2; pass++) {
         double complex h[LD];
         zgemv_("C", &n, &cols, &unit, k->V, &n, w, &one, &zero, h, &one);
         zgemv_("N", &n, &cols, &minus, k->V, &n, h, &one, &unit, w, &one);
         for (size_t i = 0; i <= j; i++)
             k->H[i + j * LD] += h[i];
+        double after = norm(w, k->n);
+        if (after >= before * 0.70710678118654752440)
+            break;
+        before = after;
     }
 }
 
