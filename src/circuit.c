@@ -393,6 +393,31 @@ static const char *suggest_node(const tb_circuit *ckt, const char *name, char *b
 
 #define SUGGEST_SIZE (TB_SUGGEST_MAX_LEN * 2 + 32)
 
+/* What the element checks below need to look at, found in one pass over the elements,
+ * which also numbers the branches: each pass reads every element record, and a large
+ * circuit has few duplicates, F, H or K cards, often none. */
+typedef struct {
+    bool duplicates;
+    bool sensing; /* F or H */
+    bool coupling; /* K */
+} element_census;
+
+static element_census number_branches(tb_circuit *ckt)
+{
+    element_census found = {false, false, false};
+    ckt->branch_count = 0;
+    for (size_t i = 0; i < ckt->elem_count; i++) {
+        tb_element *e = &ckt->elems[i];
+        tb_elem_kind k = e->kind;
+        bool has_branch = k == TB_EL_V || k == TB_EL_L || k == TB_EL_E || k == TB_EL_H;
+        e->branch = has_branch ? (long)ckt->branch_count++ : -1;
+        found.duplicates |= e->first_same_name != SIZE_MAX;
+        found.sensing |= k == TB_EL_F || k == TB_EL_H;
+        found.coupling |= k == TB_EL_K;
+    }
+    return found;
+}
+
 static void check_duplicates(checker *ck)
 {
     tb_circuit *ckt = ck->ckt;
@@ -649,16 +674,6 @@ static void check_break(checker *ck)
         br->elem = e;
 }
 
-static void number_branches(tb_circuit *ckt)
-{
-    ckt->branch_count = 0;
-    for (size_t i = 0; i < ckt->elem_count; i++) {
-        tb_elem_kind k = ckt->elems[i].kind;
-        bool has_branch = k == TB_EL_V || k == TB_EL_L || k == TB_EL_E || k == TB_EL_H;
-        ckt->elems[i].branch = has_branch ? (long)ckt->branch_count++ : -1;
-    }
-}
-
 static void topology_sink(void *ctx, tb_severity sev, tb_loc loc, const char *message)
 {
     report(ctx, sev, loc, "%s", message);
@@ -681,9 +696,13 @@ tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag)
     checker ck = {ckt, diag, TB_OK};
     if (index_elements(ckt, 0) != TB_OK)
         return TB_ERR_NOMEM;
-    check_duplicates(&ck);
-    check_sensing(&ck);
-    check_coupling(&ck);
+    element_census found = number_branches(ckt);
+    if (found.duplicates)
+        check_duplicates(&ck);
+    if (found.sensing)
+        check_sensing(&ck);
+    if (found.coupling)
+        check_coupling(&ck);
     check_loops(&ck);
     check_io(&ck);
     check_zports(&ck);
@@ -698,7 +717,6 @@ tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag)
         ckt->ac = (tb_ac_spec){true, TB_GRID_DEC, 20, 1.0, 1e9, whole};
         report(&ck, TB_SEV_WARNING, whole, "no .ac directive: sweeping dec 20 1 1g");
     }
-    number_branches(ckt);
     return ck.status;
 }
 

@@ -28,6 +28,20 @@ typedef struct {
     bool ctrl; /* an E/G controlling input pair, else the output terminals */
 } pair;
 
+/* One node pair of an element, as the floating passes read it: the nets (bit
+ * net_bit(net, ac)) in which it ties its nodes together. Built once, so that the
+ * passes read 12 bytes a pair instead of the element records. */
+typedef struct {
+    int a;
+    int b;
+    unsigned nets;
+} edge;
+
+static unsigned net_bit(net_kind net, bool ac)
+{
+    return 1u << (2 * (unsigned)net + (unsigned)ac);
+}
+
 /* Per-node flags. */
 enum { REPORTED = 1, ROOT_SKIP = 2, ROOT_SEEN = 4, IO_NODE = 8 };
 
@@ -44,6 +58,10 @@ typedef struct {
     uint32_t *touch;       /* an element attached to each node (the last one) */
     bool *sensed;          /* per element: a V source whose current F or H senses */
     bool dc_singular;
+    edge *edges;           /* every node pair of every element, in element order */
+    size_t edge_count;
+    uint32_t *branchy;     /* the V, E, H and L elements, in order (the forest's candidates) */
+    size_t branchy_count;
 } topo;
 
 /* ---- union-find --------------------------------------------------------- */
@@ -329,21 +347,36 @@ static void say_no_dc_path(topo *t, msgbuf *m, int root, int first, const bounda
 
 typedef void (*say_fn)(topo *t, msgbuf *m, int root, int first, const boundary *bd);
 
+/* Union-find over the pairs that join their nodes in the given net. */
+static void join_net(topo *t, net_kind net, bool ac)
+{
+    unsigned bit = net_bit(net, ac);
+    uf_reset(t);
+    for (size_t i = 0; i < t->edge_count; i++)
+        if (t->edges[i].nets & bit)
+            uf_union(t, t->edges[i].a, t->edges[i].b);
+}
+
+/* Whether every node reaches ground in the given net with capacitors open: then
+ * it does with them conducting too (each net at AC holds the same net at DC), and
+ * neither pass of that net finds a group. */
+static bool grounded_at_dc(topo *t, net_kind net)
+{
+    join_net(t, net, false);
+    int ground = uf_find(t, 0);
+    for (size_t i = 1; i < t->n; i++)
+        if (uf_find(t, (int)i) != ground)
+            return false;
+    return true;
+}
+
 /* One pass: the groups of the given net not tied to ground, skipping those
  * with a node reported already; marks every node of the groups it finds.
  * *count: groups found so far (of this severity), reported while within the limit. */
 static void floating_pass(topo *t, net_kind net, bool ac, tb_severity sev, say_fn say,
                           size_t *count)
 {
-    uf_reset(t);
-    for (size_t i = 0; i < t->ckt->elem_count; i++) {
-        const tb_element *e = &t->ckt->elems[i];
-        pair ps[2];
-        int np = pairs_of(e, ps);
-        for (int k = 0; k < np; k++)
-            if (joins(e, &ps[k], net, ac))
-                uf_union(t, ps[k].a, ps[k].b);
-    }
+    join_net(t, net, ac);
     for (size_t i = 0; i < t->n; i++)
         t->flag[i] &= (unsigned char)~(ROOT_SKIP | ROOT_SEEN);
     for (size_t i = 0; i < t->n; i++)
@@ -370,13 +403,19 @@ static void floating_pass(topo *t, net_kind net, bool ac, tb_severity sev, say_f
 
 static void check_floating(topo *t)
 {
+    bool volt_whole = grounded_at_dc(t, NET_VOLT);
+    bool curr_whole = grounded_at_dc(t, NET_CURR);
     size_t errors = 0;
-    floating_pass(t, NET_VOLT, true, TB_SEV_ERROR, say_no_voltage_path, &errors);
-    floating_pass(t, NET_CURR, true, TB_SEV_ERROR, say_no_current_path, &errors);
+    if (!volt_whole)
+        floating_pass(t, NET_VOLT, true, TB_SEV_ERROR, say_no_voltage_path, &errors);
+    if (!curr_whole)
+        floating_pass(t, NET_CURR, true, TB_SEV_ERROR, say_no_current_path, &errors);
     put_more(t, TB_SEV_ERROR, errors, "groups of nodes with no path to ground");
     size_t warnings = 0;
-    floating_pass(t, NET_VOLT, false, TB_SEV_WARNING, say_no_dc_path, &warnings);
-    floating_pass(t, NET_CURR, false, TB_SEV_WARNING, say_no_dc_path, &warnings);
+    if (!volt_whole)
+        floating_pass(t, NET_VOLT, false, TB_SEV_WARNING, say_no_dc_path, &warnings);
+    if (!curr_whole)
+        floating_pass(t, NET_CURR, false, TB_SEV_WARNING, say_no_dc_path, &warnings);
     put_more(t, TB_SEV_WARNING, warnings, "groups of nodes with no DC path to ground");
     if (warnings)
         t->dc_singular = true;
@@ -428,7 +467,8 @@ static tb_status build_forest(topo *t, forest *f)
     const tb_circuit *ckt = t->ckt;
     uf_reset(t);
     for (int phase = 0; phase < 2; phase++) {
-        for (size_t i = 0; i < ckt->elem_count; i++) {
+        for (size_t c = 0; c < t->branchy_count; c++) {
+            size_t i = t->branchy[c];
             const tb_element *e = &ckt->elems[i];
             if (phase == 0 ? !fixes_voltage(e->kind) : e->kind != TB_EL_L)
                 continue;
@@ -654,10 +694,30 @@ static void check_dangling(topo *t)
     put_more(t, TB_SEV_WARNING, found, "nodes touched by only one element");
 }
 
-/* Terminal and controlling-input counts per node, the sensed V sources, the .io nodes. */
-static void count_attachments(topo *t)
+/* The nets in which pair p of e joins its nodes (net_bit). */
+static unsigned nets_of(const tb_element *e, const pair *p)
+{
+    unsigned nets = 0;
+    for (int net = NET_VOLT; net <= NET_CURR; net++)
+        for (int ac = 0; ac < 2; ac++)
+            if (joins(e, p, (net_kind)net, ac))
+                nets |= net_bit((net_kind)net, ac);
+    return nets;
+}
+
+/* Room for the edges, two per element at most (the pages of the rest are never touched). */
+static tb_status alloc_edges(topo *t)
+{
+    t->edges = tb_malloc(2 * t->ckt->elem_count + 1, sizeof(edge));
+    return t->edges ? TB_OK : TB_ERR_NOMEM;
+}
+
+/* Terminal and controlling-input counts per node, the sensed V sources, the .io
+ * nodes; the edges of the floating passes and the forest's candidates. */
+static tb_status count_attachments(topo *t)
 {
     const tb_circuit *ckt = t->ckt;
+    size_t branchy_cap = 0;
     for (size_t i = 0; i < ckt->elem_count; i++) {
         const tb_element *e = &ckt->elems[i];
         pair ps[2];
@@ -668,6 +728,13 @@ static void count_attachments(topo *t)
             count[ps[k].b]++;
             if (!ps[k].ctrl)
                 t->touch[ps[k].a] = t->touch[ps[k].b] = (uint32_t)i;
+            t->edges[t->edge_count++] = (edge){ps[k].a, ps[k].b, nets_of(e, &ps[k])};
+        }
+        if (fixes_voltage(e->kind) || e->kind == TB_EL_L) {
+            if (tb_grow(&t->branchy, &branchy_cap, t->branchy_count + 1, sizeof(uint32_t),
+                        ckt->elem_count))
+                return TB_ERR_NOMEM;
+            t->branchy[t->branchy_count++] = (uint32_t)i;
         }
         if ((e->kind == TB_EL_F || e->kind == TB_EL_H) && e->ctrl < ckt->elem_count)
             t->sensed[e->ctrl] = true;
@@ -676,6 +743,7 @@ static void count_attachments(topo *t)
         t->flag[ckt->io.out_node[0]] |= IO_NODE;
         t->flag[ckt->io.out_node[1]] |= IO_NODE;
     }
+    return TB_OK;
 }
 
 static void topo_free(topo *t)
@@ -687,6 +755,8 @@ static void topo_free(topo *t)
     tb_free(t->taps);
     tb_free(t->touch);
     tb_free(t->sensed);
+    tb_free(t->edges);
+    tb_free(t->branchy);
 }
 
 tb_status tb_topology_check(const tb_circuit *ckt, tb_topology_sink sink, void *ctx,
@@ -701,9 +771,9 @@ tb_status tb_topology_check(const tb_circuit *ckt, tb_topology_sink sink, void *
     t.taps = tb_calloc(t.n, sizeof(int));
     t.touch = tb_calloc(t.n, sizeof(uint32_t));
     t.sensed = tb_calloc(ckt->elem_count + 1, sizeof(bool));
-    if (!t.parent || !t.size || !t.flag || !t.terminals || !t.taps || !t.touch || !t.sensed)
+    if (!t.parent || !t.size || !t.flag || !t.terminals || !t.taps || !t.touch || !t.sensed ||
+        alloc_edges(&t) != TB_OK || count_attachments(&t) != TB_OK)
         goto fail;
-    count_attachments(&t);
     if (t.terminals[0] == 0) {
         msgbuf m = {.len = 0};
         put(&m, "no element is connected to ground (node '0' or 'gnd'): "
