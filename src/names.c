@@ -28,27 +28,48 @@ bool tb_name_eq_n(const char *a, const char *b, size_t len)
     return a[len] == '\0';
 }
 
-/* The name's 32-bit hash: FNV-1a over the lower-case bytes, then a final avalanche
- * (from splitmix64) so that every bit depends on every character: names like
- * R1..R300000 differ late. Slots keep it whole, and it alone places an entry, so that
- * growing the table never reads a name back (each read would be a cache miss). */
+/* Slots of one group: 8 slots of 8 bytes, one cache line when aligned. */
+#define GROUP_BITS 3
+#define GROUP_SLOTS ((size_t)1 << GROUP_BITS)
+/* Most trailing digits read as a number (10^9 < 2^32). */
+#define NUMBER_DIGITS 9
+
+/* The name's 32-bit hash. Generated and extracted netlists number their names (R1, R2,
+ * ..., n1_1, n1_2, ...), and cards that follow each other use neighbouring numbers, so
+ * names that differ only in the last bits of a trailing number share a group of slots:
+ * the low GROUP_BITS bits of the hash are the number's, the rest a hash of everything
+ * else (the name before the number, lower case, by FNV-1a; the count of digits; the
+ * number without its low bits), with a final avalanche (from splitmix64) so that every
+ * bit of it depends on every character. A new name is then mostly in a cache line a
+ * neighbour's probe has just fetched. Slots keep the hash whole, and it alone places an
+ * entry, so growing the table never reads a name back (each read would be a cache miss). */
 static uint32_t hash_name(const char *s, size_t len)
 {
+    size_t stem = len;
+    while (stem > 0 && len - stem < NUMBER_DIGITS && s[stem - 1] >= '0' && s[stem - 1] <= '9')
+        stem--;
     uint64_t h = 1469598103934665603u; /* FNV-1a */
-    for (size_t i = 0; i < len; i++) {
+    for (size_t i = 0; i < stem; i++) {
         h ^= lower(s[i]);
         h *= 1099511628211u;
     }
+    uint32_t number = 0;
+    for (size_t i = stem; i < len; i++)
+        number = 10 * number + (uint32_t)(s[i] - '0');
+    h ^= (uint64_t)(len - stem) << 32 | (number >> GROUP_BITS);
+    h *= 1099511628211u;
     h ^= h >> 33;
     h *= 0xff51afd7ed558ccdu;
     h ^= h >> 33;
-    return (uint32_t)(h >> 32);
+    return ((uint32_t)(h >> 32) & ~(uint32_t)(GROUP_SLOTS - 1)) | (number & (uint32_t)(GROUP_SLOTS - 1));
 }
 
-/* The first slot to probe for hash h (Fibonacci hashing spreads h over tables of any size). */
+/* The first slot to probe for hash h: its group by Fibonacci hashing of the high bits
+ * (which spreads them over tables of any size), its place in the group by the low bits. */
 static size_t home_of(const tb_name_index *idx, uint32_t h)
 {
-    return (size_t)(((uint64_t)h * 0x9E3779B97F4A7C15u) >> idx->shift);
+    size_t group = (size_t)(((uint64_t)(h >> GROUP_BITS) * 0x9E3779B97F4A7C15u) >> (idx->shift + GROUP_BITS));
+    return group << GROUP_BITS | (h & (GROUP_SLOTS - 1));
 }
 
 /* The slot holding name (hash h), or the empty slot where it would go. */
