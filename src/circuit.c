@@ -204,24 +204,24 @@ tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *in
         *index = 0;
         return TB_OK;
     }
+    size_t n = ckt->node_count;
+    if (tb_names_reserve(&ckt->node_index, n + 1)) /* ground is not in the index */
+        return TB_ERR_NOMEM;
+    uint32_t h = tb_names_hash(name, len);
     size_t found = 0;
-    if (tb_names_find_recent(&ckt->node_index, &ckt->node_recent, node_name_of, ckt, name, len, &found)) {
+    tb_name_slot *empty = NULL;
+    if (tb_names_seek(&ckt->node_index, &ckt->node_recent, node_name_of, ckt, name, len, h, &found, &empty)) {
         *index = (int)found;
         return TB_OK;
     }
-    if (tb_grow(&ckt->node_names, &ckt->node_cap, ckt->node_count + 1, sizeof(char *),
-                TB_MAX_NODES))
+    if (tb_grow(&ckt->node_names, &ckt->node_cap, n + 1, sizeof(char *), TB_MAX_NODES))
         return TB_ERR_NOMEM;
     const char *copy = tb_circuit_intern(ckt, name, len);
     if (!copy)
         return TB_ERR_NOMEM;
-    size_t n = ckt->node_count;
     ckt->node_names[n] = copy;
-    size_t earlier = SIZE_MAX;
-    if (n > 0 && tb_names_add(&ckt->node_index, node_name_of, ckt, n, &earlier))
-        return TB_ERR_NOMEM;
     if (n > 0)
-        tb_names_remember(&ckt->node_recent, node_name_of, ckt, n);
+        tb_names_claim(empty, &ckt->node_recent, n, h);
     ckt->node_count++;
     *index = (int)n;
     return TB_OK;
@@ -235,13 +235,15 @@ bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *in
 /* Elements waiting for the name index while their slots are fetched: enough to
  * overlap that many memory accesses, few enough that their names stay in cache. */
 #define ELEM_PENDING 16
+_Static_assert(ELEM_PENDING < TB_ELEM_HASH_RING, "a waiting element's hash stays in the ring");
 
 /* Enters elements into the name index until at most `pending` wait. */
 static tb_status index_elements(tb_circuit *ckt, size_t pending)
 {
     for (; ckt->elem_count - ckt->elem_indexed > pending; ckt->elem_indexed++) {
         size_t i = ckt->elem_indexed;
-        if (tb_names_add(&ckt->elem_index, elem_name_of, ckt, i, &ckt->elems[i].first_same_name))
+        if (tb_names_add_hashed(&ckt->elem_index, elem_name_of, ckt, i, ckt->elem_hash[i % TB_ELEM_HASH_RING],
+                                &ckt->elems[i].first_same_name))
             return TB_ERR_NOMEM;
     }
     return TB_OK;
@@ -255,7 +257,9 @@ tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem)
     tb_element *e = &ckt->elems[ckt->elem_count++];
     *e = *elem;
     e->first_same_name = SIZE_MAX;
-    tb_names_prefetch(&ckt->elem_index, e->name, strlen(e->name));
+    uint32_t h = tb_names_hash(e->name, strlen(e->name));
+    ckt->elem_hash[(ckt->elem_count - 1) % TB_ELEM_HASH_RING] = h;
+    tb_names_prefetch(&ckt->elem_index, h);
     return index_elements(ckt, ELEM_PENDING);
 }
 

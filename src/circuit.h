@@ -57,6 +57,9 @@ typedef struct {
     double k3;              /* nonlinear.c, docs/distortion.md), 0 when linear */
 } tb_element;
 
+/* Room for the name hashes of the elements waiting for the name index (circuit.c). */
+#define TB_ELEM_HASH_RING 32
+
 typedef enum { TB_GRID_DEC, TB_GRID_OCT, TB_GRID_LIN } tb_grid_kind;
 
 typedef struct {
@@ -190,6 +193,8 @@ struct tb_circuit {
     size_t elem_indexed;         /* elems[0..elem_indexed) are in elem_index, the rest follow
                                   * (tb_circuit_add_element, at the latest tb_circuit_finish) */
     struct tb_params *params;       /* the parameters and the element values they set (paramdep.h); NULL: none */
+    uint32_t elem_hash[TB_ELEM_HASH_RING]; /* name hashes of the elements not yet in elem_index,
+                                             * element i at i % TB_ELEM_HASH_RING */
 };
 
 tb_status tb_circuit_create(const char *file, tb_circuit **out);
