@@ -77,6 +77,7 @@ void tb_circuit_free(tb_circuit *ckt)
     tb_names_free(&ckt->node_index);
     tb_names_free(&ckt->elem_index);
     tb_free(ckt->elems);
+    tb_free(ckt->same_names);
     tb_free(ckt->loops);
     for (size_t i = 0; i < ckt->source_count; i++)
         if (ckt->sources[i].owned)
@@ -242,9 +243,16 @@ static tb_status index_elements(tb_circuit *ckt, size_t pending)
 {
     for (; ckt->elem_count - ckt->elem_indexed > pending; ckt->elem_indexed++) {
         size_t i = ckt->elem_indexed;
+        size_t first = SIZE_MAX;
         if (tb_names_add_hashed(&ckt->elem_index, elem_name_of, ckt, i, ckt->elem_hash[i % TB_ELEM_HASH_RING],
-                                &ckt->elems[i].first_same_name))
+                                &first))
             return TB_ERR_NOMEM;
+        if (first == SIZE_MAX)
+            continue;
+        if (tb_grow(&ckt->same_names, &ckt->same_name_cap, ckt->same_name_count + 1, sizeof(tb_same_name),
+                    TB_MAX_ELEMENTS))
+            return TB_ERR_NOMEM;
+        ckt->same_names[ckt->same_name_count++] = (tb_same_name){i, first};
     }
     return TB_OK;
 }
@@ -256,7 +264,6 @@ tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem)
         return TB_ERR_NOMEM;
     tb_element *e = &ckt->elems[ckt->elem_count++];
     *e = *elem;
-    e->first_same_name = SIZE_MAX;
     uint32_t h = tb_names_hash(e->name, strlen(e->name));
     ckt->elem_hash[(ckt->elem_count - 1) % TB_ELEM_HASH_RING] = h;
     tb_names_prefetch(&ckt->elem_index, h);
@@ -371,6 +378,21 @@ static const char *did_you_mean(const char *best, char *buf, size_t size)
     return buf;
 }
 
+/* Whether element i is named like an earlier one (same_names is in element order). */
+static bool repeats_a_name(const tb_circuit *ckt, size_t i)
+{
+    size_t lo = 0;
+    size_t hi = ckt->same_name_count;
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (ckt->same_names[mid].elem < i)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    return lo < ckt->same_name_count && ckt->same_names[lo].elem == i;
+}
+
 /* The suggestion among elements whose kind passes `accept` and that skip
  * (per element, may be NULL) does not exclude. */
 static const char *suggest_element(const tb_circuit *ckt, const char *name, kind_test accept,
@@ -380,7 +402,7 @@ static const char *suggest_element(const tb_circuit *ckt, const char *name, kind
     tb_suggest_init(&s, name);
     for (size_t i = 0; i < ckt->elem_count; i++)
         if (accept(ckt->elems[i].kind) && !(skip && skip[i]) &&
-            ckt->elems[i].first_same_name == SIZE_MAX)
+            !repeats_a_name(ckt, i))
             tb_suggest_offer(&s, ckt->elems[i].name);
     return did_you_mean(tb_suggest_best(&s), buf, size);
 }
@@ -408,14 +430,13 @@ typedef struct {
 
 static element_census number_branches(tb_circuit *ckt)
 {
-    element_census found = {false, false, false};
+    element_census found = {ckt->same_name_count > 0, false, false};
     ckt->branch_count = 0;
     for (size_t i = 0; i < ckt->elem_count; i++) {
         tb_element *e = &ckt->elems[i];
         tb_elem_kind k = e->kind;
         bool has_branch = k == TB_EL_V || k == TB_EL_L || k == TB_EL_E || k == TB_EL_H;
         e->branch = has_branch ? (long)ckt->branch_count++ : -1;
-        found.duplicates |= e->first_same_name != SIZE_MAX;
         found.sensing |= k == TB_EL_F || k == TB_EL_H;
         found.coupling |= k == TB_EL_K;
     }
@@ -425,12 +446,10 @@ static element_census number_branches(tb_circuit *ckt)
 static void check_duplicates(checker *ck)
 {
     tb_circuit *ckt = ck->ckt;
-    for (size_t i = 0; i < ckt->elem_count; i++) {
-        size_t first = ckt->elems[i].first_same_name;
-        if (first != SIZE_MAX)
-            report(ck, TB_SEV_ERROR, ckt->elems[i].loc,
-                   "duplicate element name '%s' (first defined on line %d)", ckt->elems[i].name,
-                   ckt->elems[first].loc.line);
+    for (size_t k = 0; k < ckt->same_name_count; k++) {
+        const tb_element *e = &ckt->elems[ckt->same_names[k].elem];
+        report(ck, TB_SEV_ERROR, e->loc, "duplicate element name '%s' (first defined on line %d)", e->name,
+               ckt->elems[ckt->same_names[k].first].loc.line);
     }
 }
 

@@ -28,14 +28,17 @@ typedef struct {
     bool ctrl; /* an E/G controlling input pair, else the output terminals */
 } pair;
 
-/* One node pair of an element, as the floating passes read it: the nets (bit
- * net_bit(net, ac)) in which it ties its nodes together. Built once, so that the
- * passes read 12 bytes a pair instead of the element records. */
+/* One node pair of an element, as the floating passes read it: its nodes, and in
+ * the top bits of a the nets (bit net_bit(net, ac)) in which it ties them together.
+ * Built once, so that the passes read 8 bytes a pair instead of the element records. */
 typedef struct {
-    int a;
-    int b;
-    unsigned nets;
+    uint32_t a_nets;
+    uint32_t b;
 } edge;
+
+#define EDGE_NODE_BITS 28
+#define EDGE_NODE_MASK ((UINT32_C(1) << EDGE_NODE_BITS) - 1)
+_Static_assert(TB_MAX_NODES <= EDGE_NODE_MASK, "a node index leaves the top 4 bits of an edge free");
 
 static unsigned net_bit(net_kind net, bool ac)
 {
@@ -53,8 +56,8 @@ typedef struct {
     int *parent;           /* union-find */
     int *size;
     unsigned char *flag;   /* REPORTED ... per node */
-    int *terminals;        /* output terminals attached to each node */
-    int *taps;             /* controlling inputs attached to each node */
+    unsigned char *terminals; /* output terminals attached to each node, counted up to 2 */
+    unsigned char *taps;   /* controlling inputs attached to each node, counted up to 2 */
     uint32_t *touch;       /* an element attached to each node (the last one) */
     bool *sensed;          /* per element: a V source whose current F or H senses */
     bool dc_singular;
@@ -353,8 +356,8 @@ static void join_net(topo *t, net_kind net, bool ac)
     unsigned bit = net_bit(net, ac);
     uf_reset(t);
     for (size_t i = 0; i < t->edge_count; i++)
-        if (t->edges[i].nets & bit)
-            uf_union(t, t->edges[i].a, t->edges[i].b);
+        if (t->edges[i].a_nets >> EDGE_NODE_BITS & bit)
+            uf_union(t, (int)(t->edges[i].a_nets & EDGE_NODE_MASK), (int)t->edges[i].b);
 }
 
 /* Whether every node reaches ground in the given net with capacitors open: then
@@ -705,6 +708,12 @@ static unsigned nets_of(const tb_element *e, const pair *p)
     return nets;
 }
 
+/* One more attachment: the checks ask only for none, one, or more. */
+static void count_up(unsigned char *count)
+{
+    *count = *count < 2 ? (unsigned char)(*count + 1) : 2;
+}
+
 /* Room for the edges, two per element at most (the pages of the rest are never touched). */
 static tb_status alloc_edges(topo *t)
 {
@@ -723,12 +732,13 @@ static tb_status count_attachments(topo *t)
         pair ps[2];
         int np = pairs_of(e, ps);
         for (int k = 0; k < np; k++) {
-            int *count = ps[k].ctrl ? t->taps : t->terminals;
-            count[ps[k].a]++;
-            count[ps[k].b]++;
+            unsigned char *count = ps[k].ctrl ? t->taps : t->terminals;
+            count_up(&count[ps[k].a]);
+            count_up(&count[ps[k].b]);
             if (!ps[k].ctrl)
                 t->touch[ps[k].a] = t->touch[ps[k].b] = (uint32_t)i;
-            t->edges[t->edge_count++] = (edge){ps[k].a, ps[k].b, nets_of(e, &ps[k])};
+            t->edges[t->edge_count++] = (edge){(uint32_t)ps[k].a | nets_of(e, &ps[k]) << EDGE_NODE_BITS,
+                                               (uint32_t)ps[k].b};
         }
         if (fixes_voltage(e->kind) || e->kind == TB_EL_L) {
             if (tb_grow(&t->branchy, &branchy_cap, t->branchy_count + 1, sizeof(uint32_t),
@@ -767,8 +777,8 @@ tb_status tb_topology_check(const tb_circuit *ckt, tb_topology_sink sink, void *
     t.parent = tb_malloc(t.n, sizeof(int));
     t.size = tb_malloc(t.n, sizeof(int));
     t.flag = tb_calloc(t.n, 1);
-    t.terminals = tb_calloc(t.n, sizeof(int));
-    t.taps = tb_calloc(t.n, sizeof(int));
+    t.terminals = tb_calloc(t.n, 1);
+    t.taps = tb_calloc(t.n, 1);
     t.touch = tb_calloc(t.n, sizeof(uint32_t));
     t.sensed = tb_calloc(ckt->elem_count + 1, sizeof(bool));
     if (!t.parent || !t.size || !t.flag || !t.terminals || !t.taps || !t.touch || !t.sensed ||
