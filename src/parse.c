@@ -349,7 +349,7 @@ static bool expected(parser *p, const char *what)
 static void advance(parser *p)
 {
     p->prev = p->tok;
-    p->tok = tb_lex_next(p->lx);
+    tb_lex_read(p->lx, &p->tok);
 }
 
 /* The token after the current one, not consumed. */
