@@ -77,6 +77,7 @@ void tb_circuit_free(tb_circuit *ckt)
     tb_names_free(&ckt->node_index);
     tb_names_free(&ckt->elem_index);
     tb_free(ckt->elems);
+    tb_free(ckt->same_names);
     tb_free(ckt->loops);
     for (size_t i = 0; i < ckt->source_count; i++)
         if (ckt->sources[i].owned)
@@ -204,24 +205,24 @@ tb_status tb_circuit_node(tb_circuit *ckt, const char *name, size_t len, int *in
         *index = 0;
         return TB_OK;
     }
+    size_t n = ckt->node_count;
+    if (tb_names_reserve(&ckt->node_index, n + 1)) /* ground is not in the index */
+        return TB_ERR_NOMEM;
+    uint32_t h = tb_names_hash(name, len);
     size_t found = 0;
-    if (tb_names_find_recent(&ckt->node_index, &ckt->node_recent, node_name_of, ckt, name, len, &found)) {
+    tb_name_slot *empty = NULL;
+    if (tb_names_seek(&ckt->node_index, &ckt->node_recent, node_name_of, ckt, name, len, h, &found, &empty)) {
         *index = (int)found;
         return TB_OK;
     }
-    if (tb_grow(&ckt->node_names, &ckt->node_cap, ckt->node_count + 1, sizeof(char *),
-                TB_MAX_NODES))
+    if (tb_grow(&ckt->node_names, &ckt->node_cap, n + 1, sizeof(char *), TB_MAX_NODES))
         return TB_ERR_NOMEM;
     const char *copy = tb_circuit_intern(ckt, name, len);
     if (!copy)
         return TB_ERR_NOMEM;
-    size_t n = ckt->node_count;
     ckt->node_names[n] = copy;
-    size_t earlier = SIZE_MAX;
-    if (n > 0 && tb_names_add(&ckt->node_index, node_name_of, ckt, n, &earlier))
-        return TB_ERR_NOMEM;
     if (n > 0)
-        tb_names_remember(&ckt->node_recent, node_name_of, ckt, n);
+        tb_names_claim(empty, &ckt->node_recent, n, h);
     ckt->node_count++;
     *index = (int)n;
     return TB_OK;
@@ -235,14 +236,23 @@ bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *in
 /* Elements waiting for the name index while their slots are fetched: enough to
  * overlap that many memory accesses, few enough that their names stay in cache. */
 #define ELEM_PENDING 16
+_Static_assert(ELEM_PENDING < TB_ELEM_HASH_RING, "a waiting element's hash stays in the ring");
 
 /* Enters elements into the name index until at most `pending` wait. */
 static tb_status index_elements(tb_circuit *ckt, size_t pending)
 {
     for (; ckt->elem_count - ckt->elem_indexed > pending; ckt->elem_indexed++) {
         size_t i = ckt->elem_indexed;
-        if (tb_names_add(&ckt->elem_index, elem_name_of, ckt, i, &ckt->elems[i].first_same_name))
+        size_t first = SIZE_MAX;
+        if (tb_names_add_hashed(&ckt->elem_index, elem_name_of, ckt, i, ckt->elem_hash[i % TB_ELEM_HASH_RING],
+                                &first))
             return TB_ERR_NOMEM;
+        if (first == SIZE_MAX)
+            continue;
+        if (tb_grow(&ckt->same_names, &ckt->same_name_cap, ckt->same_name_count + 1, sizeof(tb_same_name),
+                    TB_MAX_ELEMENTS))
+            return TB_ERR_NOMEM;
+        ckt->same_names[ckt->same_name_count++] = (tb_same_name){i, first};
     }
     return TB_OK;
 }
@@ -254,8 +264,9 @@ tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem)
         return TB_ERR_NOMEM;
     tb_element *e = &ckt->elems[ckt->elem_count++];
     *e = *elem;
-    e->first_same_name = SIZE_MAX;
-    tb_names_prefetch(&ckt->elem_index, e->name, strlen(e->name));
+    uint32_t h = tb_names_hash(e->name, strlen(e->name));
+    ckt->elem_hash[(ckt->elem_count - 1) % TB_ELEM_HASH_RING] = h;
+    tb_names_prefetch(&ckt->elem_index, h);
     return index_elements(ckt, ELEM_PENDING);
 }
 
@@ -367,6 +378,21 @@ static const char *did_you_mean(const char *best, char *buf, size_t size)
     return buf;
 }
 
+/* Whether element i is named like an earlier one (same_names is in element order). */
+static bool repeats_a_name(const tb_circuit *ckt, size_t i)
+{
+    size_t lo = 0;
+    size_t hi = ckt->same_name_count;
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (ckt->same_names[mid].elem < i)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    return lo < ckt->same_name_count && ckt->same_names[lo].elem == i;
+}
+
 /* The suggestion among elements whose kind passes `accept` and that skip
  * (per element, may be NULL) does not exclude. */
 static const char *suggest_element(const tb_circuit *ckt, const char *name, kind_test accept,
@@ -376,7 +402,7 @@ static const char *suggest_element(const tb_circuit *ckt, const char *name, kind
     tb_suggest_init(&s, name);
     for (size_t i = 0; i < ckt->elem_count; i++)
         if (accept(ckt->elems[i].kind) && !(skip && skip[i]) &&
-            ckt->elems[i].first_same_name == SIZE_MAX)
+            !repeats_a_name(ckt, i))
             tb_suggest_offer(&s, ckt->elems[i].name);
     return did_you_mean(tb_suggest_best(&s), buf, size);
 }
@@ -393,15 +419,37 @@ static const char *suggest_node(const tb_circuit *ckt, const char *name, char *b
 
 #define SUGGEST_SIZE (TB_SUGGEST_MAX_LEN * 2 + 32)
 
+/* What the element checks below need to look at, found in one pass over the elements,
+ * which also numbers the branches: each pass reads every element record, and a large
+ * circuit has few duplicates, F, H or K cards, often none. */
+typedef struct {
+    bool duplicates;
+    bool sensing; /* F or H */
+    bool coupling; /* K */
+} element_census;
+
+static element_census number_branches(tb_circuit *ckt)
+{
+    element_census found = {ckt->same_name_count > 0, false, false};
+    ckt->branch_count = 0;
+    for (size_t i = 0; i < ckt->elem_count; i++) {
+        tb_element *e = &ckt->elems[i];
+        tb_elem_kind k = e->kind;
+        bool has_branch = k == TB_EL_V || k == TB_EL_L || k == TB_EL_E || k == TB_EL_H;
+        e->branch = has_branch ? (long)ckt->branch_count++ : -1;
+        found.sensing |= k == TB_EL_F || k == TB_EL_H;
+        found.coupling |= k == TB_EL_K;
+    }
+    return found;
+}
+
 static void check_duplicates(checker *ck)
 {
     tb_circuit *ckt = ck->ckt;
-    for (size_t i = 0; i < ckt->elem_count; i++) {
-        size_t first = ckt->elems[i].first_same_name;
-        if (first != SIZE_MAX)
-            report(ck, TB_SEV_ERROR, ckt->elems[i].loc,
-                   "duplicate element name '%s' (first defined on line %d)", ckt->elems[i].name,
-                   ckt->elems[first].loc.line);
+    for (size_t k = 0; k < ckt->same_name_count; k++) {
+        const tb_element *e = &ckt->elems[ckt->same_names[k].elem];
+        report(ck, TB_SEV_ERROR, e->loc, "duplicate element name '%s' (first defined on line %d)", e->name,
+               ckt->elems[ckt->same_names[k].first].loc.line);
     }
 }
 
@@ -649,16 +697,6 @@ static void check_break(checker *ck)
         br->elem = e;
 }
 
-static void number_branches(tb_circuit *ckt)
-{
-    ckt->branch_count = 0;
-    for (size_t i = 0; i < ckt->elem_count; i++) {
-        tb_elem_kind k = ckt->elems[i].kind;
-        bool has_branch = k == TB_EL_V || k == TB_EL_L || k == TB_EL_E || k == TB_EL_H;
-        ckt->elems[i].branch = has_branch ? (long)ckt->branch_count++ : -1;
-    }
-}
-
 static void topology_sink(void *ctx, tb_severity sev, tb_loc loc, const char *message)
 {
     report(ctx, sev, loc, "%s", message);
@@ -681,9 +719,13 @@ tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag)
     checker ck = {ckt, diag, TB_OK};
     if (index_elements(ckt, 0) != TB_OK)
         return TB_ERR_NOMEM;
-    check_duplicates(&ck);
-    check_sensing(&ck);
-    check_coupling(&ck);
+    element_census found = number_branches(ckt);
+    if (found.duplicates)
+        check_duplicates(&ck);
+    if (found.sensing)
+        check_sensing(&ck);
+    if (found.coupling)
+        check_coupling(&ck);
     check_loops(&ck);
     check_io(&ck);
     check_zports(&ck);
@@ -698,7 +740,6 @@ tb_status tb_circuit_finish(tb_circuit *ckt, tb_diag *diag)
         ckt->ac = (tb_ac_spec){true, TB_GRID_DEC, 20, 1.0, 1e9, whole};
         report(&ck, TB_SEV_WARNING, whole, "no .ac directive: sweeping dec 20 1 1g");
     }
-    number_branches(ckt);
     return ck.status;
 }
 

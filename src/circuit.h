@@ -51,11 +51,19 @@ typedef struct {
     double ac_mag;          /* V, I: AC magnitude */
     double ac_phase_deg;    /* V, I: AC phase in degrees */
     long branch;            /* MNA branch index for V, L, E, H (set by tb_circuit_finish), else -1 */
-    size_t first_same_name; /* index of an earlier element of the same name, or SIZE_MAX */
     tb_loc loc;             /* where the card starts */
     double k2;              /* E, G, F, H: y = k x + k2 x^2 + k3 x^3 (k2=, k3= on the card; */
     double k3;              /* nonlinear.c, docs/distortion.md), 0 when linear */
 } tb_element;
+
+/* An element named like an earlier one (reported by tb_circuit_finish). */
+typedef struct {
+    size_t elem;
+    size_t first; /* the first element of that name */
+} tb_same_name;
+
+/* Room for the name hashes of the elements waiting for the name index (circuit.c). */
+#define TB_ELEM_HASH_RING 32
 
 typedef enum { TB_GRID_DEC, TB_GRID_OCT, TB_GRID_LIN } tb_grid_kind;
 
@@ -190,6 +198,11 @@ struct tb_circuit {
     size_t elem_indexed;         /* elems[0..elem_indexed) are in elem_index, the rest follow
                                   * (tb_circuit_add_element, at the latest tb_circuit_finish) */
     struct tb_params *params;       /* the parameters and the element values they set (paramdep.h); NULL: none */
+    uint32_t elem_hash[TB_ELEM_HASH_RING]; /* name hashes of the elements not yet in elem_index,
+                                             * element i at i % TB_ELEM_HASH_RING */
+    tb_same_name *same_names;    /* elements named like an earlier one, in element order */
+    size_t same_name_count;
+    size_t same_name_cap;
 };
 
 tb_status tb_circuit_create(const char *file, tb_circuit **out);
@@ -204,7 +217,7 @@ bool tb_circuit_find_node(const tb_circuit *ckt, const char *name, size_t len, i
 bool tb_circuit_find_element(const tb_circuit *ckt, const char *name, size_t *index);
 /* Appends a copy of *elem (its strings must already be interned). An element
  * of the same name may exist already: tb_circuit_finish reports duplicates. The
- * element enters the name index (and gets first_same_name) a few elements later,
+ * element enters the name index (or the list of same names) a few elements later,
  * its slot fetched meanwhile, or in tb_circuit_finish. */
 tb_status tb_circuit_add_element(tb_circuit *ckt, const tb_element *elem);
 tb_status tb_circuit_add_loop(tb_circuit *ckt, const tb_loop_spec *loop);

@@ -230,12 +230,35 @@ static tb_tok_kind punct_kind(char c)
     }
 }
 
-tb_token tb_lex_next(tb_lexer *lx)
+/* Hands out the token text[start..start + len) of the given kind into *out and records
+ * it as the last one, field by field: a token assembled in memory and copied whole
+ * just after would wait for its own fields to be stored (a store-forwarding stall on
+ * every token). */
+static void hand_out(tb_lexer *lx, tb_token *out, tb_tok_kind kind, size_t start, size_t len)
 {
-    tb_token tok;
+    const char *ptr = lx->text + start;
+    int line = lx->line;
+    int col = clamp_int(start - lx->line_start + 1);
+    out->kind = kind;
+    out->ptr = ptr;
+    out->len = len;
+    out->line = line;
+    out->col = col;
+    lx->last.kind = kind;
+    lx->last.ptr = ptr;
+    lx->last.len = len;
+    lx->last.line = line;
+    lx->last.col = col;
+}
+
+void tb_lex_read(tb_lexer *lx, tb_token *out)
+{
     for (;;) {
-        if (lx->at_bol && begin_line(lx, &tok))
-            break;
+        if (lx->at_bol && begin_line(lx, out)) {
+            if (out->kind == TB_TOK_PLUS)
+                lx->last = *out;
+            return;
+        }
         skip_blanks(lx);
         int cls = class_at(lx, lx->pos);
         size_t start = lx->pos;
@@ -245,25 +268,29 @@ tb_token tb_lex_next(tb_lexer *lx)
         }
         lx->pos++;
         if (cls == C_PUNCT) {
-            tok = make(lx, punct_kind(lx->text[start]), start, 1);
+            hand_out(lx, out, punct_kind(lx->text[start]), start, 1);
         } else if (cls == C_BRACE) {
             while (class_at(lx, lx->pos) != C_EOL && lx->text[lx->pos] != '}')
                 lx->pos++;
             lx->pos += class_at(lx, lx->pos) != C_EOL;
-            tok = make(lx, TB_TOK_EXPR, start, lx->pos - start);
+            hand_out(lx, out, TB_TOK_EXPR, start, lx->pos - start);
         } else if (cls == C_BAD) {
-            tok = make(lx, TB_TOK_BAD, start, 1);
+            hand_out(lx, out, TB_TOK_BAD, start, 1);
         } else if (odd_space_at(lx, start)) {
             lx->pos = start + odd_space_at(lx, start);
-            tok = make(lx, TB_TOK_BAD, start, lx->pos - start);
+            hand_out(lx, out, TB_TOK_BAD, start, lx->pos - start);
         } else {
             lx->pos = word_end(lx, lx->pos);
-            tok = make(lx, TB_TOK_WORD, start, lx->pos - start);
+            hand_out(lx, out, TB_TOK_WORD, start, lx->pos - start);
         }
-        break;
+        return;
     }
-    if (tok.kind != TB_TOK_EOC && tok.kind != TB_TOK_EOF)
-        lx->last = tok;
+}
+
+tb_token tb_lex_next(tb_lexer *lx)
+{
+    tb_token tok;
+    tb_lex_read(lx, &tok);
     return tok;
 }
 

@@ -59,6 +59,9 @@ void tb_lex_init_at(tb_lexer *lx, const char *text, size_t len, size_t pos, int 
  * Comment lines ('*' first after blanks), ';' comments and blank lines are
  * skipped, also between a card and its '+' lines. */
 tb_token tb_lex_next(tb_lexer *lx);
+/* tb_lex_next into *out (which must not be lx->last): for the parser's loop, which keeps
+ * its current token in place. */
+void tb_lex_read(tb_lexer *lx, tb_token *out);
 
 /* Skips the rest of the current card (a card's tokens have been handed out and
  * its EOC not yet) without making its tokens, and returns what tb_lex_next would

@@ -59,9 +59,29 @@ void tb_names_remember(tb_name_recent *recent, tb_name_of name_of, const void *o
  * every slot at each doubling). TB_ERR_NOMEM: nothing changed. */
 tb_status tb_names_reserve(tb_name_index *idx, size_t entries);
 
-/* Asks the processor to fetch the slot where a probe for name[0..len) starts, so
+/* The hash of name[0..len) by which the index places it (equal for names equal but
+ * for ASCII case), for the calls below that take it instead of computing it again. */
+uint32_t tb_names_hash(const char *name, size_t len);
+
+/* tb_names_add of an entry whose name has hash h (tb_names_hash). */
+tb_status tb_names_add_hashed(tb_name_index *idx, tb_name_of name_of, const void *owner, size_t i,
+                              uint32_t h, size_t *earlier);
+
+/* Looks for name[0..len) (hash h) among the recent entries, then in the index (which
+ * must not be empty; a find there is remembered): true and its index in *found; or
+ * false, and *empty is the slot where tb_names_claim records it, valid while the index
+ * is not changed otherwise. Find, then claim, adds a name with one probe: reserve room
+ * for the entry first (tb_names_reserve), as claiming never grows the index. */
+bool tb_names_seek(tb_name_index *idx, tb_name_recent *recent, tb_name_of name_of, const void *owner,
+                   const char *name, size_t len, uint32_t h, size_t *found, tb_name_slot **empty);
+/* Records entry i, whose name (hash h) tb_names_seek did not find, in the slot it gave,
+ * and among the recent entries. name_of(owner, i) must give the name from the next
+ * lookup on. */
+void tb_names_claim(tb_name_slot *empty, tb_name_recent *recent, size_t i, uint32_t h);
+
+/* Asks the processor to fetch the slot where a probe for a name of hash h starts, so
  * that a tb_names_add of it a little later need not wait for memory. Only a hint. */
-void tb_names_prefetch(const tb_name_index *idx, const char *name, size_t len);
+void tb_names_prefetch(const tb_name_index *idx, uint32_t h);
 
 /* Frees the slots (NULL is fine) and leaves an empty index. */
 void tb_names_free(tb_name_index *idx);

@@ -112,12 +112,15 @@ typedef struct {
     int line;         /* the .include card's line in the parent */
 } src_text;
 
-/* A top-level card found by the first pass, parsed by the second. */
+/* Top-level cards found by the first pass one after the other in one source, parsed by
+ * the second: a run ends at a card the first pass deals with (.include, .param,
+ * .subckt, .end) and at the end of a file. One lexer reads the whole run. */
 typedef struct {
     size_t src;
-    size_t pos; /* start of its first physical line */
+    size_t pos;   /* start of its first card's first physical line */
     int line;
-} card_pos;
+    size_t count; /* its cards */
+} card_run;
 
 /* An open file of the first pass. */
 typedef struct {
@@ -172,9 +175,10 @@ typedef struct {
     src_text *srcs;
     size_t src_count;
     size_t src_cap;
-    card_pos *cards;
-    size_t card_count;
-    size_t card_cap;
+    card_run *runs;
+    size_t run_count;
+    size_t run_cap;
+    bool run_open;    /* the next card the first pass records may join the last run */
     param_list globals;
     subckt *defs;
     size_t def_count;
@@ -345,7 +349,7 @@ static bool expected(parser *p, const char *what)
 static void advance(parser *p)
 {
     p->prev = p->tok;
-    p->tok = tb_lex_next(p->lx);
+    tb_lex_read(p->lx, &p->tok);
 }
 
 /* The token after the current one, not consumed. */
@@ -1903,16 +1907,18 @@ static void expand(parser *p)
 static void second_pass(parser *p)
 {
     tb_lexer lx;
-    for (size_t i = 0; i < p->card_count && !stopped(p); i++) {
-        const card_pos *c = &p->cards[i];
-        const src_text *s = &p->srcs[c->src];
-        tb_lex_init_at(&lx, s->text, s->len, c->pos, c->line);
-        p->lx = &lx;
-        p->src = c->src;
-        advance(p);
-        card(p);
-        skip_card(p);
-        expand(p);
+    for (size_t r = 0; r < p->run_count && !stopped(p); r++) {
+        const card_run *run = &p->runs[r];
+        const src_text *s = &p->srcs[run->src];
+        tb_lex_init_at(&lx, s->text, s->len, run->pos, run->line);
+        for (size_t k = 0; k < run->count && !stopped(p); k++) {
+            p->lx = &lx;
+            p->src = run->src;
+            advance(p);
+            card(p);
+            skip_card(p);
+            expand(p);
+        }
     }
     while (p->depth > 0)
         pop_frame(p);
@@ -1920,13 +1926,19 @@ static void second_pass(parser *p)
 
 /* ---- the first pass: files, .include, .param, .subckt --------------------- */
 
+/* Records the card at the current token for the second pass. */
 static bool add_card(parser *p)
 {
+    if (p->run_open && p->runs[p->run_count - 1].src == p->src) {
+        p->runs[p->run_count - 1].count++;
+        return true;
+    }
     const src_text *s = &p->srcs[p->src];
     size_t pos = (size_t)(p->tok.ptr - s->text) - (size_t)(p->tok.col - 1);
-    if (tb_grow(&p->cards, &p->card_cap, p->card_count + 1, sizeof(card_pos), SIZE_MAX / 64))
+    if (tb_grow(&p->runs, &p->run_cap, p->run_count + 1, sizeof(card_run), SIZE_MAX / 64))
         return nomem(p);
-    p->cards[p->card_count++] = (card_pos){p->src, pos, p->tok.line};
+    p->runs[p->run_count++] = (card_run){p->src, pos, p->tok.line, 1};
+    p->run_open = true;
     return true;
 }
 
@@ -2263,11 +2275,13 @@ static bool include_card(parser *p, open_file *files, size_t *depth)
 static void first_card(parser *p, open_file *files, size_t *depth)
 {
     p->first = p->tok;
-    if (p->tok.kind == TB_TOK_WORD && p->tok.ptr[0] == '.') {
-        quote(&p->tok, p->name);
-        for (char *c = p->name; *c; c++)
-            *c = tb_lex_lower(*c);
+    if (p->tok.kind != TB_TOK_WORD || p->tok.ptr[0] != '.') { /* an element card (or a bad one) */
+        add_card(p);
+        return;
     }
+    quote(&p->tok, p->name);
+    for (char *c = p->name; *c; c++)
+        *c = tb_lex_lower(*c);
     if (tb_lex_is(&p->tok, ".include")) {
         include_card(p, files, depth);
     } else if (tb_lex_is(&p->tok, ".param")) {
@@ -2283,7 +2297,9 @@ static void first_card(parser *p, open_file *files, size_t *depth)
         files[*depth - 1].lx.pos = files[*depth - 1].lx.len;
     } else {
         add_card(p);
+        return;
     }
+    p->run_open = false; /* the next card recorded starts a run */
 }
 
 /* Reads the netlist and its includes: records cards, parameters, subcircuits. */
@@ -2298,6 +2314,7 @@ static void first_pass(parser *p, open_file *files, size_t *depth)
             free(f->canon);
             f->canon = NULL;
             (*depth)--;
+            p->run_open = false;
             continue;
         }
         size_t before = *depth;
@@ -2330,7 +2347,7 @@ static void free_parser(parser *p)
     tb_free(p->frames);
     free_params(&p->globals);
     tb_free(p->srcs);
-    tb_free(p->cards);
+    tb_free(p->runs);
     tb_free(p->instances.items);
     tb_names_free(&p->instances.index);
     tb_free(p->known);

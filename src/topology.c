@@ -28,6 +28,23 @@ typedef struct {
     bool ctrl; /* an E/G controlling input pair, else the output terminals */
 } pair;
 
+/* One node pair of an element, as the floating passes read it: its nodes, and in
+ * the top bits of a the nets (bit net_bit(net, ac)) in which it ties them together.
+ * Built once, so that the passes read 8 bytes a pair instead of the element records. */
+typedef struct {
+    uint32_t a_nets;
+    uint32_t b;
+} edge;
+
+#define EDGE_NODE_BITS 28
+#define EDGE_NODE_MASK ((UINT32_C(1) << EDGE_NODE_BITS) - 1)
+_Static_assert(TB_MAX_NODES <= EDGE_NODE_MASK, "a node index leaves the top 4 bits of an edge free");
+
+static unsigned net_bit(net_kind net, bool ac)
+{
+    return 1u << (2 * (unsigned)net + (unsigned)ac);
+}
+
 /* Per-node flags. */
 enum { REPORTED = 1, ROOT_SKIP = 2, ROOT_SEEN = 4, IO_NODE = 8 };
 
@@ -39,11 +56,15 @@ typedef struct {
     int *parent;           /* union-find */
     int *size;
     unsigned char *flag;   /* REPORTED ... per node */
-    int *terminals;        /* output terminals attached to each node */
-    int *taps;             /* controlling inputs attached to each node */
+    unsigned char *terminals; /* output terminals attached to each node, counted up to 2 */
+    unsigned char *taps;   /* controlling inputs attached to each node, counted up to 2 */
     uint32_t *touch;       /* an element attached to each node (the last one) */
     bool *sensed;          /* per element: a V source whose current F or H senses */
     bool dc_singular;
+    edge *edges;           /* every node pair of every element, in element order */
+    size_t edge_count;
+    uint32_t *branchy;     /* the V, E, H and L elements, in order (the forest's candidates) */
+    size_t branchy_count;
 } topo;
 
 /* ---- union-find --------------------------------------------------------- */
@@ -329,21 +350,36 @@ static void say_no_dc_path(topo *t, msgbuf *m, int root, int first, const bounda
 
 typedef void (*say_fn)(topo *t, msgbuf *m, int root, int first, const boundary *bd);
 
+/* Union-find over the pairs that join their nodes in the given net. */
+static void join_net(topo *t, net_kind net, bool ac)
+{
+    unsigned bit = net_bit(net, ac);
+    uf_reset(t);
+    for (size_t i = 0; i < t->edge_count; i++)
+        if (t->edges[i].a_nets >> EDGE_NODE_BITS & bit)
+            uf_union(t, (int)(t->edges[i].a_nets & EDGE_NODE_MASK), (int)t->edges[i].b);
+}
+
+/* Whether every node reaches ground in the given net with capacitors open: then
+ * it does with them conducting too (each net at AC holds the same net at DC), and
+ * neither pass of that net finds a group. */
+static bool grounded_at_dc(topo *t, net_kind net)
+{
+    join_net(t, net, false);
+    int ground = uf_find(t, 0);
+    for (size_t i = 1; i < t->n; i++)
+        if (uf_find(t, (int)i) != ground)
+            return false;
+    return true;
+}
+
 /* One pass: the groups of the given net not tied to ground, skipping those
  * with a node reported already; marks every node of the groups it finds.
  * *count: groups found so far (of this severity), reported while within the limit. */
 static void floating_pass(topo *t, net_kind net, bool ac, tb_severity sev, say_fn say,
                           size_t *count)
 {
-    uf_reset(t);
-    for (size_t i = 0; i < t->ckt->elem_count; i++) {
-        const tb_element *e = &t->ckt->elems[i];
-        pair ps[2];
-        int np = pairs_of(e, ps);
-        for (int k = 0; k < np; k++)
-            if (joins(e, &ps[k], net, ac))
-                uf_union(t, ps[k].a, ps[k].b);
-    }
+    join_net(t, net, ac);
     for (size_t i = 0; i < t->n; i++)
         t->flag[i] &= (unsigned char)~(ROOT_SKIP | ROOT_SEEN);
     for (size_t i = 0; i < t->n; i++)
@@ -370,13 +406,19 @@ static void floating_pass(topo *t, net_kind net, bool ac, tb_severity sev, say_f
 
 static void check_floating(topo *t)
 {
+    bool volt_whole = grounded_at_dc(t, NET_VOLT);
+    bool curr_whole = grounded_at_dc(t, NET_CURR);
     size_t errors = 0;
-    floating_pass(t, NET_VOLT, true, TB_SEV_ERROR, say_no_voltage_path, &errors);
-    floating_pass(t, NET_CURR, true, TB_SEV_ERROR, say_no_current_path, &errors);
+    if (!volt_whole)
+        floating_pass(t, NET_VOLT, true, TB_SEV_ERROR, say_no_voltage_path, &errors);
+    if (!curr_whole)
+        floating_pass(t, NET_CURR, true, TB_SEV_ERROR, say_no_current_path, &errors);
     put_more(t, TB_SEV_ERROR, errors, "groups of nodes with no path to ground");
     size_t warnings = 0;
-    floating_pass(t, NET_VOLT, false, TB_SEV_WARNING, say_no_dc_path, &warnings);
-    floating_pass(t, NET_CURR, false, TB_SEV_WARNING, say_no_dc_path, &warnings);
+    if (!volt_whole)
+        floating_pass(t, NET_VOLT, false, TB_SEV_WARNING, say_no_dc_path, &warnings);
+    if (!curr_whole)
+        floating_pass(t, NET_CURR, false, TB_SEV_WARNING, say_no_dc_path, &warnings);
     put_more(t, TB_SEV_WARNING, warnings, "groups of nodes with no DC path to ground");
     if (warnings)
         t->dc_singular = true;
@@ -428,7 +470,8 @@ static tb_status build_forest(topo *t, forest *f)
     const tb_circuit *ckt = t->ckt;
     uf_reset(t);
     for (int phase = 0; phase < 2; phase++) {
-        for (size_t i = 0; i < ckt->elem_count; i++) {
+        for (size_t c = 0; c < t->branchy_count; c++) {
+            size_t i = t->branchy[c];
             const tb_element *e = &ckt->elems[i];
             if (phase == 0 ? !fixes_voltage(e->kind) : e->kind != TB_EL_L)
                 continue;
@@ -654,20 +697,54 @@ static void check_dangling(topo *t)
     put_more(t, TB_SEV_WARNING, found, "nodes touched by only one element");
 }
 
-/* Terminal and controlling-input counts per node, the sensed V sources, the .io nodes. */
-static void count_attachments(topo *t)
+/* The nets in which pair p of e joins its nodes (net_bit). */
+static unsigned nets_of(const tb_element *e, const pair *p)
+{
+    unsigned nets = 0;
+    for (int net = NET_VOLT; net <= NET_CURR; net++)
+        for (int ac = 0; ac < 2; ac++)
+            if (joins(e, p, (net_kind)net, ac))
+                nets |= net_bit((net_kind)net, ac);
+    return nets;
+}
+
+/* One more attachment: the checks ask only for none, one, or more. */
+static void count_up(unsigned char *count)
+{
+    *count = *count < 2 ? (unsigned char)(*count + 1) : 2;
+}
+
+/* Room for the edges, two per element at most (the pages of the rest are never touched). */
+static tb_status alloc_edges(topo *t)
+{
+    t->edges = tb_malloc(2 * t->ckt->elem_count + 1, sizeof(edge));
+    return t->edges ? TB_OK : TB_ERR_NOMEM;
+}
+
+/* Terminal and controlling-input counts per node, the sensed V sources, the .io
+ * nodes; the edges of the floating passes and the forest's candidates. */
+static tb_status count_attachments(topo *t)
 {
     const tb_circuit *ckt = t->ckt;
+    size_t branchy_cap = 0;
     for (size_t i = 0; i < ckt->elem_count; i++) {
         const tb_element *e = &ckt->elems[i];
         pair ps[2];
         int np = pairs_of(e, ps);
         for (int k = 0; k < np; k++) {
-            int *count = ps[k].ctrl ? t->taps : t->terminals;
-            count[ps[k].a]++;
-            count[ps[k].b]++;
+            unsigned char *count = ps[k].ctrl ? t->taps : t->terminals;
+            count_up(&count[ps[k].a]);
+            count_up(&count[ps[k].b]);
             if (!ps[k].ctrl)
                 t->touch[ps[k].a] = t->touch[ps[k].b] = (uint32_t)i;
+            t->edges[t->edge_count++] = (edge){(uint32_t)ps[k].a | nets_of(e, &ps[k]) << EDGE_NODE_BITS,
+                                               (uint32_t)ps[k].b};
+        }
+        if (fixes_voltage(e->kind) || e->kind == TB_EL_L) {
+            if (tb_grow(&t->branchy, &branchy_cap, t->branchy_count + 1, sizeof(uint32_t),
+                        ckt->elem_count))
+                return TB_ERR_NOMEM;
+            t->branchy[t->branchy_count++] = (uint32_t)i;
         }
         if ((e->kind == TB_EL_F || e->kind == TB_EL_H) && e->ctrl < ckt->elem_count)
             t->sensed[e->ctrl] = true;
@@ -676,6 +753,7 @@ static void count_attachments(topo *t)
         t->flag[ckt->io.out_node[0]] |= IO_NODE;
         t->flag[ckt->io.out_node[1]] |= IO_NODE;
     }
+    return TB_OK;
 }
 
 static void topo_free(topo *t)
@@ -687,6 +765,8 @@ static void topo_free(topo *t)
     tb_free(t->taps);
     tb_free(t->touch);
     tb_free(t->sensed);
+    tb_free(t->edges);
+    tb_free(t->branchy);
 }
 
 tb_status tb_topology_check(const tb_circuit *ckt, tb_topology_sink sink, void *ctx,
@@ -697,13 +777,13 @@ tb_status tb_topology_check(const tb_circuit *ckt, tb_topology_sink sink, void *
     t.parent = tb_malloc(t.n, sizeof(int));
     t.size = tb_malloc(t.n, sizeof(int));
     t.flag = tb_calloc(t.n, 1);
-    t.terminals = tb_calloc(t.n, sizeof(int));
-    t.taps = tb_calloc(t.n, sizeof(int));
+    t.terminals = tb_calloc(t.n, 1);
+    t.taps = tb_calloc(t.n, 1);
     t.touch = tb_calloc(t.n, sizeof(uint32_t));
     t.sensed = tb_calloc(ckt->elem_count + 1, sizeof(bool));
-    if (!t.parent || !t.size || !t.flag || !t.terminals || !t.taps || !t.touch || !t.sensed)
+    if (!t.parent || !t.size || !t.flag || !t.terminals || !t.taps || !t.touch || !t.sensed ||
+        alloc_edges(&t) != TB_OK || count_attachments(&t) != TB_OK)
         goto fail;
-    count_attachments(&t);
     if (t.terminals[0] == 0) {
         msgbuf m = {.len = 0};
         put(&m, "no element is connected to ground (node '0' or 'gnd'): "

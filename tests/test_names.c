@@ -89,7 +89,7 @@ static void test_names_recent(void **state)
         snprintf(t.names[i], sizeof t.names[i], "n%zu", i);
         assert_int_equal(tb_names_add(&idx, name_of, &t, i, &earlier), TB_OK);
         tb_names_remember(&recent, name_of, &t, i);
-        tb_names_prefetch(&idx, t.names[i], strlen(t.names[i])); /* only a hint */
+        tb_names_prefetch(&idx, tb_names_hash(t.names[i], strlen(t.names[i]))); /* only a hint */
     }
     for (size_t pass = 0; pass < 2; pass++) {
         for (size_t k = 0; k < N; k++) {
@@ -106,6 +106,101 @@ static void test_names_recent(void **state)
         }
     }
     assert_false(tb_names_find_recent(&idx, &recent, name_of, &t, "n5000", 5, &found));
+    tb_names_free(&idx);
+    free(t.names);
+}
+
+/* Seek, then claim, adds a name with one probe: names are found (through the recent
+ * entries or the index) exactly as tb_names_find finds them, whatever their case, and a
+ * name that is not there gives the slot that then holds it. */
+static void test_names_seek_and_claim(void **state)
+{
+    (void)state;
+    enum { N = 3000 };
+    table t = {calloc(N, sizeof t.names[0]), 0};
+    assert_non_null(t.names);
+    tb_name_index idx = {NULL, 0, 0};
+    tb_name_recent recent = {{{0, 0}}};
+    for (size_t k = 0; k < 3 * N; k++) {
+        char name[16];
+        size_t i = (k * 7919) % (k / 3 + 1); /* mostly names seen before, out of order */
+        snprintf(name, sizeof name, k % 2 ? "X%zu" : "x%zu", k % 3 ? i : k / 3);
+        uint32_t h = tb_names_hash(name, strlen(name));
+        assert_int_equal(tb_names_reserve(&idx, t.count + 1), TB_OK);
+        size_t found = SIZE_MAX;
+        tb_name_slot *empty = NULL;
+        size_t want = SIZE_MAX;
+        bool there = tb_names_find(&idx, name_of, &t, name, strlen(name), &want);
+        if (tb_names_seek(&idx, &recent, name_of, &t, name, strlen(name), h, &found, &empty)) {
+            assert_true(there);
+            assert_int_equal(found, want);
+            assert_true(tb_name_eq(t.names[found], name));
+            continue;
+        }
+        assert_false(there);
+        assert_non_null(empty);
+        assert_true(t.count < N);
+        snprintf(t.names[t.count], sizeof t.names[0], "%s", name);
+        tb_names_claim(empty, &recent, t.count, h);
+        assert_true(tb_names_find(&idx, name_of, &t, name, strlen(name), &found));
+        assert_int_equal(found, t.count);
+        t.count++;
+    }
+    assert_true(t.count > N / 2);
+    tb_names_free(&idx);
+    free(t.names);
+}
+
+/* Names whose trailing numbers are equal in value or alike in their last digits share
+ * groups of slots: each is still found as itself, never as one written differently. */
+static void test_names_numbered(void **state)
+{
+    (void)state;
+    char names[][16] = {"n1",          "n01",         "N001",       "n1_1",  "n1_01",
+                        "n",           "1",           "01",         "n9",    "n17",
+                        "n1000000001", "n0000000001", "n2000000001", "m1",   "nx1"};
+    enum { COUNT = sizeof names / sizeof names[0] };
+    table t = {names, COUNT};
+    tb_name_index idx = {NULL, 0, 0};
+    for (size_t i = 0; i < COUNT; i++) {
+        size_t earlier = 0;
+        assert_int_equal(tb_names_add(&idx, name_of, &t, i, &earlier), TB_OK);
+        assert_int_equal(earlier, SIZE_MAX); /* all distinct */
+    }
+    for (size_t i = 0; i < COUNT; i++) {
+        size_t found = COUNT;
+        assert_true(tb_names_find(&idx, name_of, &t, names[i], strlen(names[i]), &found));
+        assert_int_equal(found, i);
+    }
+    size_t found = 0;
+    assert_false(tb_names_find(&idx, name_of, &t, "n0001", 5, &found));
+    assert_false(tb_names_find(&idx, name_of, &t, "n3000000001", 11, &found));
+    assert_false(tb_names_find(&idx, name_of, &t, "001", 3, &found));
+    tb_names_free(&idx);
+}
+
+/* Families of numbered names filling whole groups (blocks of consecutive numbers, and
+ * every eighth number) in a table grown from empty: every name is found where it was put. */
+static void test_names_numbered_families(void **state)
+{
+    (void)state;
+    enum { N = 60000 };
+    table t = {calloc(N, sizeof t.names[0]), N};
+    assert_non_null(t.names);
+    tb_name_index idx = {NULL, 0, 0};
+    for (size_t i = 0; i < N; i++) {
+        size_t earlier = 0;
+        static const char *const stem[] = {"R", "C", "n", "x1.n"};
+        size_t number = i % 3 == 0 ? 8 * (i / 3) : i / 3;
+        snprintf(t.names[i], sizeof t.names[i], "%s%zu%s", stem[i % 4], number, i % 3 == 0 ? "" : "_");
+        assert_int_equal(tb_names_add(&idx, name_of, &t, i, &earlier), TB_OK);
+        assert_int_equal(earlier, SIZE_MAX); /* all distinct */
+    }
+    for (size_t i = 0; i < N; i++) {
+        size_t found = 0;
+        assert_true(tb_names_find(&idx, name_of, &t, t.names[i], strlen(t.names[i]), &found));
+        assert_int_equal(found, i);
+    }
     tb_names_free(&idx);
     free(t.names);
 }
@@ -128,6 +223,9 @@ int main(void)
         cmocka_unit_test(test_names_many),
         cmocka_unit_test(test_names_recent),
         cmocka_unit_test(test_names_equality),
+        cmocka_unit_test(test_names_numbered),
+        cmocka_unit_test(test_names_seek_and_claim),
+        cmocka_unit_test(test_names_numbered_families),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -628,6 +628,57 @@ static void test_parse_goes_on_after_errors(void **state)
     tb_diag_free(diag);
 }
 
+/* The second pass reads the cards between the first pass's own cards (.param, .subckt,
+ * .end) as runs: every card of every run is read once, in order, at its own line, across
+ * comments, blank lines, continuations and a card that fails half-way. */
+static void test_parse_cards_between_directives(void **state)
+{
+    (void)state;
+    const char *text = "t\n"
+                       "R1 a 0 1k\n"
+                       "* a comment\n"
+                       "\n"
+                       "R2 a b\n"
+                       "+ 2k ; the value on the next line\n"
+                       ".param p=3k\n"
+                       "R3 b 0 {p}\n"
+                       "R4 b 0 1k y\n"
+                       ".subckt two n\n"
+                       "R1 n 0 1k\n"
+                       ".ends\n"
+                       "X1 b two\n"
+                       "C1 b\n"
+                       "+ 0 1p\n"
+                       ".param q=1\n"
+                       ".param r=2\n"
+                       "R5 a 0 z\n"
+                       "V1 a 0 AC 1\n"
+                       ".end\n"
+                       "R6 a 0 w\n";
+    tb_diag *diag = tb_diag_new();
+    tb_circuit *ckt = NULL;
+    assert_int_equal(parse_exact(text, strlen(text), diag, &ckt), TB_ERR_INPUT);
+    assert_int_equal(tb_diag_count(diag), 2);
+    assert_string_equal(first_line(diag, 0), "t.net:9:11: error: unexpected 'y' after the value of R4");
+    assert_string_equal(first_line(diag, 1), "t.net:18:8: error: expected a value for R5, got 'z'");
+    tb_diag_free(diag);
+    const char *good = "t\nR1 a 0 1k\n* c\nR2 a b\n+ 2k\n.param p=3k\nR3 b 0 {p}\n"
+                       ".subckt two n\nR1 n 0 1k\n.ends\nX1 b two\nC1 b\n+ 0 1p\n"
+                       ".param q=1\n.param r=2\nV1 a 0 AC 1\nG1 b 0 a 0 1m\n.loop G1\n.ac dec 1 1 10\n"
+                       ".end\nR6 a 0 w\n";
+    ckt = parse_ok(good);
+    const char *names[] = {"R1", "R2", "R3", "X1.R1", "C1", "V1", "G1"};
+    const int lines[] = {2, 4, 7, 9, 12, 16, 17};
+    assert_int_equal(ckt->elem_count, 7);
+    for (size_t i = 0; i < 7; i++) {
+        assert_string_equal(ckt->elems[i].name, names[i]);
+        assert_int_equal(ckt->elems[i].loc.line, lines[i]);
+    }
+    assert_true(ckt->elems[2].value == 3e3);
+    assert_int_equal(ckt->elems[4].node[1], 0);
+    tb_circuit_free(ckt);
+}
+
 /* Reading stops after 20 errors. */
 static void test_parse_stops_after_20_errors(void **state)
 {
@@ -836,6 +887,7 @@ int main(void)
         cmocka_unit_test(test_parse_error_caret),
         cmocka_unit_test(test_parse_escapes_user_text),
         cmocka_unit_test(test_parse_goes_on_after_errors),
+        cmocka_unit_test(test_parse_cards_between_directives),
         cmocka_unit_test(test_parse_stops_after_20_errors),
         cmocka_unit_test(test_parse_margins),
         cmocka_unit_test(test_parse_margins_errors),
