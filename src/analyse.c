@@ -40,6 +40,7 @@ void tb_options_init(tb_options *opt)
     opt->peak_refine = true;
     opt->crossing_list = true;
     opt->ol_rhp_given = NULL;
+    opt->rhp_check_limit = 1000;
 }
 
 /* Thresholds left negative in the options come from the netlist's .margins,
