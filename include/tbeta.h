@@ -184,7 +184,8 @@ typedef struct {
     size_t rhp_count_limit; /* above the pole limit, right-half-plane counts by the argument
                              * principle for the verdict, within this many factorizations
                              * (about two per capacitor or inductor; default 5000, about
-                             * 3 000 reactive elements; 0: no count, P = 0 assumed) */
+                             * 3 000 reactive elements; 0: no count, P = 0 assumed unless
+                             * shown by passive blocks, which need no factorization) */
     /* what a run needs beyond the figures of a spread run (tbeta spread): each default true */
     bool step_response;   /* the closed-loop step response */
     bool near_poles;      /* above the pole limit, the poles nearest 0 and the unity crossing */
