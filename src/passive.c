@@ -28,9 +28,9 @@ typedef struct {
     const tb_mna *mna;
     size_t n;
     int *Fp, *Fi;       /* M0's non-zero pattern, CSC */
-    double *Fg, *Fc;    /* its G and C values */
-    int *Tp, *Ti;       /* the transpose */
-    double *Tg, *Tc;
+    int *Fk;            /* each entry's position in mna's value arrays */
+    int *Tp, *Ti, *Tk;  /* the transpose, likewise */
+    const tb_loopvec *lv; /* the source at gain zero, or NULL */
     int *P, *R, *work;  /* btf_strongcomp: order, block starts, workspace (4n) */
     int *blk;           /* n: block of each unknown */
     int *count;         /* n: off-diagonal entries of each row of the symmetric parts */
@@ -81,12 +81,10 @@ static void work_free(pwork *w)
 {
     tb_free(w->Fp);
     tb_free(w->Fi);
-    tb_free(w->Fg);
-    tb_free(w->Fc);
+    tb_free(w->Fk);
     tb_free(w->Tp);
     tb_free(w->Ti);
-    tb_free(w->Tg);
-    tb_free(w->Tc);
+    tb_free(w->Tk);
     tb_free(w->P);
     tb_free(w->R);
     tb_free(w->work);
@@ -105,12 +103,10 @@ static bool work_alloc(pwork *w, size_t n, size_t nnz)
     size_t z = nnz ? nnz : 1;
     w->Fp = tb_malloc(n + 1, sizeof(int));
     w->Fi = tb_malloc(z, sizeof(int));
-    w->Fg = tb_malloc(z, sizeof(double));
-    w->Fc = tb_malloc(z, sizeof(double));
+    w->Fk = tb_malloc(z, sizeof(int));
     w->Tp = tb_calloc(n + 1, sizeof(int));
     w->Ti = tb_malloc(z, sizeof(int));
-    w->Tg = tb_malloc(z, sizeof(double));
-    w->Tc = tb_malloc(z, sizeof(double));
+    w->Tk = tb_malloc(z, sizeof(int));
     w->P = tb_malloc(n, sizeof(int));
     w->R = tb_malloc(n + 1, sizeof(int));
     w->work = tb_malloc(n, 4 * sizeof(int));
@@ -120,29 +116,32 @@ static bool work_alloc(pwork *w, size_t n, size_t nnz)
     w->order = tb_malloc(n, sizeof(int));
     w->first = tb_calloc(n + 1, sizeof(int));
     w->dense = tb_malloc(TB_PASSIVE_DENSE * TB_PASSIVE_DENSE, sizeof(double));
-    return w->Fp && w->Fi && w->Fg && w->Fc && w->Tp && w->Ti && w->Tg && w->Tc && w->P && w->R && w->work &&
+    return w->Fp && w->Fi && w->Fk && w->Tp && w->Ti && w->Tk && w->P && w->R && w->work &&
            w->blk && w->count && w->bad && w->order && w->first && w->dense && symmat_alloc(&w->g, n) &&
            symmat_alloc(&w->c, n);
 }
 
-/* M0's entries that are non-zero at some s (G0 or C non-zero), with G0 = G except at the
- * loop source's own positions, where it is G without the source's stamp. */
-static void filter(pwork *w, const tb_loopvec *lv)
+/* G0 at mna position k: G, or at the loop source's own positions G without its stamp. */
+static double g0_at(const pwork *w, int k)
+{
+    for (int o = 0; w->lv && o < w->lv->own_count; o++)
+        if (w->lv->own_pos[o] == (size_t)k)
+            return w->lv->own_g0[o];
+    return w->mna->Gx[k];
+}
+
+/* M0's entries that are non-zero at some s (G0 or C non-zero), by their mna positions. */
+static void filter(pwork *w)
 {
     const tb_mna *mna = w->mna;
     size_t nz = 0;
     w->Fp[0] = 0;
     for (size_t j = 0; j < w->n; j++) {
         for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++) {
-            double g = mna->Gx[k];
-            for (int o = 0; lv && o < lv->own_count; o++)
-                if (lv->own_pos[o] == (size_t)k)
-                    g = lv->own_g0[o];
-            if (g == 0 && mna->Cx[k] == 0)
+            if (g0_at(w, k) == 0 && mna->Cx[k] == 0)
                 continue;
             w->Fi[nz] = mna->Ai[k];
-            w->Fg[nz] = g;
-            w->Fc[nz] = mna->Cx[k];
+            w->Fk[nz] = k;
             nz++;
         }
         w->Fp[j + 1] = (int)nz;
@@ -164,8 +163,7 @@ static void transpose(pwork *w)
         for (int k = w->Fp[j]; k < w->Fp[j + 1]; k++) {
             int pos = next[w->Fi[k]]++;
             w->Ti[pos] = (int)j;
-            w->Tg[pos] = w->Fg[k];
-            w->Tc[pos] = w->Fc[k];
+            w->Tk[pos] = w->Fk[k];
         }
     }
 }
@@ -192,13 +190,13 @@ static bool next_pair(const pwork *w, size_t j, pair_iter *it, size_t *i, double
         int r = rf < rt ? rf : rt;
         double gij = 0, gji = 0, cij = 0, cji = 0;
         if (rf == r) {
-            gij = w->Fg[it->fa];
-            cij = w->Fc[it->fa];
+            gij = g0_at(w, w->Fk[it->fa]);
+            cij = w->mna->Cx[w->Fk[it->fa]];
             it->fa++;
         }
         if (rt == r) {
-            gji = w->Tg[it->ta];
-            cji = w->Tc[it->ta];
+            gji = g0_at(w, w->Tk[it->ta]);
+            cji = w->mna->Cx[w->Tk[it->ta]];
             it->ta++;
         }
         if ((size_t)r == j || w->blk[r] != w->blk[j])
@@ -246,8 +244,8 @@ static void first_pass(pwork *w)
         double s = sign_of(w, j);
         for (int k = w->Fp[j]; k < w->Fp[j + 1]; k++) {
             if ((size_t)w->Fi[k] == j) {
-                w->g.d[j] = s * w->Fg[k];
-                w->c.d[j] = s * w->Fc[k];
+                w->g.d[j] = s * g0_at(w, w->Fk[k]);
+                w->c.d[j] = s * w->mna->Cx[w->Fk[k]];
             }
         }
         pair_iter it = pairs_of(w, j);
@@ -413,12 +411,12 @@ tb_status tb_passive_open_loop(const tb_mna *mna, const tb_loopvec *lv, tb_passi
         *out = (tb_passive){.proven = true, .first_active = SIZE_MAX};
         return TB_OK;
     }
-    pwork w = {.mna = mna, .n = n};
+    pwork w = {.mna = mna, .n = n, .lv = lv};
     if (!work_alloc(&w, n, mna->nnz)) {
         work_free(&w);
         return TB_ERR_NOMEM;
     }
-    filter(&w, lv);
+    filter(&w);
     transpose(&w);
     size_t nb = blocks(&w);
     first_pass(&w);
