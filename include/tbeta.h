@@ -184,7 +184,8 @@ typedef struct {
     size_t rhp_count_limit; /* above the pole limit, right-half-plane counts by the argument
                              * principle for the verdict, within this many factorizations
                              * (about two per capacitor or inductor; default 5000, about
-                             * 3 000 reactive elements; 0: no count, P = 0 assumed) */
+                             * 3 000 reactive elements; 0: no count, P = 0 assumed unless
+                             * shown by passive blocks, which need no factorization) */
     /* what a run needs beyond the figures of a spread run (tbeta spread): each default true */
     bool step_response;   /* the closed-loop step response */
     bool near_poles;      /* above the pole limit, the poles nearest 0 and the unity crossing */
@@ -200,6 +201,10 @@ typedef struct {
                              * count of a circuit this one is a small change of: above the pole
                              * limit it stands for P (ol_count_by TB_COUNT_GIVEN) and no
                              * argument-principle walk runs. Borrowed: read during tb_analyse only */
+    size_t rhp_check_limit; /* where the passivity of M0's blocks shows P = 0 above the pole limit, the
+                             * argument-principle walk still runs (the closed-loop count, poles on
+                             * the axis) when it needs at most this many factorizations (an estimate
+                             * of two per column of C first; default 1000; 0: never) */
 } tb_options;
 
 /* The most frequencies tb_options.at_hz may hold (more: TB_ERR_USAGE). */
@@ -474,7 +479,10 @@ typedef enum {
     TB_COUNT_NONE = 0,       /* not made */
     TB_COUNT_POLES,          /* from the poles (dense QZ, up to the pole limit) */
     TB_COUNT_WINDING,        /* by the argument principle on the determinant along the j-omega axis */
-    TB_COUNT_GIVEN           /* not counted: taken from tb_options.ol_rhp_given (a nominal circuit's) */
+    TB_COUNT_GIVEN,          /* not counted: taken from tb_options.ol_rhp_given (a nominal circuit's) */
+    TB_COUNT_PASSIVE_BLOCKS  /* open loop only: none in the right half-plane, shown by the passivity of
+                              * every strongly connected part of M0 (docs/stability.md); on the axis
+                              * not counted unless ol_axis_counted */
 } tb_count_method;
 
 /* Why the stability figures are as they are (bits 1u << tb_stab_note). */
@@ -509,6 +517,8 @@ typedef enum {
     TB_SNOTE_WINDING_FAILED,        /* poles not computed and the argument-principle count not made
                                      * (winding_why says why) */
     TB_SNOTE_BELOW_GM_CAP,          /* phase crossings where |T| is below -gm_cap_db not followed */
+    TB_SNOTE_RHP_BY_PASSIVE,        /* poles not computed: no open-loop right-half-plane pole, shown by
+                                     * passive blocks (ol_count_by TB_COUNT_PASSIVE_BLOCKS) */
     TB_SNOTE_COUNT
 } tb_stab_note;
 
@@ -516,7 +526,7 @@ typedef enum {
 TB_API const char *tb_stab_note_str(tb_stab_note note);
 /* "stable", "marginal", "unstable", "undecided". */
 TB_API const char *tb_verdict_str(tb_verdict verdict);
-/* "poles", "argument principle", "none". */
+/* "poles", "argument principle", "nominal circuit", "passive blocks", "none". */
 TB_API const char *tb_count_method_str(tb_count_method method);
 /* "left", "axis", "right". */
 TB_API const char *tb_pole_place_str(tb_pole_place place);
@@ -649,6 +659,12 @@ typedef struct {
      * rise by more than gm_cap_db (has_gain_margin_up_above; gain_margin_up_db is then absent) */
     bool has_gain_margin_up_above;
     double gm_cap_db;
+    /* above the pole limit: the passivity test of the open loop's diagonal blocks (strongly
+     * connected parts of M0's pattern); passive_blocks 0 when the test did not run */
+    size_t passive_blocks;    /* blocks */
+    size_t passive_active;    /* of them not shown passive (then P comes from elsewhere) */
+    bool ol_axis_counted;     /* with TB_COUNT_PASSIVE_BLOCKS: ol_axis counted by the argument
+                               * principle's check walk (else open-loop poles on the axis unknown) */
 } tb_stability;
 
 /* Stability figures of loop l (computed by tb_analyse when opt->stability).

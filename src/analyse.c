@@ -41,6 +41,7 @@ void tb_options_init(tb_options *opt)
     opt->crossing_list = true;
     opt->gm_cap_db = 60.0;
     opt->ol_rhp_given = NULL;
+    opt->rhp_check_limit = 1000;
 }
 
 /* Thresholds left negative in the options come from the netlist's .margins,

@@ -363,6 +363,7 @@ tb_status tb_mna_build(const tb_circuit *ckt, tb_diag *diag, tb_mna **out)
     if (!mna)
         goto fail;
     mna->n = s.nodes + ckt->branch_count;
+    mna->nodes = s.nodes;
     if (mna->n >= (size_t)INT_MAX) {
         st = tb_diag_add(diag, TB_SEV_ERROR, ckt->file, 0, 0, NULL, 0,
                          "too many unknowns (%zu; the limit is %d)", mna->n, INT_MAX - 1);

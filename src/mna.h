@@ -48,6 +48,7 @@ typedef struct {
     bool has_io;
     tb_svec b;   /* unit excitation of the .io input source */
     tb_svec c;   /* output selector: A = c'x */
+    size_t nodes; /* unknowns 0 .. nodes-1 are node voltages, the rest branch currents */
 } tb_mna;
 
 /* Stamps the finished circuit. On success *out owns a new tb_mna (free with

@@ -66,6 +66,19 @@ static bool p_known(const tb_stability *st)
     return st->has_poles || st->ol_count_by != TB_COUNT_NONE;
 }
 
+/* How P was obtained, for the verdict's sentence. */
+static const char *p_how(const tb_stability *st)
+{
+    switch (st->ol_count_by) {
+    case TB_COUNT_PASSIVE_BLOCKS:
+        return "(none: every strongly connected part of the circuit with the loop's source at zero is passive)";
+    case TB_COUNT_GIVEN:
+        return "taken from the nominal circuit";
+    default:
+        return "by the argument principle on det M0(jw)";
+    }
+}
+
 static const char *nyquist_words(const tb_stability *st, char *buf, size_t size)
 {
     if (!st->has_nyquist)
@@ -141,8 +154,7 @@ const char *tb_report_reason(const tb_stability *st, char *buf, size_t size)
         winding_reason(st, nyq, dis, buf, size);
     else if (p_known(st) && st->verdict != TB_VERDICT_UNKNOWN)
         snprintf(buf, size, "Nyquist: N = %ld clockwise encirclements of -1, P = %zu open-loop right-half-plane "
-                 "poles by the argument principle on det M0(jw), N + P = %ld", st->nyquist_n, st->ol_rhp,
-                 st->nyquist_n + (long)st->ol_rhp);
+                 "poles %s, N + P = %ld", st->nyquist_n, st->ol_rhp, p_how(st), st->nyquist_n + (long)st->ol_rhp);
     else if (st->verdict == TB_VERDICT_STABLE)
         snprintf(buf, size, "Nyquist: N = 0 encirclements of -1, open loop assumed stable");
     else if (st->verdict == TB_VERDICT_UNSTABLE)

@@ -208,6 +208,15 @@ static json_t *count_object(builder *b, tb_count_method by, size_t rhp, size_t a
     return o;
 }
 
+/* The open loop's count: by passive blocks, its axis count only when a walk made one. */
+static json_t *open_count_object(builder *b, const tb_stability *st)
+{
+    json_t *o = count_object(b, st->ol_count_by, st->ol_rhp, st->ol_axis);
+    if (o && st->ol_count_by == TB_COUNT_PASSIVE_BLOCKS && !st->ol_axis_counted)
+        set(b, o, "axis", json_null());
+    return o;
+}
+
 /* The right-half-plane counts the verdict rests on (by the poles, or above the
  * pole limit by the argument principle). */
 static json_t *counts_object(builder *b, const tb_stability *st)
@@ -216,7 +225,9 @@ static json_t *counts_object(builder *b, const tb_stability *st)
     if (!o)
         return NULL;
     set(b, o, "closed_loop", count_object(b, st->cl_count_by, st->cl_rhp, st->cl_axis));
-    set(b, o, "open_loop", count_object(b, st->ol_count_by, st->ol_rhp, st->ol_axis));
+    set(b, o, "open_loop", open_count_object(b, st));
+    set(b, o, "passive_blocks", json_integer((json_int_t)st->passive_blocks));
+    set(b, o, "passive_blocks_active", json_integer((json_int_t)st->passive_active));
     set(b, o, "closed_loop_degree",
         st->cl_count_by == TB_COUNT_WINDING ? json_integer((json_int_t)st->cl_finite) : json_null());
     set(b, o, "evaluations", json_integer((json_int_t)st->winding_evaluations));

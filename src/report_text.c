@@ -187,6 +187,16 @@ static void winding_lines(FILE *out, const tb_stability *st)
     if (st->ol_count_by == TB_COUNT_WINDING)
         fprintf(out, "    open loop by the argument principle on det M0(jw): %zu in the right half-plane, "
                      "%zu on the axis\n", st->ol_rhp, st->ol_axis);
+    if (st->ol_count_by == TB_COUNT_PASSIVE_BLOCKS)
+        fprintf(out, "    open loop: no right-half-plane pole (the circuit with the loop's source at zero splits "
+                     "into %zu strongly connected part%s, every one passive); on the axis: %s\n", st->passive_blocks,
+                st->passive_blocks == 1 ? "" : "s", st->ol_axis_counted ? (st->ol_axis ? "counted by the argument principle, see below" : "none")
+                                    : "not counted");
+    if (st->ol_count_by == TB_COUNT_PASSIVE_BLOCKS && st->ol_axis_counted && st->ol_axis)
+        fprintf(out, "      %zu open-loop poles on the axis, by the argument principle on det M0(jw)\n", st->ol_axis);
+    else if (st->passive_active > 0)
+        fprintf(out, "    open loop not shown passive: %zu of %zu strongly connected parts hold active entries\n",
+                st->passive_active, st->passive_blocks);
     if (st->winding_why)
         fprintf(out, "    no count by the argument principle: %s\n", st->winding_why);
     if (st->winding_evaluations > 0)

@@ -68,16 +68,16 @@ static tb_point probe_point(const tb_spreadset *set, const tb_result *res, size_
 }
 
 /* Every loop's open-loop right-half-plane count of the nominal circuit, kept when each was
- * made by the argument principle (above the pole limit; below it every sample has its
- * poles) with no open-loop pole on the axis: a sample's
+ * made by the argument principle or shown zero by passive blocks (above the pole limit; below
+ * it every sample has its poles) with no open-loop pole on the axis: a sample's
  * small change of values moves a pole across the axis only where one lies near it, and
  * the samples' Nyquist counts then take P from here instead of walking det M0 again. */
 static tb_status nominal_counts(const tb_result *res, tb_spreadset *set)
 {
     for (size_t l = 0; l < set->loops; l++) {
         tb_stability st;
-        if (tb_stability_loop(res, l, &st) != TB_OK || !st.computed || st.ol_count_by != TB_COUNT_WINDING ||
-            st.ol_axis > 0)
+        if (tb_stability_loop(res, l, &st) != TB_OK || !st.computed ||
+            (st.ol_count_by != TB_COUNT_WINDING && st.ol_count_by != TB_COUNT_PASSIVE_BLOCKS) || st.ol_axis > 0)
             return TB_OK;
     }
     if (set->loops == 0)
@@ -254,6 +254,7 @@ tb_status tb_spreadrun_all(const tb_circuit *ckt, const tb_spread_options *opt, 
     one.crossing_list = false; /* no list is shown: crossings refined only when all fit */
     one.peak_refine = false; /* the spread's figures take the peak of |A| from the dominant pair */
     one.ol_rhp_given = set->ol_rhp_nominal;
+    one.rhp_check_limit = 0; /* where a sample's passive blocks show P = 0, no check walk */
     if (!set->factorizations && !(set->factorizations = tb_calloc(set->runs ? set->runs : 1, sizeof(size_t))))
         return TB_ERR_NOMEM;
     tb_sweep *base = NULL;

@@ -10,6 +10,7 @@
 #include "crossing.h"
 #include "margin.h"
 #include "nyquist.h"
+#include "passive.h"
 #include "poles.h"
 #include "units.h"
 #include "winding.h"
@@ -351,19 +352,93 @@ static tb_status loop_poles(stab_work *w, const tb_result *res, size_t l, tb_sta
     return TB_OK;
 }
 
-/* Above the pole limit: the right-half-plane counts of det M and det M0 by the
- * argument principle along the sweep's range and beyond (tb_winding_run), then a
- * pivoted factorization at the lowest sweep frequency, as after the poles' checks. */
-static tb_status loop_winding(stab_work *w, const tb_result *res, size_t l, tb_stability *st, bool *ol_axis_away)
+/* Whether T is finite at some sweep point: det M0 = det M / (1 + T) is then not zero at
+ * every s, the passivity argument's one proviso (docs/stability.md). */
+static bool m0_regular(const tb_result *res, size_t l)
 {
+    const tb_point *pts = tb_result_loop(res, l);
+    for (size_t i = 0; pts && i < res->npoints; i++)
+        if (!(pts[i].flags & TB_PT_T_INF) && isfinite(creal(pts[i].T)) && isfinite(cimag(pts[i].T)))
+            return true;
+    return false;
+}
+
+/* Above the pole limit: P = 0 when every diagonal block of M0 is passive (tb_passive_open_loop),
+ * in O(nnz), without factorizations; *proven says whether it holds. */
+static tb_status open_loop_passive(stab_work *w, const tb_result *res, size_t l, tb_stability *st, bool *proven)
+{
+    const tb_mna *mna = w->probe->mna;
+    tb_passive pv;
+    tb_status s = tb_passive_open_loop(mna, &mna->loops[l], &pv);
+    *proven = false;
+    if (s)
+        return s == TB_ERR_NOMEM ? s : TB_OK;
+    st->passive_blocks = pv.blocks;
+    st->passive_active = pv.active_blocks;
+    if (!pv.proven || !m0_regular(res, l))
+        return TB_OK;
+    *proven = true;
+    st->ol_count_by = TB_COUNT_PASSIVE_BLOCKS;
+    st->ol_rhp = 0;
+    st->ol_axis = 0;
+    st->notes |= 1u << TB_SNOTE_RHP_BY_PASSIVE;
+    return TB_OK;
+}
+
+/* The argument principle's walk would take about two factorizations per zero of det M,
+ * at most one zero per column of C: twice the columns of C that hold a non-zero. */
+static size_t walk_estimate(const tb_mna *mna)
+{
+    size_t cols = 0;
+    for (size_t j = 0; j < mna->n; j++) {
+        bool any = false;
+        for (int k = mna->Ap[j]; k < mna->Ap[j + 1] && !any; k++)
+            any = mna->Cx[k] != 0;
+        cols += any;
+    }
+    return 2 * cols;
+}
+
+/* The walk's counts into st. With P proven (proven), the open loop's count stays the
+ * proof's, and the walk adds the open-loop poles on the axis when it agrees. */
+static void take_counts(const tb_winding *wd, bool proven, tb_stability *st, bool *ol_axis_away)
+{
+    if (wd->closed.counted) {
+        st->cl_count_by = TB_COUNT_WINDING;
+        st->cl_rhp = wd->closed.rhp;
+        st->cl_axis = wd->closed.on_axis + wd->closed.at_origin;
+        st->cl_finite = wd->closed.degree;
+    }
+    if (wd->open.counted && (!proven || wd->open.rhp == 0)) {
+        st->ol_count_by = proven ? TB_COUNT_PASSIVE_BLOCKS : TB_COUNT_WINDING;
+        st->ol_rhp = wd->open.rhp;
+        st->ol_axis = wd->open.on_axis + wd->open.at_origin;
+        st->ol_axis_counted = proven;
+        *ol_axis_away = wd->open.on_axis > 0;
+    }
+    st->winding_why = !wd->closed.counted ? wd->closed.why : !wd->open.counted ? wd->open.why : NULL;
+    if (!proven)
+        st->notes |= 1u << (st->winding_why ? TB_SNOTE_WINDING_FAILED : TB_SNOTE_RHP_BY_WINDING);
+    else if (wd->closed.counted)
+        st->notes |= 1u << TB_SNOTE_RHP_BY_WINDING;
+}
+
+/* Above the pole limit: the right-half-plane counts of det M and det M0 by the
+ * argument principle along the sweep's range and beyond (tb_winding_run), within
+ * budget factorizations, then a pivoted factorization at the lowest sweep frequency,
+ * as after the poles' checks. proven: P is known already (a check walk; its failure
+ * is no note). */
+static tb_status loop_winding(stab_work *w, const tb_result *res, size_t l, size_t budget, bool proven,
+                              tb_stability *st, bool *ol_axis_away)
+{
+    unsigned failed = proven ? 0 : 1u << TB_SNOTE_WINDING_FAILED;
     if (res->npoints < 2 || !(res->freqs[0] > 0)) {
         st->winding_why = "the sweep has no range to start the walk on";
-        st->notes |= 1u << TB_SNOTE_WINDING_FAILED;
+        st->notes |= failed;
         return TB_OK;
     }
     tb_winding wd;
-    tb_status s = tb_winding_run_budget(w->probe, l, res->freqs[0], res->freqs[res->npoints - 1],
-                                        w->opt->rhp_count_limit, &wd);
+    tb_status s = tb_winding_run_budget(w->probe, l, res->freqs[0], res->freqs[res->npoints - 1], budget, &wd);
     if (s == TB_ERR_NOMEM)
         return s;
     size_t culprit = 0;
@@ -372,25 +447,37 @@ static tb_status loop_winding(stab_work *w, const tb_result *res, size_t l, tb_s
         return again;
     if (s) {
         st->winding_why = "a factorization of the walk failed";
-        st->notes |= 1u << TB_SNOTE_WINDING_FAILED;
+        st->notes |= failed;
         return TB_OK;
     }
     st->winding_evaluations = wd.evaluations;
-    if (wd.closed.counted) {
-        st->cl_count_by = TB_COUNT_WINDING;
-        st->cl_rhp = wd.closed.rhp;
-        st->cl_axis = wd.closed.on_axis + wd.closed.at_origin;
-        st->cl_finite = wd.closed.degree;
-    }
-    if (wd.open.counted) {
-        st->ol_count_by = TB_COUNT_WINDING;
-        st->ol_rhp = wd.open.rhp;
-        st->ol_axis = wd.open.on_axis + wd.open.at_origin;
-        *ol_axis_away = wd.open.on_axis > 0;
-    }
-    st->winding_why = !wd.closed.counted ? wd.closed.why : !wd.open.counted ? wd.open.why : NULL;
-    st->notes |= 1u << (st->winding_why ? TB_SNOTE_WINDING_FAILED : TB_SNOTE_RHP_BY_WINDING);
+    take_counts(&wd, proven, st, ol_axis_away);
     return TB_OK;
+}
+
+/* Above the pole limit (or where QZ failed): P by the passive blocks, else from the
+ * nominal circuit when given, else by the argument principle; with P proven, the walk
+ * runs as a check only when its estimate fits tb_options.rhp_check_limit. */
+static tb_status open_loop_count(stab_work *w, const tb_result *res, size_t l, tb_stability *st,
+                                 bool *ol_axis_away)
+{
+    bool proven = false;
+    tb_status s = open_loop_passive(w, res, l, st, &proven);
+    size_t limit = w->opt->rhp_count_limit;
+    if (s)
+        return s;
+    if (proven) {
+        size_t check = w->opt->rhp_check_limit < limit ? w->opt->rhp_check_limit : limit;
+        if (check > 0 && walk_estimate(w->probe->mna) <= check)
+            return loop_winding(w, res, l, check, true, st, ol_axis_away);
+        return TB_OK;
+    }
+    if (w->opt->ol_rhp_given) {
+        st->ol_count_by = TB_COUNT_GIVEN; /* a small change of a counted circuit: P carried over */
+        st->ol_rhp = w->opt->ol_rhp_given[l];
+        return TB_OK;
+    }
+    return limit > 0 ? loop_winding(w, res, l, limit, false, st, ol_axis_away) : TB_OK;
 }
 
 /* Poles found near one shift join st's list, each once. */
@@ -453,12 +540,8 @@ static tb_status one_loop(stab_work *w, tb_result *res, size_t l, tb_stability *
         s = loop_poles(w, res, l, st, &weights, &ol_axis_away);
     else
         st->notes |= 1u << w->why_none;
-    if (!s && !st->has_poles && w->opt->ol_rhp_given) {
-        st->ol_count_by = TB_COUNT_GIVEN; /* a small change of a counted circuit: P carried over */
-        st->ol_rhp = w->opt->ol_rhp_given[l];
-    } else if (!s && !st->has_poles && w->opt->rhp_count_limit > 0) {
-        s = loop_winding(w, res, l, st, &ol_axis_away);
-    }
+    if (!s && !st->has_poles)
+        s = open_loop_count(w, res, l, st, &ol_axis_away);
     if (!s && !st->has_poles && w->opt->near_poles && w->probe->mna->n > w->opt->pole_limit)
         s = near_poles(w, res, l, st);
     if (s)

@@ -44,6 +44,7 @@ static const char *const snote_text[TB_SNOTE_COUNT] = {
     [TB_SNOTE_RHP_BY_WINDING] = "poles not computed: the right-half-plane counts come from the argument principle on det M(jw) along the j-omega axis",
     [TB_SNOTE_WINDING_FAILED] = "poles not computed and no right-half-plane count by the argument principle either",
     [TB_SNOTE_BELOW_GM_CAP] = "where |T| is below the gain-margin cap (--gm-cap) its phase is not followed: -180 degree crossings there are not listed, and would give gain margins above the cap",
+    [TB_SNOTE_RHP_BY_PASSIVE] = "poles not computed: the open loop has no right-half-plane pole because every strongly connected part of the circuit with this source's gain at zero is passive (docs/stability.md)",
 };
 _Static_assert(sizeof(snote_text) / sizeof(snote_text[0]) == TB_SNOTE_COUNT, "snote_text in step");
 
@@ -71,8 +72,9 @@ const char *tb_count_method_str(tb_count_method method)
 {
     static const char *const method_text[] = {[TB_COUNT_NONE] = "none", [TB_COUNT_POLES] = "poles",
                                               [TB_COUNT_WINDING] = "argument principle",
-                                              [TB_COUNT_GIVEN] = "nominal circuit"};
-    return (unsigned)method <= TB_COUNT_GIVEN ? method_text[method] : "unknown";
+                                              [TB_COUNT_GIVEN] = "nominal circuit",
+                                              [TB_COUNT_PASSIVE_BLOCKS] = "passive blocks"};
+    return (unsigned)method <= TB_COUNT_PASSIVE_BLOCKS ? method_text[method] : "unknown";
 }
 
 const char *tb_pole_place_str(tb_pole_place place)

@@ -392,7 +392,11 @@ static void test_stability_thresholds_and_limit(void **state)
     assert_false(st.notes & (1u << TB_SNOTE_NYQUIST_ASSUMES_P0));
     assert_true(st.notes & (1u << TB_SNOTE_RHP_BY_WINDING));
     assert_int_equal(st.cl_count_by, TB_COUNT_WINDING);
-    assert_int_equal(st.ol_count_by, TB_COUNT_WINDING);
+    /* G1 at zero leaves R1 C1 and R2 C2, passive: P = 0 by the passive blocks, and the
+     * check walk (within rhp_check_limit) adds the open loop's zero on the axis */
+    assert_int_equal(st.ol_count_by, TB_COUNT_PASSIVE_BLOCKS);
+    assert_true(st.notes & (1u << TB_SNOTE_RHP_BY_PASSIVE));
+    assert_true(st.ol_axis_counted);
     assert_int_equal(st.cl_finite, 2);
     assert_int_equal(st.cl_rhp, 0);
     assert_int_equal(st.cl_axis, 0);
@@ -400,6 +404,17 @@ static void test_stability_thresholds_and_limit(void **state)
     assert_int_equal(st.ol_axis, 1);
     assert_true(st.winding_evaluations > 0);
     assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    /* without the check walk: no factorization for the counts, the closed loop not counted,
+     * and the verdict from N + P with the proven P */
+    opt.rhp_check_limit = 0;
+    st = stability_of(integrator_loop, &opt);
+    assert_int_equal(st.ol_count_by, TB_COUNT_PASSIVE_BLOCKS);
+    assert_false(st.ol_axis_counted);
+    assert_int_equal(st.cl_count_by, TB_COUNT_NONE);
+    assert_int_equal(st.winding_evaluations, 0);
+    assert_false(st.notes & (1u << TB_SNOTE_NYQUIST_ASSUMES_P0));
+    assert_int_equal(st.verdict, TB_VERDICT_STABLE);
+    opt.rhp_check_limit = 1000;
     opt.pole_limit = 500;
     st = stability_of(integrator_loop, &opt);
     assert_int_equal(st.cl_count_by, TB_COUNT_POLES);
