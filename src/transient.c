@@ -41,6 +41,7 @@ typedef struct {
     csc G;             /* diagonal while the pattern holds G's entries too */
     double *Mx;        /* nnz: G + aC */
     double a_held;     /* a of the factorization held (-1: none) */
+    bool pivoted;      /* the run has factored with pivoting once */
     double *x;         /* state at t */
     double *xg;        /* trapezoidal stage at t + gamma h */
     double *x1;        /* state at t + h */
@@ -170,7 +171,10 @@ static tb_status factor(run *w, double a)
     for (size_t k = 0; k < w->mna->nnz; k++)
         w->Mx[k] = w->mna->Gx[k] + a * w->mna->Cx[k];
     size_t culprit = 0;
-    tb_status st = tb_solver_refactor_real(w->solver, w->Mx, PIVOT_DROP, &culprit);
+    /* the run's first factorization pivots: the run does not depend on what the solver held */
+    tb_status st = w->pivoted ? tb_solver_refactor_real(w->solver, w->Mx, PIVOT_DROP, &culprit)
+                              : tb_solver_factor_real(w->solver, w->Mx, &culprit);
+    w->pivoted = w->pivoted || st == TB_OK;
     if (st == TB_OK)
         w->a_held = a;
     return st;
