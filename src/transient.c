@@ -190,8 +190,8 @@ static tb_status solve(run *w, double *into)
 
 /* One TR-BDF2 step of size h from w->x (C x and f(x) in w->cx and w->fx) into w->xg
  * and w->x1 (C x1 and f(x1) into w->c1 and w->f1); w->r holds the filtered local
- * error estimate (G + C/(D h))^-1 (C times the error)/(D h). Three solves and three
- * sparse products (C xg, C x1, G x1) a step. */
+ * error estimate (G + C/(D h))^-1 (C times the error)/(D h). Three solves and two
+ * sparse products (C xg, C x1) a step: f comes from the stages, without G. */
 static tb_status trbdf2(run *w, double h)
 {
     size_t n = w->n;
@@ -212,7 +212,11 @@ static tb_status trbdf2(run *w, double h)
     add_b(w, 1.0, w->r);
     if ((st = solve(w, w->x1)))
         return st;
-    derive(w, w->x1, w->c1, w->f1);
+    /* f(x1) from the BDF2 stage, C (x1 - A1 xg + A0 x) = D h f(x1): one product fewer than
+     * b - G x1, and exactly 0 in the algebraic rows (a consistent state) */
+    mul(&w->C, n, w->x1, w->c1);
+    for (size_t i = 0; i < n; i++)
+        w->f1[i] = a * (w->c1[i] - A1 * w->cg[i] + A0 * w->cx[i]);
     /* C times the error ~ K h^3 (C x)''' ~ 2 K h [f(x)/gamma - f(xg)/(gamma (1 - gamma))
      * + f(x1)/(1 - gamma)] (the second difference of f = C x' over the three nodes), with
      * f(xg) = a C (xg - x) - f(x) from the trapezoidal stage; then through the matrix */
