@@ -24,16 +24,22 @@ static const char monitored[] = ONE_POLE "RM in mon 1meg\nCM mon 0 1u\n";
  * overshoot exp(-pi zeta/sqrt(1 - zeta^2)) at t = pi/wd (references.md section 4). */
 static const char twopole[] = "tests/stab/stab_twopole.net";
 
-static tb_result *analyse_circuit(tb_circuit *ckt, size_t pole_limit, tb_step_figures *fig)
+static tb_result *analyse_jobs(tb_circuit *ckt, size_t pole_limit, unsigned jobs, tb_step_figures *fig)
 {
     tb_options opt;
     tb_options_init(&opt);
     opt.pole_limit = pole_limit;
+    opt.jobs = jobs;
     tb_result *res = NULL;
     assert_int_equal(tb_analyse(ckt, &opt, NULL, &res), TB_OK);
     tb_circuit_free(ckt);
     assert_int_equal(tb_step_figures_get(res, fig), TB_OK);
     return res;
+}
+
+static tb_result *analyse_circuit(tb_circuit *ckt, size_t pole_limit, tb_step_figures *fig)
+{
+    return analyse_jobs(ckt, pole_limit, 1, fig);
 }
 
 static tb_result *analyse(const char *text, size_t pole_limit, tb_step_figures *fig)
@@ -162,15 +168,7 @@ static tb_result *two_pole_jobs(unsigned jobs, tb_step_figures *fig)
 {
     tb_circuit *ckt = NULL;
     assert_int_equal(tb_circuit_read(twopole, NULL, &ckt), TB_OK);
-    tb_options opt;
-    tb_options_init(&opt);
-    opt.pole_limit = 0;
-    opt.jobs = jobs;
-    tb_result *res = NULL;
-    assert_int_equal(tb_analyse(ckt, &opt, NULL, &res), TB_OK);
-    tb_circuit_free(ckt);
-    assert_int_equal(tb_step_figures_get(res, fig), TB_OK);
-    return res;
+    return analyse_jobs(ckt, 0, jobs, fig);
 }
 
 static void test_step_beside_stability(void **state)
