@@ -111,6 +111,11 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
     tb_options limits = *opt;
     effective_thresholds(ckt, &limits);
     tb_status st = tb_measure_phase_run(res);
+    /* above the pole limit the step response needs nothing of what follows: with more
+     * than one thread it runs beside the analyses, on a solver of its own */
+    tb_step_job *job = NULL;
+    if (!st && opt->jobs > 1 && opt->stability && opt->step_response)
+        st = tb_step_start(probe, res, opt->pole_limit, &job);
     if (!st && pa->census)
         st = tb_census_end(pa->census, probe, res);
     if (!st && opt->stability)
@@ -129,10 +134,12 @@ static tb_status summarise(const tb_circuit *ckt, const tb_options *opt, tb_swee
         st = tb_distortion_run(ckt, probe, res);
     res->stats.probe_factorizations = probe->factorizations;
     res->stats.probe_solve_columns = tb_sweep_counts(sw).columns - res->stats.grid_solve_columns;
-    size_t before = tb_sweep_counts(sw).numeric;
-    if (!st && opt->stability && opt->step_response)
+    size_t before = tb_sweep_counts(sw).numeric, job_factorizations = 0;
+    tb_status job_st = tb_step_finish(job, st ? NULL : res, &job_factorizations);
+    st = st ? st : job_st;
+    if (!st && opt->stability && opt->step_response && !job)
         st = tb_step_run(probe, res);
-    res->stats.step_factorizations = tb_sweep_counts(sw).numeric - before;
+    res->stats.step_factorizations = tb_sweep_counts(sw).numeric - before + job_factorizations;
     /* the dominant pair's second-order predictions against the computed step response */
     for (size_t l = 0; !st && res->stab && l < res->nloops; l++)
         tb_stability_vs_step(&res->step, &res->stab[l]);

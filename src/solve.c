@@ -28,6 +28,7 @@ struct tb_solver {
     klu_common common;
     klu_symbolic *symbolic;
     klu_numeric *real_numeric; /* a real matrix factored beside M (tb_solver_factor_real) */
+    double real_rcond;    /* min/max |U_ii| of real_numeric when it was last pivoted */
     bool owns_symbolic;   /* false for a tb_solver_new_sharing solver */
     factorization reference; /* pivoted by tb_solver_factor */
     factorization repivot;   /* pivoted by tb_solver_refactor where the reference's order degraded */
@@ -312,24 +313,60 @@ tb_status tb_solver_log_det(tb_solver *s, double *log_abs, double *arg)
     return TB_OK;
 }
 
+/* min/max |U_ii| of a real factorization; 0 when a pivot is zero or not a number. */
+static double real_pivot_ratio(const tb_solver *s, const klu_numeric *numeric)
+{
+    const double *U = numeric->Udiag;
+    double lo = INFINITY, hi = 0;
+    for (size_t i = 0; i < s->mna->n; i++) {
+        double m = fabs(U[i]);
+        if (!(m <= INFINITY))
+            return 0;
+        lo = m < lo ? m : lo;
+        hi = m > hi ? m : hi;
+    }
+    double r = lo / hi;
+    return r >= 0 && r <= 1 ? r : 0;
+}
+
 tb_status tb_solver_factor_real(tb_solver *s, const double *Ax, size_t *culprit)
 {
     if (s->real_numeric)
         klu_free_numeric(&s->real_numeric, &s->common);
     double *A = (double *)(uintptr_t)Ax; /* not modified, as above */
     s->counts.numeric++;
+    unsigned mode = flush_begin();
     s->real_numeric = klu_factor(s->mna->Ap, s->mna->Ai, A, s->symbolic, &s->common);
+    flush_end(mode);
     if (!s->real_numeric) {
         if (s->common.status == KLU_OUT_OF_MEMORY)
             return TB_ERR_NOMEM;
         return s->common.status == KLU_SINGULAR ? singular(s, culprit) : TB_ERR_NUMERIC;
     }
-    if (s->common.status == KLU_SINGULAR) {
+    s->real_rcond = real_pivot_ratio(s, s->real_numeric);
+    if (s->common.status == KLU_SINGULAR || s->real_rcond == 0) {
         klu_free_numeric(&s->real_numeric, &s->common);
+        s->common.status = KLU_SINGULAR;
         return singular(s, culprit);
     }
     s->counts.pivoted++;
     return TB_OK;
+}
+
+tb_status tb_solver_refactor_real(tb_solver *s, const double *Ax, double rcond_drop, size_t *culprit)
+{
+    if (!s->real_numeric)
+        return tb_solver_factor_real(s, Ax, culprit);
+    double *A = (double *)(uintptr_t)Ax; /* not modified, as above */
+    s->counts.numeric++;
+    unsigned mode = flush_begin();
+    int ok = klu_refactor(s->mna->Ap, s->mna->Ai, A, s->symbolic, s->real_numeric, &s->common);
+    flush_end(mode);
+    if (ok && s->common.status == KLU_OK && real_pivot_ratio(s, s->real_numeric) >= rcond_drop * s->real_rcond)
+        return TB_OK;
+    if (s->common.status == KLU_OUT_OF_MEMORY)
+        return TB_ERR_NOMEM;
+    return tb_solver_factor_real(s, Ax, culprit);
 }
 
 tb_status tb_solver_solve_real(tb_solver *s, double *B, size_t nrhs)
@@ -340,9 +377,10 @@ tb_status tb_solver_solve_real(tb_solver *s, double *B, size_t nrhs)
         return TB_ERR_NUMERIC;
     s->counts.solves++;
     s->counts.columns += nrhs;
-    if (!klu_solve(s->symbolic, s->real_numeric, (int)s->mna->n, (int)nrhs, B, &s->common))
-        return TB_ERR_NUMERIC;
-    return TB_OK;
+    unsigned mode = flush_begin();
+    int ok = klu_solve(s->symbolic, s->real_numeric, (int)s->mna->n, (int)nrhs, B, &s->common);
+    flush_end(mode);
+    return ok ? TB_OK : TB_ERR_NUMERIC;
 }
 
 size_t tb_solver_factor_count(const tb_solver *solver)

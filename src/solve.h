@@ -61,6 +61,12 @@ tb_status tb_solver_solve_transposed(tb_solver *solver, double complex *B, size_
  * tb_solver_factor. */
 tb_status tb_solver_factor_real(tb_solver *solver, const double *Ax, size_t *culprit);
 
+/* As tb_solver_factor_real, on the pivot order of the real factorization held (KLU's
+ * refactor, without the pivot search), when its min/max |U_ii| stays at or above
+ * rcond_drop times that of the factorization pivoted last; otherwise (or with none
+ * held) with pivoting. Errors as tb_solver_factor. */
+tb_status tb_solver_refactor_real(tb_solver *solver, const double *Ax, double rcond_drop, size_t *culprit);
+
 /* Solves with the last real factorization, in place (nrhs real vectors of n values
  * one after the other). Errors: TB_ERR_NUMERIC (also when none is held). */
 tb_status tb_solver_solve_real(tb_solver *solver, double *B, size_t nrhs);

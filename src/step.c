@@ -2,6 +2,7 @@
 #include "step.h"
 
 #include <math.h>
+#include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -307,11 +308,11 @@ static void trim(wave *w)
 }
 
 /* One TR-BDF2 run (transient.c) into w, its error estimate relative to the scale. */
-static tb_status transient_once(tb_probe *probe, const tb_transient_limits *lim, bool has_final, double final,
-                                wave *w)
+static tb_status transient_once(const tb_mna *mna, tb_solver *solver, const tb_transient_limits *lim,
+                                bool has_final, double final, wave *w)
 {
     tb_transient tr = {0};
-    tb_status st = tb_transient_run(probe->mna, tb_probe_take_solver(probe), lim, &tr);
+    tb_status st = tb_transient_run(mna, solver, lim, &tr);
     if (st)
         return st;
     *w = (wave){.count = tr.count, .cap = {tr.count, tr.count, tr.count}, .t = tr.t, .y = tr.y,
@@ -330,10 +331,9 @@ static tb_status transient_once(tb_probe *probe, const tb_transient_limits *lim,
  * 1e4 / (2 pi f_lo) long; when the summed error estimate exceeds TRANSIENT_TOL, again
  * with a local tolerance 10 times tighter (twice at most, and not after a run that used
  * up its steps). *why as modal_route. */
-static tb_status transient_route(tb_probe *probe, const tb_result *res, bool has_final, double final,
-                                 wave *w, const char **why)
+static tb_status transient_route(const tb_mna *mna, tb_solver *solver, double f_lo, double f_hi, bool has_final,
+                                 double final, wave *w, const char **why)
 {
-    double f_lo = res->freqs[0], f_hi = res->freqs[res->npoints - 1];
     tb_transient_limits lim = {.h_first = 1e-3 / (TB_TWO_PI * f_hi),
                                .t_cap = 1e4 / (TB_TWO_PI * f_lo),
                                .tol = LOCAL_TOL,
@@ -342,7 +342,7 @@ static tb_status transient_route(tb_probe *probe, const tb_result *res, bool has
     *why = NULL;
     for (int attempt = 0; attempt < 3 && !st; attempt++, lim.tol /= 10) {
         wave_free(w);
-        st = transient_once(probe, &lim, has_final, final, w);
+        st = transient_once(mna, solver, &lim, has_final, final, w);
         if (!st && (w->error <= TRANSIENT_TOL || w->count > lim.max_steps))
             break; /* good enough, or out of steps: a tighter run would not get further */
     }
@@ -520,7 +520,8 @@ static tb_status compute(tb_probe *probe, const tb_result *res, bool has_final, 
         wave_free(w);
         method = *why;
     }
-    st = transient_route(probe, res, has_final, final, w, why);
+    st = transient_route(probe->mna, tb_probe_take_solver(probe), res->freqs[0], res->freqs[res->npoints - 1],
+                         has_final, final, w, why);
     w->method = method;
     return st;
 }
@@ -546,5 +547,81 @@ tb_status tb_step_run(tb_probe *probe, tb_result *res)
         fig->why_absent = why ? why : "no samples";
     wave_free(&w);
     tb_modal_free(&m);
+    return st;
+}
+
+/* ---- the time-stepped response beside the other analyses ------------------- */
+
+struct tb_step_job {
+    const tb_mna *mna;
+    tb_solver *solver; /* its own numeric factorizations over the sweep's symbolic analysis */
+    double f_lo, f_hi;
+    bool has_final;
+    double final;
+    wave w;
+    const char *why;
+    tb_status st;
+    pthread_t thread;
+    bool threaded;
+};
+
+static void *job_main(void *arg)
+{
+    tb_step_job *job = arg;
+    job->st = transient_route(job->mna, job->solver, job->f_lo, job->f_hi, job->has_final, job->final, &job->w,
+                              &job->why);
+    return NULL;
+}
+
+static void job_free(tb_step_job *job)
+{
+    wave_free(&job->w);
+    tb_solver_free(job->solver);
+    tb_free(job);
+}
+
+tb_status tb_step_start(tb_probe *probe, const tb_result *res, size_t pole_limit, tb_step_job **out)
+{
+    *out = NULL;
+    const tb_mna *mna = probe->mna;
+    if (!mna->has_io || res->nloops == 0 || mna->n <= pole_limit || !has_capacitance(mna))
+        return TB_OK; /* tb_step_run decides, after the stability analysis */
+    tb_step_job *job = tb_calloc(1, sizeof(*job));
+    if (!job)
+        return TB_ERR_NOMEM;
+    *job = (tb_step_job){.mna = mna, .f_lo = res->freqs[0], .f_hi = res->freqs[res->npoints - 1],
+                         .has_final = res->has_dc, .final = res->has_dc ? creal(res->dc[0].A) : 0};
+    tb_status st = tb_solver_new_sharing(probe->solver, &job->solver);
+    if (st) {
+        job_free(job);
+        return st;
+    }
+    job->threaded = pthread_create(&job->thread, NULL, job_main, job) == 0;
+    if (!job->threaded)
+        job_main(job); /* no thread to be had: the same work, here and now */
+    *out = job;
+    return TB_OK;
+}
+
+tb_status tb_step_finish(tb_step_job *job, tb_result *res, size_t *factorizations)
+{
+    if (!job)
+        return TB_OK;
+    if (job->threaded)
+        pthread_join(job->thread, NULL);
+    if (factorizations)
+        *factorizations = tb_solver_get_counts(job->solver).numeric;
+    tb_status st = job->st;
+    if (res && !st) {
+        tb_step_figures *fig = &res->step;
+        *fig = (tb_step_figures){.why_absent = "the stability analysis did not run"};
+        if (res->stab && job->why == NULL && job->w.count > 0) {
+            job->w.method = METHOD_LIMIT;
+            keep(res, job->has_final, &job->w);
+        } else if (res->stab) {
+            fig->why_absent = job->why ? job->why : "no samples";
+        }
+    }
+    job_free(job);
     return st;
 }

@@ -28,4 +28,20 @@
  * absent with the reason. */
 tb_status tb_step_run(tb_probe *probe, tb_result *res);
 
+/* The time-stepped route of tb_step_run on a thread of its own, beside the
+ * stability analysis: for a circuit above pole_limit (no poles, so the route does
+ * not depend on the stability analysis) with an input, a loop and capacitance;
+ * otherwise *out is NULL and tb_step_run does the work later. The job has its own
+ * solver over the probe's symbolic analysis (tb_solver_new_sharing) and reads only
+ * the mna, res's frequencies and DC gain, which must not change until
+ * tb_step_finish. Without a thread the work is done before returning. Errors:
+ * TB_ERR_NOMEM. */
+typedef struct tb_step_job tb_step_job;
+tb_status tb_step_start(tb_probe *probe, const tb_result *res, size_t pole_limit, tb_step_job **out);
+
+/* Waits for job (NULL: nothing) and frees it; with res, fills res->step, step_t and
+ * step_y as tb_step_run would (the figures need res->stab). *factorizations (when
+ * not NULL): the job's numeric factorizations. Returns the job's status. */
+tb_status tb_step_finish(tb_step_job *job, tb_result *res, size_t *factorizations);
+
 #endif

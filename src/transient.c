@@ -20,6 +20,16 @@ static const double A0 = 0.20710678118654752440084436210484904;    /* (1 - gamma
  * matches (R(z) - e^z)/z^3 evaluated as z -> 0. tests/test_transient.c checks the consequences:
  * the summed estimate stays within a small factor of the true error, and the error goes as tol^(2/3). */
 static const double K = 0.040440114519880862;
+/* A factorization on a reused pivot order is kept while its min/max |U_ii| stays above
+ * this fraction of the pivoted factorization's (tb_solver_refactor_real). */
+static const double PIVOT_DROP = 1e-3;
+
+/* A sparse matrix of its own (CSC, the nonzeros of one of mna's value arrays only). */
+typedef struct {
+    int *p; /* n + 1 */
+    int *i;
+    double *x;
+} csc;
 
 /* The run's workspace, allocated before the first step; vectors are real (n values). */
 typedef struct {
@@ -27,15 +37,22 @@ typedef struct {
     tb_solver *solver;
     const tb_transient_limits *lim;
     size_t n;
+    csc C;             /* mna's C and G without their structural zeros: C is often */
+    csc G;             /* diagonal while the pattern holds G's entries too */
     double *Mx;        /* nnz: G + aC */
     double a_held;     /* a of the factorization held (-1: none) */
+    bool pivoted;      /* the run has factored with pivoting once */
     double *x;         /* state at t */
     double *xg;        /* trapezoidal stage at t + gamma h */
     double *x1;        /* state at t + h */
+    double *fx;        /* f(x) = b - G x, that is C x' at t */
+    double *cx;        /* C x */
+    double *cg;        /* C xg */
+    double *f1;        /* f(x1) */
+    double *c1;        /* C x1 */
     double *r;         /* right-hand side, then the error estimate */
     double *xdc;       /* G^-1 b */
     double *size;      /* per unknown: max |x_i| seen and |x_dc,i| */
-    double *comb;      /* the combination of states in the error estimate */
     bool *state;       /* per unknown: its column of C is not zero (a capacitor voltage or
                         * inductor current takes part): the unknowns whose error is controlled */
     double floor;      /* 1e-3 of the largest size: the floor of every weight */
@@ -43,37 +60,66 @@ typedef struct {
     size_t cap[3];
 } run;
 
+static void csc_free(csc *m)
+{
+    tb_free(m->p);
+    tb_free(m->i);
+    tb_free(m->x);
+}
+
+/* The nonzeros of values (on mna's pattern) into m. */
+static tb_status csc_take(const tb_mna *mna, const double *values, csc *m)
+{
+    size_t count = 0;
+    for (size_t k = 0; k < mna->nnz; k++)
+        count += values[k] != 0;
+    m->p = tb_malloc(mna->n + 1, sizeof(int));
+    m->i = tb_malloc(count ? count : 1, sizeof(int));
+    m->x = tb_malloc(count ? count : 1, sizeof(double));
+    if (!m->p || !m->i || !m->x)
+        return TB_ERR_NOMEM;
+    int at = 0;
+    for (size_t j = 0; j < mna->n; j++) {
+        m->p[j] = at;
+        for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++) {
+            if (values[k] == 0)
+                continue;
+            m->i[at] = mna->Ai[k];
+            m->x[at++] = values[k];
+        }
+    }
+    m->p[mna->n] = at;
+    return TB_OK;
+}
+
 static void run_free(run *w)
 {
-    tb_free(w->Mx);
-    tb_free(w->x);
-    tb_free(w->xg);
-    tb_free(w->x1);
-    tb_free(w->r);
-    tb_free(w->xdc);
-    tb_free(w->size);
-    tb_free(w->comb);
+    csc_free(&w->C);
+    csc_free(&w->G);
+    double *vectors[] = {w->Mx, w->x, w->xg, w->x1, w->fx, w->cx, w->cg, w->f1, w->c1, w->r, w->xdc, w->size};
+    for (size_t k = 0; k < sizeof vectors / sizeof vectors[0]; k++)
+        tb_free(vectors[k]);
     tb_free(w->state);
 }
 
 static tb_status run_alloc(run *w, size_t n, size_t nnz)
 {
     w->Mx = tb_malloc(nnz ? nnz : 1, sizeof(double));
-    w->x = tb_calloc(n, sizeof(double));
-    w->xg = tb_malloc(n, sizeof(double));
-    w->x1 = tb_malloc(n, sizeof(double));
-    w->r = tb_malloc(n, sizeof(double));
-    w->xdc = tb_calloc(n, sizeof(double));
-    w->size = tb_calloc(n, sizeof(double));
-    w->comb = tb_malloc(n, sizeof(double));
-    w->state = tb_calloc(n, sizeof(bool));
-    if (!w->Mx || !w->x || !w->xg || !w->x1 || !w->r || !w->xdc || !w->size || !w->comb || !w->state)
+    double **vectors[] = {&w->x, &w->xg, &w->x1, &w->fx, &w->cx, &w->cg, &w->f1, &w->c1, &w->r, &w->xdc, &w->size};
+    bool ok = w->Mx != NULL;
+    for (size_t k = 0; k < sizeof vectors / sizeof vectors[0]; k++)
+        ok = (*vectors[k] = tb_calloc(n ? n : 1, sizeof(double))) != NULL && ok;
+    w->state = tb_calloc(n ? n : 1, sizeof(bool));
+    if (!ok || !w->state || csc_take(w->mna, w->mna->Cx, &w->C) || csc_take(w->mna, w->mna->Gx, &w->G))
         return TB_ERR_NOMEM;
-    const tb_mna *mna = w->mna;
     for (size_t j = 0; j < n; j++)
-        for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++)
-            w->state[j] = w->state[j] || mna->Cx[k] != 0;
+        w->state[j] = w->C.p[j + 1] > w->C.p[j];
     return TB_OK;
+}
+
+static inline double larger(double a, double b)
+{
+    return a > b ? a : b;
 }
 
 /* s'x over a real vector. */
@@ -85,15 +131,38 @@ static double dot(const tb_svec *s, const double *x)
     return sum;
 }
 
-/* r = alpha b. */
-static void set_b(const run *w, double alpha)
+/* out += alpha b. */
+static void add_b(const run *w, double alpha, double *out)
 {
-    memset(w->r, 0, w->n * sizeof(double));
     for (int i = 0; i < w->mna->b.count; i++)
-        w->r[w->mna->b.idx[i]] += alpha * w->mna->b.coef[i];
+        out[w->mna->b.idx[i]] += alpha * w->mna->b.coef[i];
 }
 
-/* The solver holds G + aC (a real factorization with pivoting when a changed). */
+/* out = m v. */
+static void mul(const csc *m, size_t n, const double *v, double *out)
+{
+    memset(out, 0, n * sizeof(double));
+    for (size_t j = 0; j < n; j++) {
+        double vj = v[j];
+        if (vj == 0)
+            continue;
+        for (int k = m->p[j]; k < m->p[j + 1]; k++)
+            out[m->i[k]] += m->x[k] * vj;
+    }
+}
+
+/* C x and f(x) = b - G x into cx and fx. */
+static void derive(const run *w, const double *x, double *cx, double *fx)
+{
+    mul(&w->C, w->n, x, cx);
+    mul(&w->G, w->n, x, fx);
+    for (size_t i = 0; i < w->n; i++)
+        fx[i] = -fx[i];
+    add_b(w, 1.0, fx);
+}
+
+/* The solver holds G + aC (a real factorization on the last pivot order, pivoted
+ * afresh when its pivots degrade: tb_solver_refactor_real). */
 static tb_status factor(run *w, double a)
 {
     if (w->a_held == a)
@@ -102,22 +171,13 @@ static tb_status factor(run *w, double a)
     for (size_t k = 0; k < w->mna->nnz; k++)
         w->Mx[k] = w->mna->Gx[k] + a * w->mna->Cx[k];
     size_t culprit = 0;
-    tb_status st = tb_solver_factor_real(w->solver, w->Mx, &culprit);
+    /* the run's first factorization pivots: the run does not depend on what the solver held */
+    tb_status st = w->pivoted ? tb_solver_refactor_real(w->solver, w->Mx, PIVOT_DROP, &culprit)
+                              : tb_solver_factor_real(w->solver, w->Mx, &culprit);
+    w->pivoted = w->pivoted || st == TB_OK;
     if (st == TB_OK)
         w->a_held = a;
     return st;
-}
-
-/* out += gc C v + gg G v (sparse products over the CSC pattern). */
-static void mul_add(const tb_mna *mna, double gc, double gg, const double *v, double *out)
-{
-    for (size_t j = 0; j < mna->n; j++) {
-        double vj = v[j];
-        if (vj == 0)
-            continue;
-        for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++)
-            out[mna->Ai[k]] += (gc * mna->Cx[k] + gg * mna->Gx[k]) * vj;
-    }
 }
 
 static tb_status solve(run *w, double *into)
@@ -128,33 +188,43 @@ static tb_status solve(run *w, double *into)
     return st;
 }
 
-/* One TR-BDF2 step of size h from w->x into w->xg and w->x1; w->r holds the
- * filtered local error estimate (G + C/(D h))^-1 (C times the error)/(D h). */
+/* One TR-BDF2 step of size h from w->x (C x and f(x) in w->cx and w->fx) into w->xg
+ * and w->x1 (C x1 and f(x1) into w->c1 and w->f1); w->r holds the filtered local
+ * error estimate (G + C/(D h))^-1 (C times the error)/(D h). Three solves and two
+ * sparse products (C xg, C x1) a step: f comes from the stages, without G. */
 static tb_status trbdf2(run *w, double h)
 {
-    const tb_mna *mna = w->mna;
-    double dh = D * h;
-    tb_status st = factor(w, 1.0 / dh);
+    size_t n = w->n;
+    double a = 1.0 / (D * h);
+    tb_status st = factor(w, a);
     if (st)
         return st;
-    set_b(w, 2.0);
-    mul_add(mna, 1.0 / dh, -1.0, w->x, w->r); /* (C/dh - G) x + 2 b */
+    /* (G + aC) xg = a C x + f(x) + b, from C (xg - x) = D h (f(x) + f(xg)) */
+    for (size_t i = 0; i < n; i++)
+        w->r[i] = a * w->cx[i] + w->fx[i];
+    add_b(w, 1.0, w->r);
     if ((st = solve(w, w->xg)))
         return st;
-    for (size_t i = 0; i < w->n; i++) /* x1 as scratch: A1 xg - A0 x */
-        w->x1[i] = A1 * w->xg[i] - A0 * w->x[i];
-    set_b(w, 1.0);
-    mul_add(mna, 1.0 / dh, 0, w->x1, w->r); /* C (A1 xg - A0 x)/dh + b */
+    /* (G + aC) x1 = a C (A1 xg - A0 x) + b */
+    mul(&w->C, n, w->xg, w->cg);
+    for (size_t i = 0; i < n; i++)
+        w->r[i] = a * (A1 * w->cg[i] - A0 * w->cx[i]);
+    add_b(w, 1.0, w->r);
     if ((st = solve(w, w->x1)))
         return st;
+    /* f(x1) from the BDF2 stage, C (x1 - A1 xg + A0 x) = D h f(x1): one product fewer than
+     * b - G x1, and exactly 0 in the algebraic rows (a consistent state) */
+    mul(&w->C, n, w->x1, w->c1);
+    for (size_t i = 0; i < n; i++)
+        w->f1[i] = a * (w->c1[i] - A1 * w->cg[i] + A0 * w->cx[i]);
     /* C times the error ~ K h^3 (C x)''' ~ 2 K h [f(x)/gamma - f(xg)/(gamma (1 - gamma))
-     * + f(x1)/(1 - gamma)] (second difference of f = C x' over the three nodes); the b
-     * parts cancel, leaving -G times the same combination of states */
-    double *v = w->comb;
-    for (size_t i = 0; i < w->n; i++)
-        v[i] = w->x[i] / GAMMA - w->xg[i] / (GAMMA * (1 - GAMMA)) + w->x1[i] / (1 - GAMMA);
-    memset(w->r, 0, w->n * sizeof(double));
-    mul_add(mna, 0, -2.0 * K / D, v, w->r);
+     * + f(x1)/(1 - gamma)] (the second difference of f = C x' over the three nodes), with
+     * f(xg) = a C (xg - x) - f(x) from the trapezoidal stage; then through the matrix */
+    const double ex = 1 / GAMMA, eg = -1 / (GAMMA * (1 - GAMMA)), e1 = 1 / (1 - GAMMA);
+    for (size_t i = 0; i < n; i++) {
+        double fg = a * (w->cg[i] - w->cx[i]) - w->fx[i];
+        w->r[i] = 2.0 * K / D * (ex * w->fx[i] + eg * fg + e1 * w->f1[i]);
+    }
     return solve(w, NULL);
 }
 
@@ -169,13 +239,15 @@ static double error_norm(const run *w, const double *e, double tol)
     for (int i = 0; i < w->mna->c.count; i++)
         c_sum += fabs(w->mna->c.coef[i]);
     double worst = fabs(dot(&w->mna->c, e)) / (tol * (w->y_size + w->floor * c_sum));
+    double nan = worst * 0; /* NaN when some ratio is */
     for (size_t i = 0; i < w->n; i++) {
         if (!w->state[i])
             continue;
-        double ratio = fabs(e[i]) / (tol * (w->size[i] + w->floor));
-        worst = ratio > worst || ratio != ratio ? ratio : worst;
+        double ratio = fabs(e[i]) / (w->size[i] + w->floor);
+        nan += ratio * 0;
+        worst = larger(worst, ratio / tol);
     }
-    return worst;
+    return worst + nan;
 }
 
 /* The sizes grow to v's; the floor is 1e-3 of the largest state (of the largest unknown
@@ -183,17 +255,16 @@ static double error_norm(const run *w, const double *e, double tol)
  * dynamics (the branch current of a gain of 1e7) and must not loosen every weight. */
 static void grow_sizes(run *w, const double *v)
 {
-    w->y_size = fmax(w->y_size, fabs(dot(&w->mna->c, v)));
+    w->y_size = larger(w->y_size, fabs(dot(&w->mna->c, v)));
     double top_state = 0, top = 0;
     for (size_t i = 0; i < w->n; i++) {
-        double a = fabs(v[i]);
-        if (a > w->size[i])
-            w->size[i] = a;
-        top = fmax(top, w->size[i]);
+        double s = larger(fabs(v[i]), w->size[i]);
+        w->size[i] = s;
+        top = larger(top, s);
         if (w->state[i])
-            top_state = fmax(top_state, w->size[i]);
+            top_state = larger(top_state, s);
     }
-    w->floor = fmax(w->floor, 1e-3 * (top_state > 0 ? top_state : top));
+    w->floor = larger(w->floor, 1e-3 * (top_state > 0 ? top_state : top));
 }
 
 static tb_status record(run *w, tb_transient *out, double t, double y, double dy)
@@ -215,7 +286,8 @@ static tb_status dc_state(run *w, tb_transient *out)
     tb_status st = factor(w, 0);
     if (st == TB_ERR_SINGULAR)
         return TB_OK;
-    set_b(w, 1.0);
+    memset(w->r, 0, w->n * sizeof(double));
+    add_b(w, 1.0, w->r);
     if (st || (st = solve(w, w->xdc)))
         return st;
     out->has_dc = true;
@@ -230,28 +302,46 @@ static tb_status start(run *w, double h, tb_transient *out)
     tb_status st = factor(w, 1.0 / h);
     if (st)
         return st;
-    set_b(w, 1.0);
+    memset(w->r, 0, w->n * sizeof(double));
+    add_b(w, 1.0, w->r);
     if ((st = solve(w, w->x)))
         return st;
+    derive(w, w->x, w->cx, w->fx);
     grow_sizes(w, w->x);
     return record(w, out, 0, dot(&w->mna->c, w->x), 0);
 }
 
-/* The next step size, a power of 2 times h (one factorization per size): at most 4 times
- * larger when the error allows (the estimate scales as h^3, safety factor 0.9), at least
- * halved after a rejected step. */
-static double next_h(double h, double err, bool may_grow)
+/* The step sizes are h_first 2^(k/LEVELS) for whole k: one factorization per level. */
+enum { LEVELS = 1 };
+
+/* The level after a step at level k with error err: on a rejected step (err > 1, or NaN)
+ * at least one level down, to where the estimate (which scales as h^3) would be 0.9^3
+ * of the tolerance, and at most 10 octaves; after an accepted one up by as many levels
+ * (at most 2 octaves) as keep it below 0.9^3, when may_grow. */
+static int next_level(int k, double err, bool may_grow)
 {
+    const double target = 0.729;
+    double per_level = exp2(3.0 / LEVELS); /* the estimate's growth a level up */
     if (!(err <= 1)) {
-        double f = 0.9 / cbrt(err);
-        int k = 1;
-        while (k < 10 && ldexp(1.0, -k) > f)
-            k++;
-        return ldexp(h, -k);
+        int down = 1;
+        double e = err / per_level;
+        while (down < 10 * LEVELS && e > target) {
+            e /= per_level;
+            down++;
+        }
+        return k - down;
     }
-    if (!may_grow)
-        return h;
-    return err <= 0.0114 ? 4 * h : err <= 0.091 ? 2 * h : h;
+    int up = 0;
+    while (may_grow && up < 2 * LEVELS && err * per_level <= target) {
+        err *= per_level;
+        up++;
+    }
+    return k + up;
+}
+
+static double level_h(const run *w, int k)
+{
+    return w->lim->h_first * exp2((double)k / LEVELS);
 }
 
 /* After an accepted step: settled (every unknown within 10 tol of x_dc) or diverged (grown
@@ -259,25 +349,35 @@ static double next_h(double h, double err, bool may_grow)
  * Returns the largest |x_i| now. */
 static double judge(const run *w, double ref, tb_transient *out)
 {
-    double off = 0, top = 0;
-    bool finite = true;
+    double off = 0, top = 0, nan = 0;
     for (size_t i = 0; i < w->n; i++) {
-        finite = finite && isfinite(w->x[i]);
-        off = fmax(off, fabs(w->x[i] - w->xdc[i]) / (w->size[i] + w->floor));
-        top = fmax(top, fabs(w->x[i]));
+        double a = fabs(w->x[i]);
+        nan += a * 0; /* NaN when some entry is not finite */
+        off = larger(off, fabs(w->x[i] - w->xdc[i]) / (w->size[i] + w->floor));
+        top = larger(top, a);
     }
-    out->diverged = !finite || !(top <= 1e3 * ref);
+    out->diverged = nan != 0 || !(top <= 1e3 * ref);
     out->settled = out->has_dc && !out->diverged && off <= 10 * w->lim->tol;
     return top;
 }
 
-/* Accepts the step just taken: time, sizes, the output's error and its sample. */
+static void swap(double **a, double **b)
+{
+    double *keep = *a;
+    *a = *b;
+    *b = keep;
+}
+
+/* Accepts the step just taken: time, sizes, the output's error and its sample; x1 (with
+ * C x1 and f(x1)) becomes x. */
 static tb_status accept(run *w, tb_transient *out, double *t, double h)
 {
     const tb_svec *c = &w->mna->c;
     out->y_error += fabs(dot(c, w->r));
     double slope = (dot(c, w->x1) - A1 * dot(c, w->xg) + A0 * dot(c, w->x)) / (D * h);
-    memcpy(w->x, w->x1, w->n * sizeof(double));
+    swap(&w->x, &w->x1);
+    swap(&w->cx, &w->c1);
+    swap(&w->fx, &w->f1);
     *t += h;
     out->steps++;
     grow_sizes(w, w->x);
@@ -287,21 +387,23 @@ static tb_status accept(run *w, tb_transient *out, double *t, double h)
 static tb_status integrate(run *w, tb_transient *out)
 {
     const tb_transient_limits *lim = w->lim;
-    double h = lim->h_first, t = 1e-3 * h;
+    int level = 0;
+    double t = 1e-3 * lim->h_first;
     tb_status st = start(w, t, out);
     double ref = 0, t_ref = t; /* the largest |x_i| at t_ref */
     for (size_t i = 0; i < w->n; i++)
-        ref = fmax(ref, w->size[i]);
+        ref = larger(ref, w->size[i]);
     bool may_grow = true;
     while (!st && out->steps < lim->max_steps && out->rejected < lim->max_steps) {
+        double h = level_h(w, level);
         if ((st = trbdf2(w, h)))
             break;
         double err = error_norm(w, w->r, lim->tol);
         if (!(err <= 1)) {
             out->rejected++;
-            h = next_h(h, err, false);
+            level = next_level(level, err, false);
             may_grow = false;
-            if (h < 1e-15 * t)
+            if (level_h(w, level) < 1e-15 * t)
                 st = TB_ERR_NUMERIC; /* the step size has underflowed: no accuracy to be had */
             continue;
         }
@@ -312,9 +414,9 @@ static tb_status integrate(run *w, tb_transient *out)
             break;
         if (t >= 2 * t_ref) {
             t_ref = t;
-            ref = fmax(top, 1e-300);
+            ref = larger(top, 1e-300);
         }
-        h = next_h(h, err, may_grow);
+        level = next_level(level, err, may_grow);
         may_grow = true;
     }
     return st;

@@ -29,7 +29,11 @@ typedef struct {
 
 /* Integrates G x + C dx/dt = b for t > 0 from x(0-) = 0 on real factorizations
  * of G + aC by solver (one numeric factorization per distinct a: the step size
- * changes by powers of 2 only). The jump of the algebraic unknowns at t = 0 is
+ * changes by powers of 2 only; each on the pivot order of the last pivoted one
+ * while its pivots hold, tb_solver_refactor_real). A step costs three solves and
+ * the sparse products C xg and C x1 (on a copy of C without the pattern's
+ * structural zeros); C x and f(x) = C x' carry over from the step before, and
+ * f at the stages follows from the stage equations (b - G x only at the start). The jump of the algebraic unknowns at t = 0 is
  * taken by one backward-Euler step of h_first/1000; then TR-BDF2 (trapezoidal
  * stage to t + gamma h, BDF2 to t + h, gamma = 2 - sqrt 2: both stages on one
  * matrix) with an embedded estimate of the local error from the three stage

@@ -118,6 +118,44 @@ static void test_solve_real_beside_complex(void **state)
     tb_solver_free(s);
 }
 
+/* The real refactor: on the held pivot order while its pivots hold (Cramer's rule on the
+ * new matrix, no pivoted factorization counted), pivoted again when a reused pivot has
+ * collapsed (1e-15 in the place of 4), with nothing held it pivots. */
+static void real_solution(tb_solver *s, const double *Ax)
+{
+    double B[2] = {1, 2};
+    assert_int_equal(tb_solver_solve_real(s, B, 1), TB_OK);
+    double a = Ax[0], c = Ax[1], b = Ax[2], d = Ax[3], det = a * d - b * c;
+    tu_close(B[0], (1 * d - b * 2) / det, 1e-12);
+    tu_close(B[1], (a * 2 - c * 1) / det, 1e-12);
+}
+
+static void test_solve_real_refactor(void **state)
+{
+    (void)state;
+    tb_mna m = two_by_two();
+    tb_solver *s = NULL;
+    size_t culprit = 99;
+    assert_int_equal(tb_solver_new(&m, &s), TB_OK);
+    double first[4] = {4, 1, 1, 3}; /* [[4, 1], [1, 3]] in CSC order */
+    assert_int_equal(tb_solver_refactor_real(s, first, 1e-3, &culprit), TB_OK);
+    assert_int_equal(tb_solver_get_counts(s).pivoted, 1);
+    real_solution(s, first);
+    double second[4] = {5, 2, 1, 3};
+    assert_int_equal(tb_solver_refactor_real(s, second, 1e-3, &culprit), TB_OK);
+    assert_int_equal(tb_solver_get_counts(s).pivoted, 1);
+    assert_int_equal(tb_solver_get_counts(s).numeric, 2);
+    real_solution(s, second);
+    double collapsed[4] = {1e-15, 1, 1, 3};
+    assert_int_equal(tb_solver_refactor_real(s, collapsed, 1e-3, &culprit), TB_OK);
+    assert_int_equal(tb_solver_get_counts(s).pivoted, 2);
+    real_solution(s, collapsed);
+    double singular[4] = {1, 2, 0, 0};
+    assert_int_equal(tb_solver_refactor_real(s, singular, 1e-3, &culprit), TB_ERR_SINGULAR);
+    assert_int_equal(culprit, 1);
+    tb_solver_free(s);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -125,6 +163,7 @@ int main(void)
         cmocka_unit_test(test_solve_degraded_refactor_pivots_again),
         cmocka_unit_test(test_solve_singular_names_column),
         cmocka_unit_test(test_solve_real_beside_complex),
+        cmocka_unit_test(test_solve_real_refactor),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

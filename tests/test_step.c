@@ -24,16 +24,22 @@ static const char monitored[] = ONE_POLE "RM in mon 1meg\nCM mon 0 1u\n";
  * overshoot exp(-pi zeta/sqrt(1 - zeta^2)) at t = pi/wd (references.md section 4). */
 static const char twopole[] = "tests/stab/stab_twopole.net";
 
-static tb_result *analyse_circuit(tb_circuit *ckt, size_t pole_limit, tb_step_figures *fig)
+static tb_result *analyse_jobs(tb_circuit *ckt, size_t pole_limit, unsigned jobs, tb_step_figures *fig)
 {
     tb_options opt;
     tb_options_init(&opt);
     opt.pole_limit = pole_limit;
+    opt.jobs = jobs;
     tb_result *res = NULL;
     assert_int_equal(tb_analyse(ckt, &opt, NULL, &res), TB_OK);
     tb_circuit_free(ckt);
     assert_int_equal(tb_step_figures_get(res, fig), TB_OK);
     return res;
+}
+
+static tb_result *analyse_circuit(tb_circuit *ckt, size_t pole_limit, tb_step_figures *fig)
+{
+    return analyse_jobs(ckt, pole_limit, 1, fig);
 }
 
 static tb_result *analyse(const char *text, size_t pole_limit, tb_step_figures *fig)
@@ -155,6 +161,40 @@ static void test_step_absent_with_reason(void **state)
     tb_result_free(res);
 }
 
+/* With two threads the time-stepped response (above the pole limit, 0 here) runs beside the
+ * stability analysis on a solver of its own: the second-order closed form as above, and the
+ * samples and figures those of one thread, bit for bit. */
+static tb_result *two_pole_jobs(unsigned jobs, tb_step_figures *fig)
+{
+    tb_circuit *ckt = NULL;
+    assert_int_equal(tb_circuit_read(twopole, NULL, &ckt), TB_OK);
+    return analyse_jobs(ckt, 0, jobs, fig);
+}
+
+static void test_step_beside_stability(void **state)
+{
+    (void)state;
+    tb_step_figures one, two;
+    tb_result *r1 = two_pole_jobs(1, &one);
+    tb_result *r2 = two_pole_jobs(2, &two);
+    double p1 = 2 * TU_PI * 100, p2 = 2 * TU_PI * 1e6, T0 = 1e4;
+    double wn = sqrt(p1 * p2 * (1 + T0)), zeta = (p1 + p2) / (2 * wn);
+    assert_true(two.computed && two.has_overshoot);
+    tu_close(two.overshoot_pct, 100 * exp(-TU_PI * zeta / sqrt(1 - zeta * zeta)), 1e-3);
+    assert_true(one.overshoot_pct == two.overshoot_pct && one.rise_s == two.rise_s &&
+                one.settling_s == two.settling_s && one.points == two.points);
+    assert_string_equal(one.method, two.method);
+    const double *t1 = NULL, *y1 = NULL, *t2 = NULL, *y2 = NULL;
+    size_t n1 = 0, n2 = 0;
+    assert_int_equal(tb_step_samples(r1, &t1, &y1, &n1), TB_OK);
+    assert_int_equal(tb_step_samples(r2, &t2, &y2, &n2), TB_OK);
+    assert_int_equal(n1, n2);
+    assert_memory_equal(t1, t2, n1 * sizeof(double));
+    assert_memory_equal(y1, y2, n1 * sizeof(double));
+    tb_result_free(r1);
+    tb_result_free(r2);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -163,6 +203,7 @@ int main(void)
         cmocka_unit_test(test_step_second_order_overshoot),
         cmocka_unit_test(test_step_feedthrough_jump),
         cmocka_unit_test(test_step_absent_with_reason),
+        cmocka_unit_test(test_step_beside_stability),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
