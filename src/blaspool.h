@@ -2,8 +2,8 @@
 #ifndef TB_BLASPOOL_H
 #define TB_BLASPOOL_H
 
-/* Shuts down OpenBLAS's thread pool if the BLAS linked is OpenBLAS; the library starts it
- * again at its first threaded call. Nothing with another BLAS. Call before any thread of
+/* Keeps OpenBLAS to one thread (the calling one) and shuts its thread pool down, if the BLAS
+ * linked is OpenBLAS. Nothing with another BLAS. Call before any thread of
  * the program's own is started. */
 void tb_blaspool_park(void);
 
