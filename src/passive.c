@@ -9,6 +9,7 @@
 #include <string.h>
 
 #include "alloc.h"
+#include "m0.h"
 
 /* Per connected part of a symmetric matrix: which sufficient test failed. */
 enum { FAIL_PLAIN = 1, FAIL_SCALED = 2 };
@@ -121,32 +122,6 @@ static bool work_alloc(pwork *w, size_t n, size_t nnz)
            symmat_alloc(&w->c, n);
 }
 
-/* G0 at mna position k: G, or at the loop source's own positions G without its stamp. */
-static double g0_at(const pwork *w, int k)
-{
-    for (int o = 0; w->lv && o < w->lv->own_count; o++)
-        if (w->lv->own_pos[o] == (size_t)k)
-            return w->lv->own_g0[o];
-    return w->mna->Gx[k];
-}
-
-/* M0's entries that are non-zero at some s (G0 or C non-zero), by their mna positions. */
-static void filter(pwork *w)
-{
-    const tb_mna *mna = w->mna;
-    size_t nz = 0;
-    w->Fp[0] = 0;
-    for (size_t j = 0; j < w->n; j++) {
-        for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++) {
-            if (g0_at(w, k) == 0 && mna->Cx[k] == 0)
-                continue;
-            w->Fi[nz] = mna->Ai[k];
-            w->Fk[nz] = k;
-            nz++;
-        }
-        w->Fp[j + 1] = (int)nz;
-    }
-}
 
 /* T = F' (rows come out sorted within each column). */
 static void transpose(pwork *w)
@@ -190,12 +165,12 @@ static bool next_pair(const pwork *w, size_t j, pair_iter *it, size_t *i, double
         int r = rf < rt ? rf : rt;
         double gij = 0, gji = 0, cij = 0, cji = 0;
         if (rf == r) {
-            gij = g0_at(w, w->Fk[it->fa]);
+            gij = tb_m0_g_at(w->mna, w->lv, (size_t)w->Fk[it->fa]);
             cij = w->mna->Cx[w->Fk[it->fa]];
             it->fa++;
         }
         if (rt == r) {
-            gji = g0_at(w, w->Tk[it->ta]);
+            gji = tb_m0_g_at(w->mna, w->lv, (size_t)w->Tk[it->ta]);
             cji = w->mna->Cx[w->Tk[it->ta]];
             it->ta++;
         }
@@ -244,7 +219,7 @@ static void first_pass(pwork *w)
         double s = sign_of(w, j);
         for (int k = w->Fp[j]; k < w->Fp[j + 1]; k++) {
             if ((size_t)w->Fi[k] == j) {
-                w->g.d[j] = s * g0_at(w, w->Fk[k]);
+                w->g.d[j] = s * tb_m0_g_at(w->mna, w->lv, (size_t)w->Fk[k]);
                 w->c.d[j] = s * w->mna->Cx[w->Fk[k]];
             }
         }
@@ -416,7 +391,7 @@ tb_status tb_passive_open_loop(const tb_mna *mna, const tb_loopvec *lv, tb_passi
         work_free(&w);
         return TB_ERR_NOMEM;
     }
-    filter(&w);
+    tb_m0_pattern(mna, lv, w.Fp, w.Fi, w.Fk); /* M0's entries non-zero at some s, by mna position */
     transpose(&w);
     size_t nb = blocks(&w);
     first_pass(&w);

@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "alloc.h"
+#include "m0.h"
 
 /* LAPACK (Fortran calling convention; trailing lengths of the character arguments).
  * dggevx with BALANC = 'B' permutes and scales the pencil before QZ (R. C. Ward,
@@ -81,15 +82,6 @@ static bool qz_alloc(qz_work *q, size_t n)
     return true;
 }
 
-/* G at CSC position k, with lv's own stamp removed when lv is not NULL. */
-static double g_at(const tb_mna *mna, const tb_loopvec *lv, int k)
-{
-    for (int o = 0; lv && o < lv->own_count; o++)
-        if (lv->own_pos[o] == (size_t)k)
-            return lv->own_g0[o];
-    return mna->Gx[k];
-}
-
 /* Dense column-major G and -C, each scaled to max-norm 1 (q->gmax, q->cmax). */
 static void fill_pencil(const tb_mna *mna, const tb_loopvec *lv, qz_work *q)
 {
@@ -99,7 +91,7 @@ static void fill_pencil(const tb_mna *mna, const tb_loopvec *lv, qz_work *q)
     q->cmax = 0;
     for (size_t j = 0; j < n; j++) {
         for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++) {
-            double g = g_at(mna, lv, k);
+            double g = tb_m0_g_at(mna, lv, (size_t)k);
             q->A[j * n + (size_t)mna->Ai[k]] = g;
             q->B[j * n + (size_t)mna->Ai[k]] = -mna->Cx[k];
             q->gmax = fmax(q->gmax, fabs(g));
@@ -221,7 +213,7 @@ static void normalise(double complex *x, size_t n)
 static void pencil_values(const tb_mna *mna, const tb_loopvec *lv, double complex s, double *Mx)
 {
     for (size_t k = 0; k < mna->nnz; k++) {
-        Mx[2 * k] = g_at(mna, lv, (int)k) + creal(s) * mna->Cx[k];
+        Mx[2 * k] = tb_m0_g_at(mna, lv, k) + creal(s) * mna->Cx[k];
         Mx[2 * k + 1] = cimag(s) * mna->Cx[k];
     }
 }
@@ -256,7 +248,7 @@ static double rcond_of(const tb_mna *mna, const tb_loopvec *lv, const qz_work *q
     for (size_t j = 0; j < mna->n; j++)
         for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++) {
             double complex yx = conj(q->y[mna->Ai[k]]) * q->x[j];
-            yax += g_at(mna, lv, k) / q->gmax * yx;
+            yax += tb_m0_g_at(mna, lv, (size_t)k) / q->gmax * yx;
             ybx -= mna->Cx[k] / q->cmax * yx;
         }
     double nx = 0, ny = 0;
@@ -333,7 +325,7 @@ static double backward_error(const tb_mna *mna, const tb_loopvec *lv, double com
     memset(d, 0, mna->n * sizeof(double));
     for (size_t j = 0; j < mna->n; j++)
         for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++) {
-            double g = g_at(mna, lv, k);
+            double g = tb_m0_g_at(mna, lv, (size_t)k);
             r[mna->Ai[k]] += (g + p * mna->Cx[k]) * x[j];
             d[mna->Ai[k]] += (fabs(g) + cabs(p) * fabs(mna->Cx[k])) * cabs(x[j]);
         }

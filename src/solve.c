@@ -173,23 +173,30 @@ static tb_status singular(tb_solver *s, size_t *culprit)
     return TB_ERR_SINGULAR;
 }
 
-/* min/max |U_ii| of a factorization, the quantity klu_z_rcond computes, with each complex
- * magnitude taken as max(|Re|, |Im|) (within sqrt 2 of it): no square root per pivot, which
- * made klu_z_rcond cost about a tenth of a refactor. 0 when a pivot is zero or not a number. */
-static double pivot_ratio(const tb_solver *s, const klu_numeric *numeric)
+/* min/max |U_ii| over n pivots stored `parts` doubles each (2: complex, 1: real), the
+ * quantity klu_z_rcond computes, with a complex magnitude taken as max(|Re|, |Im|) (within
+ * sqrt 2 of it): no square root per pivot, which made klu_z_rcond cost about a tenth of a
+ * refactor. 0 when a pivot is zero or not a number. */
+static double udiag_ratio(const double *U, size_t n, size_t parts)
 {
-    const double *U = numeric->Udiag;
     double lo = INFINITY, hi = 0;
-    for (size_t i = 0; i < s->mna->n; i++) {
-        double re = fabs(U[2 * i]), im = fabs(U[2 * i + 1]);
-        if (!(re <= INFINITY && im <= INFINITY))
+    for (size_t i = 0; i < n; i++) {
+        double m = fabs(U[parts * i]);
+        if (parts == 2 && fabs(U[2 * i + 1]) > m)
+            m = fabs(U[2 * i + 1]);
+        if (!(m <= INFINITY && fabs(U[parts * i + parts - 1]) <= INFINITY))
             return 0; /* NaN, which the comparisons below would pass over */
-        double m = re > im ? re : im;
         lo = m < lo ? m : lo;
         hi = m > hi ? m : hi;
     }
     double r = lo / hi;
     return r >= 0 && r <= 1 ? r : 0; /* n = 0, a zero pivot, or NaN */
+}
+
+/* min/max |U_ii| of a complex factorization. */
+static double pivot_ratio(const tb_solver *s, const klu_numeric *numeric)
+{
+    return udiag_ratio(numeric->Udiag, s->mna->n, 2);
 }
 
 /* klu_z_factor into f and its pivot-size baseline, subnormals flushed. */
@@ -313,20 +320,10 @@ tb_status tb_solver_log_det(tb_solver *s, double *log_abs, double *arg)
     return TB_OK;
 }
 
-/* min/max |U_ii| of a real factorization; 0 when a pivot is zero or not a number. */
+/* min/max |U_ii| of a real factorization. */
 static double real_pivot_ratio(const tb_solver *s, const klu_numeric *numeric)
 {
-    const double *U = numeric->Udiag;
-    double lo = INFINITY, hi = 0;
-    for (size_t i = 0; i < s->mna->n; i++) {
-        double m = fabs(U[i]);
-        if (!(m <= INFINITY))
-            return 0;
-        lo = m < lo ? m : lo;
-        hi = m > hi ? m : hi;
-    }
-    double r = lo / hi;
-    return r >= 0 && r <= 1 ? r : 0;
+    return udiag_ratio(numeric->Udiag, s->mna->n, 1);
 }
 
 tb_status tb_solver_factor_real(tb_solver *s, const double *Ax, size_t *culprit)

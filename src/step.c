@@ -494,6 +494,15 @@ static void keep(tb_result *res, bool has_final, wave *w)
     w->t = w->y = NULL;
 }
 
+/* A route's outcome into res: w's samples and figures, or why there are none. */
+static void settle(tb_result *res, bool has_final, wave *w, const char *why)
+{
+    if (!why && w->count > 0)
+        keep(res, has_final, w);
+    else
+        res->step.why_absent = why ? why : "no samples";
+}
+
 static bool has_capacitance(const tb_mna *mna)
 {
     for (size_t k = 0; k < mna->nnz; k++)
@@ -541,10 +550,8 @@ tb_status tb_step_run(tb_probe *probe, tb_result *res)
     wave w = {0};
     const char *why = NULL;
     tb_status st = compute(probe, res, has_final, final, &m, &w, &why);
-    if (!st && !why && w.count > 0)
-        keep(res, has_final, &w);
-    else if (!st)
-        fig->why_absent = why ? why : "no samples";
+    if (!st)
+        settle(res, has_final, &w, why);
     wave_free(&w);
     tb_modal_free(&m);
     return st;
@@ -615,12 +622,9 @@ tb_status tb_step_finish(tb_step_job *job, tb_result *res, size_t *factorization
     if (res && !st) {
         tb_step_figures *fig = &res->step;
         *fig = (tb_step_figures){.why_absent = "the stability analysis did not run"};
-        if (res->stab && job->why == NULL && job->w.count > 0) {
-            job->w.method = METHOD_LIMIT;
-            keep(res, job->has_final, &job->w);
-        } else if (res->stab) {
-            fig->why_absent = job->why ? job->why : "no samples";
-        }
+        job->w.method = METHOD_LIMIT;
+        if (res->stab)
+            settle(res, job->has_final, &job->w, job->why);
     }
     job_free(job);
     return st;

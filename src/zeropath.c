@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "alloc.h"
+#include "m0.h"
 
 /* M0's non-zero pattern (CSC), its maximum matching and the search's workspace. */
 typedef struct {
@@ -26,28 +27,6 @@ static void pattern_free(pattern *p)
     tb_free(p->row_of);
     tb_free(p->queue);
     tb_free(p->seen);
-}
-
-/* G of M0 at CSC position k: G, or at the source's own positions G without its stamp. */
-static double g0_at(const tb_mna *mna, const tb_loopvec *lv, size_t k)
-{
-    for (int o = 0; o < lv->own_count; o++)
-        if (lv->own_pos[o] == k)
-            return lv->own_g0[o];
-    return mna->Gx[k];
-}
-
-/* The positions of M0 that are non-zero at some frequency. */
-static void filter(const tb_mna *mna, const tb_loopvec *lv, pattern *p)
-{
-    size_t nz = 0;
-    p->Fp[0] = 0;
-    for (size_t j = 0; j < mna->n; j++) {
-        for (int k = mna->Ap[j]; k < mna->Ap[j + 1]; k++)
-            if (g0_at(mna, lv, (size_t)k) != 0 || mna->Cx[k] != 0)
-                p->Fi[nz++] = mna->Ai[k];
-        p->Fp[j + 1] = (int)nz;
-    }
 }
 
 /* Whether M0 without row i and column j still has a perfect matching: an augmenting
@@ -104,7 +83,7 @@ tb_status tb_zeropath_feed_nil(const tb_mna *mna, const tb_loopvec *lv, bool *ni
         pattern_free(&p);
         return TB_ERR_NOMEM;
     }
-    filter(mna, lv, &p);
+    tb_m0_pattern(mna, lv, p.Fp, p.Fi, NULL); /* the positions non-zero at some frequency */
     double work = 0;
     /* the queue (5n ints) is btf_maxtrans's workspace first */
     int matched = btf_maxtrans((int)n, (int)n, p.Fp, p.Fi, 0, &work, p.match, p.queue);
